@@ -1,0 +1,30 @@
+# The two set-up commands of the README: `make demo` and `make test`.
+# Each creates .venv when it is missing and installs the project into it.
+
+PYTHON ?= python3
+VENV ?= .venv
+PY := $(VENV)/bin/python
+EXTRAS ?= postgres,parquet,test
+DEMO_DB ?= sqlite:///.lockkeeper/demo.db
+
+.PHONY: test demo bench install clean
+
+$(VENV)/.installed: pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[$(EXTRAS)]'
+	touch $@
+
+install: $(VENV)/.installed
+
+test: $(VENV)/.installed
+	$(PY) -m pytest $(PYTEST_ARGS)
+
+demo: $(VENV)/.installed
+	$(VENV)/bin/lockkeeper --db $(DEMO_DB) demo
+
+bench: $(VENV)/.installed
+	$(PY) -m pytest tests/bench -s $(PYTEST_ARGS)
+
+clean:
+	rm -rf $(VENV) .lockkeeper .pytest_cache .hypothesis

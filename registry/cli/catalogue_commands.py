@@ -1,0 +1,5 @@
+"""Commands on the catalogue: init, model, register, status, audit."""
+
+from __future__ import annotations
+
+COMMANDS: list = []

@@ -1,0 +1,61 @@
+"""How commands report: exactly one JSON document with --json, plain text otherwise."""
+
+from __future__ import annotations
+
+import dataclasses
+import enum
+import json
+import sys
+from collections.abc import Callable
+from typing import Any
+
+import click
+
+
+def to_plain(value: Any) -> Any:
+    """Turn dataclasses, enums, tuples and sets into JSON-ready lists, dicts and scalars."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return {f.name: to_plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
+    if isinstance(value, enum.Enum):
+        return to_plain(value.value)
+    if isinstance(value, dict):
+        return {str(k): to_plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [to_plain(v) for v in value]
+    if isinstance(value, (set, frozenset)):
+        return sorted(to_plain(v) for v in value)
+    if isinstance(value, bytes):
+        return value.hex()
+    if hasattr(value, "isoformat"):
+        return value.isoformat()
+    if hasattr(value, "item") and callable(value.item):  # numpy scalars
+        return value.item()
+    return value
+
+
+def emit(document: Any, as_json: bool, render_text: Callable[[Any], str] | None = None) -> None:
+    """Print one report: the JSON document, or its text rendering for a person."""
+    plain = to_plain(document)
+    if as_json:
+        click.echo(json.dumps(plain, indent=2, sort_keys=False, allow_nan=False, default=str))
+        return
+    if render_text is not None:
+        text = render_text(document)
+    else:
+        text = json.dumps(plain, indent=2, default=str)
+    click.echo(text.rstrip("\n"))
+
+
+def json_option(function: Callable[..., Any]) -> Callable[..., Any]:
+    """The --json flag every reporting command takes."""
+    return click.option("--json", "as_json", is_flag=True,
+                        help="Print exactly one JSON document on stdout.")(function)
+
+
+def warn(message: str) -> None:
+    """A note for the person at the terminal, on stderr so JSON on stdout stays clean."""
+    click.echo(message, err=True)
+
+
+def stderr_is_terminal() -> bool:
+    return sys.stderr.isatty()
