@@ -2,4 +2,199 @@
 
 from __future__ import annotations
 
-COMMANDS: list = []
+from pathlib import Path
+
+import click
+
+from registry.cli.output import emit, json_option
+from registry.errors import UserError
+from registry.manifest import parse_manifest
+from registry.service import integrity, models, registration
+from registry.service.actors import Actor
+
+
+def _context() -> "CommandContext":  # noqa: F821 - resolved at run time
+    return click.get_current_context().obj
+
+
+def _actor() -> Actor:
+    from registry.service.roles import load_actor
+
+    context = _context()
+    return load_actor(context.catalogue(), context.user)
+
+
+def read_text(path: str, *, what: str) -> str:
+    try:
+        return Path(path).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise UserError(f"no such file: {path}", place=what) from None
+    except (IsADirectoryError, PermissionError, UnicodeDecodeError) as error:
+        raise UserError(f"cannot read {path}: {error}", place=what) from None
+
+
+def read_bytes(path: str, *, what: str) -> bytes:
+    try:
+        return Path(path).read_bytes()
+    except FileNotFoundError:
+        raise UserError(f"no such file: {path}", place=what) from None
+    except (IsADirectoryError, PermissionError) as error:
+        raise UserError(f"cannot read {path}: {error}", place=what) from None
+
+
+@click.command()
+@json_option
+def init(as_json: bool) -> None:
+    """Create the catalogue, or bring it up to the newest schema."""
+    from registry.store import migrate
+    from registry.store.catalogue import describe, open_catalogue
+
+    context = _context()
+    catalogue = open_catalogue(context.db_url, must_exist=False)
+    try:
+        before = migrate.current_revision(catalogue)
+        migrate.upgrade(catalogue)
+        after = migrate.current_revision(catalogue)
+    finally:
+        catalogue.close()
+    emit({"catalogue": describe(catalogue.url), "revision_before": before, "revision": after},
+         as_json, lambda d: f"catalogue {d['catalogue']} at revision {d['revision']}")
+
+
+@click.group()
+def model() -> None:
+    """Create and look at model lines."""
+
+
+@model.command("create")
+@click.argument("name")
+@click.option("--description", default="", help="What the model is for.")
+@json_option
+def model_create(name: str, description: str, as_json: bool) -> None:
+    """Create a model line NAME."""
+    summary = models.create_model(_context().catalogue(), name, description, _actor())
+    emit(summary, as_json, lambda s: f"created model {s.name}")
+
+
+@model.command("list")
+@json_option
+def model_list(as_json: bool) -> None:
+    """List every model with its number of versions and who holds each stage."""
+    found = models.list_models(_context().catalogue())
+
+    def text(items):
+        if not items:
+            return "no models yet"
+        lines = []
+        for item in items:
+            held = ", ".join(f"{stage}: v{','.join(map(str, numbers))}"
+                             for stage, numbers in item.stages.items()) or "no stages held"
+            lines.append(f"{item.name}  {item.versions} version(s)  {held}")
+        return "\n".join(lines)
+
+    emit({"models": found} if as_json else found, as_json, text)
+
+
+@model.command("show")
+@click.argument("name")
+@json_option
+def model_show(name: str, as_json: bool) -> None:
+    """Show a model line and its versions."""
+    detail = models.show_model(_context().catalogue(), name)
+
+    def text(d):
+        lines = [f"{d.model.name}: {d.model.description}".rstrip(": "),
+                 f"created {d.model.created_at} by {d.model.created_by}"]
+        for v in d.versions:
+            stages = f"  [{', '.join(v.stages)}]" if v.stages else ""
+            lines.append(f"  v{v.number}  {v.document_kind}  {v.document_digest[:12]}  "
+                         f"{v.author}  {v.description}{stages}")
+        return "\n".join(lines)
+
+    emit(detail, as_json, text)
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@click.argument("document", type=click.Path(dir_okay=False))
+@click.option("--manifest", "manifest_path", required=True, type=click.Path(dir_okay=False),
+              help="TOML manifest: schemas, features, description, code revision, author.")
+@click.option("--features", "features_path", type=click.Path(dir_okay=False), default=None,
+              help="Feature definitions (TOML), instead of the manifest's `features`.")
+@json_option
+def register(model_name: str, document: str, manifest_path: str, features_path: str | None,
+             as_json: bool) -> None:
+    """Register DOCUMENT as the next version of MODEL."""
+    request = registration_request(model_name, document, manifest_path, features_path)
+    outcome = registration.register_version(_context().catalogue(), request, _actor())
+    emit(outcome, as_json, lambda o: (f"registered {o.model} version {o.version}" if o.created
+                                      else f"{o.model} version {o.version} already holds this "
+                                           "registration; nothing changed"))
+
+
+def registration_request(model_name: str, document: str, manifest_path: str,
+                         features_path: str | None) -> registration.RegistrationRequest:
+    """Read every file a registration names; paths in the manifest are relative to it."""
+    manifest_text = read_text(manifest_path, what="--manifest")
+    document_bytes = read_bytes(document, what="DOCUMENT")
+    manifest = parse_manifest(manifest_text, source=manifest_path)
+    base = Path(manifest_path).parent
+
+    def named(relative: str | None, what: str) -> str | None:
+        return read_text(str(base / relative), what=what) if relative else None
+
+    features_text = (read_text(features_path, what="--features") if features_path
+                     else named(manifest.features, "features"))
+    return registration.RegistrationRequest(
+        model=model_name, document=document_bytes, document_name=Path(document).name,
+        manifest=manifest,
+        input_schema_text=named(manifest.input_schema, "input_schema"),
+        output_schema_text=named(manifest.output_schema, "output_schema"),
+        features_text=features_text)
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@json_option
+def status(model_name: str, as_json: bool) -> None:
+    """Who holds each stage of MODEL."""
+    detail = models.show_model(_context().catalogue(), model_name)
+    document = {"model": detail.model.name, "stages": detail.model.stages,
+                "versions": detail.model.versions}
+
+    def text(d):
+        if not d["stages"]:
+            return f"{d['model']}: {d['versions']} version(s), no stage held"
+        return "\n".join([f"{d['model']}:"] + [
+            f"  {stage:<10} v{', v'.join(map(str, numbers))}" for stage, numbers in d["stages"].items()])
+
+    emit(document, as_json, text)
+
+
+@click.group()
+def audit() -> None:
+    """The tamper-evident audit log."""
+
+
+@audit.command("verify")
+@json_option
+def audit_verify(as_json: bool) -> None:
+    """Recompute the audit chain and every stored digest; name the first broken link."""
+    report = integrity.verify_catalogue(_context().catalogue())
+    document = {"ok": report.ok, "events": report.events, "blobs": report.blobs,
+                "versions": report.versions, "datasets": report.datasets,
+                "first_broken_link": report.first_broken_link, "findings": report.findings}
+
+    def text(d):
+        if d["ok"]:
+            return (f"audit chain intact: {d['events']} events, {d['blobs']} blobs, "
+                    f"{d['versions']} versions checked")
+        return "\n".join([f"BROKEN at {d['first_broken_link']}"] +
+                         [f"  {f.place}: {f.problem}" for f in d["findings"]])
+
+    emit(document, as_json, text)
+    if not report.ok:
+        click.get_current_context().exit(1)
+
+
+COMMANDS = [init, model, register, status, audit]

@@ -1,0 +1,118 @@
+"""`audit verify`: recompute the audit chain, every blob digest and every registration digest."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from dataclasses import dataclass, field
+
+from sqlalchemy import select
+
+from registry.service.registration import registration_record
+from registry.canonical_json import digest_of
+from registry.store import tables as t
+from registry.store.audit import AuditRecord, verify_chain
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork
+
+
+@dataclass(frozen=True)
+class Finding:
+    place: str  # e.g. "audit event 17", "blob 3fa1...", "model/main-burst-risk/version/2"
+    problem: str
+
+
+@dataclass(frozen=True)
+class VerificationReport:
+    ok: bool
+    events: int
+    blobs: int
+    versions: int
+    datasets: int
+    findings: list[Finding] = field(default_factory=list)
+
+    @property
+    def first_broken_link(self) -> str | None:
+        return self.findings[0].place if self.findings else None
+
+
+def _audit_findings(uow: UnitOfWork) -> tuple[int, list[Finding], dict[str, dict]]:
+    rows = uow.session.execute(select(t.AuditEvent).order_by(t.AuditEvent.sequence)).scalars()
+    records: list[AuditRecord] = []
+    findings: list[Finding] = []
+    registered: dict[str, dict] = {}
+    for row in rows:
+        try:
+            details = json.loads(row.details_json)
+        except json.JSONDecodeError:
+            findings.append(Finding(f"audit event {row.sequence}", "its details are not JSON"))
+            details = {"unreadable": row.details_json}
+        records.append(AuditRecord(row.sequence, row.occurred_at, row.actor, row.action,
+                                   row.subject, details, row.previous_hash, row.hash))
+        if row.action in ("version.register", "dataset.add"):
+            registered[row.subject] = details
+    head = uow.session.get(t.AuditHead, 1)
+    breaks = verify_chain(records, (head.sequence, head.hash) if head else None)
+    findings += [Finding(f"audit event {b.sequence}", b.problem) for b in breaks]
+    return len(records), findings, registered
+
+
+def _blob_findings(uow: UnitOfWork) -> tuple[int, list[Finding]]:
+    findings = []
+    count = 0
+    for digest, content in uow.session.execute(select(t.Blob.digest, t.Blob.content)):
+        count += 1
+        if hashlib.sha256(content).hexdigest() != digest:
+            findings.append(Finding(f"blob {digest}", "its content does not match its digest"))
+    return count, findings
+
+
+def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int, list[Finding]]:
+    findings = []
+    links: dict[int, dict[str, list[str]]] = {}
+    for version_id, relation, name in uow.session.execute(
+            select(t.VersionDataset.version_id, t.VersionDataset.relation, t.Dataset.name)
+            .join(t.Dataset, t.Dataset.id == t.VersionDataset.dataset_id)):
+        links.setdefault(version_id, {}).setdefault(relation, []).append(name)
+    count = 0
+    rows = uow.session.execute(
+        select(t.Version, t.Model.name).join(t.Model, t.Model.id == t.Version.model_id)
+        .order_by(t.Model.name, t.Version.number))
+    for version, model_name in rows:
+        count += 1
+        place = f"model/{model_name}/version/{version.number}"
+        linked = links.get(version.id, {})
+        try:
+            recomputed = digest_of(registration_record(
+                model_name, version.document_digest, version.document_kind,
+                version.input_schema_json, version.output_schema_json, version.features_json,
+                version.description, version.code_revision, version.author,
+                linked.get("trained-on", []), linked.get("evaluated-on", []),
+                version.parent_number))
+        except (json.JSONDecodeError, TypeError, ValueError):
+            findings.append(Finding(place, "its stored schemas or features are not readable JSON"))
+            continue
+        if recomputed != version.registration_digest:
+            findings.append(Finding(place, "its stored content no longer matches its "
+                                           "registration digest: it was changed after registration"))
+        recorded = registered.get(place)
+        if recorded is None:
+            findings.append(Finding(place, "no registration event in the audit log"))
+        elif recorded.get("registration_digest") != version.registration_digest:
+            findings.append(Finding(place, "its registration digest differs from the one the "
+                                           "audit log recorded"))
+        elif recorded.get("document_digest") != version.document_digest:
+            findings.append(Finding(place, "its document digest differs from the one the audit "
+                                           "log recorded"))
+    return count, findings
+
+
+def verify_catalogue(catalogue: Catalogue) -> VerificationReport:
+    with UnitOfWork(catalogue, write=False) as uow:
+        events, findings, registered = _audit_findings(uow)
+        blobs, blob_findings = _blob_findings(uow)
+        versions, version_findings = _version_findings(uow, registered)
+        datasets = uow.session.query(t.Dataset).count()
+    everything = findings + blob_findings + version_findings
+    return VerificationReport(ok=not everything, events=events, blobs=blobs, versions=versions,
+                              datasets=datasets, findings=everything)

@@ -1,0 +1,130 @@
+"""Registering a version: one transaction that stores the document, the version and its links."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+
+from sqlalchemy import func, select
+
+from registry.canonical_json import digest_of
+from registry.errors import NotFound, UserError
+from registry.manifest import Manifest
+from registry.names import check_name
+from registry.service.actors import Actor
+from registry.service.contents import VersionContents, read_version_contents
+from registry.service.models import find_model
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork, utc_now
+
+
+@dataclass(frozen=True)
+class RegistrationRequest:
+    """Everything a registration needs, already read from files or an upload."""
+
+    model: str
+    document: bytes
+    document_name: str
+    manifest: Manifest
+    input_schema_text: str | None = None
+    output_schema_text: str | None = None
+    features_text: str | None = None
+
+
+@dataclass(frozen=True)
+class RegistrationOutcome:
+    model: str
+    version: int
+    created: bool  # False when an identical registration already existed
+    document_digest: str
+    registration_digest: str
+
+
+def registration_digest(model: str, contents: VersionContents, manifest: Manifest) -> str:
+    """What makes two registrations the same version: recomputed by `audit verify`."""
+    return digest_of(registration_record(model, contents.document_digest, contents.document_kind,
+                                         contents.input_schema_json, contents.output_schema_json,
+                                         contents.features_json, manifest.description,
+                                         manifest.code_revision, manifest.author,
+                                         manifest.trained_on, manifest.evaluated_on,
+                                         manifest.parent_version))
+
+
+def registration_record(model: str, document_digest: str, document_kind: str,
+                        input_schema_json: str, output_schema_json: str | None,
+                        features_json: str | None, description: str, code_revision: str,
+                        author: str, trained_on, evaluated_on, parent_version) -> dict:
+    return {
+        "model": model, "document_digest": document_digest, "document_kind": document_kind,
+        "input_schema": json.loads(input_schema_json),
+        "output_schema": json.loads(output_schema_json) if output_schema_json else None,
+        "features": json.loads(features_json) if features_json else None,
+        "description": description, "code_revision": code_revision, "author": author,
+        "trained_on": sorted(trained_on), "evaluated_on": sorted(evaluated_on),
+        "parent_version": parent_version,
+    }
+
+
+def _lineage_datasets(uow: UnitOfWork, names: tuple[str, ...], relation: str) -> list[t.Dataset]:
+    found = []
+    for name in names:
+        dataset = uow.session.execute(select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+        if dataset is None:
+            raise NotFound(f"unknown dataset {name!r} named in the manifest's "
+                           f"{relation.replace('-', '_')}; register it with `lockkeeper dataset add`",
+                           place="manifest")
+        found.append(dataset)
+    return found
+
+
+def register_version(catalogue: Catalogue, request: RegistrationRequest,
+                     actor: Actor) -> RegistrationOutcome:
+    check_name(request.model, what="model")
+    # Pure work first, outside the transaction: parse and check everything the version holds.
+    contents = read_version_contents(request)
+    digest = registration_digest(request.model, contents, request.manifest)
+    with UnitOfWork(catalogue) as uow:
+        model = find_model(uow, request.model)
+        existing = uow.session.execute(
+            select(t.Version).where(t.Version.model_id == model.id,
+                                    t.Version.registration_digest == digest)
+        ).scalars().first()
+        if existing is not None:
+            return RegistrationOutcome(model.name, existing.number, False,
+                                       existing.document_digest, digest)
+        trained = _lineage_datasets(uow, request.manifest.trained_on, "trained-on")
+        evaluated = _lineage_datasets(uow, request.manifest.evaluated_on, "evaluated-on")
+        last = uow.session.execute(
+            select(func.max(t.Version.number)).where(t.Version.model_id == model.id)
+        ).scalar_one()
+        number = (last or 0) + 1
+        if request.manifest.parent_version is not None and request.manifest.parent_version >= number:
+            raise UserError(f"parent_version {request.manifest.parent_version} does not exist yet "
+                            f"(this registration would be version {number})", place="manifest")
+        document_digest = uow.blobs.put(contents.stored_document)
+        # The catalogue stores what it digests, so a version's digest is its blob's key.
+        assert document_digest == contents.document_digest
+        version = t.Version(
+            model_id=model.id, number=number, document_digest=document_digest,
+            document_kind=contents.document_kind,
+            document_summary_json=json.dumps(contents.document_summary, sort_keys=True),
+            input_schema_json=contents.input_schema_json,
+            output_schema_json=contents.output_schema_json,
+            features_json=contents.features_json,
+            description=request.manifest.description,
+            code_revision=request.manifest.code_revision, author=request.manifest.author,
+            parent_number=request.manifest.parent_version, registration_digest=digest, created_at=utc_now(), created_by=actor.name)
+        uow.session.add(version)
+        uow.session.flush()
+        for relation, datasets in (("trained-on", trained), ("evaluated-on", evaluated)):
+            for dataset in datasets:
+                uow.session.add(t.VersionDataset(version_id=version.id, dataset_id=dataset.id,
+                                                 relation=relation))
+        uow.session.flush()
+        uow.audit.append(actor.name, "version.register", f"model/{model.name}/version/{number}", {
+            "document_digest": document_digest, "registration_digest": digest,
+            "document_kind": contents.document_kind,
+        })
+        uow.commit()
+        return RegistrationOutcome(model.name, number, True, document_digest, digest)

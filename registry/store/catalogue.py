@@ -1,0 +1,136 @@
+"""Opening the catalogue: URL checks, engine settings per database, and the migration head."""
+
+from __future__ import annotations
+
+import contextvars
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+from sqlalchemy import Engine, create_engine, event, inspect
+from sqlalchemy.engine import URL, make_url
+from sqlalchemy.exc import ArgumentError, DBAPIError, NoSuchModuleError
+from sqlalchemy.orm import Session, sessionmaker
+from sqlalchemy.pool import NullPool
+
+from registry.errors import CatalogueUnavailable, UserError
+
+DEFAULT_URL = "sqlite:///.lockkeeper/catalogue.db"
+SQLITE_BUSY_TIMEOUT_MS = 30_000
+
+# Set by a writing unit of work so SQLite takes its write lock at BEGIN (BEGIN IMMEDIATE):
+# a deferred transaction that later upgrades to writing can fail instead of waiting.
+sqlite_write_intent: contextvars.ContextVar[bool] = contextvars.ContextVar(
+    "sqlite_write_intent", default=False)
+
+
+def parse_catalogue_url(raw: str | None) -> URL:
+    """Turn --db / LOCKKEEPER_DB into a SQLAlchemy URL, or say clearly why not."""
+    text = raw or os.environ.get("LOCKKEEPER_DB") or DEFAULT_URL
+    try:
+        url = make_url(text)
+    except ArgumentError:
+        raise UserError(f"invalid database URL {text!r}: expected sqlite:///PATH or "
+                        "postgresql+psycopg://USER@HOST:PORT/DB", place="--db") from None
+    backend = url.get_backend_name()
+    if backend == "postgresql":
+        if url.get_driver_name() in ("psycopg2", "pg8000", "asyncpg"):
+            raise UserError(f"unsupported PostgreSQL driver {url.get_driver_name()!r}: "
+                            "use postgresql+psycopg://", place="--db")
+        url = url.set(drivername="postgresql+psycopg")
+    elif backend != "sqlite":
+        raise UserError(f"unsupported database {backend!r}: use sqlite:/// or "
+                        "postgresql+psycopg://", place="--db")
+    return url
+
+
+def _configure_sqlite(engine: Engine) -> None:
+    @event.listens_for(engine, "connect")
+    def on_connect(dbapi_connection, _record):  # pragma: no cover - exercised via every test
+        dbapi_connection.isolation_level = None  # we issue BEGIN ourselves, below
+        cursor = dbapi_connection.cursor()
+        cursor.execute(f"PRAGMA busy_timeout = {SQLITE_BUSY_TIMEOUT_MS}")
+        cursor.execute("PRAGMA foreign_keys = ON")
+        cursor.execute("PRAGMA journal_mode = WAL")
+        cursor.execute("PRAGMA synchronous = FULL")
+        cursor.close()
+
+    @event.listens_for(engine, "begin")
+    def on_begin(connection):
+        connection.exec_driver_sql("BEGIN IMMEDIATE" if sqlite_write_intent.get() else "BEGIN")
+
+
+def create_catalogue_engine(url: URL) -> Engine:
+    try:
+        if url.get_backend_name() == "sqlite":
+            database = url.database or ""
+            if database and database != ":memory:" and not database.startswith("file:"):
+                Path(database).expanduser().parent.mkdir(parents=True, exist_ok=True)
+            engine = create_engine(url, poolclass=NullPool)
+            _configure_sqlite(engine)
+        else:
+            engine = create_engine(url, pool_pre_ping=True, pool_size=5, max_overflow=5,
+                                   connect_args={"connect_timeout": 5})
+    except (NoSuchModuleError, ArgumentError) as error:
+        raise UserError(f"cannot use database URL: {error}", place="--db") from None
+    except OSError as error:
+        raise CatalogueUnavailable(f"cannot create the catalogue folder: {error}",
+                                   place="--db") from None
+    return engine
+
+
+def describe(url: URL) -> str:
+    return url.render_as_string(hide_password=True)
+
+
+@dataclass
+class Catalogue:
+    """An open catalogue: the engine and a session factory. Cheap to keep, close when done."""
+
+    url: URL
+    engine: Engine
+    sessions: sessionmaker[Session]
+
+    @property
+    def dialect(self) -> str:
+        return self.engine.dialect.name
+
+    def check_reachable(self) -> None:
+        try:
+            with self.engine.connect():
+                pass
+        except DBAPIError as error:
+            raise CatalogueUnavailable(
+                f"cannot open the catalogue at {describe(self.url)}: "
+                f"{_first_line(error.orig)}") from None
+
+    def is_initialised(self) -> bool:
+        with self.engine.connect() as connection:
+            return inspect(connection).has_table("alembic_version")
+
+    def require_initialised(self) -> None:
+        self.check_reachable()
+        if not self.is_initialised():
+            raise UserError(f"the catalogue at {describe(self.url)} is not initialised; "
+                            "run `lockkeeper init` first", place="--db")
+
+    def close(self) -> None:
+        self.engine.dispose()
+
+
+def _first_line(error: object) -> str:
+    text = str(error).strip().splitlines()
+    return text[0] if text else type(error).__name__
+
+
+def open_catalogue(raw_url: str | None, *, must_exist: bool = True) -> Catalogue:
+    """Open the catalogue named by a URL; with must_exist, insist that `init` has run."""
+    url = parse_catalogue_url(raw_url)
+    engine = create_catalogue_engine(url)
+    catalogue = Catalogue(url=url, engine=engine,
+                          sessions=sessionmaker(engine, expire_on_commit=False))
+    if must_exist:
+        catalogue.require_initialised()
+    else:
+        catalogue.check_reachable()
+    return catalogue
