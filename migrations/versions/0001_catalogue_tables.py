@@ -179,6 +179,7 @@ def upgrade() -> None:
     sa.Column('version_id', sa.Integer(), nullable=False),
     sa.Column('stage', sa.String(length=100), nullable=False),
     sa.Column('event', sa.String(length=20), nullable=False),
+    sa.Column('details_json', sa.Text(), nullable=False),
     sa.Column('report_id', sa.Integer(), nullable=True),
     sa.Column('created_at', sa.DateTime(timezone=True), nullable=False),
     sa.Column('created_by', sa.String(length=100), nullable=False),
@@ -202,6 +203,8 @@ def upgrade() -> None:
     sa.ForeignKeyConstraint(['model_id'], ['models.id'], ),
     sa.ForeignKeyConstraint(['report_id'], ['gate_reports.id'], ),
     sa.ForeignKeyConstraint(['version_id'], ['versions.id'], ),
+    sa.Column('previous_version_id', sa.Integer(), nullable=True),
+    sa.ForeignKeyConstraint(['previous_version_id'], ['versions.id'], ),
     sa.PrimaryKeyConstraint('id'),
     sa.UniqueConstraint('model_id', 'stage', 'version_id', name='uq_holding')
     )

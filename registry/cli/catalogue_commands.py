@@ -197,4 +197,45 @@ def audit_verify(as_json: bool) -> None:
         click.get_current_context().exit(1)
 
 
-COMMANDS = [init, model, register, status, audit]
+@click.group()
+def user() -> None:
+    """Roles of the people who act on the catalogue: publisher, approver, admin."""
+
+
+@user.command("grant")
+@click.argument("name")
+@click.argument("role", type=click.Choice(["reader", "publisher", "approver", "admin"]))
+@json_option
+def user_grant(name: str, role: str, as_json: bool) -> None:
+    """Give user NAME a ROLE (needs admin, except for a catalogue's first admin)."""
+    from registry.service.roles import grant_role
+
+    outcome = grant_role(_context().catalogue(), name, role, _actor())
+    emit(outcome, as_json, lambda o: f"{o['user']} is now {o['role']}" if o["granted"]
+         else f"{o['user']} already was {o['role']}")
+
+
+@user.command("revoke")
+@click.argument("name")
+@click.argument("role", type=click.Choice(["reader", "publisher", "approver", "admin"]))
+@json_option
+def user_revoke(name: str, role: str, as_json: bool) -> None:
+    """Take a ROLE away from user NAME (needs admin)."""
+    from registry.service.roles import revoke_role
+
+    emit(revoke_role(_context().catalogue(), name, role, _actor()), as_json,
+         lambda o: f"{o['user']} is no longer {o['role']}")
+
+
+@user.command("list")
+@json_option
+def user_list(as_json: bool) -> None:
+    """Every user with a role, and the roles."""
+    from registry.service.roles import list_roles
+
+    users = list_roles(_context().catalogue())
+    emit({"users": users}, as_json, lambda d: "\n".join(
+        f"{name}: {', '.join(roles)}" for name, roles in d["users"].items()) or "no roles granted")
+
+
+COMMANDS = [init, model, register, status, audit, user]

@@ -153,6 +153,9 @@ class StageHolding(Base):
     is_exclusive: Mapped[bool] = mapped_column(Boolean)
     since: Mapped[datetime] = mapped_column(DateTime(timezone=True))
     report_id: Mapped[int | None] = mapped_column(ForeignKey("gate_reports.id"), nullable=True)
+    # The version this one displaced from an exclusive stage: what `rollback` restores.
+    previous_version_id: Mapped[int | None] = mapped_column(ForeignKey("versions.id"),
+                                                            nullable=True)
 
 
 class StageEvent(Base):
@@ -164,6 +167,7 @@ class StageEvent(Base):
     version_id: Mapped[int] = mapped_column(ForeignKey("versions.id"), index=True)
     stage: Mapped[str] = mapped_column(String(NAME_LENGTH))
     event: Mapped[str] = mapped_column(String(20))
+    details_json: Mapped[str] = mapped_column(Text, default="{}")
     report_id: Mapped[int | None] = mapped_column(ForeignKey("gate_reports.id"), nullable=True)
     created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
     created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))

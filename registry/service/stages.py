@@ -1,0 +1,360 @@
+"""Use cases that move versions between stages: check, promote, approve, roll back, retire.
+
+Every attempt runs the stage's gates inside the same transaction that would move the version,
+stores the gate report, and writes the audit event, so the catalogue never shows a move without
+the evidence that allowed it.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from typing import Any
+
+from sqlalchemy import delete, select
+
+from registry.errors import Conflict, Forbidden, NotFound, Refusal, UserError
+from registry.names import check_name
+from registry.service import gatekeeping
+from registry.service.actors import Actor
+from registry.service.models import find_model, find_version
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork, utc_now
+
+
+@dataclass(frozen=True)
+class StageOutcome:
+    model: str
+    version: int
+    stage: str
+    moved: bool
+    report: dict[str, Any]
+    report_id: int | None = None
+    displaced: int | None = None  # the version that left the exclusive stage
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass(frozen=True)
+class HolderSnapshot:
+    """Who held a stage when a command started; a promotion that finds it changed conflicts."""
+
+    stage: str
+    versions: tuple[int, ...]
+
+
+def holders(uow: UnitOfWork, model: t.Model, stage: str) -> list[t.StageHolding]:
+    return list(uow.session.execute(
+        select(t.StageHolding).where(t.StageHolding.model_id == model.id,
+                                     t.StageHolding.stage == stage)
+        .order_by(t.StageHolding.since)).scalars())
+
+
+def _numbers(uow: UnitOfWork, holdings: list[t.StageHolding]) -> tuple[int, ...]:
+    return tuple(sorted(uow.session.get(t.Version, h.version_id).number for h in holdings))
+
+
+def snapshot(catalogue: Catalogue, model: str, stage: str) -> HolderSnapshot:
+    with UnitOfWork(catalogue, write=False) as uow:
+        line = find_model(uow, model)
+        return HolderSnapshot(stage, _numbers(uow, holders(uow, line, stage)))
+
+
+def stages_of(uow: UnitOfWork, version: t.Version) -> list[str]:
+    return list(uow.session.execute(
+        select(t.StageHolding.stage).where(t.StageHolding.version_id == version.id)).scalars())
+
+
+def _event(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, event: str,
+           actor: Actor, report_id: int | None = None, **details: Any) -> None:
+    uow.session.add(t.StageEvent(model_id=model.id, version_id=version.id, stage=stage,
+                                 event=event, details_json=json.dumps(details, sort_keys=True),
+                                 report_id=report_id, created_at=utc_now(),
+                                 created_by=actor.name))
+
+
+def _store_report(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str,
+                  attempt: str, report: gatekeeping.GateReport, actor: Actor) -> int:
+    row = t.GateReportRow(model_id=model.id, version_id=version.id, stage=stage, attempt=attempt,
+                          passed=report.passed, report_json=json.dumps(report.to_dict()),
+                          created_at=utc_now(), created_by=actor.name)
+    uow.session.add(row)
+    uow.session.flush()
+    return row.id
+
+
+def _leave_other_ladder_stages(uow: UnitOfWork, model: t.Model, version: t.Version,
+                               stage: str, actor: Actor) -> None:
+    """A version moves up its ladder: it leaves the stages it held below the new one."""
+    for holding in uow.session.execute(
+            select(t.StageHolding).where(t.StageHolding.version_id == version.id,
+                                         t.StageHolding.stage != stage)).scalars().all():
+        _event(uow, model, version, holding.stage, "moved-on", actor, to_stage=stage)
+        uow.session.delete(holding)
+
+
+def _place(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, is_exclusive: bool,
+           report_id: int | None, actor: Actor, *, event: str = "entered",
+           previous_version_id: int | None = None) -> int | None:
+    """Put a version into a stage, displacing the holder of an exclusive stage. Returns the
+    displaced version's number."""
+    displaced_number = None
+    displaced_id = previous_version_id
+    if is_exclusive:
+        for holding in holders(uow, model, stage):
+            if holding.version_id == version.id:
+                continue
+            displaced = uow.session.get(t.Version, holding.version_id)
+            displaced_number, displaced_id = displaced.number, displaced.id
+            if previous_version_id is not None:
+                displaced_id = previous_version_id
+            _event(uow, model, displaced, stage, "replaced", actor, report_id,
+                   by_version=version.number)
+            uow.session.delete(holding)
+            # It goes back to the first stage of the ladder, where it can be promoted again.
+            _return_to_start(uow, model, displaced, actor)
+        uow.session.flush()
+    _leave_other_ladder_stages(uow, model, version, stage, actor)
+    uow.session.flush()
+    uow.session.add(t.StageHolding(model_id=model.id, version_id=version.id, stage=stage,
+                                   is_exclusive=is_exclusive, since=utc_now(),
+                                   report_id=report_id, previous_version_id=displaced_id))
+    _event(uow, model, version, stage, event, actor, report_id,
+           displaced_version=displaced_number)
+    uow.session.flush()
+    return displaced_number
+
+
+def _return_to_start(uow: UnitOfWork, model: t.Model, version: t.Version, actor: Actor) -> None:
+    policy = gatekeeping.policy_of(model)
+    start = policy.ladder[0]
+    if start not in stages_of(uow, version):
+        uow.session.add(t.StageHolding(model_id=model.id, version_id=version.id, stage=start,
+                                       is_exclusive=policy.is_exclusive(start), since=utc_now()))
+        _event(uow, model, version, start, "entered", actor, reason="left a stage it held")
+
+
+def enter_first_stage(uow: UnitOfWork, model: t.Model, version: t.Version, actor: Actor) -> None:
+    """A newly registered version starts on the first stage of its model's ladder."""
+    _return_to_start(uow, model, version, actor)
+
+
+def check(catalogue: Catalogue, model: str, number: int, stage: str, actor: Actor,
+          waivers: list[gatekeeping.Waiver] = ()) -> StageOutcome:
+    """The gates of a stage for a version, as a dry run: nothing is written."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        line = find_model(uow, model)
+        version = find_version(uow, line, number)
+        policy = gatekeeping.policy_of(line)
+        policy.check_transition(stages_of(uow, version), stage)
+        report = gatekeeping.run_gates(uow, line, version, stage, actor, waivers, policy=policy)
+        return StageOutcome(line.name, number, stage, False, report.to_dict())
+
+
+def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Actor,
+            waivers: list[gatekeeping.Waiver] = (), expected: HolderSnapshot | None = None
+            ) -> StageOutcome:
+    """Move a version into a stage if its gates allow; store the attempt's report either way."""
+    check_name(stage, what="stage")
+    with UnitOfWork(catalogue) as uow:
+        line = find_model(uow, model)
+        version = find_version(uow, line, number)
+        policy = gatekeeping.policy_of(line)
+        current = stages_of(uow, version)
+        if stage in current:
+            raise UserError(f"version {number} already holds {stage!r}", place="--to")
+        policy.check_transition(current, stage)
+        if policy.is_guarded(stage) and not actor.has_role("approver"):
+            raise Forbidden(f"promoting into the guarded stage {stage!r} needs the approver role; "
+                            f"{actor.name} does not have it", place="--to")
+        now = _numbers(uow, holders(uow, line, stage))
+        if expected is not None and policy.is_exclusive(stage) and now != expected.versions:
+            raise Conflict(f"{stage!r} changed while this promotion waited (now held by "
+                           f"{_describe(now)}, was {_describe(expected.versions)}); check again")
+        report = gatekeeping.run_gates(uow, line, version, stage, actor, waivers, policy=policy)
+        report_id = _store_report(uow, line, version, stage, "promote", report, actor)
+        displaced = None
+        if report.passed:
+            displaced = _place(uow, line, version, stage, policy.is_exclusive(stage), report_id,
+                               actor)
+        uow.audit.append(actor.name, "stage.promote" if report.passed else "stage.refuse",
+                         f"model/{line.name}/version/{number}",
+                         {"stage": stage, "passed": report.passed, "report_id": report_id,
+                          "displaced_version": displaced, "summary": report.summary(),
+                          "waivers": [w.to_dict() for w in report.waivers]})
+        uow.commit()
+        return StageOutcome(line.name, number, stage, report.passed, report.to_dict(), report_id,
+                            displaced)
+
+
+def _describe(numbers: tuple[int, ...]) -> str:
+    return ", ".join(f"v{n}" for n in numbers) or "no version"
+
+
+def approve(catalogue: Catalogue, model: str, number: int, stage: str, actor: Actor,
+            note: str = "") -> dict[str, Any]:
+    """Record one approver's approval of a version for a stage (never the version's author)."""
+    with UnitOfWork(catalogue) as uow:
+        line = find_model(uow, model)
+        version = find_version(uow, line, number)
+        policy = gatekeeping.policy_of(line)
+        policy.require_stage(stage)
+        if not actor.has_role("approver"):
+            raise Forbidden(f"{actor.name} does not have the approver role", place="approve")
+        if actor.name in (version.author, version.created_by):
+            raise UserError(f"{actor.name} wrote version {number} and cannot approve it "
+                            "(four eyes: an approval must come from someone else)",
+                            place="approve")
+        existing = uow.session.execute(select(t.Approval).where(
+            t.Approval.version_id == version.id, t.Approval.stage == stage,
+            t.Approval.approver == actor.name)).scalar_one_or_none()
+        if existing is None:
+            uow.session.add(t.Approval(version_id=version.id, stage=stage, approver=actor.name,
+                                       note=note, created_at=utc_now()))
+            uow.session.flush()
+            uow.audit.append(actor.name, "version.approve", f"model/{line.name}/version/{number}",
+                             {"stage": stage, "note": note})
+        count = uow.session.query(t.Approval).filter_by(version_id=version.id, stage=stage).count()
+        uow.commit()
+        return {"model": line.name, "version": number, "stage": stage, "approver": actor.name,
+                "approvals": count, "recorded": existing is None}
+
+
+def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
+             waivers: list[gatekeeping.Waiver] = ()) -> StageOutcome:
+    """Give an exclusive stage back to the version its holder displaced, in one transaction,
+    after re-running the schema gates against the feed the current holder reads."""
+    with UnitOfWork(catalogue) as uow:
+        line = find_model(uow, model)
+        policy = gatekeeping.policy_of(line)
+        policy.require_stage(stage)
+        if not policy.is_exclusive(stage):
+            raise UserError(f"{stage!r} is not an exclusive stage; roll back works on a stage "
+                            "held by one version", place="--stage")
+        if policy.is_guarded(stage) and not actor.has_role("approver"):
+            raise Forbidden(f"rolling back {stage!r} needs the approver role", place="--stage")
+        current = holders(uow, line, stage)
+        if not current:
+            raise UserError(f"no version holds {stage!r}; there is nothing to roll back",
+                            place="--stage")
+        holding = current[0]
+        holder = uow.session.get(t.Version, holding.version_id)
+        if holding.previous_version_id is None:
+            raise UserError(f"v{holder.number} was the first version to hold {stage!r}; there is "
+                            "no earlier holder to restore", place="--stage")
+        previous = uow.session.get(t.Version, holding.previous_version_id)
+        if "retired" in stages_of(uow, previous):
+            raise UserError(f"v{previous.number}, the previous holder, is retired",
+                            place="--stage")
+        report = gatekeeping.run_rollback_gates(uow, line, previous, holder, stage, actor,
+                                                waivers, policy=policy)
+        report_id = _store_report(uow, line, previous, stage, "rollback", report, actor)
+        if report.passed:
+            uow.session.delete(holding)
+            _event(uow, line, holder, stage, "rolled-back", actor, report_id,
+                   restored_version=previous.number)
+            uow.session.flush()
+            _return_to_start(uow, line, holder, actor)
+            earlier = _earlier_holder(uow, line, previous, stage)
+            _place(uow, line, previous, stage, True, report_id, actor, event="restored",
+                   previous_version_id=earlier)
+        uow.audit.append(actor.name, "stage.rollback" if report.passed else "stage.refuse",
+                         f"model/{line.name}/stage/{stage}",
+                         {"stage": stage, "from_version": holder.number,
+                          "to_version": previous.number, "passed": report.passed,
+                          "report_id": report_id, "summary": report.summary()})
+        uow.commit()
+        return StageOutcome(line.name, previous.number, stage, report.passed, report.to_dict(),
+                            report_id, holder.number if report.passed else None)
+
+
+def _earlier_holder(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str) -> int | None:
+    """Who the restored version itself had displaced when it first took the stage, so a
+    second rollback can go one step further back."""
+    replaced = uow.session.execute(
+        select(t.StageEvent).where(t.StageEvent.model_id == model.id,
+                                   t.StageEvent.stage == stage,
+                                   t.StageEvent.event == "replaced")
+        .order_by(t.StageEvent.id.desc())).scalars()
+    for event in replaced:
+        if json.loads(event.details_json or "{}").get("by_version") == version.number:
+            return event.version_id
+    return None
+
+
+def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
+           reason: str = "") -> dict[str, Any]:
+    """Take a version out of service: it leaves every stage it holds and enters `retired`."""
+    with UnitOfWork(catalogue) as uow:
+        line = find_model(uow, model)
+        version = find_version(uow, line, number)
+        policy = gatekeeping.policy_of(line)
+        held = stages_of(uow, version)
+        if "retired" in held:
+            raise UserError(f"version {number} is already retired", place="retire")
+        guarded = [s for s in held if policy.is_guarded(s)]
+        if guarded and not actor.has_role("approver"):
+            raise Forbidden(f"v{number} holds {', '.join(guarded)}; retiring it needs the "
+                            "approver role", place="retire")
+        uow.session.execute(delete(t.StageHolding).where(t.StageHolding.version_id == version.id))
+        for stage in held:
+            _event(uow, line, version, stage, "retired", actor, reason=reason)
+        uow.session.add(t.StageHolding(model_id=line.id, version_id=version.id, stage="retired",
+                                       is_exclusive=False, since=utc_now()))
+        _event(uow, line, version, "retired", "entered", actor, reason=reason)
+        uow.audit.append(actor.name, "version.retire", f"model/{line.name}/version/{number}",
+                         {"left_stages": held, "reason": reason})
+        uow.commit()
+        return {"model": line.name, "version": number, "left_stages": held, "retired": True}
+
+
+def history(catalogue: Catalogue, model: str) -> dict[str, Any]:
+    """Every stage event of a model, oldest first, each with the gate report behind it."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        line = find_model(uow, model)
+        events = []
+        for event, number in uow.session.execute(
+                select(t.StageEvent, t.Version.number)
+                .join(t.Version, t.Version.id == t.StageEvent.version_id)
+                .where(t.StageEvent.model_id == line.id).order_by(t.StageEvent.id)):
+            report = None
+            if event.report_id is not None:
+                row = uow.session.get(t.GateReportRow, event.report_id)
+                report = json.loads(row.report_json)
+            events.append({"at": event.created_at.isoformat(), "version": number,
+                           "stage": event.stage, "event": event.event, "by": event.created_by,
+                           "details": json.loads(event.details_json or "{}"),
+                           "report_id": event.report_id, "report": report})
+        attempts = [{"id": row.id, "version": number, "stage": row.stage, "attempt": row.attempt,
+                     "passed": row.passed, "at": row.created_at.isoformat(),
+                     "by": row.created_by}
+                    for row, number in uow.session.execute(
+                        select(t.GateReportRow, t.Version.number)
+                        .join(t.Version, t.Version.id == t.GateReportRow.version_id)
+                        .where(t.GateReportRow.model_id == line.id)
+                        .order_by(t.GateReportRow.id))]
+        return {"model": line.name, "events": events, "attempts": attempts}
+
+
+def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
+    """Who holds each stage of the model's ladder now (every ladder stage listed)."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        line = find_model(uow, model)
+        policy = gatekeeping.policy_of(line)
+        stages = {}
+        for stage in [*policy.ladder, "retired"]:
+            stages[stage] = list(_numbers(uow, holders(uow, line, stage)))
+        return {"model": line.name, "stages": stages,
+                "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)]}
+
+
+def find_report(catalogue: Catalogue, report_id: int) -> dict[str, Any]:
+    with UnitOfWork(catalogue, write=False) as uow:
+        row = uow.session.get(t.GateReportRow, report_id)
+        if row is None:
+            raise NotFound(f"no gate report {report_id}")
+        return json.loads(row.report_json)
+
+
+__all__ = ["approve", "check", "history", "promote", "retire", "rollback", "snapshot", "status",
+           "Refusal"]
