@@ -361,7 +361,7 @@ def burst_risk_document(version: int, model: LinearModel) -> dict:
         feature_map["repairs_5y"] = "input.repairs_5y"
     assert set(feature_map) == set(model.coeff), "document and model must name the same features"
     return {
-        "name": f"main-burst-risk-v{version}",
+        "name": f"main_burst_risk_v{version}",  # PFA engine names are identifiers
         "method": "map",
         "doc": "Logistic regression on asset and telemetry features (invented Brackwater demo).",
         "input": segment_schema(version),
@@ -389,7 +389,7 @@ def night_flow_features(rows: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
 def night_flow_document(model: LinearModel) -> dict:
     """A PFA linear regression; leakage cannot be negative, so the estimate is clamped at zero."""
     return {
-        "name": "night-flow-leak-v1",
+        "name": "night_flow_leak_v1",
         "method": "map",
         "doc": "Linear regression of leakage on night flow (invented Brackwater demo).",
         "input": meter_area_schema(),
