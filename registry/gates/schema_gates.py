@@ -46,8 +46,8 @@ def reads_live_feed(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     if not failing:
         writers = ", ".join(str(check.writer_version) for check in checks)
         return GateResult(gate, True, False,
-                          f"version {evidence.version} reads the feed written by version "
-                          f"{'s ' if len(checks) > 1 else ''}{writers}", facts,
+                          f"version {evidence.version} reads the feed written by "
+                          f"version{'s' if len(checks) > 1 else ''} {writers}", facts,
                           notes=tuple(note for check in checks for note in check.notes))
     worst = failing[0]
     notes = tuple(f"also cannot read the feed of version {check.writer_version}: "
