@@ -62,7 +62,8 @@ def feature_meaning(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     if not evidence.feature_changes:
         summary = f"no feature changed meaning since version {evidence.incumbent_version}"
     else:
-        summary = (f"{len(evidence.feature_changes)} feature change(s) since version "
+        count = len(evidence.feature_changes)
+        summary = (f"{count} feature change{'s' if count > 1 else ''} since version "
                    f"{evidence.incumbent_version}, none breaking")
         if reviewed:
             summary += f"; {reviewed} needing review" + (

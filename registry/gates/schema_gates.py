@@ -164,7 +164,9 @@ def live_data_check(evidence: Evidence, settings: Mapping[str, Any], stage: str)
                                            else set())
     blockers = [finding for finding in findings if finding["status"] in blocking]
     unexercised = [finding for finding in findings if finding["status"] == "unexercised"]
-    notes = tuple(f"{finding['path']}: {_describe(finding, profile)}" for finding in findings)
+    shown = blockers[0] if blockers else unexercised[0]  # the finding the summary names
+    notes = tuple(f"{finding['path']}: {_describe(finding, profile)}" for finding in findings
+                  if finding is not shown)
     if not blockers:
         first = unexercised[0]
         return GateResult(gate, True, False,

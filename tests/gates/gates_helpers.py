@@ -69,7 +69,7 @@ def passing_evidence(**changes: Any) -> Evidence:
         comparisons=(comparison(),),
         slices=tuple(district_slice(value) for value in DISTRICTS),
         containment=(ContainmentEstimate("brackwater-training-set", "brackwater-evaluation-set",
-                                         containment=0.0, error_bound=0.031),),
+                                         containment=0.0, error_bound=0.004),),
         datasets=(DatasetRecord("brackwater-training-set", "training", True,
                                 registered_at="2026-11-20T08:00:00Z", fingerprint="sha256:t"),
                   DatasetRecord("brackwater-evaluation-set", "evaluation", True,
