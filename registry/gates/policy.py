@@ -87,6 +87,10 @@ class Policy:
             raise UnknownStage(f"unknown stage {name!r}; this model's stages are {known}",
                                place=f"stage {name}") from None
 
+    def is_exclusive(self, stage: str) -> bool:
+        """Whether at most one version may hold `stage` at a time."""
+        return self.stage(stage).is_exclusive
+
     def gates_for(self, stage: str) -> tuple[GateSpec, ...]:
         """The gates guarding entry into `stage`, in report order."""
         return self.stage(stage).gates

@@ -40,7 +40,8 @@ def reads_live_feed(evidence: Evidence, settings: Mapping[str, Any], stage: str)
         return _missing(gate, "check of the candidate's input schema against the live feed")
     checks = [evidence.feed]
     if settings["include_past_feeds"]:
-        checks += [check for check in evidence.past_feeds if check != evidence.feed]
+        checks += [check for check in evidence.past_feeds
+                   if check.writer_version != evidence.feed.writer_version]
     facts = {"checks": to_plain(checks)}
     failing = [check for check in checks if not check.compatible]
     if not failing:

@@ -40,7 +40,10 @@ def test_default_policy_text_is_the_shipped_file_and_the_documented_example_load
     document = (REPO / "docs" / "policy.md").read_text("utf-8")
     example = document.split("```toml\n", 1)[1].split("```", 1)[0]
     policy = load_policy(example, source="docs/policy.md", base=default_policy())
-    assert policy.ladder
+    live = {spec.gate: spec.settings for spec in policy.gates_for("live")}
+    assert "slice-guard" not in live and live["approved"] == {"count": 2}
+    assert live["no-regression"]["metric"] == "rmse"
+    assert "slice-guard" not in {spec.gate for spec in policy.gates_for("canary")}
 
 
 def test_custom_policy_defines_its_own_ladder_gates_and_settings():
