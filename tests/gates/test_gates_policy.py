@@ -104,7 +104,6 @@ def test_gate_set_to_true_takes_the_default_settings():
 
 
 def test_policy_to_dict_reloads_to_the_same_policy():
-    import tomllib  # noqa: F401  (the document has the TOML's shape)
     policy = default_policy()
     again = load_policy("", source="default again", base=policy)
     assert again.to_dict() == policy.to_dict()
