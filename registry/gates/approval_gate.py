@@ -1,4 +1,4 @@
-"""Four eyes: the approved gate, and the check that refuses an author approving their own version."""
+"""Four eyes: the approved gate, and the check that refuses an author approving their version."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""Promotion policies: a model's ladder of stages, which gates guard each, and how it may be climbed.
+"""Promotion policies: a model's ladder of stages, the gates guarding each, how it is climbed.
 
 A policy is TOML (format in docs/policy.md). A model's policy may be complete or lay a few
 changes over the catalogue-wide default (`base=`); validation is strict and names the dotted

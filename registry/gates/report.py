@@ -1,4 +1,4 @@
-"""Gate results and the gate report of one attempt: a JSON document, an audit summary, plain text."""
+"""Gate results and the gate report of one attempt: as JSON, as an audit summary, as text."""
 
 from __future__ import annotations
 

@@ -24,7 +24,8 @@ def _first_problem(check: SchemaCheck) -> str:
 
 
 def _missing(gate: str, what: str) -> GateResult:
-    return GateResult(gate, False, False, f"no {what} was supplied; the gate cannot pass without it")
+    return GateResult(gate, False, False,
+                      f"no {what} was supplied; the gate cannot pass without it")
 
 
 def _no_incumbent(gate: str) -> GateResult:
@@ -111,7 +112,8 @@ def _occurrences(problem: SchemaProblem, profile: SampleProfile) -> tuple[str, i
     counts = profile.columns.get(column)
     if "enum_symbol" in witness:
         what = f"symbol {witness['enum_symbol']}"
-        return what, None if counts is None else counts.enum_symbols.get(witness["enum_symbol"], 0), column
+        count = None if counts is None else counts.enum_symbols.get(witness["enum_symbol"], 0)
+        return what, count, column
     if "union_branch" in witness:
         branch = str(witness["union_branch"])
         what = f"union branch {branch}"

@@ -43,7 +43,8 @@ def test_two_approvals_must_come_from_two_people():
 
 
 def test_an_approval_for_another_stage_does_not_count():
-    assert not judge("approved", passing_evidence(approvals=approvals(TOMAS, stage="canary"))).passed
+    for_canary = passing_evidence(approvals=approvals(TOMAS, stage="canary"))
+    assert not judge("approved", for_canary).passed
     assert judge("approved", passing_evidence(approvals=approvals(TOMAS, stage="live"))).passed
 
 

@@ -2,8 +2,8 @@
 
 import dataclasses
 
-from gates_helpers import (DISTRICTS, TOMAS, Approval, comparison, district_slice,
-                           passing_evidence, without_incumbent)
+from gates_helpers import (DISTRICTS, TOMAS, Approval, district_slice, passing_evidence,
+                           without_incumbent)
 from registry.gates import (FeatureChange, RecalledDataset, SchemaCheck, SchemaProblem,
                             Waiver, default_policy, evaluate, render_report)
 
