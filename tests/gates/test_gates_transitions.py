@@ -84,3 +84,19 @@ def test_going_down_the_ladder_and_retiring_are_always_allowed(policy):
     assert policy.check_transition(["live"], "shadow") == ()
     assert policy.check_transition(["canary"], RETIRED) == ()
     assert policy.check_transition([], RETIRED) == ()
+
+
+def test_exclusive_stages_are_known_by_name(policy):
+    assert policy.is_exclusive("live") and policy.is_exclusive("canary")
+    assert not policy.is_exclusive("shadow") and not policy.is_exclusive(RETIRED)
+    with pytest.raises(UnknownStage):
+        policy.is_exclusive("production")
+
+
+def test_evaluating_the_gates_of_an_unknown_stage_is_a_user_error(policy):
+    from gates_helpers import TOMAS, passing_evidence
+    from registry.gates import evaluate
+
+    with pytest.raises(UnknownStage) as caught:
+        evaluate(policy, "production", passing_evidence(), (), TOMAS)
+    assert caught.value.exit_code == 2
