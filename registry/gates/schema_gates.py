@@ -141,6 +141,10 @@ def live_data_check(evidence: Evidence, settings: Mapping[str, Any], stage: str)
                           "feed: no static break to weigh against the live sample",
                           {"check": to_plain(check)})
     profile = evidence.live_sample
+    if not check.problems:
+        return GateResult(gate, False, False, f"{_first_problem(check)}; with no problem named "
+                          "there is no witness to count in the live sample",
+                          {"check": to_plain(check)})
     if profile is None:
         return GateResult(gate, False, False,
                           f"{_first_problem(check)}; no live sample is registered, so whether "

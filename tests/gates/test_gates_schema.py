@@ -206,3 +206,9 @@ def test_failed_live_data_check_can_be_waived():
     result = judge("live-data-check", passing_evidence(feed=broken(4, 2, TYPE_CHANGE)),
                    waivers=waive("live-data-check"))
     assert result.waived and result.cleared
+
+
+def test_incompatible_feed_without_named_problems_fails_the_live_data_check():
+    result = judge("live-data-check", passing_evidence(feed=broken(5, 2)))
+    assert not result.passed
+    assert "no problem named" in result.summary
