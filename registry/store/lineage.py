@@ -1,0 +1,48 @@
+"""Lineage walks that run in the database as recursive CTEs, on SQLite and PostgreSQL alike.
+
+Each walk follows one indexed edge table, so its cost grows with the answer, not the catalogue.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+
+from sqlalchemy import literal, select, union
+from sqlalchemy.orm import Session
+
+from registry.store import tables as t
+
+
+def _dataset_walk(session: Session, start_ids: Iterable[int], *, downward: bool,
+                  depth: int | None = None) -> dict[int, int]:
+    """Datasets reachable over derived-from edges: id -> distance (the starts at 0)."""
+    starts = sorted(set(start_ids))
+    if not starts:
+        return {}
+    edges = t.DatasetParent.__table__
+    source, target = (edges.c.parent_id, edges.c.child_id) if downward else \
+        (edges.c.child_id, edges.c.parent_id)
+    seed = union(*[select(literal(i).label("id"), literal(0).label("distance")) for i in starts]) \
+        if len(starts) > 1 else select(literal(starts[0]).label("id"), literal(0).label("distance"))
+    walk = seed.cte("walk", recursive=True)
+    step = select(target.label("id"), (walk.c.distance + 1).label("distance")) \
+        .select_from(edges.join(walk, source == walk.c.id))
+    if depth is not None:
+        step = step.where(walk.c.distance < depth)
+    walk = walk.union(step)
+    rows = session.execute(select(walk.c.id, walk.c.distance))
+    found: dict[int, int] = {}
+    for dataset_id, distance in rows:
+        if dataset_id not in found or distance < found[dataset_id]:
+            found[dataset_id] = distance
+    return found
+
+
+def upstream_datasets(session: Session, dataset_ids: Iterable[int],
+                      depth: int | None = None) -> dict[int, int]:
+    return _dataset_walk(session, dataset_ids, downward=False, depth=depth)
+
+
+def downstream_datasets(session: Session, dataset_ids: Iterable[int],
+                        depth: int | None = None) -> dict[int, int]:
+    return _dataset_walk(session, dataset_ids, downward=True, depth=depth)
