@@ -35,6 +35,8 @@ PROMOTIONS = {
 }
 # Promotions that may round: float has a 24-bit significand, double a 53-bit one.
 LOSSY_PROMOTIONS = {("int", "float"), ("long", "float"), ("long", "double")}
+# bytes read as string must hold UTF-8; other bytes fail when read.
+CONDITIONAL_PROMOTIONS = {("bytes", "string"): " (bytes that are not UTF-8 cannot be read)"}
 
 
 @dataclass(frozen=True)
@@ -264,10 +266,11 @@ class _Resolver:
     def _primitive(self, r: Schema, w: Schema, rpath: str, wpath: str) -> None:
         if r.kind != w.kind:
             lossy = (w.kind, r.kind) in LOSSY_PROMOTIONS
+            condition = CONDITIONAL_PROMOTIONS.get((w.kind, r.kind), "")
             self.note(rpath, "promotion",
                       f"the writer's {w.kind} is promoted to {r.kind}"
-                      + (" (large values may be rounded)" if lossy else ""),
-                      "warning" if lossy else "info")
+                      + (" (large values may be rounded)" if lossy else condition),
+                      "warning" if lossy or condition else "info")
         self._logical(r, w, rpath, wpath)
 
     def _logical(self, r: Schema, w: Schema, rpath: str, wpath: str) -> None:
