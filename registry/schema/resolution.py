@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
+from functools import partial
 from typing import Literal
 
 from registry.schema.model import (
@@ -124,10 +125,15 @@ class _Resolver:
         self.notes.append(Note(path or "/", rule, message, severity))  # type: ignore[arg-type]
 
     def run(self, reader: Schema, writer: Schema) -> Resolution:
-        stack: list[tuple[Schema, Schema, str, str]] = [(reader, writer, "", "")]
+        # Items: (reader, writer, reader path, writer path), or ("emit", deferred finding).
+        stack: list[tuple] = [(reader, writer, "", "")]
         while stack:
-            r, w, rpath, wpath = stack.pop()
-            children: list[tuple[Schema, Schema, str, str]] = []
+            item = stack.pop()
+            if item[0] == "emit":  # a finding deferred to keep document order
+                item[1]()
+                continue
+            r, w, rpath, wpath = item
+            children: list[tuple] = []
             self._note_ignored_logical(r, rpath, "reader")
             self._note_ignored_logical(w, wpath, "writer")
             if isinstance(w, Union):
@@ -167,7 +173,7 @@ class _Resolver:
                       f"its underlying {schema.kind} is used", "warning")
 
     def _writer_union(self, r: Schema, w: Union, rpath: str, wpath: str,
-                      children: list[tuple[Schema, Schema, str, str]]) -> None:
+                      children: list[tuple]) -> None:
         """A writer union: every branch the writer may pick must be readable."""
         for position, branch in enumerate(w.branches):
             branch_path = f"{wpath}/{position}"
@@ -198,7 +204,7 @@ class _Resolver:
                          f"the writer's {w.describe()} cannot be read as {r.describe()}", wpath)
 
     def _named(self, r: NamedSchema, w: NamedSchema, rpath: str, wpath: str,
-               children: list[tuple[Schema, Schema, str, str]]) -> None:
+               children: list[tuple]) -> None:
         if r.simple_name != w.simple_name:
             self.note(rpath, "alias-used", f"the reader's {r.kind} {r.name} reads the writer's "
                       f"{w.name} through an alias")
@@ -214,7 +220,7 @@ class _Resolver:
                 self._logical(r, w, rpath, wpath)
 
     def _record(self, r: Record, w: Record, rpath: str, wpath: str,
-                children: list[tuple[Schema, Schema, str, str]]) -> None:
+                children: list[tuple]) -> None:
         """Avro specification, Schema Resolution, records: fields match by name or reader alias."""
         reader_names = {f.name for f in r.fields}
         used: set[str] = set()
@@ -228,25 +234,29 @@ class _Resolver:
                     if candidate is not None and candidate.name not in reader_names \
                             and candidate.name not in used:
                         source = candidate
-                        self.note(field_path, "field-alias-used",
-                                  f"reader field {field.name} reads writer field {alias} "
-                                  "through its alias")
+                        children.append(("emit", partial(
+                            self.note, field_path, "field-alias-used",
+                            f"reader field {field.name} reads writer field {alias} through its "
+                            "alias")))
                         break
             if source is not None:
                 used.add(source.name)
                 children.append((field.type, source.type, f"{field_path}/type",
                                  f"{wpath}/fields/{source.name}/type"))
             elif field.has_default:
-                self.note(field_path, "default-used", f"the writer has no field {field.name}; "
-                          "the reader's default is used")
+                children.append(("emit", partial(
+                    self.note, field_path, "default-used",
+                    f"the writer has no field {field.name}; the reader's default is used")))
             else:
-                self.problem(field_path, "missing-field",
-                             f"the writer has no field {field.name} and the reader's field has "
-                             "no default", wpath, {"reader_field": field.name})
+                children.append(("emit", partial(
+                    self.problem, field_path, "missing-field",
+                    f"the writer has no field {field.name} and the reader's field has no "
+                    "default", wpath, {"reader_field": field.name})))
         for field in w.fields:
             if field.name not in used:
-                self.note(rpath, "writer-field-ignored",
-                          f"the writer's field {field.name} is not read and is skipped")
+                children.append(("emit", partial(
+                    self.note, rpath, "writer-field-ignored",
+                    f"the writer's field {field.name} is not read and is skipped")))
 
     def _enum(self, r: Enum, w: Enum, rpath: str, wpath: str) -> None:
         """Avro specification, Schema Resolution, enums: an unknown writer symbol needs a default."""
