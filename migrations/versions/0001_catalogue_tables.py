@@ -66,6 +66,7 @@ def upgrade() -> None:
     sa.Column('schema_fingerprint', sa.String(length=64), nullable=False),
     sa.Column('schema_json', sa.Text(), nullable=False),
     sa.Column('fingerprint_digest', sa.String(length=64), nullable=False),
+    sa.Column('feed_model_id', sa.Integer(), nullable=True),
     sa.Column('registration_digest', sa.String(length=64), nullable=False),
     sa.Column('created_at', sa.DateTime(timezone=True), nullable=False),
     sa.Column('created_by', sa.String(length=100), nullable=False),
@@ -73,6 +74,7 @@ def upgrade() -> None:
     sa.Column('recall_reason', sa.Text(), nullable=True),
     sa.Column('recalled_by', sa.String(length=100), nullable=True),
     sa.ForeignKeyConstraint(['fingerprint_digest'], ['blobs.digest'], ),
+    sa.ForeignKeyConstraint(['feed_model_id'], ['models.id'], ),
     sa.PrimaryKeyConstraint('id'),
     sa.UniqueConstraint('name')
     )

@@ -46,3 +46,28 @@ def upstream_datasets(session: Session, dataset_ids: Iterable[int],
 def downstream_datasets(session: Session, dataset_ids: Iterable[int],
                         depth: int | None = None) -> dict[int, int]:
     return _dataset_walk(session, dataset_ids, downward=True, depth=depth)
+
+
+def derivation_chain(session: Session, ancestor_id: int, descendants: set[int]) -> list[int]:
+    """The derived-from path from an ancestor down to the nearest of `descendants`, ancestor
+    first (a breadth-first walk; derived-from graphs around one version are small)."""
+    if ancestor_id in descendants:
+        return [ancestor_id]
+    parents_of: dict[int, int] = {ancestor_id: ancestor_id}
+    frontier = [ancestor_id]
+    while frontier:
+        children = session.execute(
+            select(t.DatasetParent.parent_id, t.DatasetParent.child_id)
+            .where(t.DatasetParent.parent_id.in_(frontier))).all()
+        frontier = []
+        for parent, child in children:
+            if child in parents_of:
+                continue
+            parents_of[child] = parent
+            if child in descendants:
+                path = [child]
+                while path[-1] != ancestor_id:
+                    path.append(parents_of[path[-1]])
+                return list(reversed(path))
+            frontier.append(child)
+    return [ancestor_id]

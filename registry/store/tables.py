@@ -78,6 +78,8 @@ class Dataset(Base):
     schema_fingerprint: Mapped[str] = mapped_column(String(64))
     schema_json: Mapped[str] = mapped_column(Text)
     fingerprint_digest: Mapped[str] = mapped_column(ForeignKey("blobs.digest"))  # full fingerprint JSON
+    # For a live sample: the model whose feed it was taken from.
+    feed_model_id: Mapped[int | None] = mapped_column(ForeignKey("models.id"), nullable=True)
     registration_digest: Mapped[str] = mapped_column(String(64))
     created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
     created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
