@@ -16,6 +16,19 @@ depends_on = None
 
 
 def upgrade() -> None:
+    op.create_table('api_tokens',
+    sa.Column('id', sa.Integer(), nullable=False),
+    sa.Column('token_hash', sa.String(length=64), nullable=False),
+    sa.Column('user', sa.String(length=100), nullable=False),
+    sa.Column('role', sa.String(length=20), nullable=False),
+    sa.Column('label', sa.Text(), nullable=False),
+    sa.Column('created_at', sa.DateTime(timezone=True), nullable=False),
+    sa.Column('created_by', sa.String(length=100), nullable=False),
+    sa.Column('expires_at', sa.DateTime(timezone=True), nullable=True),
+    sa.Column('revoked_at', sa.DateTime(timezone=True), nullable=True),
+    sa.PrimaryKeyConstraint('id'),
+    sa.UniqueConstraint('token_hash')
+    )
     op.create_table('audit_events',
     sa.Column('sequence', sa.Integer(), autoincrement=False, nullable=False),
     sa.Column('occurred_at', sa.String(length=40), nullable=False),
@@ -255,3 +268,4 @@ def downgrade() -> None:
     op.drop_table('blobs')
     op.drop_table('audit_head')
     op.drop_table('audit_events')
+    op.drop_table('api_tokens')

@@ -196,6 +196,21 @@ class RoleGrant(Base):
     granted_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
 
 
+class ApiToken(Base):
+    """A bearer token for the HTTP API, kept only as the SHA-256 of its secret."""
+
+    __tablename__ = "api_tokens"
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    token_hash: Mapped[str] = mapped_column(String(64), unique=True)
+    user: Mapped[str] = mapped_column(String(NAME_LENGTH))
+    role: Mapped[str] = mapped_column(String(20))
+    label: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
+    expires_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True), nullable=True)
+    revoked_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True), nullable=True)
+
+
 class AuditHead(Base):
     """One row: the newest event's number and hash. Locking it serialises every writer."""
 
