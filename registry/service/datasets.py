@@ -9,12 +9,11 @@ from __future__ import annotations
 
 import json
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from sqlalchemy import select
 
 from registry.canonical_json import canonical_json, digest_of
-from registry.datasets import DatasetFingerprint
 from registry.errors import AlreadyExists, NotFound, UserError
 from registry.names import check_name
 from registry.service.actors import Actor
@@ -22,6 +21,9 @@ from registry.service.models import find_model
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+
+if TYPE_CHECKING:
+    from registry.datasets import DatasetFingerprint
 
 DATASET_ROLES = ("source", "training", "evaluation", "live-sample")
 
@@ -68,6 +70,8 @@ def parents_of(uow: UnitOfWork, dataset: t.Dataset) -> list[str]:
 
 
 def load_fingerprint(uow: UnitOfWork, dataset: t.Dataset) -> DatasetFingerprint:
+    from registry.datasets import DatasetFingerprint
+
     return DatasetFingerprint.from_dict(json.loads(uow.blobs.get(dataset.fingerprint_digest)))
 
 
