@@ -128,6 +128,70 @@ def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
     return None
 
 
+def _quality_settings(specs) -> dict[str, dict]:
+    return {spec.gate: dict(spec.settings) for spec in specs
+            if spec.gate in ("no-regression", "slice-guard")}
+
+
 def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Version, specs
                         ) -> tuple[tuple[gates.PairedComparison, ...], tuple[gates.SliceComparison, ...]]:
-    return (), ()
+    """Paired comparisons of candidate and incumbent on every evaluation dataset both were
+    evaluated on (same content digest), overall and per slice, with the stored predictions."""
+    from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
+    from registry.service.evaluations import evaluations_of, stored_predictions
+
+    settings = _quality_settings(specs)
+    if not settings:
+        return (), ()
+    mine = evaluations_of(uow, candidate)
+    theirs = {e.dataset_content_digest: e for e, _ in evaluations_of(uow, incumbent)}
+    metrics = {s["metric"] for s in settings.values()}
+    confidence = settings.get("no-regression", {}).get("confidence", 0.95)
+    comparisons: list[gates.PairedComparison] = []
+    slices: list[gates.SliceComparison] = []
+    for evaluation, dataset in mine:
+        baseline_row = theirs.get(evaluation.dataset_content_digest)
+        if baseline_row is None:
+            continue
+        ours, base = stored_predictions(uow, evaluation), stored_predictions(uow, baseline_row)
+        report = compare(ours, base, confidence=confidence, seed=0)
+        for metric in sorted(metrics):
+            difference = report.differences.get(metric)
+            if difference is None:
+                continue
+            comparisons.append(gates.PairedComparison(
+                metric=metric, difference=difference.difference, ci_low=difference.ci_low,
+                ci_high=difference.ci_high, p_value=difference.p_value, method=difference.method,
+                higher_is_better=HIGHER_IS_BETTER[metric],
+                candidate_dataset=evaluation.dataset_content_digest,
+                incumbent_dataset=baseline_row.dataset_content_digest, confidence=confidence,
+                candidate_value=report.candidate.metrics.get(metric),
+                incumbent_value=report.baseline.metrics.get(metric), rows=report.matching.matched))
+        if "slice-guard" in settings:
+            metric = settings["slice-guard"]["metric"]
+            for column in json.loads(evaluation.metrics_json).get("slice_columns", []):
+                if column not in base.extra_columns:
+                    continue
+                per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)
+                for value, result in sorted(per_slice.values.items()):
+                    difference = result.differences.get(metric)
+                    if difference is None:
+                        continue
+                    slices.append(gates.SliceComparison(
+                        column=column, value=str(value), metric=metric,
+                        difference=difference.difference, ci_low=difference.ci_low,
+                        ci_high=difference.ci_high, p_value=difference.p_value,
+                        higher_is_better=HIGHER_IS_BETTER[metric],
+                        adjusted_p_value=difference.p_value_holm, confidence=confidence,
+                        rows=result.n))
+    if not comparisons and mine and theirs:
+        # Both were evaluated, never on the same data: say so rather than compare.
+        evaluation, _ = mine[0]
+        other = next(iter(theirs.values()))
+        for metric in sorted(metrics):
+            comparisons.append(gates.PairedComparison(
+                metric=metric, difference=0.0, ci_low=0.0, ci_high=0.0, p_value=1.0,
+                method="not-compared", higher_is_better=HIGHER_IS_BETTER[metric],
+                candidate_dataset=evaluation.dataset_content_digest,
+                incumbent_dataset=other.dataset_content_digest, confidence=confidence))
+    return tuple(comparisons), tuple(slices)
