@@ -9,7 +9,7 @@ Weights: multinomial counts (Efron's bootstrap, n draws with replacement) for up
 MULTINOMIAL_ROWS rows; above that independent Poisson(1) counts, the Poisson bootstrap
 (Hanley and MacGibbon 2006, Computer Methods and Programs in Biomedicine 83:57-62; Chamandy et
 al. 2012, Estimating uncertainty for massive data streams), which has the same first two moments
-and is indistinguishable at that size, but costs two random bytes a row instead of a random index
+and is indistinguishable at that size, but costs one random byte a row instead of a random index
 and a scatter.
 """
 
@@ -25,7 +25,8 @@ from registry.evaluation import metrics as m
 from registry.evaluation.predictions import Predictions
 
 MULTINOMIAL_ROWS = 50_000
-CHUNK_CELLS = 4_000_000  # weights held at once (resamples x rows), about 32 MB of float64
+CHUNK_CELLS = 16_000_000  # weights held at once (resamples x rows), one byte each
+ROW_BLOCK = 16_384  # rows per matrix product, so the float32 block stays in cache
 BOOTSTRAP_METRICS = {
     "binary": ("average_precision", "log_loss", "brier", "accuracy"),
     "regression": ("rmse", "mae", "r2"),
@@ -44,26 +45,62 @@ class BootstrapResult:
     resamples: int
 
 
-def _poisson_tables() -> tuple[np.ndarray, np.ndarray]:
-    """A 16-bit inverse-CDF table of Poisson(1), with -1 where a cell straddles a CDF step.
+@dataclass(frozen=True)
+class _PoissonBytes:
+    """Exact Poisson(1) draws from one random byte each (plus a fresh uniform for about 2%).
 
-    Straddling cells (about 10 of 65,536) are resolved exactly with a fresh uniform.
+    The byte picks one of 256 equal intervals of the uniform. Intervals that lie within a single
+    step of the Poisson(1) CDF are renumbered first, in order of their value, so the weight is a
+    count of thresholds passed; the few intervals a CDF step cuts through come last and are
+    resolved exactly by drawing where in the interval the uniform fell.
     """
-    k = np.arange(40)
-    cdf = np.cumsum(np.exp(-1.0 - np.array([math.lgamma(i + 1.0) for i in k])))
-    cdf = np.minimum(cdf, 1.0)
-    cells = np.arange(65_536)
-    low = np.searchsorted(cdf, cells / 65_536.0, side="right")
-    high = np.searchsorted(cdf, (cells + 1) / 65_536.0, side="left")
-    table = np.where(low == high, low, -1).astype(np.float64)
-    return table, cdf
+
+    thresholds: tuple[int, ...]  # byte b has weight #{t in thresholds: b >= t}, if b < clean
+    clean: int
+    straddling: np.ndarray  # interval index of bytes clean, clean + 1, ...
+    cdf: np.ndarray
+
+    @classmethod
+    def build(cls) -> _PoissonBytes:
+        k = np.arange(40)
+        cdf = np.minimum(np.cumsum(np.exp(-1.0 - np.array([math.lgamma(i + 1.0) for i in k]))),
+                         1.0)
+        intervals = np.arange(256)
+        low = np.searchsorted(cdf, intervals / 256.0, side="right")
+        below_high = np.searchsorted(cdf, (intervals + 1) / 256.0, side="left")
+        is_clean = low == below_high
+        clean_weights = low[is_clean]
+        thresholds = tuple(int(np.searchsorted(clean_weights, w, side="left"))
+                           for w in range(1, int(clean_weights.max()) + 1))
+        return cls(thresholds, int(is_clean.sum()), intervals[~is_clean], cdf)
+
+    def draw(self, rng: np.random.Generator, shape: tuple[int, int]) -> np.ndarray:
+        cells = shape[0] * shape[1]
+        picks = rng.bit_generator.random_raw((cells + 7) // 8).view(np.uint8)[:cells]
+        weights = np.empty(cells, dtype=np.uint8)
+        passed = np.empty(min(cells, _DRAW_BLOCK), dtype=np.bool_)
+        # Blocks small enough to stay in cache; each threshold is one vector comparison.
+        for first in range(0, cells, _DRAW_BLOCK):
+            block_picks = picks[first:first + _DRAW_BLOCK]
+            block_weights = weights[first:first + _DRAW_BLOCK]
+            block_passed = passed[:block_picks.shape[0]]
+            np.greater_equal(block_picks, self.thresholds[0], out=block_weights.view(np.bool_))
+            for threshold in self.thresholds[1:]:
+                np.greater_equal(block_picks, threshold, out=block_passed)
+                block_weights += block_passed.view(np.uint8)
+        cut = np.flatnonzero(picks >= self.clean)
+        if cut.size:
+            where = (self.straddling[picks[cut] - self.clean] + rng.random(cut.size)) / 256.0
+            weights[cut] = np.searchsorted(self.cdf, where, side="right")
+        return weights.reshape(shape)
 
 
-_POISSON_TABLE, _POISSON_CDF = _poisson_tables()
+_DRAW_BLOCK = 1 << 18
+_POISSON = _PoissonBytes.build()
 
 
-def resample_weights(rows: int, resamples: int, seed: int) -> Iterator[np.ndarray]:
-    """Chunks of a (resamples x rows) matrix of bootstrap weights, deterministic in the seed."""
+def resample_weights(rows: int, resamples: int, seed: int | Sequence[int]) -> Iterator[np.ndarray]:
+    """Chunks of a (resamples x rows) matrix of integer bootstrap weights, fixed by the seed."""
     rng = np.random.default_rng(seed)
     per_chunk = max(1, min(resamples, CHUNK_CELLS // max(rows, 1)))
     done = 0
@@ -73,48 +110,65 @@ def resample_weights(rows: int, resamples: int, seed: int) -> Iterator[np.ndarra
             draws = rng.integers(0, rows, size=(count, rows))
             draws += (np.arange(count) * rows)[:, None]
             weights = np.bincount(draws.ravel(), minlength=count * rows)
-            yield weights.reshape(count, rows).astype(np.float64)
+            yield weights.reshape(count, rows).astype(np.uint16)
         else:
-            cells = rng.bit_generator.random_raw((count * rows + 3) // 4).view(np.uint16)
-            weights = _POISSON_TABLE.take(cells[: count * rows]).reshape(count, rows)
-            straddling = np.flatnonzero(weights.ravel() < 0.0)
-            if straddling.size:
-                position = (cells[straddling] + rng.random(straddling.size)) / 65_536.0
-                weights.ravel()[straddling] = np.searchsorted(_POISSON_CDF, position,
-                                                              side="right")
-            yield weights
+            yield _POISSON.draw(rng, (count, rows))
         done += count
 
 
 def paired_bootstrap(candidate: Predictions, baseline: Predictions,
                      metric_names: Sequence[str] | None = None, *, threshold: float = 0.5,
-                     confidence: float = 0.95, seed: int = 0, resamples: int = 1000
-                     ) -> dict[str, BootstrapResult]:
+                     confidence: float = 0.95, seed: int | Sequence[int] = 0,
+                     resamples: int = 1000) -> dict[str, BootstrapResult]:
     """Percentile intervals and two-sided p-values of metric differences on aligned rows."""
     names = tuple(metric_names or BOOTSTRAP_METRICS[candidate.task])
-    statistics = [_statistic(name, candidate, baseline, threshold) for name in names]
-    collected: list[list[np.ndarray]] = [[] for _ in names]
+    statistics = {name: _statistic(name, candidate, baseline, threshold) for name in names}
+    linear = {name: st for name, st in statistics.items() if isinstance(st, LinearStatistic)}
+    ranked = {name: st for name, st in statistics.items() if not isinstance(st, LinearStatistic)}
+
+    # All weighted sums of all linear metrics come from one product per block of rows.
+    spans, start = {}, 0
+    for name, st in linear.items():
+        spans[name] = slice(start, start + st.columns.shape[1])
+        start += st.columns.shape[1]
+    columns = (np.hstack([st.columns for st in linear.values()]) if linear
+               else np.zeros((len(candidate), 0)))
+    columns32 = columns.astype(np.float32)
+
+    collected: dict[str, list[np.ndarray]] = {name: [] for name in names}
     for weights in resample_weights(len(candidate), resamples, seed):
-        for k, statistic in enumerate(statistics):
-            collected[k].append(statistic(weights))
-    full = np.ones((1, len(candidate)))
+        if linear:
+            sums = np.zeros((weights.shape[0], columns.shape[1]))
+            for first in range(0, weights.shape[1], ROW_BLOCK):
+                block = slice(first, first + ROW_BLOCK)
+                sums += weights[:, block].astype(np.float32) @ columns32[block]
+            for name, st in linear.items():
+                collected[name].append(st.finish(sums[:, spans[name]]))
+        for name, st in ranked.items():
+            collected[name].append(st(weights))
+
     results = {}
-    for name, statistic, chunks in zip(names, statistics, collected):
-        point = float(statistic(full)[0])
-        results[name] = summarise(point, np.concatenate(chunks), confidence)
+    totals = columns.sum(axis=0, keepdims=True)
+    for name in names:
+        st = statistics[name]
+        if isinstance(st, LinearStatistic):
+            point = float(st.finish(totals[:, spans[name]])[0])
+        else:
+            point = float(st(np.ones((1, len(candidate)), dtype=np.float64))[0])
+        results[name] = summarise(point, np.concatenate(collected[name]), confidence)
     return results
 
 
 def summarise(point: float, differences: np.ndarray, confidence: float) -> BootstrapResult:
     """Percentile interval, and the p-value of the interval that just touches zero.
 
-    p = 2 min(#(d* <= 0) + 1, #(d* >= 0) + 1) / (B + 1), at most 1: the smallest level at
-    which the percentile interval excludes zero, counted so that it is never exactly 0.
+    p = 2 min(#(d* <= 0) + 1, #(d* >= 0) + 1) / (B + 1), at most 1: about the smallest level
+    at which the percentile interval excludes zero, counted so that it is never exactly 0.
     """
     finite = differences[np.isfinite(differences)]
     count = finite.shape[0]
-    if count == 0:
-        return BootstrapResult(point, point, point, 1.0, 0)
+    if count == 0 or not math.isfinite(point):
+        return BootstrapResult(point, point, point, 1.0, count)
     alpha = 1.0 - confidence
     low, high = np.quantile(finite, [alpha / 2.0, 1.0 - alpha / 2.0])
     at_or_below = int(np.count_nonzero(finite <= 0.0))
@@ -123,19 +177,27 @@ def summarise(point: float, differences: np.ndarray, confidence: float) -> Boots
     return BootstrapResult(point, float(low), float(high), p_value, count)
 
 
+@dataclass(frozen=True)
+class LinearStatistic:
+    """A metric difference that is a function of weighted column sums: finish(W @ columns)."""
+
+    columns: np.ndarray
+    finish: Callable[[np.ndarray], np.ndarray]
+
+
 Statistic = Callable[[np.ndarray], np.ndarray]
 
 
 def _statistic(name: str, candidate: Predictions, baseline: Predictions,
-               threshold: float) -> Statistic:
-    """A function from a weights chunk to the metric difference of each resample."""
+               threshold: float) -> LinearStatistic | Statistic:
+    """How to get the metric difference of each resample from its weights."""
     labels = candidate.labels
-    task = candidate.task
     if name == "average_precision":
-        return _difference(_weighted_average_precision(labels, candidate.scores),
-                           _weighted_average_precision(labels, baseline.scores))
+        first = _weighted_average_precision(labels, candidate.scores)
+        second = _weighted_average_precision(labels, baseline.scores)
+        return lambda weights: first(weights) - second(weights)
     if name == "log_loss":
-        if task == "binary":
+        if candidate.task == "binary":
             losses = m.binary_log_losses(labels, candidate.scores) - m.binary_log_losses(
                 labels, baseline.scores)
         else:
@@ -152,10 +214,9 @@ def _statistic(name: str, candidate: Predictions, baseline: Predictions,
     if name in ("rmse", "r2"):
         return _weighted_regression(name, labels, candidate.scores, baseline.scores)
     if name == "macro_f1":
-        return _difference(_weighted_macro_f1(labels, np.argmax(candidate.scores, axis=1),
-                                              len(candidate.classes)),
-                           _weighted_macro_f1(labels, np.argmax(baseline.scores, axis=1),
-                                              len(candidate.classes)))
+        return _weighted_macro_f1_difference(labels, np.argmax(candidate.scores, axis=1),
+                                             np.argmax(baseline.scores, axis=1),
+                                             len(candidate.classes))
     raise ValueError(f"no bootstrap statistic for {name}")
 
 
@@ -166,30 +227,22 @@ def correctness(predictions: Predictions, threshold: float) -> np.ndarray:
     return np.argmax(predictions.scores, axis=1) == predictions.labels
 
 
-def _difference(first: Statistic, second: Statistic) -> Statistic:
-    return lambda weights: first(weights) - second(weights)
-
-
-def _weighted_mean(values: np.ndarray) -> Statistic:
-    columns = np.column_stack([values, np.ones_like(values)])
-
-    def statistic(weights: np.ndarray) -> np.ndarray:
-        sums = weights @ columns
+def _weighted_mean(values: np.ndarray) -> LinearStatistic:
+    def finish(sums: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore"):
             return sums[:, 0] / sums[:, 1]
 
-    return statistic
+    return LinearStatistic(np.column_stack([values, np.ones_like(values)]), finish)
 
 
 def _weighted_regression(name: str, labels: np.ndarray, candidate: np.ndarray,
-                         baseline: np.ndarray) -> Statistic:
+                         baseline: np.ndarray) -> LinearStatistic:
     # Centre the labels so that the resampled total sum of squares does not cancel.
     centred = labels - labels.mean()
     columns = np.column_stack([(candidate - labels) ** 2, (baseline - labels) ** 2,
                                centred, centred ** 2, np.ones_like(labels)])
 
-    def statistic(weights: np.ndarray) -> np.ndarray:
-        s = weights @ columns
+    def finish(s: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore"):
             if name == "rmse":
                 return np.sqrt(s[:, 0] / s[:, 4]) - np.sqrt(s[:, 1] / s[:, 4])
@@ -197,27 +250,33 @@ def _weighted_regression(name: str, labels: np.ndarray, candidate: np.ndarray,
             # r2(c) - r2(b) = (SSE_b - SSE_c) / SST
             return (s[:, 1] - s[:, 0]) / total
 
-    return statistic
+    return LinearStatistic(columns, finish)
 
 
-def _weighted_macro_f1(labels: np.ndarray, decisions: np.ndarray, classes: int) -> Statistic:
-    hits = labels == decisions
-    columns = np.column_stack(
-        [(hits & (labels == k)) for k in range(classes)]
-        + [(labels == k) for k in range(classes)]
-        + [(decisions == k) for k in range(classes)]).astype(np.float64)
+def _weighted_macro_f1_difference(labels: np.ndarray, candidate: np.ndarray,
+                                  baseline: np.ndarray, classes: int) -> LinearStatistic:
+    def count_columns(decisions: np.ndarray) -> list[np.ndarray]:
+        hits = labels == decisions
+        return ([hits & (labels == k) for k in range(classes)]
+                + [decisions == k for k in range(classes)])
 
-    def statistic(weights: np.ndarray) -> np.ndarray:
-        s = weights @ columns
-        true_positive = s[:, :classes]
-        label_count = s[:, classes:2 * classes]
-        decision_count = s[:, 2 * classes:]
+    label_columns = [labels == k for k in range(classes)]
+    columns = np.column_stack(label_columns + count_columns(candidate)
+                              + count_columns(baseline)).astype(np.float64)
+
+    def macro_f1(label_count: np.ndarray, counts: np.ndarray) -> np.ndarray:
+        true_positive, decision_count = counts[:, :classes], counts[:, classes:]
         present = (label_count + decision_count) > 0
         with np.errstate(invalid="ignore", divide="ignore"):
             f1 = np.where(present, 2.0 * true_positive / (label_count + decision_count), 0.0)
         return f1.sum(axis=1) / present.sum(axis=1)
 
-    return statistic
+    def finish(s: np.ndarray) -> np.ndarray:
+        label_count = s[:, :classes]
+        return (macro_f1(label_count, s[:, classes:3 * classes])
+                - macro_f1(label_count, s[:, 3 * classes:]))
+
+    return LinearStatistic(columns, finish)
 
 
 def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Statistic:
@@ -235,15 +294,17 @@ def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Stati
     # For each positive: the last slot of its tie group, and the last positive in that group.
     end_slot = group_end[group_of[positive_slots]]
     last_positive = np.searchsorted(positive_slots, end_slot, side="right") - 1
+    # Integer counts stay exact in float32 up to 2**24.
+    exact = np.float32 if labels.shape[0] < 2**23 else np.float64
 
     def statistic(weights: np.ndarray) -> np.ndarray:
-        predicted_positive = np.cumsum(weights[:, descending], axis=1)[:, end_slot]
-        positive_weights = weights[:, positive_rows]
+        predicted_positive = np.cumsum(weights[:, descending], axis=1, dtype=exact)[:, end_slot]
+        positive_weights = weights[:, positive_rows].astype(exact)
         true_positive = np.cumsum(positive_weights, axis=1)
         total = true_positive[:, -1]
         with np.errstate(invalid="ignore", divide="ignore"):
             precision = true_positive[:, last_positive] / predicted_positive
             precision = np.where(positive_weights > 0, precision, 0.0)
-            return np.sum(positive_weights * precision, axis=1) / total
+            return np.sum(positive_weights * precision, axis=1, dtype=np.float64) / total
 
     return statistic
