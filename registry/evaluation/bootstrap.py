@@ -122,7 +122,7 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
                      resamples: int = 1000) -> dict[str, BootstrapResult]:
     """Percentile intervals and two-sided p-values of metric differences on aligned rows."""
     names = tuple(metric_names or BOOTSTRAP_METRICS[candidate.task])
-    statistics = {name: _statistic(name, candidate, baseline, threshold) for name in names}
+    statistics = {name: difference_statistic(name, candidate, baseline, threshold) for name in names}
     linear = {name: st for name, st in statistics.items() if isinstance(st, LinearStatistic)}
     ranked = {name: st for name, st in statistics.items() if not isinstance(st, LinearStatistic)}
 
@@ -188,7 +188,7 @@ class LinearStatistic:
 Statistic = Callable[[np.ndarray], np.ndarray]
 
 
-def _statistic(name: str, candidate: Predictions, baseline: Predictions,
+def difference_statistic(name: str, candidate: Predictions, baseline: Predictions,
                threshold: float) -> LinearStatistic | Statistic:
     """How to get the metric difference of each resample from its weights."""
     labels = candidate.labels
@@ -298,8 +298,9 @@ def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Stati
     exact = np.float32 if labels.shape[0] < 2**23 else np.float64
 
     def statistic(weights: np.ndarray) -> np.ndarray:
-        predicted_positive = np.cumsum(weights[:, descending], axis=1, dtype=exact)[:, end_slot]
-        positive_weights = weights[:, positive_rows].astype(exact)
+        dtype = np.float64 if weights.dtype == np.float64 else exact
+        predicted_positive = np.cumsum(weights[:, descending], axis=1, dtype=dtype)[:, end_slot]
+        positive_weights = weights[:, positive_rows].astype(dtype)
         true_positive = np.cumsum(positive_weights, axis=1)
         total = true_positive[:, -1]
         with np.errstate(invalid="ignore", divide="ignore"):

@@ -17,10 +17,12 @@ def mcnemar_exact_p_value(candidate_only: int, baseline_only: int) -> float:
     if discordant == 0:
         return 1.0
     smaller = min(candidate_only, baseline_only)
-    # log pmf(i) = -N log 2 + sum_{j < i} log((N - j) / (j + 1))
-    steps = np.arange(smaller, dtype=np.float64)
-    log_pmf = np.concatenate(([0.0], np.cumsum(np.log((discordant - steps) / (steps + 1.0)))))
-    log_pmf -= discordant * math.log(2.0)
-    peak = float(log_pmf.max())
-    log_tail = peak + math.log(float(np.sum(np.exp(log_pmf - peak))))
+    # Anchor at pmf(k) with lgamma, then walk down: pmf(i - 1) = pmf(i) i / (N - i + 1).
+    # Summing log ratios away from k keeps the rounding small where the mass is.
+    log_peak = (math.lgamma(discordant + 1) - math.lgamma(smaller + 1)
+                - math.lgamma(discordant - smaller + 1) - discordant * math.log(2.0))
+    below = np.arange(smaller, 0, -1, dtype=np.float64)
+    log_ratios = np.log(below / (discordant - below + 1.0))
+    relative = np.concatenate(([0.0], np.cumsum(log_ratios)))
+    log_tail = log_peak + math.log(float(np.sum(np.exp(relative))))
     return min(1.0, 2.0 * math.exp(log_tail))
