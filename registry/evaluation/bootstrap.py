@@ -122,7 +122,8 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
                      resamples: int = 1000) -> dict[str, BootstrapResult]:
     """Percentile intervals and two-sided p-values of metric differences on aligned rows."""
     names = tuple(metric_names or BOOTSTRAP_METRICS[candidate.task])
-    statistics = {name: difference_statistic(name, candidate, baseline, threshold) for name in names}
+    statistics = {name: difference_statistic(name, candidate, baseline, threshold)
+                  for name in names}
     linear = {name: st for name, st in statistics.items() if isinstance(st, LinearStatistic)}
     ranked = {name: st for name, st in statistics.items() if not isinstance(st, LinearStatistic)}
 
