@@ -299,6 +299,8 @@ def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Stati
     exact = np.float32 if labels.shape[0] < 2**23 else np.float64
 
     def statistic(weights: np.ndarray) -> np.ndarray:
+        if positive_rows.shape[0] == 0:  # no positives: average precision is undefined
+            return np.full(weights.shape[0], np.nan)
         dtype = np.float64 if weights.dtype == np.float64 else exact
         predicted_positive = np.cumsum(weights[:, descending], axis=1, dtype=dtype)[:, end_slot]
         positive_weights = weights[:, positive_rows].astype(dtype)
