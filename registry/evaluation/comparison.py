@@ -101,7 +101,7 @@ def pair_rows(candidate: Predictions, baseline: Predictions) -> PairedRows:
             classes=candidate.classes, extra_columns=paired_baseline.extra_columns)
     disagree = np.flatnonzero(paired_candidate.labels != paired_baseline.labels)
     if disagree.size:
-        row_id = paired_candidate.row_ids[disagree[0]]
+        row_id = str(paired_candidate.row_ids[disagree[0]])
         raise PredictionsError(
             f"row id {row_id!r} has a different label in the baseline; both files must "
             f"be predictions on the same labelled rows", place="column label")

@@ -294,7 +294,7 @@ def _class_labels(values: Sequence[Any] | np.ndarray, classes: tuple[str, ...]) 
     bad = np.flatnonzero(known[indices] != texts)
     if bad.size:
         raise PredictionsError(
-            f"label {_quote(texts[bad[0]])} does not fit this multiclass task: it has no "
+            f"label {_quote(str(texts[bad[0]]))} does not fit this multiclass task: it has no "
             f"p_<class> column (classes: {', '.join(classes)})",
             place=_place(bad[0], "label"))
     return indices.astype(np.int64)
@@ -312,7 +312,7 @@ def _check_unique(row_ids: np.ndarray) -> None:
     repeated_row = int(later_rows[worst])
     first_row = int(order[np.searchsorted(ordered, ordered[repeats[worst]])])
     raise PredictionsError(
-        f"row id {row_ids[repeated_row]!r} repeats row {first_row + 1}",
+        f"row id {str(row_ids[repeated_row])!r} repeats row {first_row + 1}",
         place=_place(repeated_row, "row_id"))
 
 
