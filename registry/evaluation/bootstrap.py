@@ -45,20 +45,27 @@ class BootstrapResult:
     resamples: int
 
 
+_UNRESOLVED = 255
+_FIRST_LEVEL_MOST = 4  # weights up to this are read off the first byte by comparisons
+
+
 @dataclass(frozen=True)
 class _PoissonBytes:
-    """Exact Poisson(1) draws from one random byte each (plus a fresh uniform for about 2%).
+    """Exact Poisson(1) draws from one random byte each (a second byte for about 2 %).
 
-    The byte picks one of 256 equal intervals of the uniform. Intervals that lie within a single
-    step of the Poisson(1) CDF are renumbered first, in order of their value, so the weight is a
-    count of thresholds passed; the few intervals a CDF step cuts through come last and are
-    resolved exactly by drawing where in the interval the uniform fell.
+    The byte picks one of 256 equal intervals of the uniform. Intervals that lie within one step
+    of the Poisson(1) CDF with a weight of at most 4 are renumbered first, in order of their
+    weight, so the weight is a count of thresholds passed. The rest (the five intervals a CDF
+    step cuts through) come last and are resolved exactly by where
+    in the interval the uniform fell: a second byte, and for the few sub-intervals a step cuts
+    again, a fresh uniform.
     """
 
-    thresholds: tuple[int, ...]  # byte b has weight #{t in thresholds: b >= t}, if b < clean
-    clean: int
-    straddling: np.ndarray  # interval index of bytes clean, clean + 1, ...
+    thresholds: tuple[int, ...]  # byte b < first_level has weight #{t in thresholds: b >= t}
+    first_level: int
+    second_intervals: np.ndarray  # interval of byte first_level + i
     cdf: np.ndarray
+    second_level: np.ndarray  # weight of (second interval, second byte), or _UNRESOLVED
 
     @classmethod
     def build(cls) -> _PoissonBytes:
@@ -68,39 +75,52 @@ class _PoissonBytes:
         intervals = np.arange(256)
         low = np.searchsorted(cdf, intervals / 256.0, side="right")
         below_high = np.searchsorted(cdf, (intervals + 1) / 256.0, side="left")
-        is_clean = low == below_high
-        clean_weights = low[is_clean]
-        thresholds = tuple(int(np.searchsorted(clean_weights, w, side="left"))
-                           for w in range(1, int(clean_weights.max()) + 1))
-        return cls(thresholds, int(is_clean.sum()), intervals[~is_clean], cdf)
+        on_first = (low == below_high) & (low <= _FIRST_LEVEL_MOST)
+        first_weights = low[on_first]
+        thresholds = tuple(int(np.searchsorted(first_weights, w, side="left"))
+                           for w in range(1, _FIRST_LEVEL_MOST + 1))
+        second_intervals = intervals[~on_first]
+        sub = np.arange(256)[None, :]
+        low_edges = (second_intervals[:, None] + sub / 256.0) / 256.0
+        high_edges = (second_intervals[:, None] + (sub + 1) / 256.0) / 256.0
+        low_weight = np.searchsorted(cdf, low_edges.ravel(), side="right")
+        below_high = np.searchsorted(cdf, high_edges.ravel(), side="left")
+        second_level = np.where(low_weight == below_high, low_weight, _UNRESOLVED).astype(np.uint8)
+        first_level = int(on_first.sum())
+        return cls(thresholds, first_level, second_intervals, cdf, second_level)
 
     def draw(self, rng: np.random.Generator, shape: tuple[int, int]) -> np.ndarray:
         cells = shape[0] * shape[1]
         picks = rng.bit_generator.random_raw((cells + 7) // 8).view(np.uint8)[:cells]
-        weights = np.empty(cells, dtype=np.uint8)
-        passed = np.empty(min(cells, _DRAW_BLOCK), dtype=np.bool_)
-        # Blocks small enough to stay in cache; each threshold is one vector comparison.
-        for first in range(0, cells, _DRAW_BLOCK):
-            block_picks = picks[first:first + _DRAW_BLOCK]
-            block_weights = weights[first:first + _DRAW_BLOCK]
-            block_passed = passed[:block_picks.shape[0]]
-            np.greater_equal(block_picks, self.thresholds[0], out=block_weights.view(np.bool_))
-            for threshold in self.thresholds[1:]:
-                np.greater_equal(block_picks, threshold, out=block_passed)
-                block_weights += block_passed.view(np.uint8)
-        cut = np.flatnonzero(picks >= self.clean)
+        weights = np.greater_equal(picks, self.thresholds[0]).view(np.uint8)
+        passed = np.empty(cells, dtype=np.bool_)
+        for threshold in self.thresholds[1:]:
+            np.greater_equal(picks, threshold, out=passed)
+            weights += passed.view(np.uint8)
+        cut = np.flatnonzero(picks >= self.first_level)
         if cut.size:
-            where = (self.straddling[picks[cut] - self.clean] + rng.random(cut.size)) / 256.0
-            weights[cut] = np.searchsorted(self.cdf, where, side="right")
+            second = rng.bit_generator.random_raw((cut.size + 7) // 8).view(np.uint8)[:cut.size]
+            interval = picks[cut].astype(np.intp) - self.first_level
+            resolved = self.second_level.take(interval * 256 + second)
+            deep = np.flatnonzero(resolved == _UNRESOLVED)
+            if deep.size:
+                where = (self.second_intervals[interval[deep]]
+                         + (second[deep] + rng.random(deep.size)) / 256.0) / 256.0
+                resolved[deep] = np.searchsorted(self.cdf, where, side="right")
+            weights[cut] = resolved
         return weights.reshape(shape)
 
 
-_DRAW_BLOCK = 1 << 18
 _POISSON = _PoissonBytes.build()
 
 
-def resample_weights(rows: int, resamples: int, seed: int | Sequence[int]) -> Iterator[np.ndarray]:
-    """Chunks of a (resamples x rows) matrix of integer bootstrap weights, fixed by the seed."""
+def weight_chunks(rows: int, resamples: int, seed: int | Sequence[int]
+                  ) -> Iterator[tuple[int, Iterator[tuple[int, np.ndarray]]]]:
+    """Resamples in chunks; each chunk as (size, blocks of (first row, weights of its rows)).
+
+    Poisson weights are drawn one block of rows at a time, so a block is still in cache when
+    it is used; the random stream is the same whether or not a caller keeps the whole chunk.
+    """
     rng = np.random.default_rng(seed)
     per_chunk = max(1, min(resamples, CHUNK_CELLS // max(rows, 1)))
     done = 0
@@ -110,10 +130,20 @@ def resample_weights(rows: int, resamples: int, seed: int | Sequence[int]) -> It
             draws = rng.integers(0, rows, size=(count, rows))
             draws += (np.arange(count) * rows)[:, None]
             weights = np.bincount(draws.ravel(), minlength=count * rows)
-            yield weights.reshape(count, rows).astype(np.uint16)
+            chunk = weights.reshape(count, rows).astype(np.uint16)
+            blocks = ((first, chunk[:, first:first + ROW_BLOCK])
+                      for first in range(0, rows, ROW_BLOCK))
         else:
-            yield _POISSON.draw(rng, (count, rows))
+            blocks = ((first, _POISSON.draw(rng, (count, min(ROW_BLOCK, rows - first))))
+                      for first in range(0, rows, ROW_BLOCK))
+        yield count, blocks
         done += count
+
+
+def resample_weights(rows: int, resamples: int, seed: int | Sequence[int]) -> Iterator[np.ndarray]:
+    """Chunks of a (resamples x rows) matrix of integer bootstrap weights, fixed by the seed."""
+    for _, blocks in weight_chunks(rows, resamples, seed):
+        yield np.hstack([block for _, block in blocks])
 
 
 def paired_bootstrap(candidate: Predictions, baseline: Predictions,
@@ -132,28 +162,33 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
     for name, st in linear.items():
         spans[name] = slice(start, start + st.columns.shape[1])
         start += st.columns.shape[1]
-    columns = (np.hstack([st.columns for st in linear.values()]) if linear
-               else np.zeros((len(candidate), 0)))
+    # The last column is all ones: the total weight of each resample, shared by every metric.
+    columns = np.hstack([st.columns for st in linear.values()]
+                        + [np.ones((len(candidate), 1))])
     columns32 = columns.astype(np.float32)
 
     collected: dict[str, list[np.ndarray]] = {name: [] for name in names}
-    for weights in resample_weights(len(candidate), resamples, seed):
-        if linear:
-            sums = np.zeros((weights.shape[0], columns.shape[1]))
-            for first in range(0, weights.shape[1], ROW_BLOCK):
-                block = slice(first, first + ROW_BLOCK)
-                sums += weights[:, block].astype(np.float32) @ columns32[block]
-            for name, st in linear.items():
-                collected[name].append(st.finish(sums[:, spans[name]]))
-        for name, st in ranked.items():
-            collected[name].append(st(weights))
+    for count, blocks in weight_chunks(len(candidate), resamples, seed):
+        sums = np.zeros((count, columns.shape[1]))
+        kept = []
+        for first, block in blocks:
+            if linear:
+                sums += block.astype(np.float32) @ columns32[first:first + block.shape[1]]
+            if ranked:
+                kept.append(block)
+        for name, st in linear.items():
+            collected[name].append(st.finish(sums[:, spans[name]], sums[:, -1]))
+        if ranked:
+            weights = np.hstack(kept)
+            for name, st in ranked.items():
+                collected[name].append(st(weights))
 
     results = {}
     totals = columns.sum(axis=0, keepdims=True)
     for name in names:
         st = statistics[name]
         if isinstance(st, LinearStatistic):
-            point = float(st.finish(totals[:, spans[name]])[0])
+            point = float(st.finish(totals[:, spans[name]], totals[:, -1])[0])
         else:
             point = float(st(np.ones((1, len(candidate)), dtype=np.float64))[0])
         results[name] = summarise(point, np.concatenate(collected[name]), confidence)
@@ -180,10 +215,13 @@ def summarise(point: float, differences: np.ndarray, confidence: float) -> Boots
 
 @dataclass(frozen=True)
 class LinearStatistic:
-    """A metric difference that is a function of weighted column sums: finish(W @ columns)."""
+    """A metric difference that is a function of weighted column sums.
+
+    finish(W @ columns, total weight of each resample) gives the difference per resample.
+    """
 
     columns: np.ndarray
-    finish: Callable[[np.ndarray], np.ndarray]
+    finish: Callable[[np.ndarray, np.ndarray], np.ndarray]
 
 
 Statistic = Callable[[np.ndarray], np.ndarray]
@@ -229,11 +267,11 @@ def correctness(predictions: Predictions, threshold: float) -> np.ndarray:
 
 
 def _weighted_mean(values: np.ndarray) -> LinearStatistic:
-    def finish(sums: np.ndarray) -> np.ndarray:
+    def finish(sums: np.ndarray, total: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore"):
-            return sums[:, 0] / sums[:, 1]
+            return sums[:, 0] / total
 
-    return LinearStatistic(np.column_stack([values, np.ones_like(values)]), finish)
+    return LinearStatistic(values[:, None].astype(np.float64), finish)
 
 
 def _weighted_regression(name: str, labels: np.ndarray, candidate: np.ndarray,
@@ -241,13 +279,13 @@ def _weighted_regression(name: str, labels: np.ndarray, candidate: np.ndarray,
     # Centre the labels so that the resampled total sum of squares does not cancel.
     centred = labels - labels.mean()
     columns = np.column_stack([(candidate - labels) ** 2, (baseline - labels) ** 2,
-                               centred, centred ** 2, np.ones_like(labels)])
+                               centred, centred ** 2])
 
-    def finish(s: np.ndarray) -> np.ndarray:
+    def finish(s: np.ndarray, weight: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore"):
             if name == "rmse":
-                return np.sqrt(s[:, 0] / s[:, 4]) - np.sqrt(s[:, 1] / s[:, 4])
-            total = s[:, 3] - s[:, 2] ** 2 / s[:, 4]
+                return np.sqrt(s[:, 0] / weight) - np.sqrt(s[:, 1] / weight)
+            total = s[:, 3] - s[:, 2] ** 2 / weight
             # r2(c) - r2(b) = (SSE_b - SSE_c) / SST
             return (s[:, 1] - s[:, 0]) / total
 
@@ -272,7 +310,7 @@ def _weighted_macro_f1_difference(labels: np.ndarray, candidate: np.ndarray,
             f1 = np.where(present, 2.0 * true_positive / (label_count + decision_count), 0.0)
         return f1.sum(axis=1) / present.sum(axis=1)
 
-    def finish(s: np.ndarray) -> np.ndarray:
+    def finish(s: np.ndarray, weight: np.ndarray) -> np.ndarray:
         label_count = s[:, :classes]
         return (macro_f1(label_count, s[:, classes:3 * classes])
                 - macro_f1(label_count, s[:, 3 * classes:]))

@@ -247,7 +247,7 @@ def _is_number(value: Any) -> bool:
 def _quote(value: Any) -> str:
     if value is None or value == "":
         return "an empty value"
-    return repr(value) if isinstance(value, str) else str(value)
+    return repr(str(value)) if isinstance(value, str) else str(value)
 
 
 def _probability_column(values: Sequence[Any] | np.ndarray, column: str) -> np.ndarray:

@@ -73,7 +73,8 @@ def test_a_weighted_resample_equals_the_metric_on_the_rows_repeated(pair):
     for name in BOOTSTRAP_METRICS[candidate.task]:
         statistic = difference_statistic(name, candidate, baseline, 0.5)
         if hasattr(statistic, "columns"):
-            values = statistic.finish(weights.astype(np.float64) @ statistic.columns)
+            values = statistic.finish(weights.astype(np.float64) @ statistic.columns,
+                                      weights.sum(axis=1).astype(np.float64))
         else:
             values = statistic(weights)
         for row, counts in enumerate(weights):
