@@ -324,7 +324,7 @@ def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Stati
     With integer weights it equals scikit-learn's average_precision_score on the rows repeated
     that many times: precision is read at the end of each group of tied scores.
     """
-    descending = np.argsort(scores)[::-1]
+    descending = np.ascontiguousarray(np.argsort(scores)[::-1])
     ordered = scores[descending]
     group_end = np.flatnonzero(np.append(ordered[1:] != ordered[:-1], True))
     group_of = np.repeat(np.arange(group_end.shape[0]), np.diff(group_end, prepend=-1))
@@ -333,20 +333,20 @@ def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Stati
     # For each positive: the last slot of its tie group, and the last positive in that group.
     end_slot = group_end[group_of[positive_slots]]
     last_positive = np.searchsorted(positive_slots, end_slot, side="right") - 1
-    # Integer counts stay exact in float32 up to 2**24.
-    exact = np.float32 if labels.shape[0] < 2**23 else np.float64
-
     def statistic(weights: np.ndarray) -> np.ndarray:
         if positive_rows.shape[0] == 0:  # no positives: average precision is undefined
             return np.full(weights.shape[0], np.nan)
-        dtype = np.float64 if weights.dtype == np.float64 else exact
-        predicted_positive = np.cumsum(weights[:, descending], axis=1, dtype=dtype)[:, end_slot]
-        positive_weights = weights[:, positive_rows].astype(dtype)
+        # Weights are counts: integer prefix sums are exact, and in place they are fastest.
+        predicted_positive = np.take(weights, descending, axis=1).astype(np.int32)
+        np.cumsum(predicted_positive, axis=1, out=predicted_positive)
+        predicted_positive = np.take(predicted_positive, end_slot, axis=1)
+        positive_weights = np.take(weights, positive_rows, axis=1).astype(np.int32)
         true_positive = np.cumsum(positive_weights, axis=1)
-        total = true_positive[:, -1]
+        total = true_positive[:, -1].astype(np.float64)
+        # A positive of weight 0 with nothing drawn above it contributes 0, not 0/0.
+        precision = np.take(true_positive, last_positive, axis=1) / np.maximum(
+            predicted_positive, 1)
         with np.errstate(invalid="ignore", divide="ignore"):
-            precision = true_positive[:, last_positive] / predicted_positive
-            precision = np.where(positive_weights > 0, precision, 0.0)
-            return np.sum(positive_weights * precision, axis=1, dtype=np.float64) / total
+            return np.sum(precision * positive_weights, axis=1) / total
 
     return statistic
