@@ -1,4 +1,4 @@
-"""`lockkeeper metrics`: metrics of a predictions file, and a paired comparison, without a catalogue."""
+"""`lockkeeper metrics`: metrics of a predictions file and a paired comparison, no catalogue."""
 
 from __future__ import annotations
 
@@ -78,8 +78,9 @@ def render_text(document: dict[str, Any]) -> str:
         for b in document["calibration"]:
             if b["count"]:
                 opening = "[" if b["lower"] == 0 else "("
-                lines.append(f"  {opening}{b['lower']:.1f}, {b['upper']:.1f}]  {b['count']:>8} rows  "
-                             f"mean score {b['mean_score']:.4f}  observed {b['observed_rate']:.4f}")
+                lines.append(f"  {opening}{b['lower']:.1f}, {b['upper']:.1f}]  "
+                             f"{b['count']:>8} rows  mean score {b['mean_score']:.4f}  "
+                             f"observed {b['observed_rate']:.4f}")
     return "\n".join(lines)
 
 

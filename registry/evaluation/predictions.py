@@ -375,3 +375,21 @@ def _parquet_columns(data: bytes, path: Path) -> dict[str, Any]:
 
 class UndefinedMetric(PredictionsError):
     """The rows cannot define a metric or a test (one class only, too few rows)."""
+
+
+def check_row_ids(predictions: Predictions, expected_row_ids: Sequence[str] | np.ndarray,
+                  *, dataset: str = "the dataset") -> None:
+    """Refuse predictions whose row ids are not exactly the expected key set (a dataset's keys)."""
+    expected = np.unique(np.asarray([str(key) for key in expected_row_ids], dtype=str))
+    missing = np.setdiff1d(expected, predictions.row_ids, assume_unique=True)
+    unexpected = np.setdiff1d(predictions.row_ids, expected, assume_unique=True)
+    if missing.size == 0 and unexpected.size == 0:
+        return
+    parts = []
+    if missing.size:
+        parts.append(f"{missing.size} row ids of {dataset} have no prediction "
+                     f"(first: {str(missing[0])!r})")
+    if unexpected.size:
+        parts.append(f"{unexpected.size} predicted row ids are not in {dataset} "
+                     f"(first: {str(unexpected[0])!r})")
+    raise PredictionsError("; ".join(parts), place="column row_id")

@@ -1,4 +1,4 @@
-"""Midranks (tied values share the mean of their ranks): the exact tie handling of AUC and DeLong."""
+"""Midranks (tied values share the mean of their ranks): exact ties for the AUC and DeLong."""
 
 from __future__ import annotations
 

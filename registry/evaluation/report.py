@@ -1,4 +1,4 @@
-"""One evaluation of a predictions file, optionally against a baseline and per slice: the metrics JSON."""
+"""One evaluation of predictions, with a baseline and per slice if asked: the metrics JSON."""
 
 from __future__ import annotations
 
@@ -7,7 +7,8 @@ from pathlib import Path
 from typing import Any
 
 from registry.evaluation.comparison import ComparisonReport, check_confidence, compare
-from registry.evaluation.metrics import HIGHER_IS_BETTER, METRIC_NAMES, MetricReport, compute_metrics
+from registry.evaluation.metrics import (
+    HIGHER_IS_BETTER, METRIC_NAMES, MetricReport, compute_metrics)
 from registry.evaluation.predictions import Predictions, read_predictions
 from registry.evaluation.slices import SliceReport, compare_slices, slice_metrics
 

@@ -96,8 +96,8 @@ def test_percentile_intervals_cover_the_true_difference_about_95_percent_of_the_
     # Coverage over repeated simulated draws (Efron and Tibshirani 1993, ch. 13 and 22): the
     # true brier and log-loss differences of the population are estimated on 2,000,000 rows.
     # Seeded throughout, so the count is fixed; 400 draws give a binomial standard deviation of
-    # about 1.1 points (this seed covers 94.75 % and 95.25 %), and the band allows for the percentile interval's slight undercover at
-    # n = 150.
+    # about 1.1 points (this seed covers 94.75 % and 95.25 %), and the band allows for the
+    # percentile interval's slight undercover at n = 150.
     population_candidate, population_baseline = binary_pair(99, 2_000_000)
     truth = {
         "brier": _reference("brier", population_candidate) - _reference(

@@ -1,4 +1,4 @@
-"""McNemar's exact test against scipy.stats.binomtest (two-sided, p = 1/2) on the discordant pairs."""
+"""McNemar's exact test against scipy.stats.binomtest (two-sided, p = 1/2) on discordant pairs."""
 
 from __future__ import annotations
 

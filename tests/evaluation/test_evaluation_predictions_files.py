@@ -61,3 +61,15 @@ def test_stored_columns_and_bytes_round_trip_exactly(pair):
     _same(Predictions.from_bytes(predictions.to_bytes()), predictions)
     assert compute_metrics(Predictions.from_bytes(predictions.to_bytes())).metrics == \
         compute_metrics(predictions).metrics
+
+
+def test_row_ids_must_be_exactly_the_dataset_keys():
+    from registry.evaluation import PredictionsError, check_row_ids
+    predictions, _ = binary_pair(67, 5)
+    check_row_ids(predictions, list(reversed(predictions.row_ids.tolist())))
+    with pytest.raises(PredictionsError) as refused:
+        check_row_ids(predictions, predictions.row_ids.tolist()[:4] + ["S-999999"],
+                      dataset="brackwater-evaluation-set")
+    line = refused.value.one_line()
+    assert line.startswith("column row_id: 1 row ids of brackwater-evaluation-set have no")
+    assert "'S-999999'" in line and "'S-000004'" in line

@@ -183,3 +183,17 @@ def test_an_unknown_slice_column_is_one_line_and_exit_2(pair_files):
 def test_a_confidence_outside_zero_and_one_is_one_line_and_exit_2(pair_files):
     assert_one_line_error(run(str(pair_files[0]), "--task", "binary", "--confidence", "95"),
                           "--confidence")
+
+
+def test_the_worked_example_of_the_evaluation_document(tmp_path):
+    # docs/evaluation.md: six rows with a tie at 0.64, worked by hand from the definitions.
+    path = write_csv(tmp_path / "v2.csv", ["row_id", "label", "score", "district"], [
+        ["S-000001", 1, 0.82, "NORTHGATE"], ["S-000002", 0, 0.1, "RIVERSIDE"],
+        ["S-000003", 0, 0.35, "NORTHGATE"], ["S-000004", 1, 0.64, "RIVERSIDE"],
+        ["S-000005", 0, 0.64, "NORTHGATE"], ["S-000006", 1, 0.47, "NORTHGATE"]])
+    metrics = json.loads(run(str(path), "--task", "binary", "--json").stdout)["metrics"]
+    assert metrics["roc_auc"] == pytest.approx(7.5 / 9)
+    assert metrics["average_precision"] == pytest.approx((1 + 2 / 3 + 3 / 4) / 3)
+    assert metrics["accuracy"] == pytest.approx(4 / 6)
+    assert metrics["brier"] == pytest.approx(
+        (0.18**2 + 0.1**2 + 0.35**2 + 0.36**2 + 0.64**2 + 0.53**2) / 6)
