@@ -2,8 +2,10 @@
 
 Each resample gives every row a weight, the number of times the row is drawn, shared by both
 models (that is what makes it paired). Metrics are then weighted sums, so a chunk of resamples is
-one matrix product (W @ per-row values) instead of a Python loop over resamples; the ranking
-metric (average precision) reuses one sort per model and weighted cumulative sums.
+one matrix product (W @ per-row values) instead of a Python loop over resamples, in float32
+blocks of rows summed in float64 (on 1,000,000 rows the rounding is about 1e-9, some 1e-5 of
+the resampling spread); the ranking metric (average precision) reuses one sort per model and
+integer prefix sums of the weights.
 
 Weights: multinomial counts (Efron's bootstrap, n draws with replacement) for up to
 MULTINOMIAL_ROWS rows; above that independent Poisson(1) counts, the Poisson bootstrap
@@ -56,9 +58,8 @@ class _PoissonBytes:
     The byte picks one of 256 equal intervals of the uniform. Intervals that lie within one step
     of the Poisson(1) CDF with a weight of at most 4 are renumbered first, in order of their
     weight, so the weight is a count of thresholds passed. The rest (the five intervals a CDF
-    step cuts through) come last and are resolved exactly by where
-    in the interval the uniform fell: a second byte, and for the few sub-intervals a step cuts
-    again, a fresh uniform.
+    step cuts through) come last and are resolved exactly by where in the interval the uniform
+    fell: a second byte, and for the few sub-intervals a step cuts again, a fresh uniform.
     """
 
     thresholds: tuple[int, ...]  # byte b < first_level has weight #{t in thresholds: b >= t}
