@@ -334,20 +334,26 @@ def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Stati
     # For each positive: the last slot of its tie group, and the last positive in that group.
     end_slot = group_end[group_of[positive_slots]]
     last_positive = np.searchsorted(positive_slots, end_slot, side="right") - 1
+    precise = np.float32 if labels.shape[0] < 2**23 else np.float64
     def statistic(weights: np.ndarray) -> np.ndarray:
         if positive_rows.shape[0] == 0:  # no positives: average precision is undefined
             return np.full(weights.shape[0], np.nan)
         # Weights are counts: integer prefix sums are exact, and in place they are fastest.
+        # Counts below 2**24 are exact in float32 too, and every term of the final sum is
+        # positive, so float32 terms summed in float64 keep the relative error near 1e-7.
+        dtype = np.float64 if weights.dtype == np.float64 else precise
         predicted_positive = np.take(weights, descending, axis=1).astype(np.int32)
         np.cumsum(predicted_positive, axis=1, out=predicted_positive)
-        predicted_positive = np.take(predicted_positive, end_slot, axis=1)
+        predicted_positive = np.take(predicted_positive, end_slot, axis=1).astype(dtype)
         positive_weights = np.take(weights, positive_rows, axis=1).astype(np.int32)
-        true_positive = np.cumsum(positive_weights, axis=1)
+        true_positive = np.cumsum(positive_weights, axis=1, out=positive_weights.copy())
         total = true_positive[:, -1].astype(np.float64)
         # A positive of weight 0 with nothing drawn above it contributes 0, not 0/0.
-        precision = np.take(true_positive, last_positive, axis=1) / np.maximum(
-            predicted_positive, 1)
+        np.maximum(predicted_positive, 1, out=predicted_positive)
+        precision = np.take(true_positive, last_positive, axis=1).astype(dtype)
+        precision /= predicted_positive
+        precision *= positive_weights
         with np.errstate(invalid="ignore", divide="ignore"):
-            return np.sum(precision * positive_weights, axis=1) / total
+            return precision.sum(axis=1, dtype=np.float64) / total
 
     return statistic
