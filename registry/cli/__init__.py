@@ -45,6 +45,7 @@ COMMAND_MODULES = [
     "registry.cli.stage_commands",
     "registry.cli.evaluation_commands",
     "registry.cli.schema_commands",
+    "registry.cli.metrics_commands",
 ]
 
 
