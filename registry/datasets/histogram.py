@@ -1,0 +1,143 @@
+"""A mergeable histogram on fixed log-linear edges, from which quantiles are read.
+
+The edges are fixed by the number format, not by the data: every double whose lowest
+52 - m mantissa bits are zero is an edge, so each bucket spans a relative width of at most 2^-m
+(the log-linear bucketing of HdrHistogram and of DDSketch, Masson, Rim and Lee, VLDB 2019).
+Histograms of partitions merge by adding counts. When a histogram holds more than
+MAX_BUCKETS buckets it drops one mantissa bit (neighbouring buckets join, as in UDDSketch,
+Epicoco et al. 2020), which keeps its size bounded whatever the number of rows.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+MANTISSA_BITS = 7  # relative bucket width 2^-7, so a quantile is within 0.4% of a value seen
+MAX_BUCKETS = 2048
+_SIGN = np.uint64(1 << 63)
+
+
+@dataclass(frozen=True)
+class LogHistogram:
+    """Counts per signed bucket index: 0 holds zeros, +i positive and -i negative magnitudes."""
+
+    mantissa_bits: int
+    indices: np.ndarray  # int64, strictly increasing
+    counts: np.ndarray  # int64, same length
+
+    @property
+    def total(self) -> int:
+        return int(self.counts.sum())
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"mantissa_bits": self.mantissa_bits,
+                "buckets": [[int(i), int(c)] for i, c in zip(self.indices, self.counts)]}
+
+    @classmethod
+    def from_dict(cls, data: dict[str, Any]) -> "LogHistogram":
+        pairs = np.asarray(data["buckets"], dtype=np.int64).reshape(-1, 2)
+        return cls(int(data["mantissa_bits"]), pairs[:, 0].copy(), pairs[:, 1].copy())
+
+    def __eq__(self, other: object) -> bool:
+        return (isinstance(other, LogHistogram) and self.mantissa_bits == other.mantissa_bits
+                and np.array_equal(self.indices, other.indices)
+                and np.array_equal(self.counts, other.counts))
+
+    __hash__ = None  # type: ignore[assignment]
+
+
+def empty_histogram() -> LogHistogram:
+    return LogHistogram(MANTISSA_BITS, np.zeros(0, np.int64), np.zeros(0, np.int64))
+
+
+def bucket_indices(values: np.ndarray, mantissa_bits: int = MANTISSA_BITS) -> np.ndarray:
+    """Signed bucket index of each finite double: sign(x) * (1 + (bits(|x|) >> (52 - m)))."""
+    bits = values.view(np.uint64)
+    magnitude = (bits & ~_SIGN) >> np.uint64(52 - mantissa_bits)
+    index = magnitude.astype(np.int64) + 1
+    index[values == 0] = 0
+    negative = (bits & _SIGN) != 0
+    np.negative(index, out=index, where=negative)
+    return index
+
+
+def histogram_of(values: np.ndarray) -> LogHistogram:
+    """The histogram of finite doubles (the caller keeps NaN and infinities out)."""
+    if len(values) == 0:
+        return empty_histogram()
+    index = bucket_indices(values)
+    low, high = int(index.min()), int(index.max())
+    if high - low < 1 << 20:
+        counts = np.bincount(index - low)
+        present = np.flatnonzero(counts)
+        return LogHistogram(MANTISSA_BITS, present + low, counts[present].astype(np.int64))
+    unique, counts = np.unique(index, return_counts=True)
+    return LogHistogram(MANTISSA_BITS, unique, counts.astype(np.int64))
+
+
+def merge_histograms(a: LogHistogram, b: LogHistogram) -> LogHistogram:
+    bits = min(a.mantissa_bits, b.mantissa_bits)
+    a, b = coarsen(a, bits), coarsen(b, bits)
+    merged = _regroup(bits, np.concatenate([a.indices, b.indices]),
+                      np.concatenate([a.counts, b.counts]))
+    while len(merged.indices) > MAX_BUCKETS:
+        merged = coarsen(merged, merged.mantissa_bits - 1)
+    return merged
+
+
+def coarsen(histogram: LogHistogram, mantissa_bits: int) -> LogHistogram:
+    """The same counts on the edges of fewer mantissa bits."""
+    drop = histogram.mantissa_bits - mantissa_bits
+    if drop <= 0:
+        return histogram
+    index = histogram.indices
+    magnitude = (np.abs(index) - 1) >> drop
+    coarse = np.where(index == 0, 0, np.sign(index) * (magnitude + 1))
+    return _regroup(mantissa_bits, coarse, histogram.counts)
+
+
+def _regroup(bits: int, indices: np.ndarray, counts: np.ndarray) -> LogHistogram:
+    unique, inverse = np.unique(indices, return_inverse=True)
+    summed = np.zeros(len(unique), dtype=np.int64)
+    np.add.at(summed, inverse, counts)
+    return LogHistogram(bits, unique.astype(np.int64), summed)
+
+
+def bucket_bounds(histogram: LogHistogram) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper value of each bucket, in increasing order of value."""
+    index = histogram.indices
+    shift = np.uint64(52 - histogram.mantissa_bits)
+    magnitude = (np.abs(index) - 1).astype(np.uint64)
+    low = (magnitude << shift).view(np.float64)
+    high = ((magnitude + np.uint64(1)) << shift).view(np.float64)
+    lower = np.where(index > 0, low, np.where(index < 0, -high, 0.0))
+    upper = np.where(index > 0, high, np.where(index < 0, -low, 0.0))
+    return lower, upper
+
+
+def quantiles(histogram: LogHistogram, qs: np.ndarray, minimum: float,
+              maximum: float) -> np.ndarray:
+    """Value at each rank q(n-1): the middle of the bucket holding it, kept within [min, max]."""
+    if histogram.total == 0:
+        return np.full(len(qs), np.nan)
+    cumulative = np.cumsum(histogram.counts)
+    ranks = np.asarray(qs) * (cumulative[-1] - 1)
+    position = np.searchsorted(cumulative, ranks, side="right")
+    lower, upper = bucket_bounds(histogram)
+    middle = (lower[position] + upper[position]) / 2
+    return np.clip(middle, minimum, maximum)
+
+
+def aligned_masses(a: LogHistogram, b: LogHistogram) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Both histograms on shared edges: bucket indices and the counts of each."""
+    bits = min(a.mantissa_bits, b.mantissa_bits)
+    a, b = coarsen(a, bits), coarsen(b, bits)
+    union = np.union1d(a.indices, b.indices)
+    counts_a = np.zeros(len(union), np.int64)
+    counts_b = np.zeros(len(union), np.int64)
+    counts_a[np.searchsorted(union, a.indices)] = a.counts
+    counts_b[np.searchsorted(union, b.indices)] = b.counts
+    return union, counts_a, counts_b

@@ -1,0 +1,349 @@
+"""Streaming readers: Avro object container files, Parquet and CSV, read in bounded batches.
+
+Each reader yields Arrow record batches shaped by the dataset's record type (types.py), so the
+digest, profile and sketch code never sees which format the records came from. A part (i, n)
+reads every n-th row group, Avro block or CSV batch starting at the i-th, for partitioned runs.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import os
+from collections.abc import Callable, Iterator, Mapping
+from dataclasses import dataclass
+from typing import Any
+
+import fastavro
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.csv as pacsv
+import pyarrow.parquet as pq
+
+from registry.datasets.errors import (ColumnsNotMatching, DatasetFileError, EmptyDataset,
+                                      ValueNotParsing, cell)
+from registry.datasets.types import RecordType, ValueType, record_type, schema_from_arrow, \
+    strip_logical_types
+from registry.errors import UserError
+
+BATCH_ROWS = 65536
+CSV_BLOCK_BYTES = 1 << 22
+FORMATS = ("avro", "parquet", "csv")
+Part = tuple[int, int]
+
+
+@dataclass(frozen=True)
+class Source:
+    """A file, the format it is read as, and the record type its records are read under."""
+
+    path: str
+    format: str
+    record: RecordType
+    total_rows: int | None = None  # known up front for Parquet only
+
+    @property
+    def schema_json(self) -> Mapping[str, Any]:
+        return self.record.schema_json
+
+
+def open_source(path: str, schema_json: Mapping[str, Any] | None = None,
+                format: str | None = None) -> Source:
+    """Check the file exists and is not empty, choose its format and its record type."""
+    if not os.path.isfile(path):
+        raise DatasetFileError("no such file", place=path)
+    if os.path.getsize(path) == 0:
+        raise EmptyDataset("the file is empty", place=path)
+    chosen = format or guess_format(path)
+    if chosen not in FORMATS:
+        raise UserError(f"unknown format {chosen!r}; use one of {', '.join(FORMATS)}",
+                        place="--format")
+    if chosen == "avro":
+        schema = schema_json if schema_json is not None else _avro_writer_schema(path)
+        return Source(path, chosen, record_type(schema))
+    if chosen == "parquet":
+        metadata = _parquet_file(path).metadata
+        schema = schema_json if schema_json is not None else schema_from_arrow(
+            _parquet_file(path).schema_arrow)
+        return Source(path, chosen, record_type(schema), metadata.num_rows)
+    if schema_json is None:
+        raise UserError("a CSV file needs an Avro schema to type its columns", place="--schema")
+    return Source(path, chosen, record_type(schema_json))
+
+
+def guess_format(path: str) -> str:
+    extension = os.path.splitext(path)[1].lower()
+    if extension in (".avro",):
+        return "avro"
+    if extension in (".parquet", ".pq"):
+        return "parquet"
+    if extension in (".csv",):
+        return "csv"
+    with open(path, "rb") as handle:
+        magic = handle.read(4)
+    if magic == b"Obj\x01":
+        return "avro"
+    if magic == b"PAR1":
+        return "parquet"
+    return "csv"
+
+
+def read_batches(source: Source, part: Part = (0, 1),
+                 batch_rows: int = BATCH_ROWS) -> Iterator[tuple[int, pa.RecordBatch]]:
+    """Yield (number of rows before the batch, batch); raises EmptyDataset when nothing is read."""
+    readers = {"avro": _avro_batches, "parquet": _parquet_batches, "csv": _csv_batches}
+    seen = False
+    for first_row, batch in readers[source.format](source, part, batch_rows):
+        if batch.num_rows:
+            seen = True
+            yield first_row, batch
+    if not seen and part == (0, 1):
+        raise EmptyDataset("the file holds no records", place=source.path)
+
+
+# --- Avro ------------------------------------------------------------------------------------
+
+def _avro_writer_schema(path: str) -> dict[str, Any]:
+    try:
+        with open(path, "rb") as handle:
+            return json.loads(fastavro.reader(handle).metadata["avro.schema"])
+    except Exception as error:  # fastavro reports a bad header in several ways
+        raise DatasetFileError(f"not an Avro container file or its header is damaged ({error})",
+                               place=path) from error
+
+
+def _avro_batches(source: Source, part: Part, batch_rows: int):
+    struct = pa.struct([pa.field(n, t.arrow_type()) for n, t in source.record.fields])
+    reader_schema = strip_logical_types(dict(source.schema_json))
+    rows_read = 0
+    pending: list[dict] = []
+    pending_start = 0
+    with open(source.path, "rb") as handle:
+        try:
+            blocks = fastavro.block_reader(handle, reader_schema)
+        except fastavro.read.SchemaResolutionError as error:
+            raise ColumnsNotMatching(f"the file's schema cannot be read with the given schema: "
+                                     f"{error}", place=source.path) from error
+        except Exception as error:
+            raise DatasetFileError(f"not an Avro container file or its header is damaged "
+                                   f"({error})", place=source.path) from error
+        index = 0
+        while True:
+            try:
+                block = next(blocks)
+            except StopIteration:
+                break
+            except Exception as error:  # a truncated or damaged block
+                raise DatasetFileError(f"the Avro file is truncated or damaged ({error})",
+                                       place=f"row {rows_read + 1}") from error
+            mine = index % part[1] == part[0]
+            index += 1
+            if not mine:
+                rows_read += block.num_records
+                continue
+            if not pending:
+                pending_start = rows_read
+            try:
+                pending.extend(block)
+            except Exception as error:
+                raise DatasetFileError(f"the Avro file is truncated or damaged ({error})",
+                                       place=f"row {rows_read + 1}") from error
+            rows_read += block.num_records
+            if len(pending) >= batch_rows:
+                yield pending_start, _records_to_batch(pending, struct)
+                pending = []
+    if pending:
+        yield pending_start, _records_to_batch(pending, struct)
+
+
+def _records_to_batch(records: list[dict], struct: pa.StructType) -> pa.RecordBatch:
+    return pa.RecordBatch.from_struct_array(pa.array(records, type=struct))
+
+
+# --- Parquet ---------------------------------------------------------------------------------
+
+def _parquet_file(path: str) -> pq.ParquetFile:
+    try:
+        return pq.ParquetFile(path)
+    except (pa.ArrowException, OSError) as error:
+        raise DatasetFileError(f"not a Parquet file, or truncated ({error})", place=path) from error
+
+
+def _parquet_batches(source: Source, part: Part, batch_rows: int):
+    parquet = _parquet_file(source.path)
+    present = parquet.schema_arrow.names
+    columns = _check_columns(present, source.record)
+    groups = list(range(parquet.num_row_groups))
+    starts = np.concatenate([[0], np.cumsum(
+        [parquet.metadata.row_group(g).num_rows for g in groups])]).astype(int)
+    for group in groups[part[0]::part[1]]:
+        first_row = int(starts[group])
+        try:
+            batches = parquet.iter_batches(batch_size=batch_rows, row_groups=[group],
+                                           columns=columns, use_threads=False)
+            for batch in batches:
+                yield first_row, conform(batch, source.record, first_row, parse_text=False)
+                first_row += batch.num_rows
+        except pa.ArrowException as error:
+            raise DatasetFileError(f"the Parquet file is truncated or damaged ({error})",
+                                   place=f"row {first_row + 1}") from error
+
+
+# --- CSV -------------------------------------------------------------------------------------
+
+def _csv_batches(source: Source, part: Part, batch_rows: int):
+    header = _csv_header(source.path)
+    _check_columns(header, source.record)
+    for name, value_type in source.record.fields:
+        if value_type.avro in ("bytes", "fixed", "record", "array", "map"):
+            raise UserError(f"a CSV file cannot hold {value_type.avro} values; use Avro or "
+                            f"Parquet", place=f"column {name}")
+    options = pacsv.ConvertOptions(
+        column_types={name: pa.string() for name in header}, strings_can_be_null=True,
+        quoted_strings_can_be_null=False, null_values=[""])
+    try:
+        reader = pacsv.open_csv(
+            source.path, read_options=pacsv.ReadOptions(block_size=CSV_BLOCK_BYTES),
+            parse_options=pacsv.ParseOptions(newlines_in_values=True), convert_options=options)
+    except pa.ArrowException as error:
+        raise _csv_error(source.path, error) from error
+    rows_read = 0
+    index = 0
+    while True:
+        try:
+            batch = reader.read_next_batch()
+        except StopIteration:
+            break
+        except pa.ArrowException as error:
+            raise _csv_error(source.path, error) from error
+        mine = index % part[1] == part[0]
+        index += 1
+        if mine:
+            yield rows_read, conform(batch, source.record, rows_read, parse_text=True)
+        rows_read += batch.num_rows
+
+
+def _csv_header(path: str) -> list[str]:
+    with open(path, newline="", encoding="utf-8") as handle:
+        try:
+            return next(csv.reader(handle))
+        except StopIteration:
+            raise EmptyDataset("the file is empty", place=path) from None
+        except (csv.Error, UnicodeDecodeError) as error:
+            raise DatasetFileError(f"the CSV header cannot be read ({error})",
+                                   place="row 0") from error
+
+
+def _csv_error(path: str, error: Exception) -> UserError:
+    """Find the record the CSV parser stumbled on (this loop runs only after a failure)."""
+    with open(path, newline="", encoding="utf-8", errors="replace") as handle:
+        rows = csv.reader(handle)
+        width = len(next(rows, []))
+        for number, row in enumerate(rows, start=1):
+            if len(row) != width:
+                return DatasetFileError(f"expected {width} fields, found {len(row)}",
+                                        place=f"row {number}")
+    return DatasetFileError(f"the CSV file cannot be parsed ({error})", place=path)
+
+
+# --- shaping batches to the schema -----------------------------------------------------------
+
+def _check_columns(present: list[str], record: RecordType) -> list[str]:
+    """The file's columns must be the schema's fields; a missing field needs a default."""
+    known = set(record.names)
+    for name in present:
+        if name not in known:
+            raise ColumnsNotMatching(f"the file has a column {name!r} that the schema lacks",
+                                     place=f"column {name}")
+    for name, value_type in record.fields:
+        if name not in present and not value_type.has_default:
+            raise ColumnsNotMatching(f"the file has no column {name!r} and the schema gives "
+                                     f"it no default", place=f"column {name}")
+    return [name for name in record.names if name in present]
+
+
+def conform(batch: pa.RecordBatch, record: RecordType, first_row: int,
+            parse_text: bool) -> pa.RecordBatch:
+    """The batch with each column typed as its field says, or an error naming the bad value."""
+    columns = []
+    names = batch.schema.names
+    for name, value_type in record.fields:
+        if name in names:
+            array = batch.column(names.index(name))
+            columns.append(conform_column(array, value_type, name, first_row, parse_text))
+        else:
+            columns.append(pa.array([value_type.default] * batch.num_rows,
+                                    type=value_type.arrow_type()))
+    return pa.RecordBatch.from_arrays(columns, schema=record.arrow_schema())
+
+
+def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row: int,
+                   parse_text: bool) -> pa.Array:
+    target = value_type.arrow_type()
+    if pa.types.is_dictionary(array.type):
+        array = array.dictionary_decode()
+    if parse_text and value_type.avro == "string" and not value_type.nullable:
+        array = array.fill_null("")  # an unquoted empty field is the empty string
+    if parse_text and value_type.avro == "boolean":
+        array = pc.utf8_lower(array)
+    if array.type != target:
+        array = _cast(array, target, value_type, name, first_row)
+    if value_type.avro == "float":
+        array = array.cast(pa.float32()).cast(pa.float64())  # Avro float is binary32
+    if array.null_count and not value_type.nullable:
+        row = int(np.argmax(pc.is_null(array).to_numpy(zero_copy_only=False)))
+        raise ValueNotParsing("a value is missing in a column that is not nullable",
+                              place=cell(first_row + row + 1, name))
+    if value_type.avro == "int" and len(array):
+        values = array.fill_null(0).to_numpy(zero_copy_only=False)
+        outside = (values < -(2**31)) | (values >= 2**31)
+        if outside.any():
+            row = int(np.argmax(outside))
+            raise ValueNotParsing(f"{values[row]} does not fit an Avro int",
+                                  place=cell(first_row + row + 1, name))
+    if value_type.avro == "enum":
+        known = pc.is_in(array, value_set=pa.array(value_type.symbols, type=pa.string()))
+        bad = ~known.fill_null(True).to_numpy(zero_copy_only=False)
+        if array.null_count:
+            bad &= pc.is_valid(array).to_numpy(zero_copy_only=False)
+        if bad.any():
+            row = int(np.argmax(bad))
+            raise ValueNotParsing(f"{array[row].as_py()!r} is not a symbol of the enum",
+                                  place=cell(first_row + row + 1, name))
+    return array
+
+
+def _cast(array: pa.Array, target: pa.DataType, value_type: ValueType, name: str,
+          first_row: int) -> pa.Array:
+    try:
+        return array.cast(target, safe=True)
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError) as error:
+        row = _first_failure(array, lambda part: part.cast(target, safe=True))
+        if row is None:
+            raise ColumnsNotMatching(f"a {array.type} column cannot be read as "
+                                     f"{value_type.avro} ({error})",
+                                     place=f"column {name}") from error
+        shown = array[row].as_py()
+        raise ValueNotParsing(f"{shown!r} is not a valid {value_type.avro}",
+                              place=cell(first_row + row + 1, name)) from error
+
+
+def _first_failure(array: pa.Array, attempt: Callable[[pa.Array], Any]) -> int | None:
+    """Index of the first value the attempt fails on, by bisection on prefixes."""
+    def fails(length: int) -> bool:
+        try:
+            attempt(array.slice(0, length))
+            return False
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            return True
+
+    if not fails(len(array)) or fails(0):
+        return None
+    low, high = 0, len(array)  # fails(high) is true, fails(low) is false
+    while high - low > 1:
+        middle = (low + high) // 2
+        if fails(middle):
+            high = middle
+        else:
+            low = middle
+    return low

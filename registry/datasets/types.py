@@ -1,0 +1,179 @@
+"""The value types a dataset column may hold, read from an Avro record schema.
+
+Every Avro type maps to one in-memory Arrow type, so the three file formats meet in one shape:
+int and long as int64, float and double as float64, enum symbols as strings, fixed as binary.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, replace
+from typing import Any
+
+import pyarrow as pa
+from fastavro.schema import expand_schema
+
+from registry.errors import Unprocessable
+
+NUMERIC = frozenset({"int", "long", "float", "double"})
+PRIMITIVES = frozenset({"null", "boolean", "int", "long", "float", "double", "bytes", "string"})
+
+
+@dataclass(frozen=True)
+class ValueType:
+    """One Avro type, reduced to what reading, hashing and profiling need."""
+
+    avro: str  # a primitive name, or enum, fixed, record, array, map
+    nullable: bool = False
+    is_union: bool = False  # written as a union in the schema (["null", T] or [T, "null"])
+    symbols: tuple[str, ...] = ()  # enum
+    fields: tuple[tuple[str, "ValueType"], ...] = ()  # record
+    items: "ValueType | None" = None  # array items, map values
+    default: Any = None
+    has_default: bool = False
+
+    @property
+    def branch_names(self) -> tuple[str, ...]:
+        """Union branches in the order counted: null first, then the value's own type."""
+        return ("null", self.avro) if self.is_union else ()
+
+    def arrow_type(self) -> pa.DataType:
+        if self.avro == "boolean":
+            return pa.bool_()
+        if self.avro in ("int", "long"):
+            return pa.int64()
+        if self.avro in ("float", "double"):
+            return pa.float64()
+        if self.avro in ("string", "enum"):
+            return pa.string()
+        if self.avro in ("bytes", "fixed"):
+            return pa.binary()
+        if self.avro == "null":
+            return pa.null()
+        if self.avro == "record":
+            return pa.struct([pa.field(n, t.arrow_type(), nullable=True) for n, t in self.fields])
+        if self.avro == "array":
+            return pa.list_(self.items.arrow_type())
+        if self.avro == "map":
+            return pa.map_(pa.string(), self.items.arrow_type())
+        raise AssertionError(self.avro)
+
+
+@dataclass(frozen=True)
+class RecordType:
+    """The top-level record: its fields in schema order, and the schema they came from."""
+
+    name: str
+    fields: tuple[tuple[str, ValueType], ...]
+    schema_json: Mapping[str, Any]
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(name for name, _ in self.fields)
+
+    def field(self, name: str) -> ValueType:
+        return dict(self.fields)[name]
+
+    def arrow_schema(self) -> pa.Schema:
+        return pa.schema([pa.field(n, t.arrow_type(), nullable=True) for n, t in self.fields])
+
+
+def record_type(schema_json: Mapping[str, Any]) -> RecordType:
+    """Read the dataset's record type from its Avro schema (named types expanded in place)."""
+    try:
+        expanded = expand_schema(dict(schema_json))
+    except Exception as error:  # fastavro raises several kinds for a bad schema
+        raise Unprocessable(f"not a valid Avro schema: {error}", place="/") from error
+    if not isinstance(expanded, dict) or expanded.get("type") != "record":
+        raise Unprocessable("a dataset schema must be an Avro record", place="/type")
+    fields = tuple(
+        (field["name"], _field_type(field, f"/fields/{field['name']}"))
+        for field in expanded["fields"]
+    )
+    return RecordType(name=expanded.get("name", ""), fields=fields, schema_json=dict(schema_json))
+
+
+def _field_type(field: Mapping[str, Any], pointer: str) -> ValueType:
+    value_type = value_type_of(field["type"], pointer + "/type")
+    if "default" in field:
+        return replace(value_type, default=field["default"], has_default=True)
+    return value_type
+
+
+def value_type_of(avro: Any, pointer: str) -> ValueType:
+    if isinstance(avro, list):
+        branches = [b for b in avro if b != "null"]
+        if len(branches) != 1 or len(avro) > 2:
+            raise Unprocessable(
+                "only unions of null and one other type are supported in datasets", place=pointer)
+        inner = value_type_of(branches[0], pointer)
+        return replace(inner, nullable=True, is_union=True)
+    if isinstance(avro, str):
+        if avro not in PRIMITIVES:
+            raise Unprocessable(f"unknown type {avro!r}", place=pointer)
+        return ValueType(avro=avro, nullable=avro == "null")
+    if isinstance(avro, dict):
+        # Avro specification, Logical Types: a logical type is read as its underlying type.
+        kind = avro.get("type")
+        if kind in PRIMITIVES:
+            return value_type_of(kind, pointer)
+        if kind == "enum":
+            return ValueType(avro="enum", symbols=tuple(avro["symbols"]))
+        if kind == "fixed":
+            return ValueType(avro="fixed")
+        if kind == "record":
+            return ValueType(avro="record", fields=tuple(
+                (f["name"], _field_type(f, f"{pointer}/fields/{f['name']}"))
+                for f in avro["fields"]))
+        if kind == "array":
+            return ValueType(avro="array", items=value_type_of(avro["items"], pointer + "/items"))
+        if kind == "map":
+            return ValueType(avro="map", items=value_type_of(avro["values"], pointer + "/values"))
+    raise Unprocessable(f"unsupported type {avro!r}", place=pointer)
+
+
+def strip_logical_types(avro: Any) -> Any:
+    """The schema without logical types, so fastavro hands back the underlying values."""
+    if isinstance(avro, list):
+        return [strip_logical_types(b) for b in avro]
+    if isinstance(avro, dict):
+        stripped = {k: strip_logical_types(v) for k, v in avro.items() if k != "logicalType"}
+        if "fields" in avro:
+            stripped["fields"] = [{**f, "type": strip_logical_types(f["type"])}
+                                  for f in avro["fields"]]
+        return stripped
+    return avro
+
+
+def schema_from_arrow(schema: pa.Schema, name: str = "Record") -> dict[str, Any]:
+    """An Avro record schema for a Parquet file that came without one."""
+    counter = iter(range(1, 10**6))
+
+    def convert(arrow: pa.DataType) -> Any:
+        if pa.types.is_boolean(arrow):
+            return "boolean"
+        if pa.types.is_integer(arrow):
+            return "int" if arrow.bit_width <= 32 and arrow != pa.uint32() else "long"
+        if pa.types.is_floating(arrow):
+            return "float" if arrow.bit_width <= 32 else "double"
+        if pa.types.is_string(arrow) or pa.types.is_large_string(arrow):
+            return "string"
+        if pa.types.is_binary(arrow) or pa.types.is_large_binary(arrow) or \
+                pa.types.is_fixed_size_binary(arrow):
+            return "bytes"
+        if pa.types.is_dictionary(arrow):
+            return convert(arrow.value_type)
+        if pa.types.is_struct(arrow):
+            return {"type": "record", "name": f"{name}{next(counter)}",
+                    "fields": [{"name": f.name, "type": nullable(f)} for f in arrow]}
+        if pa.types.is_map(arrow):
+            return {"type": "map", "values": convert(arrow.item_type)}
+        if pa.types.is_list(arrow) or pa.types.is_large_list(arrow):
+            return {"type": "array", "items": convert(arrow.value_type)}
+        raise Unprocessable(f"Parquet type {arrow} has no Avro counterpart here")
+
+    def nullable(field: pa.Field) -> Any:
+        return ["null", convert(field.type)] if field.nullable else convert(field.type)
+
+    return {"type": "record", "name": name, "fields": [
+        {"name": f.name, "type": nullable(f)} for f in schema]}
