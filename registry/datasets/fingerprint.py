@@ -8,7 +8,11 @@ from __future__ import annotations
 
 import hashlib
 import json
-from collections.abc import Callable, Iterable, Mapping, Sequence
+import os
+import queue
+import threading
+from concurrent.futures import ThreadPoolExecutor
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -102,33 +106,53 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
               record: RecordType) -> DatasetFingerprint:
     """The fingerprint of the records seen so far plus this batch."""
     leave_out = set(fingerprint.keys) | set(fingerprint.excluded)
-    feature_names = tuple(n for n in record.names if n not in leave_out)
-    left_out = tuple(n for n in record.names if n in leave_out)
-    feature_sums = hashing.field_sums(batch, record, feature_names)
-    if left_out:
-        rest = hashing.field_sums(batch, record, left_out)
-        full = hashing.finish((feature_sums[0] + rest[0], feature_sums[1] + rest[1]),
+
+    def column_work(name: str) -> tuple[np.ndarray, np.ndarray, ColumnProfile]:
+        array, value_type = batch.column(name), record.field(name)
+        c0, c1 = hashing.contributions(array, value_type, name)
+        return c0, c1, merge_profiles(fingerprint.profile[name], profile_of(array, value_type))
+
+    # Columns are independent and numpy lets go of the GIL, so two threads share the work.
+    results = dict(zip(record.names, _pool().map(column_work, record.names)))
+    rows = batch.num_rows
+    feature_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
+    rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
+    for name, (c0, c1, _) in results.items():
+        target = rest_sums if name in leave_out else feature_sums
+        target[0] += c0
+        target[1] += c1
+    if leave_out:
+        full = hashing.finish((feature_sums[0] + rest_sums[0], feature_sums[1] + rest_sums[1]),
                               hashing.RECORD)
-        features = hashing.finish(feature_sums, hashing.RECORD)
+        features = hashing.finish((feature_sums[0], feature_sums[1]), hashing.RECORD)
     else:
-        full = hashing.finish(feature_sums, hashing.RECORD)
+        full = hashing.finish((feature_sums[0], feature_sums[1]), hashing.RECORD)
         features = full
     content = int(fingerprint.content_digest, 16) + hashing.digest_of_lanes(*full)
     feature = (int(fingerprint.feature_digest, 16) + hashing.digest_of_lanes(*features)
-               if left_out else content)
+               if leave_out else content)
     key_digest = fingerprint.key_digest
     if fingerprint.keys:
         key_digest = digest_hex(int(key_digest, 16) + hashing.digest_of_lanes(
             *_key_hashes(batch, record, fingerprint.keys)))
-    profile = {name: merge_profiles(fingerprint.profile[name],
-                                    profile_of(batch.column(name), record.field(name)))
-               for name in record.names}
     sketch = add_hashes(fingerprint.sketch, full[1])
-    feature_sketch = add_hashes(fingerprint.feature_sketch, features[1]) if left_out else sketch
-    return replace(fingerprint, rows=fingerprint.rows + batch.num_rows,
+    feature_sketch = add_hashes(fingerprint.feature_sketch, features[1]) if leave_out else sketch
+    return replace(fingerprint, rows=fingerprint.rows + rows,
                    content_digest=digest_hex(content), feature_digest=digest_hex(feature),
-                   key_digest=key_digest, profile=profile, sketch=sketch,
-                   feature_sketch=feature_sketch)
+                   key_digest=key_digest,
+                   profile={name: results[name][2] for name in record.names},
+                   sketch=sketch, feature_sketch=feature_sketch)
+
+
+_POOL: ThreadPoolExecutor | None = None
+
+
+def _pool() -> ThreadPoolExecutor:
+    global _POOL
+    if _POOL is None:
+        _POOL = ThreadPoolExecutor(max_workers=min(2, os.cpu_count() or 1),
+                                   thread_name_prefix="fingerprint")
+    return _POOL
 
 
 def _key_hashes(batch: pa.RecordBatch, record: RecordType,
@@ -178,7 +202,45 @@ def fingerprint_source(source: Source, keys: Sequence[str] = (), exclude: Sequen
                        progress: Callable[[int], None] | None = None,
                        part: Part = (0, 1)) -> DatasetFingerprint:
     batches = (batch for _, batch in read_batches(source, part))
-    return fingerprint_batches(batches, source.record, keys, exclude, progress)
+    return fingerprint_batches(read_ahead(batches), source.record, keys, exclude, progress)
+
+
+def read_ahead(batches: Iterator[pa.RecordBatch], depth: int = 2) -> Iterator[pa.RecordBatch]:
+    """Decode the next batches on a thread of their own while this one is being hashed.
+
+    At most `depth` batches wait, so memory stays bounded; an error while reading is raised
+    here, in the caller's thread."""
+    waiting: queue.Queue = queue.Queue(maxsize=depth)
+    finished = object()
+    stop = threading.Event()
+
+    def produce() -> None:
+        try:
+            for batch in batches:
+                if stop.is_set():
+                    return
+                waiting.put(batch)
+            waiting.put(finished)
+        except BaseException as error:  # handed over to the consuming thread
+            waiting.put(error)
+
+    worker = threading.Thread(target=produce, name="read-ahead", daemon=True)
+    worker.start()
+    try:
+        while True:
+            item = waiting.get()
+            if item is finished:
+                return
+            if isinstance(item, BaseException):
+                raise item
+            yield item
+    finally:
+        stop.set()
+        while worker.is_alive():  # let a producer blocked on a full queue finish
+            try:
+                waiting.get_nowait()
+            except queue.Empty:
+                worker.join(timeout=0.01)
 
 
 def fingerprint_file(path: str, *, schema_json: Mapping[str, Any] | None,

@@ -84,7 +84,11 @@ def finish(sums: tuple[np.ndarray, np.ndarray], kind: int) -> tuple[np.ndarray, 
 
 def contributions(array: pa.Array, value_type: ValueType,
                   name: str) -> tuple[np.ndarray, np.ndarray]:
-    """C(name, v) = mix64(W(v) XOR K(kind(v), name)) for every value of one column, per lane."""
+    """C(name, v) for every value of one column, per lane.
+
+    A value of one word w (null, boolean, integer, float) contributes x = mix64(w XOR K0) to
+    lane 0 and x * (K1 OR 1) to lane 1; a value of two words (W0, W1) contributes
+    mix64(W0 XOR K0) and mix64(W1 XOR K1). K = K(kind(v), name)."""
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
     kind = KIND_OF_AVRO[value_type.avro]
@@ -95,9 +99,11 @@ def contributions(array: pa.Array, value_type: ValueType,
         n0, n1 = field_key(NULL, name)
         k0 = np.where(valid, k0, n0)
         k1 = np.where(valid, k1, n1)
-    c0 = mix64(np.bitwise_xor(w0, k0))
-    c1 = mix64(np.bitwise_xor(w1, k1))
-    return c0, c1
+    if w1 is w0:  # one word: one strong mix, the second lane a multiple of it
+        c0 = mix64(np.bitwise_xor(w0, k0, out=w0 if w0.flags.writeable else None))
+        # (views of Arrow buffers are read-only; fresh word arrays are ours to overwrite)
+        return c0, c0 * (k1 | np.uint64(1))
+    return mix64(np.bitwise_xor(w0, k0)), mix64(np.bitwise_xor(w1, k1))
 
 
 def words(array: pa.Array, value_type: ValueType) -> tuple[np.ndarray, np.ndarray]:
@@ -133,9 +139,8 @@ def words(array: pa.Array, value_type: ValueType) -> tuple[np.ndarray, np.ndarra
 def canonical_float_bits(values: np.ndarray) -> np.ndarray:
     """IEEE 754 binary64 bits with -0.0 folded into 0.0 and every NaN into one quiet NaN."""
     bits = (values + 0.0).view(np.uint64)  # -0.0 + 0.0 is +0.0 under round-to-nearest
-    nan = np.isnan(values)
-    if nan.any():
-        bits[nan] = CANONICAL_NAN
+    if len(values) and np.isnan(values.min()):  # min is NaN exactly when some value is
+        bits[np.isnan(values)] = CANONICAL_NAN
     return bits
 
 

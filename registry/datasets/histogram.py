@@ -64,18 +64,62 @@ def bucket_indices(values: np.ndarray, mantissa_bits: int = MANTISSA_BITS) -> np
     return index
 
 
-def histogram_of(values: np.ndarray) -> LogHistogram:
+def histogram_of(values: np.ndarray, minimum: float | None = None,
+                 maximum: float | None = None) -> LogHistogram:
     """The histogram of finite doubles (the caller keeps NaN and infinities out)."""
     if len(values) == 0:
         return empty_histogram()
-    index = bucket_indices(values)
-    low, high = int(index.min()), int(index.max())
-    if high - low < 1 << 20:
-        counts = np.bincount(index - low)
-        present = np.flatnonzero(counts)
-        return LogHistogram(MANTISSA_BITS, present + low, counts[present].astype(np.int64))
-    unique, counts = np.unique(index, return_counts=True)
-    return LogHistogram(MANTISSA_BITS, unique, counts.astype(np.int64))
+    if maximum is None:
+        minimum, maximum = float(values.min()), float(values.max())
+    indices, counts = [], []
+    if maximum >= 0:
+        positive_indices, positive_counts, negatives = _positive_counts(values, maximum)
+        indices.append(positive_indices)
+        counts.append(positive_counts)
+    else:
+        negatives = True
+    if negatives:
+        signed = values[np.signbit(values)]  # negatives and -0.0
+        if len(signed):
+            magnitudes = -signed
+            negative_indices, negative_counts, _ = _positive_counts(
+                magnitudes, float(magnitudes.max()))
+            indices.append(-negative_indices)  # -0 stays 0, the zero bucket
+            counts.append(negative_counts)
+    return _regroup(MANTISSA_BITS, np.concatenate(indices), np.concatenate(counts))
+
+
+def _positive_counts(values: np.ndarray, maximum: float) -> tuple[np.ndarray, np.ndarray, bool]:
+    """Counts of the values >= +0.0 by bucket index, and whether any value had its sign set.
+
+    One pass keys the values by bits >> (52 - m); clipping sends every value below 2^-64 (zero
+    among them) to the first key and every negative (sign bit set) past the last, and the few
+    values in the first key are sorted out exactly afterwards."""
+    shift = np.uint64(52 - MANTISSA_BITS)
+    low = int(_FLOOR_BITS >> shift)
+    high = max(int(np.float64(maximum + 0.0).view(np.uint64) >> shift), low)  # -0.0 is 0.0
+    key = values.view(np.uint64) >> shift
+    np.clip(key, np.uint64(low), np.uint64(high + 1), out=key)
+    key -= np.uint64(low)
+    counts = np.bincount(key.view(np.int64), minlength=high - low + 2)
+    has_sign = bool(counts[-1])
+    counts = counts[:-1]
+    present = np.flatnonzero(counts)
+    indices = present.astype(np.int64) + low + 1
+    tallies = counts[present].astype(np.int64)
+    if len(present) and present[0] == 0:  # the floor key: split out zeros and tiny values
+        small = values[(values < _FLOOR_VALUE) & ~np.signbit(values)]
+        if len(small):
+            tallies[0] -= len(small)
+            unique, unique_counts = np.unique(bucket_indices(small), return_counts=True)
+            indices = np.append(indices, unique)
+            tallies = np.append(tallies, unique_counts)
+    kept = tallies > 0
+    return indices[kept], tallies[kept], has_sign
+
+
+_FLOOR_VALUE = 2.0**-64
+_FLOOR_BITS = np.float64(_FLOOR_VALUE).view(np.uint64)
 
 
 def merge_histograms(a: LogHistogram, b: LogHistogram) -> LogHistogram:

@@ -44,9 +44,9 @@ def moments_of(values: np.ndarray, exact_range: np.ndarray | None = None) -> Mom
         return Moments()
     mean = float(values.mean())
     deviations = values - mean
+    m2 = float(np.einsum("i,i->", deviations, deviations))  # no BLAS threads inside our pool
     source = values if exact_range is None else exact_range
-    return Moments(len(values), mean, float(deviations @ deviations),
-                   source.min().item(), source.max().item())
+    return Moments(len(values), mean, m2, source.min().item(), source.max().item())
 
 
 def merge_moments(a: Moments, b: Moments) -> Moments:
@@ -152,14 +152,16 @@ def profile_of(array: pa.Array, value_type: ValueType) -> ColumnProfile:
         present = pc.drop_null(array) if nulls else array
         numbers = present.to_numpy(zero_copy_only=False)
         floats = numbers.astype(np.float64, copy=False)
-        finite = np.isfinite(floats)
         non_finite = 0
-        if not finite.all():
+        if len(floats) and not (np.isfinite(floats.min()) and np.isfinite(floats.max())):
+            finite = np.isfinite(floats)  # min and max are finite only when all values are
             non_finite = int(len(floats) - finite.sum())
             floats, numbers = floats[finite], numbers[finite]
         exact_range = numbers if numbers.dtype.kind in "iu" else None
-        profile = replace(profile, moments=moments_of(floats, exact_range),
-                          non_finite=non_finite, histogram=histogram_of(floats))
+        moments = moments_of(floats, exact_range)
+        histogram = histogram_of(floats, float(moments.minimum), float(moments.maximum)) \
+            if moments.count else histogram_of(floats)
+        profile = replace(profile, moments=moments, non_finite=non_finite, histogram=histogram)
     if base.categories is not None:
         profile = replace(profile, categories=counts_of(array, base.categories.cap))
     return profile

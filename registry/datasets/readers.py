@@ -180,7 +180,7 @@ def _parquet_batches(source: Source, part: Part, batch_rows: int):
         first_row = int(starts[group])
         try:
             batches = parquet.iter_batches(batch_size=batch_rows, row_groups=[group],
-                                           columns=columns, use_threads=False)
+                                           columns=columns)
             for batch in batches:
                 yield first_row, conform(batch, source.record, first_row, parse_text=False)
                 first_row += batch.num_rows
