@@ -24,3 +24,13 @@ __all__ = [
     "l_infinity", "load_fingerprint", "merge_fingerprints", "overlap", "psi", "psi_level",
     "schema_fingerprint",
 ]
+
+
+def fingerprint_partitioned(*args, **kwargs):
+    """See registry.datasets.partitioned (imported on use, so dask stays an optional extra)."""
+    from registry.datasets.partitioned import fingerprint_partitioned as run
+
+    return run(*args, **kwargs)
+
+
+__all__.append("fingerprint_partitioned")

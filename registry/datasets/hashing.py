@@ -94,16 +94,24 @@ def contributions(array: pa.Array, value_type: ValueType,
     kind = KIND_OF_AVRO[value_type.avro]
     w0, w1 = words(array, value_type)
     k0, k1 = field_key(kind, name)
-    if array.null_count:
-        valid = _validity(array)
+    one_word = w1 is w0
+    valid = _validity(array) if array.null_count else None
+    if valid is not None and one_word:
         n0, n1 = field_key(NULL, name)
         k0 = np.where(valid, k0, n0)
         k1 = np.where(valid, k1, n1)
-    if w1 is w0:  # one word: one strong mix, the second lane a multiple of it
+    if one_word:  # one strong mix, the second lane a multiple of it
         c0 = mix64(np.bitwise_xor(w0, k0, out=w0 if w0.flags.writeable else None))
         # (views of Arrow buffers are read-only; fresh word arrays are ours to overwrite)
         return c0, c0 * (k1 | np.uint64(1))
-    return mix64(np.bitwise_xor(w0, k0)), mix64(np.bitwise_xor(w1, k1))
+    c0, c1 = mix64(np.bitwise_xor(w0, k0)), mix64(np.bitwise_xor(w1, k1))
+    if valid is not None:  # a null is the one word 0 of kind null, whatever the column's type
+        n0, n1 = field_key(NULL, name)
+        null0 = mix64(np.array([n0], dtype=np.uint64))[0]
+        null1 = null0 * (n1 | np.uint64(1))
+        c0 = np.where(valid, c0, null0).astype(np.uint64)
+        c1 = np.where(valid, c1, null1).astype(np.uint64)
+    return c0, c1
 
 
 def words(array: pa.Array, value_type: ValueType) -> tuple[np.ndarray, np.ndarray]:

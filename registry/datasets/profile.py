@@ -92,6 +92,8 @@ class ColumnProfile:
             return None
         values = quantiles(self.histogram, np.asarray(QUANTILE_LEVELS),
                            float(self.moments.minimum), float(self.moments.maximum))
+        if self.avro_type in ("int", "long"):  # an integer column's quantiles are integers
+            return {f"{q:g}": int(round(v)) for q, v in zip(QUANTILE_LEVELS, values)}
         return {f"{q:g}": float(v) for q, v in zip(QUANTILE_LEVELS, values)}
 
     def to_dict(self) -> dict[str, Any]:

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 from typing import Any
 
 import fastavro
+import fastavro.schema
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -114,7 +115,7 @@ def _avro_writer_schema(path: str) -> dict[str, Any]:
 
 def _avro_batches(source: Source, part: Part, batch_rows: int):
     struct = pa.struct([pa.field(n, t.arrow_type()) for n, t in source.record.fields])
-    reader_schema = strip_logical_types(dict(source.schema_json))
+    reader_schema = _avro_reader_schema(source)
     rows_read = 0
     pending: list[dict] = []
     pending_start = 0
@@ -154,6 +155,29 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                 pending = []
     if pending:
         yield pending_start, _records_to_batch(pending, struct)
+
+
+def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
+    """The reader schema to hand fastavro, or None when the writer's serves as it is: fastavro
+    decodes about three times faster without schema resolution."""
+    wanted = strip_logical_types(dict(source.schema_json))
+    writer = _avro_writer_schema(source.path)
+    if wanted == writer:
+        return None
+    try:
+        same = (fastavro.schema.to_parsing_canonical_form(wanted)
+                == fastavro.schema.to_parsing_canonical_form(writer))
+    except Exception:
+        same = False
+    return None if same and not _has_logical_types(writer) else wanted
+
+
+def _has_logical_types(schema: Any) -> bool:
+    if isinstance(schema, dict):
+        return "logicalType" in schema or any(_has_logical_types(v) for v in schema.values())
+    if isinstance(schema, list):
+        return any(_has_logical_types(v) for v in schema)
+    return False
 
 
 def _records_to_batch(records: list[dict], struct: pa.StructType) -> pa.RecordBatch:
