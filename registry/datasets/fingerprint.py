@@ -11,7 +11,8 @@ import json
 import os
 import queue
 import threading
-from concurrent.futures import ThreadPoolExecutor
+from collections import deque
+from concurrent.futures import Future, ThreadPoolExecutor
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -112,8 +113,7 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
         c0, c1 = hashing.contributions(array, value_type, name)
         return c0, c1, merge_profiles(fingerprint.profile[name], profile_of(array, value_type))
 
-    # Columns are independent and numpy lets go of the GIL, so two threads share the work.
-    results = dict(zip(record.names, _pool().map(column_work, record.names)))
+    results = {name: column_work(name) for name in record.names}
     rows = batch.num_rows
     feature_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
     rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
@@ -144,14 +144,14 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
                    sketch=sketch, feature_sketch=feature_sketch)
 
 
+_WORKERS = min(2, os.cpu_count() or 1)
 _POOL: ThreadPoolExecutor | None = None
 
 
 def _pool() -> ThreadPoolExecutor:
     global _POOL
     if _POOL is None:
-        _POOL = ThreadPoolExecutor(max_workers=min(2, os.cpu_count() or 1),
-                                   thread_name_prefix="fingerprint")
+        _POOL = ThreadPoolExecutor(max_workers=_WORKERS, thread_name_prefix="fingerprint")
     return _POOL
 
 
@@ -190,11 +190,25 @@ def fingerprint_batches(batches: Iterable[pa.RecordBatch], record: RecordType,
                         keys: Sequence[str] = (), exclude: Sequence[str] = (),
                         progress: Callable[[int], None] | None = None) -> DatasetFingerprint:
     check_columns(record, keys, exclude)
-    fingerprint = empty_fingerprint(record, keys, exclude)
-    for batch in batches:
-        fingerprint = add_batch(fingerprint, batch, record)
+    empty = empty_fingerprint(record, keys, exclude)
+    fingerprint = empty
+    # Batches are independent and numpy lets go of the GIL, so batches are fingerprinted on two
+    # threads and merged here in file order (which keeps the result the same on every run).
+    pending: deque[tuple[int, Future]] = deque()
+
+    def merge_oldest() -> None:
+        nonlocal fingerprint
+        rows, future = pending.popleft()
+        fingerprint = merge_fingerprints(fingerprint, future.result())
         if progress is not None:
-            progress(batch.num_rows)
+            progress(rows)
+
+    for batch in batches:
+        pending.append((batch.num_rows, _pool().submit(add_batch, empty, batch, record)))
+        while len(pending) > _WORKERS:
+            merge_oldest()
+    while pending:
+        merge_oldest()
     return fingerprint
 
 
