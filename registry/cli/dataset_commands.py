@@ -43,8 +43,19 @@ def progress_reporter(label: str, total: int | None) -> Iterator[Callable[[int],
     if not stderr_is_terminal():
         yield None
         return
-    with click.progressbar(length=total or 0, label=label, file=click.get_text_stream("stderr"),
-                           show_pos=True, show_percent=total is not None) as bar:
+    stderr = click.get_text_stream("stderr")
+    if total is None:  # Avro and CSV files do not say how many rows they hold: count them
+        done = 0
+
+        def count(rows: int) -> None:
+            nonlocal done
+            done += rows
+            click.echo(f"\r{label}  {done:,} rows", file=stderr, nl=False)
+
+        yield count
+        click.echo("", file=stderr)
+        return
+    with click.progressbar(length=total, label=label, file=stderr, show_pos=True) as bar:
         yield bar.update
 
 

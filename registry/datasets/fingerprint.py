@@ -19,6 +19,7 @@ from typing import Any
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 from fastavro.schema import to_parsing_canonical_form
 
 from registry.datasets import hashing
@@ -27,7 +28,7 @@ from registry.datasets.profile import (ColumnProfile, empty_profile, merge_profi
 from registry.datasets.readers import Part, Source, open_source, read_batches
 from registry.datasets.sketch import (DEFAULT_K, BottomKSketch, add_hashes, empty_sketch,
                                       merge_sketches)
-from registry.datasets.types import RecordType, ValueType, record_type, value_type_of
+from registry.datasets.types import RecordType, ValueType, value_type_of
 from registry.errors import UserError
 
 DIGEST_MODULUS = 1 << 128
@@ -110,6 +111,8 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
 
     def column_work(name: str) -> tuple[np.ndarray, np.ndarray, ColumnProfile]:
         array, value_type = batch.column(name), record.field(name)
+        if value_type.avro in ("string", "enum") and not pa.types.is_dictionary(array.type):
+            array = pc.dictionary_encode(array)  # hash and count each distinct value once
         c0, c1 = hashing.contributions(array, value_type, name)
         return c0, c1, merge_profiles(fingerprint.profile[name], profile_of(array, value_type))
 
@@ -313,5 +316,4 @@ def load_fingerprint(path: str) -> DatasetFingerprint:
 
 
 __all__ = ["DatasetFingerprint", "fingerprint_file", "fingerprint_batches", "fingerprint_source",
-           "merge_fingerprints", "key_set_digest", "schema_fingerprint", "load_fingerprint",
-           "record_type"]
+           "merge_fingerprints", "key_set_digest", "schema_fingerprint", "load_fingerprint"]

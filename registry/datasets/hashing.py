@@ -132,10 +132,9 @@ def words(array: pa.Array, value_type: ValueType) -> tuple[np.ndarray, np.ndarra
     if avro in ("string", "enum", "bytes", "fixed"):
         return byte_string_words(array)
     if avro == "record":
-        filled = array
         sums = (np.zeros(len(array), np.uint64), np.zeros(len(array), np.uint64))
         for index, (child_name, child_type) in enumerate(value_type.fields):
-            c0, c1 = contributions(filled.field(index), child_type, child_name)
+            c0, c1 = contributions(array.field(index), child_type, child_name)
             sums[0][:] += c0
             sums[1][:] += c1
         return _zero_nulls(finish(sums, RECORD), array)
@@ -153,7 +152,8 @@ def canonical_float_bits(values: np.ndarray) -> np.ndarray:
 
 
 def byte_string_words(array: pa.Array) -> tuple[np.ndarray, np.ndarray]:
-    """W(s) = mix64((len XOR B) + sum_i mix64(w_i XOR (B + (i+1)*GOLDEN))) per lane, B = K(kind, "")."""
+    """W(s) = mix64((len XOR B) + sum_i mix64(w_i XOR (B + (i+1)*GOLDEN))) per lane, with
+    B = K(kind, "") and w_i the zero-padded 8-byte words of the string's bytes."""
     if pa.types.is_dictionary(array.type):
         d0, d1 = byte_string_words(array.dictionary)
         indices = array.indices.fill_null(0).to_numpy(zero_copy_only=False)

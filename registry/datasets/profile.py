@@ -161,8 +161,8 @@ def profile_of(array: pa.Array, value_type: ValueType) -> ColumnProfile:
             floats, numbers = floats[finite], numbers[finite]
         exact_range = numbers if numbers.dtype.kind in "iu" else None
         moments = moments_of(floats, exact_range)
-        histogram = histogram_of(floats, float(moments.minimum), float(moments.maximum)) \
-            if moments.count else histogram_of(floats)
+        histogram = histogram_of(floats, float(moments.maximum)) if moments.count \
+            else histogram_of(floats)
         profile = replace(profile, moments=moments, non_finite=non_finite, histogram=histogram)
     if base.categories is not None:
         profile = replace(profile, categories=counts_of(array, base.categories.cap))

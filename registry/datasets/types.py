@@ -32,11 +32,6 @@ class ValueType:
     default: Any = None
     has_default: bool = False
 
-    @property
-    def branch_names(self) -> tuple[str, ...]:
-        """Union branches in the order counted: null first, then the value's own type."""
-        return ("null", self.avro) if self.is_union else ()
-
     def arrow_type(self) -> pa.DataType:
         if self.avro == "boolean":
             return pa.bool_()

@@ -6,7 +6,6 @@ Run with: PYTHONPATH=. python -m pytest tests/bench/test_dataset_bench.py -s
 from __future__ import annotations
 
 import hashlib
-import json
 import os
 import subprocess
 import sys
