@@ -8,10 +8,12 @@ reads every n-th row group, Avro block or CSV batch starting at the i-th, for pa
 from __future__ import annotations
 
 import csv
+import datetime
 import json
 import os
 from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass
+from functools import partial
 from typing import Any
 
 import fastavro
@@ -24,8 +26,7 @@ import pyarrow.parquet as pq
 
 from registry.datasets.errors import (ColumnsNotMatching, DatasetFileError, EmptyDataset,
                                       ValueNotParsing, cell)
-from registry.datasets.types import RecordType, ValueType, record_type, schema_from_arrow, \
-    strip_logical_types
+from registry.datasets.types import RecordType, ValueType, record_type, schema_from_arrow
 from registry.errors import UserError
 
 BATCH_ROWS = 65536
@@ -116,6 +117,7 @@ def _avro_writer_schema(path: str) -> dict[str, Any]:
 def _avro_batches(source: Source, part: Part, batch_rows: int):
     struct = pa.struct([pa.field(n, t.arrow_type()) for n, t in source.record.fields])
     reader_schema = _avro_reader_schema(source)
+    converters = _logical_converters(source.schema_json)
     rows_read = 0
     pending: list[dict] = []
     pending_start = 0
@@ -151,37 +153,93 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                                        place=f"row {rows_read + 1}") from error
             rows_read += block.num_records
             if len(pending) >= batch_rows:
-                yield pending_start, _records_to_batch(pending, struct)
+                yield pending_start, _records_to_batch(pending, struct, converters)
                 pending = []
     if pending:
-        yield pending_start, _records_to_batch(pending, struct)
+        yield pending_start, _records_to_batch(pending, struct, converters)
 
 
 def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
     """The reader schema to hand fastavro, or None when the writer's serves as it is: fastavro
     decodes about three times faster without schema resolution."""
-    wanted = strip_logical_types(dict(source.schema_json))
+    wanted = dict(source.schema_json)
     writer = _avro_writer_schema(source.path)
     if wanted == writer:
         return None
     try:
         same = (fastavro.schema.to_parsing_canonical_form(wanted)
                 == fastavro.schema.to_parsing_canonical_form(writer))
-    except Exception:
+    except Exception:  # fastavro raises several kinds for a schema it cannot read
         same = False
-    return None if same and not _has_logical_types(writer) else wanted
+    return None if same else wanted
 
 
-def _has_logical_types(schema: Any) -> bool:
-    if isinstance(schema, dict):
-        return "logicalType" in schema or any(_has_logical_types(v) for v in schema.values())
-    if isinstance(schema, list):
-        return any(_has_logical_types(v) for v in schema)
-    return False
-
-
-def _records_to_batch(records: list[dict], struct: pa.StructType) -> pa.RecordBatch:
+def _records_to_batch(records: list[dict], struct: pa.StructType,
+                      converters: Mapping[str, Callable[[Any], Any]]) -> pa.RecordBatch:
+    if converters:
+        records = [{**r, **{n: convert(r[n]) for n, convert in converters.items()}}
+                   for r in records]
     return pa.RecordBatch.from_struct_array(pa.array(records, type=struct))
+
+
+_EPOCH_DATE = datetime.date(1970, 1, 1)
+_EPOCH = datetime.datetime(1970, 1, 1, tzinfo=datetime.timezone.utc)
+
+
+def _since_epoch(value: datetime.datetime, unit: int) -> int:
+    if value.tzinfo is None:  # local-timestamp-*: no zone, counted on the same clock
+        value = value.replace(tzinfo=datetime.timezone.utc)
+    delta = value - _EPOCH
+    return (delta.days * 86_400 + delta.seconds) * unit + delta.microseconds * unit // 10**6
+
+
+def _time_of_day(value: datetime.time, unit: int) -> int:
+    seconds = value.hour * 3600 + value.minute * 60 + value.second
+    return seconds * unit + value.microsecond * unit // 10**6
+
+
+def _decimal_bytes(value: Any, scale: int, size: int | None) -> bytes:
+    unscaled = int(value.scaleb(scale))
+    length = size or max(1, (unscaled.bit_length() + 8) // 8)
+    return unscaled.to_bytes(length, "big", signed=True)
+
+
+def _logical_converters(schema_json: Mapping[str, Any]) -> dict[str, Callable[[Any], Any]]:
+    """fastavro turns logical types into dates, times, decimals and UUIDs; these turn the
+    top-level fields back into the underlying values the canonical encoding hashes (Avro
+    specification, Logical Types)."""
+    converters = {}
+    for field in schema_json.get("fields", []):
+        kind = field["type"]
+        if isinstance(kind, list):
+            kind = next((b for b in kind if b != "null"), None)
+        if not isinstance(kind, dict) or "logicalType" not in kind:
+            continue
+        logical = kind["logicalType"]
+        convert: Callable[[Any], Any] | None = {
+            "date": lambda v: (v - _EPOCH_DATE).days,
+            "time-millis": lambda v: _time_of_day(v, 1000),
+            "time-micros": lambda v: _time_of_day(v, 10**6),
+            "timestamp-millis": lambda v: _since_epoch(v, 1000),
+            "timestamp-micros": lambda v: _since_epoch(v, 10**6),
+            "local-timestamp-millis": lambda v: _since_epoch(v, 1000),
+            "local-timestamp-micros": lambda v: _since_epoch(v, 10**6),
+            "uuid": str,
+        }.get(logical)
+        if logical == "decimal":
+            convert = partial(_decimal_bytes, scale=int(kind.get("scale", 0)),
+                              size=kind.get("size"))
+        if convert is not None:
+            converters[field["name"]] = _unless_plain(convert)
+    return converters
+
+
+def _unless_plain(convert: Callable[[Any], Any]) -> Callable[[Any], Any]:
+    """Convert a logical value, passing nulls and values already plain through."""
+    def converted(value: Any) -> Any:
+        return value if value is None or isinstance(value, (int, str, bytes)) else convert(value)
+
+    return converted
 
 
 # --- Parquet ---------------------------------------------------------------------------------

@@ -127,19 +127,6 @@ def value_type_of(avro: Any, pointer: str) -> ValueType:
     raise Unprocessable(f"unsupported type {avro!r}", place=pointer)
 
 
-def strip_logical_types(avro: Any) -> Any:
-    """The schema without logical types, so fastavro hands back the underlying values."""
-    if isinstance(avro, list):
-        return [strip_logical_types(b) for b in avro]
-    if isinstance(avro, dict):
-        stripped = {k: strip_logical_types(v) for k, v in avro.items() if k != "logicalType"}
-        if "fields" in avro:
-            stripped["fields"] = [{**f, "type": strip_logical_types(f["type"])}
-                                  for f in avro["fields"]]
-        return stripped
-    return avro
-
-
 def schema_from_arrow(schema: pa.Schema, name: str = "Record") -> dict[str, Any]:
     """An Avro record schema for a Parquet file that came without one."""
     counter = iter(range(1, 10**6))
