@@ -108,7 +108,7 @@ def contributions(array: pa.Array, value_type: ValueType,
     if valid is not None:  # a null is the one word 0 of kind null, whatever the column's type
         n0, n1 = field_key(NULL, name)
         null0 = mix64(np.array([n0], dtype=np.uint64))[0]
-        null1 = null0 * (n1 | np.uint64(1))
+        null1 = np.uint64((int(null0) * (int(n1) | 1)) % (1 << 64))
         c0 = np.where(valid, c0, null0).astype(np.uint64)
         c1 = np.where(valid, c1, null1).astype(np.uint64)
     return c0, c1
