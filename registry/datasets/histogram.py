@@ -84,9 +84,11 @@ def histogram_of(values: np.ndarray, maximum: float | None = None) -> LogHistogr
             magnitudes = -signed
             negative_indices, negative_counts, _ = _positive_counts(
                 magnitudes, float(magnitudes.max()))
-            indices.append(-negative_indices)  # -0 stays 0, the zero bucket
-            counts.append(negative_counts)
-    return _regroup(MANTISSA_BITS, np.concatenate(indices), np.concatenate(counts))
+            indices.append(-negative_indices[::-1])  # -0 stays 0, the zero bucket
+            counts.append(negative_counts[::-1])
+    if len(indices) == 1:
+        return LogHistogram(MANTISSA_BITS, indices[0], counts[0])
+    return _regroup(MANTISSA_BITS, np.concatenate(indices[::-1]), np.concatenate(counts[::-1]))
 
 
 def _positive_counts(values: np.ndarray, maximum: float) -> tuple[np.ndarray, np.ndarray, bool]:
@@ -112,8 +114,8 @@ def _positive_counts(values: np.ndarray, maximum: float) -> tuple[np.ndarray, np
         if len(small):
             tallies[0] -= len(small)
             unique, unique_counts = np.unique(bucket_indices(small), return_counts=True)
-            indices = np.append(indices, unique)
-            tallies = np.append(tallies, unique_counts)
+            indices = np.concatenate([unique, indices])  # all below the floor bucket
+            tallies = np.concatenate([unique_counts, tallies])
     kept = tallies > 0
     return indices[kept], tallies[kept], has_sign
 
@@ -144,10 +146,14 @@ def coarsen(histogram: LogHistogram, mantissa_bits: int) -> LogHistogram:
 
 
 def _regroup(bits: int, indices: np.ndarray, counts: np.ndarray) -> LogHistogram:
-    unique, inverse = np.unique(indices, return_inverse=True)
-    summed = np.zeros(len(unique), dtype=np.int64)
-    np.add.at(summed, inverse, counts)
-    return LogHistogram(bits, unique.astype(np.int64), summed)
+    """Counts summed per index, indices sorted (a stable sort merges sorted runs in one pass)."""
+    if len(indices) == 0:
+        return LogHistogram(bits, np.zeros(0, np.int64), np.zeros(0, np.int64))
+    order = np.argsort(indices, kind="stable")
+    indices, counts = indices[order], counts[order]
+    starts = np.flatnonzero(np.concatenate([[True], indices[1:] != indices[:-1]]))
+    return LogHistogram(bits, indices[starts].astype(np.int64),
+                        np.add.reduceat(counts, starts).astype(np.int64))
 
 
 def bucket_bounds(histogram: LogHistogram) -> tuple[np.ndarray, np.ndarray]:
