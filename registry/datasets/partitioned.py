@@ -2,7 +2,8 @@
 
 Each task fingerprints one partition (a file, or every n-th row group, Avro block or CSV batch of
 one file); the partial fingerprints merge pairwise in a fixed order into the whole one, equal
-to what a single process computes.
+to what a single process computes. A CSV file has no index of its records, so each part of one
+parses the whole file and keeps its share: split large CSV data into several files instead.
 """
 
 from __future__ import annotations

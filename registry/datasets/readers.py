@@ -306,7 +306,7 @@ def _csv_batches(source: Source, part: Part, batch_rows: int):
 
 
 def _csv_header(path: str) -> list[str]:
-    with open(path, newline="", encoding="utf-8") as handle:
+    with open(path, newline="", encoding="utf-8-sig") as handle:  # a byte order mark is no name
         try:
             return next(csv.reader(handle))
         except StopIteration:
@@ -318,7 +318,7 @@ def _csv_header(path: str) -> list[str]:
 
 def _csv_error(path: str, error: Exception) -> UserError:
     """Find the record the CSV parser stumbled on (this loop runs only after a failure)."""
-    with open(path, newline="", encoding="utf-8", errors="replace") as handle:
+    with open(path, newline="", encoding="utf-8-sig", errors="replace") as handle:
         rows = csv.reader(handle)
         width = len(next(rows, []))
         for number, row in enumerate(rows, start=1):

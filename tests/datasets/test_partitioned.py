@@ -19,13 +19,19 @@ REPOSITORY = str(Path(__file__).parents[2])
 
 @pytest.fixture(scope="module")
 def client():
-    os.environ["PYTHONPATH"] = os.pathsep.join(
-        filter(None, [REPOSITORY, os.environ.get("PYTHONPATH")]))  # for the worker processes
-    cluster = distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                       dashboard_address=None, silence_logs=40)
-    with distributed.Client(cluster) as connected:
-        yield connected
-    cluster.close()
+    before = os.environ.get("PYTHONPATH")
+    os.environ["PYTHONPATH"] = os.pathsep.join(filter(None, [REPOSITORY, before]))  # for workers
+    try:
+        cluster = distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                           dashboard_address=None, silence_logs=40)
+        with distributed.Client(cluster) as connected:
+            yield connected
+        cluster.close()
+    finally:
+        if before is None:
+            os.environ.pop("PYTHONPATH", None)
+        else:
+            os.environ["PYTHONPATH"] = before
 
 
 def assert_same(single, partitioned):

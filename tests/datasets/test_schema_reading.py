@@ -65,3 +65,11 @@ def test_csv_and_parquet_files_without_their_extension_are_recognised(tmp_path, 
     csv = write_csv(tmp_path / "segments.txt", records)
     assert fingerprint_file(str(parquet), schema_json=SEGMENT_SCHEMA).content_digest == \
         fingerprint_file(str(csv), schema_json=SEGMENT_SCHEMA).content_digest
+
+
+def test_a_byte_order_mark_before_the_csv_header_is_no_part_of_a_name(tmp_path, records):
+    plain = write_csv(tmp_path / "plain.csv", records[:20])
+    marked = tmp_path / "marked.csv"
+    marked.write_bytes(b"\xef\xbb\xbf" + plain.read_bytes())
+    assert fingerprint_file(str(marked), schema_json=SEGMENT_SCHEMA).content_digest == \
+        fingerprint_file(str(plain), schema_json=SEGMENT_SCHEMA).content_digest
