@@ -154,6 +154,8 @@ def column_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDrif
         return _numeric_drift(reference, current)
     if reference.categories is not None and current.categories is not None:
         return _categorical_drift(reference, current)
+    if reference.branch_names and current.branch_names:
+        return _shares_drift(reference.branch_counts(), current.branch_counts())
     return None
 
 
@@ -183,12 +185,18 @@ def _numeric_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDr
 
 def _categorical_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDrift:
     ref, cur = reference.categories.as_dict(), current.categories.as_dict()
-    names = sorted(set(ref) | set(cur))
-    p = np.array([ref.get(n, 0) for n in names], dtype=np.float64)
-    q = np.array([cur.get(n, 0) for n in names], dtype=np.float64)
     # what a heavy-hitters summary no longer lists, and nulls, count as bins of their own
-    p = np.append(p, [reference.categories.total - p.sum(), reference.nulls])
-    q = np.append(q, [current.categories.total - q.sum(), current.nulls])
+    rest = {"ref": reference.categories.total - sum(ref.values()),
+            "cur": current.categories.total - sum(cur.values())}
+    return _shares_drift(ref, cur, [rest["ref"], reference.nulls], [rest["cur"], current.nulls])
+
+
+def _shares_drift(ref: dict[str, int], cur: dict[str, int], ref_extra: list[int] = (),
+                  cur_extra: list[int] = ()) -> ColumnDrift:
+    """Drift between two distributions over named categories (or union branches)."""
+    names = sorted(set(ref) | set(cur))
+    p = np.array([ref.get(n, 0) for n in names] + list(ref_extra), dtype=np.float64)
+    q = np.array([cur.get(n, 0) for n in names] + list(cur_extra), dtype=np.float64)
     if p.sum() == 0 or q.sum() == 0:
         return ColumnDrift(psi=0.0, level="ok")
     value = psi(p, q)

@@ -25,7 +25,7 @@ CANONICAL_NAN = np.uint64(0x7FF8000000000000)
 
 # Kind tags of the canonical encoding (docs/canonical-values.md, "Kinds").
 NULL, BOOLEAN, INTEGER, FLOAT, STRING, BYTES, RECORD, ARRAY, MAP = range(9)
-KIND_OF_AVRO = {
+KIND_OF_AVRO = {  # a union has no kind of its own: each value has its branch's
     "null": NULL, "boolean": BOOLEAN, "int": INTEGER, "long": INTEGER, "float": FLOAT,
     "double": FLOAT, "string": STRING, "enum": STRING, "bytes": BYTES, "fixed": BYTES,
     "record": RECORD, "array": ARRAY, "map": MAP,
@@ -91,6 +91,8 @@ def contributions(array: pa.Array, value_type: ValueType,
     mix64(W0 XOR K0) and mix64(W1 XOR K1). K = K(kind(v), name)."""
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
+    if value_type.avro == "union":
+        return _union_contributions(array, value_type, name)
     kind = KIND_OF_AVRO[value_type.avro]
     w0, w1 = words(array, value_type)
     k0, k1 = field_key(kind, name)
@@ -111,6 +113,22 @@ def contributions(array: pa.Array, value_type: ValueType,
         null1 = np.uint64((int(null0) * (int(n1) | 1)) % (1 << 64))
         c0 = np.where(valid, c0, null0).astype(np.uint64)
         c1 = np.where(valid, c1, null1).astype(np.uint64)
+    return c0, c1
+
+
+def _union_contributions(array: pa.UnionArray, value_type: ValueType,
+                         name: str) -> tuple[np.ndarray, np.ndarray]:
+    """A union value contributes as the value of its branch; the branch itself is not hashed."""
+    codes = np.asarray(array.type_codes)
+    offsets = np.asarray(array.offsets)
+    c0 = np.zeros(len(array), np.uint64)
+    c1 = np.zeros(len(array), np.uint64)
+    branch_types = (ValueType("null", nullable=True),) + value_type.branches
+    for code, branch in enumerate(branch_types):
+        chosen = np.flatnonzero(codes == code)
+        if len(chosen):
+            b0, b1 = contributions(array.field(code), branch, name)
+            c0[chosen], c1[chosen] = b0[offsets[chosen]], b1[offsets[chosen]]
     return c0, c1
 
 

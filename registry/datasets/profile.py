@@ -75,8 +75,12 @@ class ColumnProfile:
     histogram: LogHistogram | None = None
     categories: CategoryCounts | None = None  # string, enum and boolean columns
     symbols: tuple[str, ...] = ()  # enum symbols, counted even when absent
+    branch_names: tuple[str, ...] = ()  # a union of several types: null, then each branch
+    branch_tally: tuple[int, ...] = ()  # values per branch, in the order of branch_names
 
     def branch_counts(self) -> dict[str, int] | None:
+        if self.branch_names:
+            return dict(zip(self.branch_names, self.branch_tally))
         if not self.is_union:
             return None
         return {"null": self.nulls, self.avro_type: self.count - self.nulls}
@@ -125,8 +129,12 @@ class ColumnProfile:
             histogram = LogHistogram.from_dict(data["histogram"]) if data["histogram"] else None
         if "categories" in data:
             categories = CategoryCounts.from_dict(data["categories"])
+        branches = data.get("branches") or {}
+        several = data["type"] == "union"
         return cls(avro_type=data["type"], count=int(data["count"]), nulls=int(data["nulls"]),
                    is_union="branches" in data, moments=moments,
+                   branch_names=tuple(branches) if several else (),
+                   branch_tally=tuple(int(c) for c in branches.values()) if several else (),
                    non_finite=int(data.get("non_finite", 0)), histogram=histogram,
                    categories=categories, symbols=tuple(data.get("symbols") or ()))
 
@@ -140,7 +148,9 @@ def empty_profile(value_type: ValueType) -> ColumnProfile:
         moments=Moments() if numeric else None,
         histogram=empty_histogram() if numeric else None,
         categories=empty_counts(cap) if categorical else None,
-        symbols=value_type.symbols)
+        symbols=value_type.symbols,
+        branch_names=value_type.branch_names if value_type.avro == "union" else (),
+        branch_tally=(0,) * len(value_type.branch_names) if value_type.avro == "union" else ())
 
 
 def profile_of(array: pa.Array, value_type: ValueType) -> ColumnProfile:
@@ -148,6 +158,10 @@ def profile_of(array: pa.Array, value_type: ValueType) -> ColumnProfile:
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
     base = empty_profile(value_type)
+    if value_type.avro == "union":  # unions hold their nulls in branch 0, not a validity bitmap
+        tally = np.bincount(np.asarray(array.type_codes), minlength=len(base.branch_names))
+        return replace(base, count=len(array), nulls=int(tally[0]),
+                       branch_tally=tuple(int(c) for c in tally))
     nulls = array.null_count
     profile = replace(base, count=len(array), nulls=nulls)
     if base.moments is not None:
@@ -177,7 +191,8 @@ def merge_profiles(a: ColumnProfile, b: ColumnProfile) -> ColumnProfile:
         histogram=merge_histograms(a.histogram, b.histogram) if a.histogram is not None
         else None,
         categories=merge_counts(a.categories, b.categories) if a.categories is not None
-        else None)
+        else None,
+        branch_tally=tuple(x + y for x, y in zip(a.branch_tally, b.branch_tally)))
 
 
 def is_close_profile(a: ColumnProfile, b: ColumnProfile, rel: float = 1e-9) -> bool:

@@ -115,7 +115,7 @@ def _avro_writer_schema(path: str) -> dict[str, Any]:
 
 
 def _avro_batches(source: Source, part: Part, batch_rows: int):
-    struct = pa.struct([pa.field(n, t.arrow_type()) for n, t in source.record.fields])
+    make_batch = _AvroBatchMaker(source.record)
     reader_schema = _avro_reader_schema(source)
     converters = _logical_converters(source.schema_json)
     rows_read = 0
@@ -153,10 +153,10 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                                        place=f"row {rows_read + 1}") from error
             rows_read += block.num_records
             if len(pending) >= batch_rows:
-                yield pending_start, _records_to_batch(pending, struct, converters)
+                yield pending_start, _records_to_batch(pending, make_batch, converters)
                 pending = []
     if pending:
-        yield pending_start, _records_to_batch(pending, struct, converters)
+        yield pending_start, _records_to_batch(pending, make_batch, converters)
 
 
 def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
@@ -174,12 +174,77 @@ def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
     return None if same else wanted
 
 
-def _records_to_batch(records: list[dict], struct: pa.StructType,
+class _AvroBatchMaker:
+    """Turns decoded Avro records into an Arrow batch: pyarrow converts the records in one call,
+    except unions of several types, whose branches are told apart here value by value."""
+
+    def __init__(self, record: RecordType) -> None:
+        self.record = record
+        self.unions = [(n, t) for n, t in record.fields if t.avro == "union"]
+        self.struct = pa.struct([pa.field(n, t.arrow_type()) for n, t in record.fields
+                                 if t.avro != "union"])
+
+    def __call__(self, records: list[dict]) -> pa.RecordBatch:
+        plain = pa.array(records, type=self.struct)
+        columns = {name: plain.field(name) for name in self.struct.names}
+        for name, value_type in self.unions:
+            columns[name] = union_array([r[name] for r in records], value_type)
+        return pa.RecordBatch.from_arrays([columns[n] for n in self.record.names],
+                                          schema=self.record.arrow_schema())
+
+
+def union_array(values: list[Any], value_type: ValueType) -> pa.UnionArray:
+    """A dense union array: code 0 for null, then the first branch each value fits."""
+    codes = np.fromiter((_branch_of(v, value_type.branches) for v in values), dtype=np.int8,
+                        count=len(values))
+    children, offsets = [pa.nulls(int(np.count_nonzero(codes == 0)))], np.zeros(len(values),
+                                                                                 np.int32)
+    offsets[codes == 0] = np.arange(int(np.count_nonzero(codes == 0)))
+    for code, branch in enumerate(value_type.branches, start=1):
+        chosen = np.flatnonzero(codes == code)
+        offsets[chosen] = np.arange(len(chosen))
+        children.append(pa.array([values[i] for i in chosen], type=branch.arrow_type()))
+    union_type = value_type.arrow_type()
+    return pa.UnionArray.from_dense(pa.array(codes, type=pa.int8()), pa.array(offsets), children,
+                                    field_names=[f.name for f in union_type],
+                                    type_codes=list(range(len(children))))
+
+
+def _branch_of(value: Any, branches: tuple[ValueType, ...]) -> int:
+    """The type code of the first branch a decoded value belongs to (0 for null)."""
+    if value is None:
+        return 0
+    for code, branch in enumerate(branches, start=1):
+        if _fits(value, branch):
+            return code
+    raise ValueNotParsing(f"{value!r} fits no branch of the union")
+
+
+def _fits(value: Any, branch: ValueType) -> bool:
+    kind = branch.avro
+    if isinstance(value, bool):
+        return kind == "boolean"
+    if isinstance(value, int):
+        return kind in ("int", "long")
+    if isinstance(value, float):
+        return kind in ("float", "double")
+    if isinstance(value, str):
+        return kind == "string" or (kind == "enum" and value in branch.symbols)
+    if isinstance(value, bytes):
+        return kind in ("bytes", "fixed")
+    if isinstance(value, dict):
+        return kind == "map" or (kind == "record" and set(value) == {n for n, _ in branch.fields})
+    if isinstance(value, list):
+        return kind == "array"
+    return False
+
+
+def _records_to_batch(records: list[dict], make_batch: _AvroBatchMaker,
                       converters: Mapping[str, Callable[[Any], Any]]) -> pa.RecordBatch:
     if converters:
         records = [{**r, **{n: convert(r[n]) for n, convert in converters.items()}}
                    for r in records]
-    return pa.RecordBatch.from_struct_array(pa.array(records, type=struct))
+    return make_batch(records)
 
 
 _EPOCH_DATE = datetime.date(1970, 1, 1)
@@ -332,6 +397,10 @@ def _csv_error(path: str, error: Exception) -> UserError:
 
 def _check_columns(present: list[str], record: RecordType) -> list[str]:
     """The file's columns must be the schema's fields; a missing field needs a default."""
+    for name, value_type in record.fields:
+        if value_type.avro == "union":
+            raise UserError("a union of several types can be read from Avro files only",
+                            place=f"column {name}")
     known = set(record.names)
     for name in present:
         if name not in known:

@@ -23,7 +23,7 @@ PRIMITIVES = frozenset({"null", "boolean", "int", "long", "float", "double", "by
 class ValueType:
     """One Avro type, reduced to what reading, hashing and profiling need."""
 
-    avro: str  # a primitive name, or enum, fixed, record, array, map
+    avro: str  # a primitive name, or enum, fixed, record, array, map, union
     nullable: bool = False
     is_union: bool = False  # written as a union in the schema (["null", T] or [T, "null"])
     symbols: tuple[str, ...] = ()  # enum
@@ -31,6 +31,18 @@ class ValueType:
     items: "ValueType | None" = None  # array items, map values
     default: Any = None
     has_default: bool = False
+    branches: tuple["ValueType", ...] = ()  # a union of several types: its non-null branches
+    name: str = ""  # the full name of a named type (enum, fixed, record)
+
+    @property
+    def branch_name(self) -> str:
+        """How a union branch of this type is counted: its name if named, else its type."""
+        return self.name or self.avro
+
+    @property
+    def branch_names(self) -> tuple[str, ...]:
+        """Names of a several-type union's branches by type code: null (code 0) first."""
+        return ("null",) + tuple(b.branch_name for b in self.branches)
 
     def arrow_type(self) -> pa.DataType:
         if self.avro == "boolean":
@@ -51,6 +63,10 @@ class ValueType:
             return pa.list_(self.items.arrow_type())
         if self.avro == "map":
             return pa.map_(pa.string(), self.items.arrow_type())
+        if self.avro == "union":  # type code 0 holds the nulls, 1.. the branches in order
+            children = [pa.field("null", pa.null())] + [
+                pa.field(f"branch_{i}", b.arrow_type()) for i, b in enumerate(self.branches, 1)]
+            return pa.dense_union(children, type_codes=list(range(len(children))))
         raise AssertionError(self.avro)
 
 
@@ -82,27 +98,38 @@ def record_type(schema_json: Mapping[str, Any]) -> RecordType:
     if not isinstance(expanded, dict) or expanded.get("type") != "record":
         raise Unprocessable("a dataset schema must be an Avro record", place="/type")
     fields = tuple(
-        (field["name"], _field_type(field, f"/fields/{field['name']}"))
+        (field["name"], _field_type(field, f"/fields/{field['name']}", top_level=True))
         for field in expanded["fields"]
     )
     return RecordType(name=expanded.get("name", ""), fields=fields, schema_json=dict(schema_json))
 
 
-def _field_type(field: Mapping[str, Any], pointer: str) -> ValueType:
-    value_type = value_type_of(field["type"], pointer + "/type")
+def _full_name(named: Mapping[str, Any]) -> str:
+    name = named.get("name", "")
+    namespace = named.get("namespace")
+    return f"{namespace}.{name}" if namespace and "." not in name else name
+
+
+def _field_type(field: Mapping[str, Any], pointer: str, top_level: bool = False) -> ValueType:
+    value_type = value_type_of(field["type"], pointer + "/type", top_level)
     if "default" in field:
         return replace(value_type, default=field["default"], has_default=True)
     return value_type
 
 
-def value_type_of(avro: Any, pointer: str) -> ValueType:
+def value_type_of(avro: Any, pointer: str, top_level: bool = False) -> ValueType:
     if isinstance(avro, list):
         branches = [b for b in avro if b != "null"]
-        if len(branches) != 1 or len(avro) > 2:
-            raise Unprocessable(
-                "only unions of null and one other type are supported in datasets", place=pointer)
-        inner = value_type_of(branches[0], pointer)
-        return replace(inner, nullable=True, is_union=True)
+        if not branches:
+            return ValueType(avro="null", nullable=True, is_union=True)
+        if len(branches) == 1:
+            inner = value_type_of(branches[0], pointer)
+            return replace(inner, nullable="null" in avro, is_union=True)
+        if not top_level or not branches:
+            raise Unprocessable("a union of several types is supported only as a field of the "
+                                "dataset's record", place=pointer)
+        return ValueType(avro="union", nullable="null" in avro, is_union=True, branches=tuple(
+            value_type_of(b, f"{pointer}/{i}") for i, b in enumerate(avro) if b != "null"))
     if isinstance(avro, str):
         if avro not in PRIMITIVES:
             raise Unprocessable(f"unknown type {avro!r}", place=pointer)
@@ -113,11 +140,11 @@ def value_type_of(avro: Any, pointer: str) -> ValueType:
         if kind in PRIMITIVES:
             return value_type_of(kind, pointer)
         if kind == "enum":
-            return ValueType(avro="enum", symbols=tuple(avro["symbols"]))
+            return ValueType(avro="enum", symbols=tuple(avro["symbols"]), name=_full_name(avro))
         if kind == "fixed":
-            return ValueType(avro="fixed")
+            return ValueType(avro="fixed", name=_full_name(avro))
         if kind == "record":
-            return ValueType(avro="record", fields=tuple(
+            return ValueType(avro="record", name=_full_name(avro), fields=tuple(
                 (f["name"], _field_type(f, f"{pointer}/fields/{f['name']}"))
                 for f in avro["fields"]))
         if kind == "array":

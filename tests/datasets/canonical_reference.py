@@ -38,10 +38,36 @@ def kind_of(avro: object, value: object) -> int:
             "record": RECORD, "array": ARRAY, "map": MAP}[name]
 
 
-def non_null(avro: object) -> object:
-    if isinstance(avro, list):
-        return next(branch for branch in avro if branch != "null")
-    return avro
+def branch_for(avro: object, value: object) -> object:
+    """The branch of a union that a value belongs to: its kind decides (null for None)."""
+    if not isinstance(avro, list):
+        return avro
+    for branch in avro:
+        if branch == "null":
+            if value is None:
+                return branch
+            continue
+        name = branch if isinstance(branch, str) else branch["type"]
+        if value is None:
+            continue
+        if isinstance(value, bool):
+            fits = name == "boolean"
+        elif isinstance(value, int):
+            fits = name in ("int", "long")
+        elif isinstance(value, float):
+            fits = name in ("float", "double")
+        elif isinstance(value, str):
+            fits = name == "string" or (name == "enum" and value in branch["symbols"])
+        elif isinstance(value, bytes):
+            fits = name in ("bytes", "fixed")
+        elif isinstance(value, dict):
+            fits = name == "map" or (name == "record" and
+                                     set(value) == {f["name"] for f in branch["fields"]})
+        else:
+            fits = name == "array"
+        if fits:
+            return branch
+    raise ValueError(f"{value!r} fits no branch of {avro}")
 
 
 def one_word(kind: int, value: object) -> int:
@@ -73,7 +99,7 @@ def byte_words(kind: int, data: bytes) -> tuple[int, int]:
 
 
 def contribution(name: str, avro: object, value: object) -> tuple[int, int]:
-    avro = non_null(avro)
+    avro = branch_for(avro, value)
     kind = kind_of(avro, value)
     k0, k1 = key(kind, name)
     if kind in (NULL, BOOLEAN, INTEGER, FLOAT):
