@@ -433,6 +433,7 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
     target = value_type.arrow_type()
     if pa.types.is_dictionary(array.type):
         array = array.dictionary_decode()
+    array = _underlying(array, value_type)
     if parse_text and value_type.avro == "string" and not value_type.nullable:
         array = array.fill_null("")  # an unquoted empty field is the empty string
     if parse_text and value_type.avro == "boolean":
@@ -461,6 +462,25 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
             row = int(np.argmax(bad))
             raise ValueNotParsing(f"{array[row].as_py()!r} is not a symbol of the enum",
                                   place=cell(first_row + row + 1, name))
+    return array
+
+
+_TIME_UNITS = {"timestamp-millis": "ms", "timestamp-micros": "us", "local-timestamp-millis": "ms",
+               "local-timestamp-micros": "us", "time-millis": "ms", "time-micros": "us"}
+
+
+def _underlying(array: pa.Array, value_type: ValueType) -> pa.Array:
+    """Parquet dates, times and timestamps as the numbers their Avro logical type counts in
+    (Avro specification, Logical Types: days, or milli- or microseconds, since the epoch)."""
+    kind = array.type
+    if pa.types.is_date(kind):
+        return array.cast(pa.date32()).cast(pa.int32())
+    unit = _TIME_UNITS.get(value_type.logical, "us")
+    if pa.types.is_timestamp(kind):
+        return array.cast(pa.timestamp(unit, kind.tz), safe=False).cast(pa.int64())
+    if pa.types.is_time(kind):
+        wanted = pa.time32(unit) if unit == "ms" else pa.time64(unit)
+        return array.cast(wanted, safe=False).cast(pa.int64())
     return array
 
 

@@ -33,6 +33,7 @@ class ValueType:
     has_default: bool = False
     branches: tuple["ValueType", ...] = ()  # a union of several types: its non-null branches
     name: str = ""  # the full name of a named type (enum, fixed, record)
+    logical: str = ""  # the logical type of a primitive, if any (date, timestamp-millis ...)
 
     @property
     def branch_name(self) -> str:
@@ -138,7 +139,7 @@ def value_type_of(avro: Any, pointer: str, top_level: bool = False) -> ValueType
         # Avro specification, Logical Types: a logical type is read as its underlying type.
         kind = avro.get("type")
         if kind in PRIMITIVES:
-            return value_type_of(kind, pointer)
+            return replace(value_type_of(kind, pointer), logical=str(avro.get("logicalType", "")))
         if kind == "enum":
             return ValueType(avro="enum", symbols=tuple(avro["symbols"]), name=_full_name(avro))
         if kind == "fixed":

@@ -73,3 +73,22 @@ def test_a_byte_order_mark_before_the_csv_header_is_no_part_of_a_name(tmp_path, 
     marked.write_bytes(b"\xef\xbb\xbf" + plain.read_bytes())
     assert fingerprint_file(str(marked), schema_json=SEGMENT_SCHEMA).content_digest == \
         fingerprint_file(str(plain), schema_json=SEGMENT_SCHEMA).content_digest
+
+
+def test_parquet_dates_and_timestamps_read_as_the_numbers_of_their_logical_types(tmp_path):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    schema = {"type": "record", "name": "Inspection", "fields": [
+        {"name": "inspected_on", "type": {"type": "int", "logicalType": "date"}},
+        {"name": "logged_at", "type": {"type": "long", "logicalType": "timestamp-millis"}}]}
+    day = datetime.date(2026, 3, 14)
+    moment = datetime.datetime(2026, 3, 14, 6, 30, tzinfo=datetime.timezone.utc)
+    records = [{"inspected_on": day, "logged_at": moment}]
+    avro = write_avro(tmp_path / "i.avro", records, schema=schema)
+    parquet = tmp_path / "i.parquet"
+    pq.write_table(pa.table({"inspected_on": pa.array([day]),
+                             "logged_at": pa.array([moment], type=pa.timestamp("us", "UTC"))}),
+                   parquet)
+    assert fingerprint_file(str(parquet), schema_json=schema).content_digest == \
+        fingerprint_file(str(avro), schema_json=schema).content_digest
