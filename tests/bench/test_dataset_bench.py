@@ -130,4 +130,6 @@ def test_peak_memory_stays_flat_as_the_file_grows(tmp_path):
     grown = os.path.getsize(large) - os.path.getsize(small)
     print(f"\npeak RSS: {small_peak / 1024:.0f} MiB for 250k rows, {large_peak / 1024:.0f} MiB "
           f"for 2.5M rows; the file grew by {grown / 2**20:.0f} MiB")
-    assert large_peak - small_peak < 0.25 * grown / 1024
+    # Holding the records would cost at least what the file grew by; the in-flight batches make
+    # the peak swing by a few tens of MiB from run to run.
+    assert large_peak - small_peak < 0.5 * grown / 1024
