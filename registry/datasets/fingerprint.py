@@ -12,8 +12,8 @@ import os
 import queue
 import threading
 from collections import deque
-from concurrent.futures import Future, ThreadPoolExecutor
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from typing import Any
 
