@@ -125,8 +125,8 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
         try:
             blocks = fastavro.block_reader(handle, reader_schema)
         except fastavro.read.SchemaResolutionError as error:
-            raise ColumnsNotMatching(f"the file's schema cannot be read with the given schema: "
-                                     f"{error}", place=source.path) from error
+            raise ColumnsNotMatching(f"the file's records cannot be read with the given "
+                                     f"schema ({error})", place=source.path) from error
         except Exception as error:
             raise DatasetFileError(f"not an Avro container file or its header is damaged "
                                    f"({error})", place=source.path) from error
@@ -136,6 +136,9 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                 block = next(blocks)
             except StopIteration:
                 break
+            except fastavro.read.SchemaResolutionError as error:
+                raise ColumnsNotMatching(f"the file's records cannot be read with the given "
+                                         f"schema ({error})", place=source.path) from error
             except Exception as error:  # a truncated or damaged block
                 raise DatasetFileError(f"the Avro file is truncated or damaged ({error})",
                                        place=f"row {rows_read + 1}") from error
@@ -148,6 +151,9 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                 pending_start = rows_read
             try:
                 pending.extend(block)
+            except fastavro.read.SchemaResolutionError as error:
+                raise ColumnsNotMatching(f"the file's records cannot be read with the given "
+                                         f"schema ({error})", place=source.path) from error
             except Exception as error:
                 raise DatasetFileError(f"the Avro file is truncated or damaged ({error})",
                                        place=f"row {rows_read + 1}") from error

@@ -172,3 +172,17 @@ def test_missing_schema_file_is_one_line(tmp_path, records):
     line = one_line_error(run("dataset", "fingerprint", str(path), "--schema",
                               str(tmp_path / "nope.avsc")))
     assert "schema" in line
+
+
+def test_avro_file_not_readable_with_the_given_schema_is_one_line(tmp_path, records):
+    import copy
+
+    schema = copy.deepcopy(SEGMENT_SCHEMA)
+    for field in schema["fields"]:
+        if field["name"] == "diameter_mm":
+            field["type"] = "string"  # an int cannot be read as a string (Schema Resolution)
+    path = tmp_path / "v4.avsc"
+    path.write_text(json.dumps(schema))
+    avro = write_avro(tmp_path / "v1.avro", records)
+    line = one_line_error(run("dataset", "fingerprint", str(avro), "--schema", str(path)))
+    assert "cannot be read with the given schema" in line
