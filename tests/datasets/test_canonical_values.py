@@ -144,3 +144,14 @@ def test_numpy_code_agrees_with_the_plain_reference_on_segments():
     records = segment_records(50)
     hashes, digest = vectorised_hashes(SEGMENT_SCHEMA, records)
     assert digest == reference.content_digest(SEGMENT_SCHEMA, records)
+
+
+@pytest.mark.parametrize("schema, records, hashes, digest", VECTORS)
+def test_fingerprinting_a_file_gives_the_documented_digest(tmp_path, schema, records, hashes,
+                                                           digest):
+    from dataset_files import write_avro
+
+    from registry.datasets import fingerprint_file
+
+    path = write_avro(tmp_path / "vectors.avro", records, schema=schema)
+    assert fingerprint_file(str(path), schema_json=None).content_digest == digest
