@@ -46,6 +46,7 @@ COMMAND_MODULES = [
     "registry.cli.evaluation_commands",
     "registry.cli.schema_commands",
     "registry.cli.metrics_commands",
+    "registry.cli.dataset_commands",
 ]
 
 
