@@ -243,7 +243,10 @@ def _mutate(draw: Any, schema: dict[str, Any], mutation: str, naming: _Naming) -
         field.pop("default", None)
         return True
     if mutation == "narrow":
-        candidates = [f for f in all_fields if isinstance(f["type"], list) and len(f["type"]) > 1]
+        # Never narrow ["null", Self]: a record that must contain itself has no finite value.
+        candidates = [f for f in all_fields if isinstance(f["type"], list) and len(f["type"]) > 1
+                      and all(b in PRIMITIVES + ["null"] or isinstance(b, dict)
+                              for b in f["type"])]
         if not candidates:
             return False
         field = draw(st.sampled_from(candidates))

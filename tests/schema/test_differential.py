@@ -16,7 +16,7 @@ import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
-from registry.schema import canonical_form, fingerprint, parse, resolve, to_json
+from registry.schema import canonical_form, diff, fingerprint, parse, resolve, to_json
 from registry.schema.errors import SchemaError
 
 from tests.schema.generators import MUTATIONS, datum_for, record_json, schema_pairs, witness_datum, _Naming
@@ -95,3 +95,18 @@ def test_canonical_form_and_fingerprints_equal_fastavro(schema_json):
     assert result.crc64_avro == fastavro.schema.fingerprint(form, "CRC-64-AVRO")
     assert result.sha256 == fastavro.schema.fingerprint(form, "SHA-256")
     assert canonical_form(parse(to_json(schema))) == form
+
+
+@pytest.mark.parametrize("first_mutation", MUTATIONS)
+@settings(max_examples=10, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
+@given(data=st.data())
+def test_diff_classes_agree_with_resolution(first_mutation, data):
+    old_json, new_json, _ = data.draw(schema_pairs(first_mutation))
+    parsed = _parse_both(old_json, new_json)
+    if parsed is None:
+        return
+    old, new = parsed
+    changes = diff(old, new)
+    assert changes.breaks_readers == (not resolve(new, old).compatible), changes
+    assert changes.breaks_writers == (not resolve(old, new).compatible), changes
