@@ -8,6 +8,7 @@ breaks both is listed once for each; everything else is "safe". Classes follow `
 
 from __future__ import annotations
 
+import json
 from dataclasses import dataclass
 from typing import Literal
 
@@ -52,10 +53,8 @@ class SchemaDiff:
         return any(c.classification == "breaking-for-writers" for c in self.changes)
 
 
-def _describe_default(value: object) -> str:
-    import json
-
-    return json.dumps(value)
+def _describe_default(field: Field) -> str:
+    return json.dumps(field.default) if field.has_default else "none"
 
 
 class _Differ:
@@ -227,9 +226,7 @@ class _Differ:
                     before.has_default and before.default != field.default):
                 self.change(field_path, "field-default-changed",
                             f"default of field {field.name} changed from "
-                            f"{_describe_default(before.default) if before.has_default else 'none'}"
-                            f" to "
-                            f"{_describe_default(field.default) if field.has_default else 'none'}")
+                            f"{_describe_default(before)} to {_describe_default(field)}")
             if set(before.aliases) != set(field.aliases) and not renamed:
                 self.change(field_path, "field-aliases-changed",
                             f"aliases of field {field.name} changed from {list(before.aliases)} "

@@ -53,7 +53,7 @@ class IgnoredLogicalType:
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
 class Schema:
-    """Any Avro schema; `kind` is its type name (a primitive, record, enum, fixed, array, map, union)."""
+    """Any Avro schema; `kind` names its type (a primitive, record, enum, fixed, array, ...)."""
 
     logical: LogicalType | None = None
     ignored_logical: IgnoredLogicalType | None = None

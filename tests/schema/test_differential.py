@@ -19,7 +19,14 @@ from hypothesis import strategies as st
 from registry.schema import canonical_form, diff, fingerprint, parse, resolve, to_json
 from registry.schema.errors import SchemaError
 
-from tests.schema.generators import MUTATIONS, datum_for, record_json, schema_pairs, witness_datum, _Naming
+from tests.schema.generators import (
+    MUTATIONS,
+    Naming,
+    datum_for,
+    record_json,
+    schema_pairs,
+    witness_datum,
+)
 
 # Where fastavro departs from the specification we follow the specification (see
 # docs/schema-compatibility.md): rules whose problems fastavro does not detect when reading.
@@ -82,7 +89,7 @@ def test_verdict_agrees_with_fastavro_reading_real_data(first_mutation, data):
 
 
 @settings(max_examples=100, deadline=None, derandomize=True)
-@given(schema_json=st.builds(_Naming).flatmap(lambda naming: record_json(naming, depth=2)))
+@given(schema_json=st.builds(Naming).flatmap(lambda naming: record_json(naming, depth=2)))
 def test_canonical_form_and_fingerprints_equal_fastavro(schema_json):
     try:
         schema = parse(schema_json)

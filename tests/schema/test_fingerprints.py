@@ -1,4 +1,4 @@
-"""Parsing Canonical Form and fingerprints against the Avro project's own test vectors and fastavro."""
+"""Parsing Canonical Form and fingerprints against the Avro project's test vectors and fastavro."""
 
 from __future__ import annotations
 
