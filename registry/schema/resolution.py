@@ -119,6 +119,11 @@ class _Resolver:
 
     def problem(self, path: str, rule: str, message: str, writer_path: str,
                 witness: dict | None = None) -> None:
+        if witness is None and writer_path.endswith("/type"):
+            # A fault in the type of one writer field: name that field.
+            head, _, field_name = writer_path[:-len("/type")].rpartition("/")
+            if head.endswith("/fields"):
+                witness = {"writer_field": field_name}
         self.problems.append(Problem(path or "/", rule, message, writer_path or "/", witness))
 
     def note(self, path: str, rule: str, message: str, severity: str = "info") -> None:

@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 from registry.schema import canonical_form, diff, fingerprint, parse, resolve, to_json
 from registry.schema.errors import SchemaError
 
-from tests.schema.generators import (
+from .generators import (
     MUTATIONS,
     Naming,
     datum_for,

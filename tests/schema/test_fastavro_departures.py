@@ -14,7 +14,7 @@ import fastavro
 import pytest
 
 from registry.schema import SchemaError, parse, resolve
-from tests.schema.test_parse import BAD_SCHEMAS
+from .test_parse import BAD_SCHEMAS
 
 
 def round_trip(writer_json, reader_json, datum):

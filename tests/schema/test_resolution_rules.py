@@ -210,7 +210,7 @@ def test_every_problem_is_listed_not_just_the_first():
                                                   "symbols": MATERIAL})))
     result = resolve(reader, writer)
     assert [(p.path, p.rule, p.witness) for p in result.problems] == [
-        ("/fields/diameter_mm/type", "type-mismatch", None),
+        ("/fields/diameter_mm/type", "type-mismatch", {"writer_field": "diameter_mm"}),
         ("/fields/pipe_material/type", "enum-symbol", {"enum_symbol": "HDPE"}),
         ("/fields/pipe_material/type", "enum-symbol", {"enum_symbol": "ASBESTOS_CEMENT"}),
         ("/fields/repairs_5y", "missing-field", {"reader_field": "repairs_5y"}),
