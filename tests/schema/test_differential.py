@@ -65,6 +65,9 @@ def test_verdict_agrees_with_fastavro_reading_real_data(first_mutation, data):
         event("a mutation made an invalid schema")
         return  # a mutation made an invalid schema (a default no longer fitting, say)
     reader, writer = parsed
+    for schema_json, schema in ((reader_json, reader), (writer_json, writer)):
+        # fastavro.schema.to_parsing_canonical_form (the oracle), on every generated schema
+        assert canonical_form(schema) == fastavro.schema.to_parsing_canonical_form(schema_json)
     fast_writer = fastavro.parse_schema(to_json(writer))
     fast_reader = fastavro.parse_schema(to_json(reader))
     resolution = resolve(reader, writer)
