@@ -47,6 +47,7 @@ COMMAND_MODULES = [
     "registry.cli.schema_commands",
     "registry.cli.metrics_commands",
     "registry.cli.dataset_commands",
+    "registry.cli.dataset_catalogue_commands",
 ]
 
 

@@ -121,11 +121,46 @@ def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.F
 
 
 def containment(uow: UnitOfWork, version: t.Version) -> tuple[gates.ContainmentEstimate, ...]:
-    return ()
+    """For each (training, evaluation) pair of the version: the share of the evaluation set's
+    feature-only records (key and label left out) that also occur in the training set, from
+    bottom-k sketches (Broder 1997; Cohen and Kaplan 2007)."""
+    from registry.datasets import overlap
+    from registry.service.datasets import load_fingerprint
+
+    linked = _linked(uow, version)
+    training = [d for relation, d in linked if relation == "trained-on"]
+    evaluation = [d for relation, d in linked if relation == "evaluated-on"]
+    estimates = []
+    for train in training:
+        train_sketch = load_fingerprint(uow, train).feature_sketch
+        for held_out in evaluation:
+            found = overlap(train_sketch, load_fingerprint(uow, held_out).feature_sketch)
+            estimates.append(gates.ContainmentEstimate(
+                training_dataset=train.name, evaluation_dataset=held_out.name,
+                containment=found.containment, error_bound=found.containment_error_bound,
+                method="exact" if found.is_exact else "bottom-k"))
+    return tuple(estimates)
 
 
 def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
-    return None
+    """The newest live sample registered as taken from this model's feed, with the counts of
+    enum symbols, union branches and nulls per column from its profile."""
+    from registry.service.datasets import load_fingerprint
+
+    sample = uow.session.execute(
+        select(t.Dataset).where(t.Dataset.feed_model_id == model.id,
+                                t.Dataset.role == "live-sample")
+        .order_by(t.Dataset.created_at.desc(), t.Dataset.id.desc())).scalars().first()
+    if sample is None:
+        return None
+    profile = load_fingerprint(uow, sample).to_dict().get("profile", {})
+    columns = {
+        name: gates.ColumnCounts(enum_symbols=dict(column.get("symbols") or {}),
+                                 union_branches=dict(column.get("branches") or {}),
+                                 nulls=int(column.get("nulls", 0)))
+        for name, column in profile.items()}
+    return gates.SampleProfile(dataset=sample.name, fingerprint=sample.content_digest,
+                               rows=sample.rows, columns=columns)
 
 
 def _quality_settings(specs) -> dict[str, dict]:
