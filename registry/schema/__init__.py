@@ -1,0 +1,34 @@
+"""Avro schemas: parsing, resolution (compatibility), canonical form, fingerprints and diff.
+
+Apache Avro Specification 1.11/1.12: Schema Declaration, Aliases, Schema Resolution, Parsing
+Canonical Form for Schemas, Schema Fingerprints, Logical Types.
+"""
+
+from registry.schema.errors import SchemaError
+from registry.schema.leaves import LeafField, leaf_fields
+from registry.schema.loading import load
+from registry.schema.model import (
+    NO_DEFAULT,
+    PRIMITIVE_TYPES,
+    Array,
+    Enum,
+    Field,
+    Fixed,
+    IgnoredLogicalType,
+    LogicalType,
+    Map,
+    NamedSchema,
+    Primitive,
+    Record,
+    Schema,
+    Union,
+)
+from registry.schema.names import Names
+from registry.schema.parser import parse
+from registry.schema.serialise import canonical_form, to_json
+
+__all__ = [
+    "NO_DEFAULT", "PRIMITIVE_TYPES", "Array", "Enum", "Field", "Fixed", "IgnoredLogicalType",
+    "LeafField", "LogicalType", "Map", "NamedSchema", "Names", "Primitive", "Record", "Schema",
+    "SchemaError", "Union", "canonical_form", "leaf_fields", "load", "parse", "to_json",
+]
