@@ -16,7 +16,9 @@ in line with common practice but with no single published source:
   - categories added are safe, categories removed are breaking (a value the feed may still send
     has lost its meaning); turning a range into categories or back is breaking;
   - a field that may now be null is safe, one that no longer may be null is breaking;
-  - a changed transform or source needs review; a changed description or owner is safe.
+  - a changed transform or source needs review; a changed description or owner is safe;
+  - a changed field type needs review here (whether data stays readable is the schema gate's
+    verdict); a feature added is safe, a definition dropped for a field still read needs review.
 """
 
 from __future__ import annotations
@@ -87,6 +89,8 @@ def diff_features(old_definitions: FeatureDefinitions, old_schema: Any,
                 f"renamed from {old_path}; its alias lets the new schema read data written "
                 "under the old name", old_path=old_path, before=old_path, after=new.path))
         changes.extend(_compare(old, new))
+        changes.extend(_compare_types(old_fields.get(old_path), new_fields.get(new.path),
+                                      new.path, old_path))
     for old in old_definitions.definitions:
         if old.path in matched_old:
             continue
@@ -188,6 +192,20 @@ def _compare(old: FeatureDefinition, new: FeatureDefinition) -> list[FeatureChan
         change("owner-changed", "safe", "the owner changed", before=old.owner,
                after=new.owner)
     return changes
+
+
+def _compare_types(old: SchemaField | None, new: SchemaField | None, path: str,
+                   old_path: str) -> list[FeatureChange]:
+    """A field whose type changed: readability is the schema gate's call, meaning is a person's."""
+    if old is None or new is None:
+        return []
+    before = old.item_type and f"{old.type} of {old.item_type}" or old.type
+    after = new.item_type and f"{new.type} of {new.item_type}" or new.type
+    if before == after:
+        return []
+    return [FeatureChange(path, "type-changed", "needs-review",
+                          f"the field's type changed from {before} to {after}",
+                          old_path=old_path, before=before, after=after)]
 
 
 def _source_text(definition: FeatureDefinition) -> str | None:

@@ -1,13 +1,11 @@
 """The leaf fields of an input schema, seen the way feature definitions need them.
 
 Feature rules ask of each leaf: its dotted path, its value type once null is taken out of a
-union, whether it may be null, its enum symbols and its aliases. This module reads that from the
-schema's JSON form, so it depends only on registry.schema's `to_json`.
+union, whether it may be null, its enum symbols and its aliases (registry.schema.leaf_fields).
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -59,85 +57,34 @@ class SchemaField:
         return self.path.rsplit(".", 1)[0] if "." in self.path else ""
 
 
-def leaf_fields_of(schema_json: Any) -> tuple[SchemaField, ...]:
-    """The leaf fields of a record schema given as Avro JSON, in declaration order.
-
-    Nested records (also optional ones, a union of null and a record) are walked into; every
-    other field is a leaf. Named types defined once are found again by name.
-    """
-    named: dict[str, Any] = {}
-    fields: list[SchemaField] = []
-    _walk_record(_resolve(schema_json, named, None), "", named, fields)
-    return tuple(fields)
-
-
-def _full_name(name: str, namespace: str | None) -> str:
-    if "." in name or not namespace:
-        return name
-    return f"{namespace}.{name}"
-
-
-def _resolve(schema: Any, named: dict[str, Any], namespace: str | None) -> Any:
-    """Register a named type, or look a name up; return the schema it stands for."""
-    if isinstance(schema, str):
-        return named.get(_full_name(schema, namespace), named.get(schema, schema))
-    if isinstance(schema, Mapping) and schema.get("type") in ("record", "error", "enum",
-                                                              "fixed"):
-        space = schema.get("namespace", namespace)
-        name = schema.get("name", "")
-        full = _full_name(name, space)
-        named[full] = schema
-        named.setdefault(name.rsplit(".", 1)[-1], schema)
-        schema = dict(schema)
-        schema["_namespace"] = full.rsplit(".", 1)[0] if "." in full else space
-    return schema
-
-
-def _walk_record(record: Any, prefix: str, named: dict[str, Any],
-                 out: list[SchemaField]) -> None:
-    if not isinstance(record, Mapping) or record.get("type") not in ("record", "error"):
-        return
-    namespace = record.get("_namespace")
-    for field in record.get("fields", ()):
-        path = f"{prefix}{field['name']}"
-        field_type = field["type"]
-        branches = field_type if isinstance(field_type, list) else [field_type]
-        resolved = [_resolve(branch, named, namespace) for branch in branches]
-        nullable = any(_type_name(branch) == "null" for branch in resolved)
-        others = [branch for branch in resolved if _type_name(branch) != "null"]
-        if len(others) == 1 and _type_name(others[0]) in ("record", "error"):
-            _walk_record(others[0], f"{path}.", named, out)
-            continue
-        aliases = tuple(alias.rsplit(".", 1)[-1] for alias in field.get("aliases", ()))
-        if len(others) != 1:
-            out.append(SchemaField(path, "union" if others else "null", nullable,
-                                   aliases=aliases))
-            continue
-        value = others[0]
-        item_type = None
-        if _type_name(value) == "array":
-            item_type = _type_name(_resolve(value["items"], named, namespace))
-        elif _type_name(value) == "map":
-            item_type = _type_name(_resolve(value["values"], named, namespace))
-        symbols = tuple(value.get("symbols", ())) if _type_name(value) == "enum" else ()
-        logical = value.get("logicalType") if isinstance(value, Mapping) else None
-        out.append(SchemaField(path, _type_name(value), nullable, symbols=symbols,
-                               aliases=aliases, logical_type=logical, item_type=item_type))
-
-
-def _type_name(schema: Any) -> str:
-    if isinstance(schema, Mapping):
-        inner = schema.get("type")
-        return inner if isinstance(inner, str) else _type_name(inner)
-    if isinstance(schema, list):
-        return "union"
-    return str(schema)
-
-
 def schema_fields(schema: Any) -> tuple[SchemaField, ...]:
-    """Leaf fields of a registry.schema schema (or of Avro JSON already in hand)."""
-    if isinstance(schema, (Mapping, list, str)):
-        return leaf_fields_of(schema)
-    from registry.schema import to_json
+    """Leaf fields of an input schema (a registry.schema Schema, or Avro JSON to parse)."""
+    from registry.schema import Schema, leaf_fields, parse
 
-    return leaf_fields_of(to_json(schema))
+    if not isinstance(schema, Schema):
+        schema = parse(schema)
+    return tuple(_as_field(leaf) for leaf in leaf_fields(schema))
+
+
+def _as_field(leaf: Any) -> SchemaField:
+    from registry.schema import Array, Enum, Map, Union
+
+    value = leaf.schema
+    item_type = None
+    if isinstance(value, (Array, Map)):
+        inner = value.items if isinstance(value, Array) else value.values
+        if isinstance(inner, Union):  # an array of optional numbers still carries a unit
+            kinds = [branch.kind for branch in inner.branches if branch.kind != "null"]
+            item_type = kinds[0] if len(kinds) == 1 else "union"
+        else:
+            item_type = inner.kind
+    logical = value.logical.name if value.logical is not None else None
+    return SchemaField(
+        path=leaf.path,
+        type=value.kind,
+        nullable=leaf.nullable,
+        symbols=value.symbols if isinstance(value, Enum) else (),
+        aliases=tuple(alias.rpartition(".")[2] for alias in leaf.aliases),
+        logical_type=logical,
+        item_type=item_type,
+    )
