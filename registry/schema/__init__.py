@@ -4,7 +4,9 @@ Apache Avro Specification 1.11/1.12: Schema Declaration, Aliases, Schema Resolut
 Canonical Form for Schemas, Schema Fingerprints, Logical Types.
 """
 
+from registry.schema.diff import Change, SchemaDiff, diff
 from registry.schema.errors import SchemaError
+from registry.schema.fingerprints import Fingerprint, crc64_avro, fingerprint
 from registry.schema.leaves import LeafField, leaf_fields
 from registry.schema.loading import load
 from registry.schema.model import (
@@ -25,9 +27,23 @@ from registry.schema.model import (
 )
 from registry.schema.names import Names
 from registry.schema.parser import parse
+from registry.schema.resolution import (
+    Note,
+    Problem,
+    Resolution,
+    check_against_all,
+    check_backward,
+    check_both,
+    check_forward,
+    reads,
+    resolve,
+)
 from registry.schema.serialise import canonical_form, to_json
 
 __all__ = [
+    "Change", "SchemaDiff", "diff",
+    "Fingerprint", "Note", "Problem", "Resolution", "check_against_all", "check_backward",
+    "check_both", "check_forward", "crc64_avro", "fingerprint", "reads", "resolve",
     "NO_DEFAULT", "PRIMITIVE_TYPES", "Array", "Enum", "Field", "Fixed", "IgnoredLogicalType",
     "LeafField", "LogicalType", "Map", "NamedSchema", "Names", "Primitive", "Record", "Schema",
     "SchemaError", "Union", "canonical_form", "leaf_fields", "load", "parse", "to_json",

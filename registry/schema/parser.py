@@ -110,8 +110,6 @@ class _Parser:
         if isinstance(obj, str):
             slot[index] = self._reference(obj, place, namespace)
         elif isinstance(obj, list):
-            if not obj:
-                raise SchemaError("a union needs at least one branch", place=place or "/")
             holder: list[Any] = [None] * len(obj)
             stack.append(("union", holder, place, slot, index))
             for position in range(len(obj) - 1, -1, -1):
