@@ -3,7 +3,8 @@
 from registry.features.definitions import (Categories, FeatureDefinition,
                                            FeatureDefinitionError, FeatureDefinitions,
                                            NumericRange, Source, load_feature_definitions,
-                                           parse_feature_file, parse_feature_table)
+                                           features_from_manifest, parse_feature_file,
+                                           parse_feature_table)
 from registry.features.diff import FeatureChange, FeatureDiff, diff_features
 from registry.features.fields import SchemaField, schema_fields
 from registry.features.rules import (FeatureCheck, FeatureProblem, UnknownFeatureField,
@@ -16,6 +17,6 @@ __all__ = [
     "FeatureDefinitionError", "FeatureDefinitions", "FeatureDiff", "FeatureProblem",
     "NumericRange", "SchemaField", "Source", "Unit", "UnitComparison", "UnknownFeatureField",
     "UnknownUnit", "check_features", "compare_units", "diff_features",
-    "load_feature_definitions", "parse_feature_file", "parse_feature_table", "parse_unit",
+    "features_from_manifest", "load_feature_definitions", "parse_feature_file", "parse_feature_table", "parse_unit",
     "schema_fields",
 ]

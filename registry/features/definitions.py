@@ -246,3 +246,22 @@ def _parse_source(value: Any, fail: Any) -> Source:
         if not isinstance(value.get(key), str) or not value[key].strip():
             raise fail(f"source needs {key} (non-empty text)", f"source.{key}")
     return Source(dataset=value["dataset"], column=value["column"])
+
+
+def features_from_manifest(manifest: Mapping[str, Any], *,
+                           manifest_path: str | Path) -> FeatureDefinitions | None:
+    """The definitions a version manifest gives: a path to a file, or an inline [features] table.
+
+    A path is relative to the manifest. None when the manifest names no features.
+    """
+    manifest_path = Path(manifest_path)
+    value = manifest.get("features")
+    if value is None:
+        return None
+    if isinstance(value, str):
+        return load_feature_definitions(manifest_path.parent / value)
+    if isinstance(value, Mapping):
+        return parse_feature_table(value, origin=manifest_path.name)
+    raise FeatureDefinitionError(
+        "features must be the path of a definitions file or a [features] table",
+        place=f"{manifest_path.name} features")

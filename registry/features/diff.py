@@ -77,8 +77,8 @@ def diff_features(old_definitions: FeatureDefinitions, old_schema: Any,
         old_path = _old_counterpart(new.path, new_fields.get(new.path), old_definitions,
                                     old_fields)
         if old_path is None:
-            changes.append(FeatureChange(new.path, "added", "safe",
-                                         "a new feature", after=new.unit))
+            unit = f" (in {new.unit})" if new.unit else ""
+            changes.append(FeatureChange(new.path, "added", "safe", f"a new feature{unit}"))
             continue
         matched_old.add(old_path)
         old = old_definitions.get(old_path)
