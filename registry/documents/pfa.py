@@ -71,9 +71,9 @@ def read_pfa(data: bytes, *, source: str = "") -> PfaSummary:
     Places in errors are JSON pointers into the document (`/input/fields/2/type`), or the line
     and column of malformed JSON; `source` (a file name) prefixes them.
     """
-    digest = canonical_digest(data, measure=_LARGE_VALUES)
-    document = _decode_without_large_values(data, digest)
     try:
+        digest = canonical_digest(data, measure=_LARGE_VALUES)
+        document = _decode_without_large_values(data, digest)
         return _summarise(document, digest)
     except UserError as error:
         if source:
