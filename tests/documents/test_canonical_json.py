@@ -1,6 +1,7 @@
 """Canonical JSON (RFC 8785 rules, with exact 64-bit integers): vectors, invariance, errors."""
 
 import json
+import re
 import random
 import struct
 
@@ -172,3 +173,24 @@ def test_malformed_json_names_line_and_column(text, place, message):
     with pytest.raises(MalformedJson, match=message) as caught:
         canonical_json(text)
     assert caught.value.place == place
+
+
+def _documented_vectors():
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[2] / "docs" / "document-digest.md").read_text(
+        encoding="utf-8")
+    rows = re.findall(r"^\| `(.+)` \| `(.+)` \|$", text, flags=re.MULTILINE)
+    digest = re.search(r"that is\n`([0-9a-f]{64})`", text).group(1)
+    return rows, digest
+
+
+def test_the_vectors_in_the_digest_document_hold():
+    import hashlib
+
+    rows, digest = _documented_vectors()
+    assert len(rows) >= 9
+    for given_text, expected in rows:
+        assert canonical_json(given_text.encode("utf-8")) == expected.encode("utf-8")
+    smallest = canonical_json(rows[-1][0].encode("utf-8"))
+    assert hashlib.sha256(smallest).hexdigest() == digest
