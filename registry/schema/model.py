@@ -76,11 +76,7 @@ class Schema:
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
 class Primitive(Schema):
-    type_name: str
-
-    @property
-    def kind(self) -> str:  # type: ignore[override]
-        return self.type_name
+    kind: str  # type: ignore[misc]  # one of PRIMITIVE_TYPES
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -144,14 +140,14 @@ class Record(NamedSchema):
     kind = "record"
 
     def field_named(self, name: str) -> Field | None:
-        index = self._field_index().get(name)
-        return None if index is None else self.fields[index]
+        return self.fields_by_name().get(name)
 
-    def _field_index(self) -> dict[str, int]:
-        cached = self.__dict__.get("_index")
+    def fields_by_name(self) -> dict[str, Field]:
+        """Fields keyed by name (built once; do not modify the returned dict)."""
+        cached = self.__dict__.get("_by_name")
         if cached is None or len(cached) != len(self.fields):
-            cached = {f.name: i for i, f in enumerate(self.fields)}
-            object.__setattr__(self, "_index", cached)
+            cached = {f.name: f for f in self.fields}
+            object.__setattr__(self, "_by_name", cached)
         return cached
 
 
@@ -181,6 +177,15 @@ class Union(Schema):
     def describe(self) -> str:
         return "union [" + ", ".join(b.name if isinstance(b, NamedSchema) else b.describe()
                                      for b in self.branches) + "]"
+
+
+def make_field(name: str, type: Schema, default: Any, aliases: tuple[str, ...], order: str,
+               doc: str | None, properties: tuple[tuple[str, Any], ...]) -> Field:
+    """A Field built without the frozen-dataclass __init__ (the parser makes many of them)."""
+    made = object.__new__(Field)
+    made.__dict__.update(name=name, type=type, default=default, aliases=aliases, order=order,
+                         doc=doc, properties=properties)
+    return made
 
 
 def branch_label(schema: Schema) -> str:

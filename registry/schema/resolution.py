@@ -82,7 +82,7 @@ def names_match(reader: NamedSchema, writer: NamedSchema) -> bool:
 
 def matches(reader: Schema, writer: Schema) -> bool:
     """The specification's shallow match of two non-union schemas (kind, name, promotion)."""
-    if isinstance(reader, Primitive) and isinstance(writer, Primitive):
+    if reader.__class__ is Primitive and writer.__class__ is Primitive:
         return reader.kind == writer.kind or reader.kind in PROMOTIONS.get(writer.kind, ())
     if isinstance(reader, Array):
         return isinstance(writer, Array)
@@ -133,9 +133,15 @@ class _Resolver:
                 item[1]()
                 continue
             r, w, rpath, wpath = item
+            if r is w:
+                # The very same schema object (shared primitives, types from one Names): it
+                # reads itself. Its ignored logical types were noted where it was declared.
+                continue
             children: list[tuple] = []
-            self._note_ignored_logical(r, rpath, "reader")
-            self._note_ignored_logical(w, wpath, "writer")
+            if r.ignored_logical is not None:
+                self._note_ignored_logical(r, rpath, "reader")
+            if w.ignored_logical is not None:
+                self._note_ignored_logical(w, wpath, "writer")
             if isinstance(w, Union):
                 self._writer_union(r, w, rpath, wpath, children)
             elif isinstance(r, Union):
@@ -175,6 +181,8 @@ class _Resolver:
     def _writer_union(self, r: Schema, w: Union, rpath: str, wpath: str,
                       children: list[tuple]) -> None:
         """A writer union: every branch the writer may pick must be readable."""
+        if isinstance(r, Union) and r.branches == w.branches:
+            return  # the same branch objects in the same order (tuples compare by identity here)
         for position, branch in enumerate(w.branches):
             branch_path = f"{wpath}/{position}"
             label = branch_label(branch)
@@ -222,15 +230,19 @@ class _Resolver:
     def _record(self, r: Record, w: Record, rpath: str, wpath: str,
                 children: list[tuple]) -> None:
         """Avro specification, Schema Resolution, records: fields match by name or reader alias."""
-        reader_names = {f.name for f in r.fields}
+        reader_names = r.fields_by_name()
+        writer_fields = w.fields_by_name()
         used: set[str] = set()
         for field in r.fields:
+            source = writer_fields.get(field.name)
+            if source is not None and source.type is field.type:
+                used.add(source.name)  # the same type object: nothing to resolve
+                continue
             field_path = f"{rpath}/fields/{field.name}"
-            source = w.field_named(field.name)
             if source is None:
                 for alias in field.aliases:
                     # A writer field that has a reader field of its own name goes to that field.
-                    candidate = w.field_named(alias)
+                    candidate = writer_fields.get(alias)
                     if candidate is not None and candidate.name not in reader_names \
                             and candidate.name not in used:
                         source = candidate
@@ -241,8 +253,9 @@ class _Resolver:
                         break
             if source is not None:
                 used.add(source.name)
-                children.append((field.type, source.type, f"{field_path}/type",
-                                 f"{wpath}/fields/{source.name}/type"))
+                if source.type is not field.type:
+                    children.append((field.type, source.type, f"{field_path}/type",
+                                     f"{wpath}/fields/{source.name}/type"))
             elif field.has_default:
                 children.append(("emit", partial(
                     self.note, field_path, "default-used",
@@ -252,7 +265,7 @@ class _Resolver:
                     self.problem, field_path, "missing-field",
                     f"the writer has no field {field.name} and the reader's field has no "
                     "default", wpath, {"reader_field": field.name})))
-        for field in w.fields:
+        for field in w.fields if len(used) < len(w.fields) else ():
             if field.name not in used:
                 children.append(("emit", partial(
                     self.note, rpath, "writer-field-ignored",
