@@ -59,7 +59,7 @@ def _load_definitions(path: str) -> FeatureDefinitions:
     if not Path(path).exists():
         raise UserError("no such file", place=path)
     document = _read_manifest(path)
-    if "features" in document and set(document) != {"features"}:
+    if "input_schema" in document:  # a version manifest, not a definitions file
         definitions = features_from_manifest(document, manifest_path=path)
         assert definitions is not None
         return definitions

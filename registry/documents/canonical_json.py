@@ -15,6 +15,7 @@ are handled a few thousand at a time by C-level conversions.
 
 from __future__ import annotations
 
+import gc
 import hashlib
 import json
 import re
@@ -41,6 +42,7 @@ _STRING = rb'"[^"\\\x00-\x1f]*(?:\\(?:["\\/bfnrt]|u[0-9a-fA-F]{4})[^"\\\x00-\x1f
 _RUN_LENGTH = 4096  # numbers converted per batch; bounds the temporary lists
 
 _skip_whitespace = re.compile(_WHITESPACE).match
+_WHITESPACE_BYTES = frozenset(b" \t\n\r")
 _match_string = re.compile(_STRING).match
 _match_number = re.compile(_NUMBER).match
 _match_run = re.compile(_WHITESPACE + _NUMBER + _WHITESPACE
@@ -149,7 +151,13 @@ def _number_text(token: bytes) -> str:
         value = float(token)
     if value in (float("inf"), float("-inf")):
         raise _NumberTooLarge
-    return format_double(value)
+    text = repr(value)
+    if "e" in text:
+        return format_double(value)
+    # Without an exponent, repr and ECMAScript write the same digits, but for a trailing ".0".
+    if text.endswith(".0"):
+        text = text[:-2]
+    return "0" if text == "-0" else text
 
 
 def _run_text(run: bytes) -> bytes:
@@ -191,8 +199,8 @@ def _string(token: bytes) -> tuple[bytes, str]:
 class _Frame:
     """An open array or object and the canonical text of what it holds so far."""
 
-    __slots__ = ("is_object", "chunks", "pending", "size", "count", "members", "keys", "key",
-                 "path", "start", "measured")
+    __slots__ = ("is_object", "chunks", "pending", "size", "count", "entries", "ropes",
+                 "general", "key", "path", "start", "measured")
 
     def __init__(self, is_object: bool, path: Path, start: int, measured: bool) -> None:
         self.is_object = is_object
@@ -200,9 +208,14 @@ class _Frame:
         self.pending = bytearray()
         self.size = 0
         self.count = 0
-        self.members: list[tuple[bytes, bytes, bytes | list[bytes], int]] = []
-        self.keys: set[str] = set()
-        self.key: tuple[bytes, bytes, str] | None = None
+        # Members of an object whose names are plain ASCII (see _PLAIN_NAME) are kept as their
+        # canonical text "name":value, which sorts bytewise in RFC 8785 order: one bytes object
+        # per member. Rope values are kept aside, under their quoted name.
+        self.entries: list[bytes] = []
+        self.ropes: dict[bytes, list[bytes]] = {}
+        # Once any other name appears: (UTF-16 sort key, quoted name, value) per member.
+        self.general: list[tuple[bytes, bytes, bytes | list[bytes]]] | None = None
+        self.key: tuple[bytes, str, bool] | None = None  # quoted name, name, is plain
         self.path = path
         self.start = start
         self.measured = measured
@@ -218,6 +231,19 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
                   ) -> tuple[bytes | list[bytes], dict[Path, MeasuredValue]]:
     if not isinstance(data, (bytes, bytearray)):
         raise TypeError("canonical JSON reads bytes")
+    # The walk makes millions of small objects and no reference cycles; the cyclic collector
+    # would only rescan the growing rope again and again.
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        return _walk(data, patterns)
+    finally:
+        if collecting:
+            gc.enable()
+
+
+def _walk(data: bytes, patterns: tuple[Pattern, ...]
+          ) -> tuple[bytes | list[bytes], dict[Path, MeasuredValue]]:
     depths = {len(pattern) for pattern in patterns}
 
     def selected(path: Path) -> bool:
@@ -241,7 +267,7 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
         if not stack:
             return ()
         top = stack[-1]
-        return (*top.path, top.key[2] if top.is_object and top.key else top.count)
+        return (*top.path, top.key[1] if top.is_object and top.key else top.count)
 
     def deliver(value: bytes | list[bytes], size: int) -> None:
         """Hand a finished value (one bytes object, or a rope of chunks) to its container."""
@@ -251,8 +277,17 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
         top = stack[-1]
         if top.is_object:
             assert top.key is not None
-            sort_key, key_text, _ = top.key
-            top.members.append((sort_key, key_text, value, size))
+            key_text, key, is_plain = top.key
+            if top.general is None and is_plain:
+                if isinstance(value, bytes):
+                    top.entries.append(key_text + b":" + value)
+                else:
+                    top.entries.append(key_text + b":")  # a value never ends in ":"
+                    top.ropes[key_text] = value
+            else:
+                if top.general is None:
+                    top.general = _general_members(top)
+                top.general.append((_utf16(key), key_text, value))
             top.size += len(key_text) + 1 + size
             top.key = None
         else:
@@ -282,12 +317,24 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
         buffer = bytearray()
         if frame.is_object:
             buffer += b"{"
-            frame.members.sort(key=lambda member: member[0])
-            for index, (_, key_text, value, _) in enumerate(frame.members):
+            duplicate = _sort_members(frame)
+            if duplicate is not None:
+                raise fail(f"the member name {duplicate!r} appears twice in this object",
+                           frame.start)
+            members = frame.general if frame.general is not None else frame.entries
+            for index, member in enumerate(members):
                 if index:
                     buffer += b","
-                buffer += key_text
-                buffer += b":"
+                if isinstance(member, tuple):
+                    key_text, value = member[1], member[2]
+                    buffer += key_text
+                    buffer += b":"
+                elif member[-1:] == b":":
+                    buffer += member
+                    value = frame.ropes[member[:-1]]
+                else:
+                    buffer += member
+                    continue
                 if isinstance(value, bytes):
                     buffer += value
                 else:
@@ -295,7 +342,7 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
                     buffer.clear()
                     pieces.extend(value)
             buffer += b"}"
-            size = frame.size + 2 + max(len(frame.members) - 1, 0)
+            size = frame.size + 2 + max(frame.count - 1, 0)
         else:
             buffer += b"["
             pieces.append(bytes(buffer))
@@ -306,7 +353,9 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
             buffer += b"]"
             size = frame.size + 2
         pieces.append(bytes(buffer))
-        frame.members.clear()
+        frame.entries = []
+        frame.ropes = {}
+        frame.general = None
         frame.chunks.clear()
         value: bytes | list[bytes] = b"".join(pieces) if size < _SMALL else pieces
         if frame.measured:
@@ -319,7 +368,8 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
     VALUE, AFTER, KEY, COLON = 0, 1, 2, 3
     state = VALUE
     while True:
-        position = _skip_whitespace(data, position).end()
+        if position < length and data[position] in _WHITESPACE_BYTES:
+            position = _skip_whitespace(data, position).end()
         if position >= length:
             break
         byte = data[position]
@@ -400,7 +450,7 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
             raise fail(f"expected {expected}", position)
         if state == KEY:
             top = stack[-1]
-            if byte == 0x7D and not top.members and top.key is None and top.count == 0:
+            if byte == 0x7D and top.key is None and top.count == 0:
                 stack.pop()
                 close(top, position + 1)
                 position += 1
@@ -415,12 +465,7 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
                 key_text, key = _string(match.group())
             except _BadString:
                 raise fail("a member name that is not valid Unicode", position) from None
-            if key in top.keys:
-                raise fail(f"the member name {key!r} appears twice in one object", position)
-            top.keys.add(key)
-            # RFC 8785 section 3.2.3: sort by UTF-16 code units, which big-endian UTF-16 bytes
-            # compare in the same order as.
-            top.key = (key.encode("utf-16-be", "surrogatepass"), key_text, key)
+            top.key = (key_text, key, _PLAIN_NAME(key_text) is not None)
             position = match.end()
             state = COLON
             continue
@@ -435,6 +480,48 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
     if not result:
         raise fail("no JSON value", position)
     return result[0], measured
+
+
+# A quoted name of ASCII characters above '"' and without a backslash: its canonical text,
+# compared bytewise, orders as RFC 8785 orders names (UTF-16 code units, a prefix first, since
+# the closing quote is below every character allowed in the name).
+_PLAIN_NAME = re.compile(rb'"[\x23-\x5b\x5d-\x7e]*"').fullmatch
+
+
+def _utf16(name: str) -> bytes:
+    """RFC 8785 section 3.2.3: names sort by UTF-16 code units, as big-endian UTF-16 bytes do."""
+    return name.encode("utf-16-be", "surrogatepass")
+
+
+def _general_members(frame: _Frame) -> list[tuple[bytes, bytes, bytes | list[bytes]]]:
+    """Turn an object's plain-name members into (sort key, quoted name, value) triples."""
+    general: list[tuple[bytes, bytes, bytes | list[bytes]]] = []
+    for entry in frame.entries:
+        cut = entry.index(b'":') + 1
+        key_text, rest = entry[:cut], entry[cut + 1:]
+        value = rest if rest else frame.ropes[key_text]
+        general.append((_utf16(key_text[1:-1].decode("ascii")), key_text, value))
+    frame.entries = []
+    frame.ropes = {}
+    return general
+
+
+def _sort_members(frame: _Frame) -> str | None:
+    """Sort an object's members in place; return a member name that appears twice, if any."""
+    if frame.general is not None:
+        frame.general.sort(key=lambda member: member[0])
+        for before, after in zip(frame.general, frame.general[1:]):
+            if before[0] == after[0]:
+                return after[1][1:-1].decode("utf-8")
+        return None
+    entries = frame.entries
+    entries.sort()
+    for index in range(1, len(entries)):
+        previous = entries[index - 1]
+        name_and_colon = previous[:previous.index(b'":') + 2]
+        if entries[index].startswith(name_and_colon):
+            return name_and_colon[1:-2].decode("ascii")
+    return None
 
 
 def _number_run(data: bytes, position: int, frame: _Frame) -> tuple[int, bool]:

@@ -161,7 +161,8 @@ def test_the_digest_is_sha256_of_the_canonical_form_and_measures_what_is_asked()
     (b"[1, 2", "line 1, column 6", "ends inside"),
     (b'{"a": 1 "b": 2}', "line 1, column 9", "',' or '}'"),
     (b"[1.5e]", "line 1, column 5", "',' or ']'"),
-    (b'{"a": 1, "a": 2}', "line 1, column 10", "appears twice"),
+    (b'{"a": 1, "a": 2}', "line 1, column 1", "appears twice"),
+    (b'[{"\\u00e9": 1, "\xc3\xa9": 2}]', "line 1, column 2", "appears twice"),
     (b"[1, 1e400]", "line 1, column 5", "too large"),
     (b"[NaN]", "line 1, column 2", "expected a value"),
     (b'"\\ud800"', "line 1, column 1", "not valid Unicode"),
@@ -194,3 +195,17 @@ def test_the_vectors_in_the_digest_document_hold():
         assert canonical_json(given_text.encode("utf-8")) == expected.encode("utf-8")
     smallest = canonical_json(rows[-1][0].encode("utf-8"))
     assert hashlib.sha256(smallest).hexdigest() == digest
+
+
+def test_large_values_and_every_kind_of_member_name_sort_as_the_reference_says():
+    generator = random.Random(5)
+    big = [generator.random() for _ in range(8000)]  # canonical text well over 64 KB
+    names = ["b", "a", "a b", "a!", "", "é", "\U0001F600", "\ufb33", "tab\t", 'quote"', "z"]
+    value = {}
+    for index, name in enumerate(names):
+        value[name] = big if index % 3 == 0 else {"nested": big, "n": index}
+        value[f"plain{index}"] = index
+    plain_first = {f"k{index}": big for index in range(3)} | {"k 3": 1}
+    for document in (value, plain_first, {"only": {"plain": big}}):
+        text = json.dumps(document, indent=1).encode()
+        assert canonical_json(text) == _reference(document).encode("utf-8")
