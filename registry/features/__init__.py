@@ -4,6 +4,7 @@ from registry.features.definitions import (Categories, FeatureDefinition,
                                            FeatureDefinitionError, FeatureDefinitions,
                                            NumericRange, Source, load_feature_definitions,
                                            features_from_manifest, parse_feature_file,
+                                           render_feature_file,
                                            parse_feature_table)
 from registry.features.diff import FeatureChange, FeatureDiff, diff_features
 from registry.features.fields import SchemaField, schema_fields
@@ -17,6 +18,6 @@ __all__ = [
     "FeatureDefinitionError", "FeatureDefinitions", "FeatureDiff", "FeatureProblem",
     "NumericRange", "SchemaField", "Source", "Unit", "UnitComparison", "UnknownFeatureField",
     "UnknownUnit", "check_features", "compare_units", "diff_features",
-    "features_from_manifest", "load_feature_definitions", "parse_feature_file", "parse_feature_table", "parse_unit",
-    "schema_fields",
+    "features_from_manifest", "load_feature_definitions", "parse_feature_file",
+    "parse_feature_table", "parse_unit", "render_feature_file", "schema_fields",
 ]

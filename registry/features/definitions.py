@@ -265,3 +265,51 @@ def features_from_manifest(manifest: Mapping[str, Any], *,
     raise FeatureDefinitionError(
         "features must be the path of a definitions file or a [features] table",
         place=f"{manifest_path.name} features")
+
+
+def render_feature_file(definitions: FeatureDefinitions) -> str:
+    """Write definitions as a definitions file that parse_feature_file reads back unchanged.
+
+    For the catalogue to keep a version's definitions as text, whatever form they came in.
+    """
+    lines: list[str] = []
+    for definition in definitions.definitions:
+        if lines:
+            lines.append("")
+        path = definition.path
+        key = path if re.fullmatch(r"[A-Za-z0-9_-]+", path) else _toml_string(path)
+        lines.append(f"[features.{key}]")
+        lines.append(f"description = {_toml_string(definition.description)}")
+        if definition.unit is not None:
+            lines.append(f"unit = {_toml_string(definition.unit)}")
+        if isinstance(definition.domain, NumericRange):
+            bounds = ", ".join(_toml_number(bound) for bound in
+                               (definition.domain.minimum, definition.domain.maximum))
+            lines.append(f"range = [{bounds}]")
+        elif isinstance(definition.domain, Categories):
+            values = ", ".join(_toml_string(value) if isinstance(value, str) else str(value)
+                               for value in definition.domain.values)
+            lines.append(f"categories = [{values}]")
+        if definition.nullable:
+            lines.append("nullable = true")
+        if definition.source is not None:
+            lines.append(f"source = {{ dataset = {_toml_string(definition.source.dataset)}, "
+                         f"column = {_toml_string(definition.source.column)} }}")
+        for name in ("transform", "owner"):
+            value = getattr(definition, name)
+            if value is not None:
+                lines.append(f"{name} = {_toml_string(value)}")
+    return "\n".join(lines) + "\n"
+
+
+def _toml_string(text: str) -> str:
+    # A JSON string with non-ASCII kept is also a TOML basic string (TOML 1.0, "String").
+    import json
+
+    return json.dumps(text, ensure_ascii=False)
+
+
+def _toml_number(value: float) -> str:
+    if math.isinf(value):
+        return "inf" if value > 0 else "-inf"
+    return repr(value) if isinstance(value, float) else str(value)

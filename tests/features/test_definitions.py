@@ -3,6 +3,7 @@
 import pytest
 
 from registry.features import (Categories, FeatureDefinitionError, NumericRange, Source,
+                               render_feature_file,
                                UnknownUnit, features_from_manifest, parse_feature_file)
 
 FULL = """
@@ -99,3 +100,15 @@ def test_a_manifest_may_name_a_file_or_hold_the_table(tmp_path):
     assert by_path.paths == ("mean_pressure_kpa", "soil_corrosivity")
     assert inline.get("x").place == "m.toml [features.x]"
     assert features_from_manifest({}, manifest_path=tmp_path / "m.toml") is None
+
+
+def test_rendered_definitions_read_back_unchanged():
+    text = FULL + """
+[features."location.easting"]
+description = "Easting, \\"projected\\"\\tmetres é"
+unit = "m"
+range = [-inf, 1.5]
+"""
+    definitions = parse_feature_file(text, origin="f.toml")
+    rendered = render_feature_file(definitions)
+    assert parse_feature_file(rendered, origin="again.toml") == definitions
