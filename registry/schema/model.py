@@ -53,7 +53,7 @@ class IgnoredLogicalType:
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
 class Schema:
-    """Any Avro schema; `kind` is its type name (a primitive, record, enum, fixed, array, map, union)."""
+    """Any Avro schema; `kind` names its type (a primitive, record, enum, fixed, array, ...)."""
 
     logical: LogicalType | None = None
     ignored_logical: IgnoredLogicalType | None = None
@@ -157,7 +157,7 @@ class Array(Schema):
     kind = "array"
 
     def describe(self) -> str:
-        return f"array of {self.items.describe()}"
+        return _describe_nested(self)
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -166,7 +166,7 @@ class Map(Schema):
     kind = "map"
 
     def describe(self) -> str:
-        return f"map of {self.values.describe()}"
+        return _describe_nested(self)
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -175,8 +175,21 @@ class Union(Schema):
     kind = "union"
 
     def describe(self) -> str:
-        return "union [" + ", ".join(b.name if isinstance(b, NamedSchema) else b.describe()
-                                     for b in self.branches) + "]"
+        return "union [" + ", ".join(b.name if isinstance(b, NamedSchema) else
+                                     _describe_nested(b, levels=1) for b in self.branches) + "]"
+
+
+def _describe_nested(schema: Schema, levels: int = 3) -> str:
+    """"array of map of int": a few levels of arrays and maps, then an ellipsis (no recursion)."""
+    words = []
+    while isinstance(schema, (Array, Map)) and len(words) < levels:
+        words.append("array of" if isinstance(schema, Array) else "map of")
+        schema = schema.items if isinstance(schema, Array) else schema.values
+    if isinstance(schema, (Array, Map, Union)):
+        tail = f"{schema.kind} of ..." if not isinstance(schema, Union) else "union [...]"
+    else:
+        tail = schema.describe()
+    return " ".join([*words, tail])
 
 
 def make_field(name: str, type: Schema, default: Any, aliases: tuple[str, ...], order: str,

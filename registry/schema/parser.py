@@ -1,4 +1,4 @@
-"""Parse JSON-decoded Avro schemas into immutable Schema objects, validating as the specification asks.
+"""Parse JSON-decoded Avro schemas into immutable Schema objects, validated as the spec asks.
 
 Avro specification, Schema Declaration and Names. The walk uses an explicit stack, so nesting
 depth is limited by memory rather than by Python's recursion limit.
@@ -68,7 +68,7 @@ def _extra_properties(obj: dict[str, Any], known: set[str]) -> tuple[tuple[str, 
 
 
 class _Parser:
-    """One parse: an explicit stack of tasks, and the defaults to check once every type is built."""
+    """One parse: an explicit stack of tasks, and defaults to check once every type is built."""
 
     def __init__(self, names: Names) -> None:
         self.names = names
@@ -347,7 +347,7 @@ class _Parser:
         return union
 
     def _build_union(self, branches: list[Schema], place: str) -> Union:
-        """Avro specification, Unions: no nested unions, one schema per unnamed type, unique names."""
+        """Avro specification, Unions: no nested union, one schema per unnamed type or name."""
         seen: dict[str, int] = {}
         for position, branch in enumerate(branches):
             at = f"{place}/{position}"

@@ -42,7 +42,7 @@ CONDITIONAL_PROMOTIONS = {("bytes", "string"): " (bytes that are not UTF-8 canno
 
 @dataclass(frozen=True)
 class Problem:
-    """Why some data written with the writer cannot be read; `path` points into the reader schema."""
+    """Why some written data cannot be read; `path` points into the reader schema."""
 
     path: str
     rule: str
@@ -54,7 +54,7 @@ class Problem:
 
 @dataclass(frozen=True)
 class Note:
-    """A safe difference worth knowing (a promotion, a default used), or a warning about meaning."""
+    """A safe difference worth knowing (a promotion, a default used), or a warning."""
 
     path: str
     rule: str
@@ -119,6 +119,11 @@ class _Resolver:
 
     def problem(self, path: str, rule: str, message: str, writer_path: str,
                 witness: dict | None = None) -> None:
+        if witness is None and writer_path.endswith("/type"):
+            # A fault in the type of one writer field: name that field.
+            head, _, field_name = writer_path[:-len("/type")].rpartition("/")
+            if head.endswith("/fields"):
+                witness = {"writer_field": field_name}
         self.problems.append(Problem(path or "/", rule, message, writer_path or "/", witness))
 
     def note(self, path: str, rule: str, message: str, severity: str = "info") -> None:
@@ -159,10 +164,10 @@ class _Resolver:
                 if pair not in self.visited_pairs:
                     self.visited_pairs.add(pair)
                     self._named(r, w, rpath, wpath, children)  # type: ignore[arg-type]
-            elif isinstance(r, Array):
-                children.append((r.items, w.items, f"{rpath}/items", f"{wpath}/items"))  # type: ignore[union-attr]
-            elif isinstance(r, Map):
-                children.append((r.values, w.values, f"{rpath}/values", f"{wpath}/values"))  # type: ignore[union-attr]
+            elif isinstance(r, Array) and isinstance(w, Array):
+                children.append((r.items, w.items, f"{rpath}/items", f"{wpath}/items"))
+            elif isinstance(r, Map) and isinstance(w, Map):
+                children.append((r.values, w.values, f"{rpath}/values", f"{wpath}/values"))
             else:
                 self._primitive(r, w, rpath, wpath)
             stack.extend(reversed(children))
@@ -272,7 +277,7 @@ class _Resolver:
                     f"the writer's field {field.name} is not read and is skipped")))
 
     def _enum(self, r: Enum, w: Enum, rpath: str, wpath: str) -> None:
-        """Avro specification, Schema Resolution, enums: an unknown writer symbol needs a default."""
+        """Avro specification, Schema Resolution, enums: unknown writer symbols need a default."""
         known = set(r.symbols)
         for symbol in w.symbols:
             if symbol in known:
@@ -297,7 +302,7 @@ class _Resolver:
         self._logical(r, w, rpath, wpath)
 
     def _logical(self, r: Schema, w: Schema, rpath: str, wpath: str) -> None:
-        """Avro specification, Logical Types: decimals match only with equal precision and scale."""
+        """Avro specification, Logical Types: decimals match only with equal precision, scale."""
         if r.logical == w.logical:
             return
         rl, wl = r.logical, w.logical
@@ -331,7 +336,7 @@ def check_forward(new: Schema, old: Schema) -> Resolution:
 
 
 def check_both(new: Schema, old: Schema) -> Resolution:
-    """Both directions; each problem says its direction (paths point into that direction's reader)."""
+    """Both directions; each problem names its direction, its path that direction's reader."""
     backward, forward = check_backward(new, old), check_forward(new, old)
     problems = tuple(replace(p, direction="backward") for p in backward.problems) + tuple(
         replace(p, direction="forward") for p in forward.problems)

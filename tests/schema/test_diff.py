@@ -57,7 +57,8 @@ def test_type_change_breaking_both_ways_is_listed_for_each():
 
 
 def test_promotion_breaks_only_old_readers():
-    assert changes(record({"name": "n", "type": "int"}), record({"name": "n", "type": "long"})) == [
+    assert changes(record({"name": "n", "type": "int"}),
+                   record({"name": "n", "type": "long"})) == [
         ("/fields/n/type", "type-changed", "breaking-for-writers")]
 
 
@@ -104,7 +105,8 @@ def test_defaults_aliases_and_nested_records():
 def test_fixed_size_and_decimal_changes():
     assert changes({"type": "fixed", "name": "Tag", "size": 2},
                    {"type": "fixed", "name": "Tag", "size": 3}) == [
-        ("/", "size-changed", "breaking-for-readers"), ("/", "size-changed", "breaking-for-writers")]
+        ("/", "size-changed", "breaking-for-readers"),
+        ("/", "size-changed", "breaking-for-writers")]
     decimal = {"type": "bytes", "logicalType": "decimal", "precision": 6, "scale": 2}
     assert changes(decimal, dict(decimal, scale=3)) == [
         ("/", "logical-type-changed", "breaking-for-readers"),

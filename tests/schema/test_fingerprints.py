@@ -1,4 +1,4 @@
-"""Parsing Canonical Form and fingerprints against the Avro project's own test vectors and fastavro."""
+"""Parsing Canonical Form and fingerprints against the Avro project's test vectors and fastavro."""
 
 from __future__ import annotations
 
@@ -117,3 +117,39 @@ def test_deep_schema_has_a_canonical_form():
     text = '{"type":"array","items":' * depth + '"int"' + "}" * depth
     form = canonical_form(load(text))
     assert form == '{"type":"array","items":' * depth + '"int"' + "}" * depth
+
+
+# Example schemas printed in the Avro specification (Complex Types, Names, Logical Types), with
+# their canonical forms by the transformations of Parsing Canonical Form for Schemas.
+SPECIFICATION_EXAMPLES = [
+    ({"type": "record", "name": "LongList", "aliases": ["LinkedLongs"], "fields": [
+        {"name": "value", "type": "long"}, {"name": "next", "type": ["null", "LongList"]}]},
+     '{"name":"LongList","type":"record","fields":[{"name":"value","type":"long"},'
+     '{"name":"next","type":["null","LongList"]}]}'),
+    ({"type": "enum", "name": "Suit", "symbols": ["SPADES", "HEARTS", "DIAMONDS", "CLUBS"]},
+     '{"name":"Suit","type":"enum","symbols":["SPADES","HEARTS","DIAMONDS","CLUBS"]}'),
+    ({"type": "array", "items": "string", "default": []}, '{"type":"array","items":"string"}'),
+    ({"type": "map", "values": "long", "default": {}}, '{"type":"map","values":"long"}'),
+    ({"type": "fixed", "size": 16, "name": "md5"}, '{"name":"md5","type":"fixed","size":16}'),
+    ({"type": "bytes", "logicalType": "decimal", "precision": 4, "scale": 2}, '"bytes"'),
+    ({"type": "record", "name": "Example", "namespace": "org.foo", "fields": [
+        {"name": "inner", "type": {"type": "record", "name": "Inner", "fields": [
+            {"name": "n", "type": "int"}]}},
+        {"name": "again", "type": "Inner"},
+        {"name": "other", "type": {"type": "fixed", "name": "org.bar.Tag", "size": 1}},
+        {"name": "plain", "type": {"type": "enum", "name": "Plain", "namespace": "",
+                                   "symbols": ["A"]}}]},
+     '{"name":"org.foo.Example","type":"record","fields":[{"name":"inner","type":'
+     '{"name":"org.foo.Inner","type":"record","fields":[{"name":"n","type":"int"}]}},'
+     '{"name":"again","type":"org.foo.Inner"},{"name":"other","type":'
+     '{"name":"org.bar.Tag","type":"fixed","size":1}},{"name":"plain","type":'
+     '{"name":"Plain","type":"enum","symbols":["A"]}}]}'),
+]
+
+
+@pytest.mark.parametrize("schema_json, canonical", SPECIFICATION_EXAMPLES,
+                         ids=[f"example-{i}" for i in range(len(SPECIFICATION_EXAMPLES))])
+def test_canonical_form_of_the_specifications_examples(schema_json, canonical):
+    # Avro specification, Parsing Canonical Form for Schemas; fastavro agrees (the oracle).
+    assert canonical_form(parse(schema_json)) == canonical
+    assert fastavro.schema.to_parsing_canonical_form(schema_json) == canonical

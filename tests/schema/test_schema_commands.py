@@ -9,7 +9,7 @@ import pytest
 from click.testing import CliRunner
 
 from registry.cli import main
-from tests.schema.test_parse import BAD_SCHEMAS
+from .test_parse import BAD_SCHEMAS
 
 V1 = {"type": "record", "name": "Segment", "namespace": "brackwater", "fields": [
     {"name": "segment_id", "type": "string"},
