@@ -10,7 +10,7 @@ import pytest
 from registry.documents import InvalidPfaDocument, MalformedJson, read_pfa
 from registry.documents.pfa import OPTIONAL_FIELDS, REQUIRED_FIELDS
 from registry.schema import SchemaError, canonical_form
-from tests.documents.pfa_examples import LOGISTIC_REGRESSION, TREE_ENSEMBLE, USER_FUNCTIONS
+from .pfa_examples import LOGISTIC_REGRESSION, TREE_ENSEMBLE, USER_FUNCTIONS
 
 
 def encode(document, **options):

@@ -8,7 +8,7 @@ import pytest
 from registry.documents import (MissingInputSchema, SchemaContradiction, document_kind,
                                 read_document)
 from registry.schema import parse
-from tests.documents.pfa_examples import LOGISTIC_REGRESSION
+from .pfa_examples import LOGISTIC_REGRESSION
 
 DOCUMENT = json.dumps(LOGISTIC_REGRESSION).encode()
 

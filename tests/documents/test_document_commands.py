@@ -7,9 +7,9 @@ import pytest
 from click.testing import CliRunner
 
 from registry.cli import main
-from tests.documents.pfa_examples import LOGISTIC_REGRESSION
+from .pfa_examples import LOGISTIC_REGRESSION
 
-SEED = Path(__file__).resolve().parent.parent / "seed_data"
+SEED = Path(__file__).resolve().parents[2] / "seed_data"
 
 SEGMENT = LOGISTIC_REGRESSION["input"]
 FEATURES = """
@@ -229,3 +229,15 @@ def test_the_demo_documents_agree_with_their_manifests(version):
     result = run("features", "check", manifest, "--schema",
                  _seed(f"brackwater/schemas/segment-v{version}.avsc"))
     assert result.exit_code == 0, result.output
+
+
+def test_inspect_of_an_artifact_takes_its_schemas_from_the_manifest(files):
+    (files / "model.onnx").write_bytes(b"\x08\x07onnx bytes")
+    result = run("document", "inspect", files / "model.onnx", "--manifest",
+                 files / "manifest.toml", "--json")
+    assert result.exit_code == 0, result.output
+    report = json.loads(result.stdout)
+    assert report["kind"] == "artifact" and report["method"] is None
+    assert report["input_schema"]["name"] == "brackwater.assets.Segment"
+    assert_one_line_error(run("document", "inspect", files / "model.onnx"),
+                          "manifest input_schema", "artifact")
