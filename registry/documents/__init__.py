@@ -1,4 +1,4 @@
-"""Model documents: PFA documents read and digested over canonical JSON, other artifacts as bytes."""
+"""Model documents: PFA documents digested over canonical JSON, other artifacts as bytes."""
 
 from registry.documents.canonical_json import (CanonicalDigest, MalformedJson, MeasuredValue,
                                                canonical_digest, canonical_dumps,

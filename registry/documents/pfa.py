@@ -14,11 +14,11 @@ from dataclasses import dataclass
 from typing import Any
 
 from registry.documents.canonical_json import CanonicalDigest, canonical_digest
-from registry.errors import UserError
+from registry.errors import Unprocessable, UserError
 from registry.schema import Names, Schema, parse
 
 
-class InvalidPfaDocument(UserError):
+class InvalidPfaDocument(Unprocessable):
     """A JSON document that breaks the structure the PFA specification gives a document."""
 
 

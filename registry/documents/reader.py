@@ -13,11 +13,11 @@ from dataclasses import dataclass
 from typing import Literal
 
 from registry.documents.pfa import CellSummary, read_pfa
-from registry.errors import UserError
+from registry.errors import Unprocessable, UserError
 from registry.schema import Schema, canonical_form
 
 
-class SchemaContradiction(UserError):
+class SchemaContradiction(Unprocessable):
     """The manifest declares a schema that the document's own schema contradicts."""
 
 

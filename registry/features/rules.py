@@ -12,13 +12,13 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
-from registry.errors import UserError
+from registry.errors import Unprocessable
 from registry.features.definitions import Categories, FeatureDefinitions, NumericRange
 from registry.features.fields import (FLOAT_LIMIT, INTEGER_LIMITS, SchemaField,
                                       schema_fields)
 
 
-class UnknownFeatureField(UserError):
+class UnknownFeatureField(Unprocessable):
     """A feature definition names a field the input schema does not have."""
 
 

@@ -16,10 +16,10 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
-from registry.errors import UserError
+from registry.errors import Unprocessable
 
 
-class UnknownUnit(UserError):
+class UnknownUnit(Unprocessable):
     """A unit code that is not valid UCUM."""
 
 

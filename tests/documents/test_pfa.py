@@ -1,4 +1,4 @@
-"""PFA documents: top-level structure, declared types, cells and pools, digest over canonical JSON."""
+"""PFA documents: top-level structure, declared types, cells and pools, canonical digest."""
 
 import copy
 import json

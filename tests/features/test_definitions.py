@@ -1,4 +1,4 @@
-"""Feature definitions read from TOML: every key, the dotted paths, and each error with its place."""
+"""Feature definitions read from TOML: every key, dotted paths, each error with its place."""
 
 import pytest
 
