@@ -134,19 +134,19 @@ class _Resolver:
         stack: list[tuple] = [(reader, writer, "", "")]
         while stack:
             item = stack.pop()
-            if item[0] == "emit":  # a finding deferred to keep document order
+            if len(item) == 2:  # ("emit", finding): deferred to keep document order
                 item[1]()
                 continue
             r, w, rpath, wpath = item
             if r is w:
-                # The very same schema object (shared primitives, types from one Names): it
-                # reads itself. Its ignored logical types were noted where it was declared.
+                # The very same schema object (shared primitives, types from one Names) reads
+                # itself with nothing to report.
                 continue
             children: list[tuple] = []
             if r.ignored_logical is not None:
-                self._note_ignored_logical(r, rpath, "reader")
+                self._note_ignored_logical(r, rpath, "reader", rpath)
             if w.ignored_logical is not None:
-                self._note_ignored_logical(w, wpath, "writer")
+                self._note_ignored_logical(w, rpath, "writer", wpath)
             if isinstance(w, Union):
                 self._writer_union(r, w, rpath, wpath, children)
             elif isinstance(r, Union):
@@ -174,14 +174,15 @@ class _Resolver:
         return Resolution(compatible=not self.problems, problems=tuple(self.problems),
                           notes=tuple(self.notes))
 
-    def _note_ignored_logical(self, schema: Schema, path: str, role: str) -> None:
+    def _note_ignored_logical(self, schema: Schema, rpath: str, role: str, own_path: str
+                              ) -> None:
         ignored = schema.ignored_logical
         if ignored is not None and id(schema) not in self.noted_ignored:
             self.noted_ignored.add(id(schema))
-            where = path if role == "reader" else f"writer {path or '/'}"
-            self.note(where, "logical-type-ignored",
-                      f"the {role}'s logical type {ignored.name} is ignored ({ignored.reason}); "
-                      f"its underlying {schema.kind} is used", "warning")
+            where = f" at {own_path or '/'}" if role == "writer" else ""
+            self.note(rpath, "logical-type-ignored",
+                      f"the {role}'s logical type {ignored.name}{where} is ignored "
+                      f"({ignored.reason}); its underlying {schema.kind} is used", "warning")
 
     def _writer_union(self, r: Schema, w: Union, rpath: str, wpath: str,
                       children: list[tuple]) -> None:

@@ -275,3 +275,10 @@ def test_load_accepts_what_json_accepts():
     assert to_json(load(json.dumps(SEGMENT))) == to_json(parse(SEGMENT))
     assert isinstance(load('{"type": "map", "values": "long"}'), Map)
     assert isinstance(load('["null", "string"]'), Union)
+
+
+def test_map_default_places_escape_the_key():
+    with pytest.raises(SchemaError) as caught:
+        parse({"type": "record", "name": "R", "fields": [
+            {"name": "m", "type": {"type": "map", "values": "int"}, "default": {"a/b": "x"}}]})
+    assert caught.value.place == "/fields/0/default/a~1b"

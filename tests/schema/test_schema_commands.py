@@ -114,3 +114,18 @@ def test_missing_file_exits_2(tmp_path):
 
 def test_missing_argument_is_a_usage_error():
     assert run("check", "only-one.avsc").exit_code == 2
+
+
+def test_the_installed_entry_point_runs_check_as_a_subprocess(files):
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    completed = subprocess.run(
+        [sys.executable, "-m", "registry", "schema", "check", files("v4.avsc", V4),
+         files("v1.avsc", V1), "--json"],
+        capture_output=True, text=True, env={**os.environ, "PYTHONPATH": str(root)}, timeout=60)
+    assert completed.returncode == 1, completed.stderr
+    assert json.loads(completed.stdout)["compatible"] is False
