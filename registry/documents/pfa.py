@@ -15,7 +15,7 @@ from typing import Any
 
 from registry.documents.canonical_json import CanonicalDigest, canonical_digest
 from registry.errors import Unprocessable, UserError
-from registry.schema import Names, Schema, parse
+from registry.schema import Names, Schema, SchemaError, parse
 
 
 class InvalidPfaDocument(Unprocessable):
@@ -75,6 +75,9 @@ def read_pfa(data: bytes, *, source: str = "") -> PfaSummary:
         digest = canonical_digest(data, measure=_LARGE_VALUES)
         document = _decode_without_large_values(data, digest)
         return _summarise(document, digest)
+    except SchemaError as error:
+        # A schema error keeps its pointer into the document and names the document apart.
+        raise (error.with_source(source) if source else error) from None
     except UserError as error:
         if source:
             raise type(error)(error.message, place=f"{source} {error.place or '/'}") from None

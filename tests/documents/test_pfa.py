@@ -99,7 +99,8 @@ def test_a_schema_error_names_its_path_in_the_document():
     document["input"]["fields"][2]["type"] = "decimal_number"
     with pytest.raises(SchemaError) as caught:
         read_pfa(encode(document), source="v1.pfa")
-    assert caught.value.place == "v1.pfa /input/fields/2/type"
+    assert (caught.value.source, caught.value.place) == ("v1.pfa", "/input/fields/2/type")
+    assert caught.value.one_line().startswith("v1.pfa /input/fields/2/type: ")
 
 
 def test_a_type_error_inside_an_expression_names_its_path():
