@@ -307,9 +307,11 @@ def _walk(data: bytes, patterns: tuple[Pattern, ...]
             top.size += size
         top.count += 1
 
-    def finish_scalar(value: bytes, path: Path, start: int, end: int, kind: str) -> None:
-        if patterns and selected(path):
-            measured[path] = MeasuredValue(path, start, end, len(value), None, kind)
+    def finish_scalar(value: bytes, start: int, end: int, kind: str) -> None:
+        if patterns:
+            path = child_path()
+            if selected(path):
+                measured[path] = MeasuredValue(path, start, end, len(value), None, kind)
         deliver(value, len(value))
 
     def close(frame: _Frame, end: int) -> None:
@@ -375,7 +377,7 @@ def _walk(data: bytes, patterns: tuple[Pattern, ...]
         byte = data[position]
         if state == VALUE:
             if byte == 0x7B or byte == 0x5B:  # { or [
-                path = child_path()
+                path = child_path() if patterns else ()  # paths matter only to patterns
                 frame = _Frame(byte == 0x7B, path, position,
                                bool(patterns) and selected(path))
                 stack.append(frame)
@@ -400,7 +402,7 @@ def _walk(data: bytes, patterns: tuple[Pattern, ...]
                     canonical, _ = _string(match.group())
                 except _BadString:
                     raise fail("a string that is not valid Unicode", position) from None
-                finish_scalar(canonical, child_path(), position, match.end(), "string")
+                finish_scalar(canonical, position, match.end(), "string")
                 position = match.end()
                 state = AFTER
                 continue
@@ -413,13 +415,13 @@ def _walk(data: bytes, patterns: tuple[Pattern, ...]
                 except _NumberTooLarge:
                     raise fail(f"number {match.group().decode()} is too large for a double",
                                position) from None
-                finish_scalar(text, child_path(), position, match.end(), "number")
+                finish_scalar(text, position, match.end(), "number")
                 position = match.end()
                 state = AFTER
                 continue
             for literal in (b"true", b"false", b"null"):
                 if data.startswith(literal, position):
-                    finish_scalar(literal, child_path(), position, position + len(literal),
+                    finish_scalar(literal, position, position + len(literal),
                                   literal.decode("ascii"))
                     position += len(literal)
                     state = AFTER
