@@ -143,8 +143,11 @@ def document_group() -> None:
 @click.argument("file", type=click.Path(dir_okay=False))
 @click.option("--manifest", "manifest_path", type=click.Path(dir_okay=False), default=None,
               help="A version manifest whose input_schema and output_schema must agree.")
+@click.option("--kind", type=click.Choice(["pfa", "artifact"]), default=None,
+              help="Read the file as this kind (default: PFA for .pfa, .pfa.json and .json).")
 @json_option
-def inspect_command(file: str, manifest_path: str | None, as_json: bool) -> None:
+def inspect_command(file: str, manifest_path: str | None, kind: str | None,
+                    as_json: bool) -> None:
     """Check a document and show its digest, schemas, cells, pools and functions."""
     manifest_input = manifest_output = None
     if manifest_path is not None:
@@ -152,7 +155,8 @@ def inspect_command(file: str, manifest_path: str | None, as_json: bool) -> None
         manifest_input = _manifest_schema(manifest, "input_schema", manifest_path)
         manifest_output = _manifest_schema(manifest, "output_schema", manifest_path)
     summary = read_document(_read_bytes(file), filename=Path(file).name,
-                            manifest_input=manifest_input, manifest_output=manifest_output)
+                            manifest_input=manifest_input, manifest_output=manifest_output,
+                            kind=kind)  # type: ignore[arg-type]
     emit(_document_report(summary), as_json, _render_document)
 
 

@@ -241,3 +241,7 @@ def test_inspect_of_an_artifact_takes_its_schemas_from_the_manifest(files):
     assert report["input_schema"]["name"] == "brackwater.assets.Segment"
     assert_one_line_error(run("document", "inspect", files / "model.onnx"),
                           "manifest input_schema", "artifact")
+    write(files / "estimator.json", {"weights": [1, 2]})
+    result = run("document", "inspect", files / "estimator.json", "--kind", "artifact",
+                 "--manifest", files / "manifest.toml", "--json")
+    assert json.loads(result.stdout)["kind"] == "artifact"
