@@ -499,7 +499,7 @@ def _general_members(frame: _Frame) -> list[tuple[bytes, bytes, bytes | list[byt
     """Turn an object's plain-name members into (sort key, quoted name, value) triples."""
     general: list[tuple[bytes, bytes, bytes | list[bytes]]] = []
     for entry in frame.entries:
-        cut = entry.index(b'":') + 1
+        cut = entry.index(b'"', 1) + 1  # a plain name holds no quote, so this closes it
         key_text, rest = entry[:cut], entry[cut + 1:]
         value = rest if rest else frame.ropes[key_text]
         general.append((_utf16(key_text[1:-1].decode("ascii")), key_text, value))
@@ -520,7 +520,7 @@ def _sort_members(frame: _Frame) -> str | None:
     entries.sort()
     for index in range(1, len(entries)):
         previous = entries[index - 1]
-        name_and_colon = previous[:previous.index(b'":') + 2]
+        name_and_colon = previous[:previous.index(b'"', 1) + 2]
         if entries[index].startswith(name_and_colon):
             return name_and_colon[1:-2].decode("ascii")
     return None

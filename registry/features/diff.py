@@ -29,6 +29,7 @@ from typing import Any, Literal
 from registry.features.definitions import (Categories, FeatureDefinition, FeatureDefinitions,
                                            NumericRange)
 from registry.features.fields import SchemaField, schema_fields
+from registry.features.rules import UnknownFeatureField
 from registry.features.units import compare_units
 
 Severity = Literal["safe", "needs-review", "breaking"]
@@ -71,6 +72,10 @@ def diff_features(old_definitions: FeatureDefinitions, old_schema: Any,
     """
     old_fields = _fields_by_path(old_schema)
     new_fields = _fields_by_path(new_schema)
+    for definitions, fields, schema in ((old_definitions, old_fields, old_schema),
+                                        (new_definitions, new_fields, new_schema)):
+        if schema is not None:
+            _require_fields(definitions, fields)
     changes: list[FeatureChange] = []
     matched_old: set[str] = set()
     for new in new_definitions.definitions:
@@ -107,6 +112,14 @@ def diff_features(old_definitions: FeatureDefinitions, old_schema: Any,
         if SEVERITY_ORDER[change.severity] > SEVERITY_ORDER[verdict]:
             verdict = change.severity
     return FeatureDiff(verdict=verdict, changes=tuple(changes))
+
+
+def _require_fields(definitions: FeatureDefinitions, fields: dict[str, SchemaField]) -> None:
+    for definition in definitions.definitions:
+        if definition.path not in fields:
+            raise UnknownFeatureField(
+                f"the input schema has no field {definition.path!r}",
+                place=definition.place or definition.path)
 
 
 def _fields_by_path(schema: Any) -> dict[str, SchemaField]:

@@ -123,7 +123,10 @@ def _reference(value):
                           for key in keys) + "}"
 
 
-text_values = st.text(st.characters(blacklist_categories=("Cs",)), max_size=8)
+# Any text, and text of the characters where name sorting has edge cases: the quote and the
+# colon around a name, characters below the quote, escapes, non-ASCII, a surrogate pair.
+text_values = st.text(st.characters(blacklist_categories=("Cs",)), max_size=8) | st.text(
+    st.sampled_from(list(':"\\ !#a\u00e9\U0001F600\ufb33\t')), max_size=4)
 json_values = st.recursive(
     st.none() | st.booleans() | st.integers(-10**25, 10**25) | text_values
     | st.floats(allow_nan=False, allow_infinity=False),
@@ -163,6 +166,7 @@ def test_the_digest_is_sha256_of_the_canonical_form_and_measures_what_is_asked()
     (b"[1.5e]", "line 1, column 5", "',' or ']'"),
     (b'{"a": 1, "a": 2}', "line 1, column 1", "appears twice"),
     (b'[{"\\u00e9": 1, "\xc3\xa9": 2}]', "line 1, column 2", "appears twice"),
+    (b'{":": 1, "a": 2, ":": 3}', "line 1, column 1", "':' appears twice"),
     (b"[1, 1e400]", "line 1, column 5", "too large"),
     (b"[NaN]", "line 1, column 2", "expected a value"),
     (b'"\\ud800"', "line 1, column 1", "not valid Unicode"),
@@ -200,12 +204,14 @@ def test_the_vectors_in_the_digest_document_hold():
 def test_large_values_and_every_kind_of_member_name_sort_as_the_reference_says():
     generator = random.Random(5)
     big = [generator.random() for _ in range(8000)]  # canonical text well over 64 KB
-    names = ["b", "a", "a b", "a!", "", "é", "\U0001F600", "\ufb33", "tab\t", 'quote"', "z"]
+    names = ["b", "a", "a b", "a!", "", "é", "\U0001F600", "\ufb33", "tab\t", 'quote"', "z",
+             ":", '":', "a:b", "a:"]
     value = {}
     for index, name in enumerate(names):
         value[name] = big if index % 3 == 0 else {"nested": big, "n": index}
         value[f"plain{index}"] = index
     plain_first = {f"k{index}": big for index in range(3)} | {"k 3": 1}
-    for document in (value, plain_first, {"only": {"plain": big}}):
+    colons = {":": 1, "::": {"x": big}, "a:": 2, "a": 3, '"': 4}  # plain names holding ":"
+    for document in (value, plain_first, {"only": {"plain": big}}, colons):
         text = json.dumps(document, indent=1).encode()
         assert canonical_json(text) == _reference(document).encode("utf-8")

@@ -101,3 +101,11 @@ def test_identical_definitions_have_no_changes():
     text = KEY + '[features.mean_pressure_kpa]\ndescription = "p"\nunit = "kPa"\n'
     diff = diff_features(definitions(text), SEGMENT_V2, definitions(text), SEGMENT_V2)
     assert diff.verdict == "safe" and diff.changes == ()
+
+
+def test_with_schemas_a_definition_for_a_missing_field_is_an_error():
+    from registry.features import UnknownFeatureField
+
+    with pytest.raises(UnknownFeatureField) as caught:
+        diff_features(one("nowhere", ""), SEGMENT_V2, one("segment_id", ""), SEGMENT_V2)
+    assert caught.value.place == "f.toml [features.nowhere]"
