@@ -140,6 +140,8 @@ class _NumberTooLarge(Exception):
 def _number_text(token: bytes) -> str:
     """Canonical text of one JSON number token."""
     if b"." not in token and b"e" not in token and b"E" not in token:
+        if len(token) > 400:  # beyond any double (and Python's limit on integer digits)
+            raise _NumberTooLarge
         integer = int(token)
         if _LONG_MIN <= integer <= _LONG_MAX:
             return str(integer)
@@ -163,6 +165,8 @@ def _number_text(token: bytes) -> str:
 def _run_text(run: bytes) -> bytes:
     """Canonical text of a comma-separated run of JSON numbers, commas kept."""
     parts = run.split(b",")
+    if max(map(len, parts)) > 400:
+        return ",".join(map(_number_text, parts)).encode("ascii")  # names the culprit
     if b"." not in run and b"e" not in run and b"E" not in run:
         integers = list(map(int, parts))
         if _LONG_MIN <= min(integers) and max(integers) <= _LONG_MAX:
@@ -413,8 +417,9 @@ def _walk(data: bytes, patterns: tuple[Pattern, ...]
                 try:
                     text = _number_text(match.group()).encode("ascii")
                 except _NumberTooLarge:
-                    raise fail(f"number {match.group().decode()} is too large for a double",
-                               position) from None
+                    shown = match.group().decode()
+                    shown = shown if len(shown) <= 24 else f"{shown[:20]}..."
+                    raise fail(f"number {shown} is too large for a double", position) from None
                 finish_scalar(text, position, match.end(), "number")
                 position = match.end()
                 state = AFTER

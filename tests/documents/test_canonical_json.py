@@ -168,6 +168,7 @@ def test_the_digest_is_sha256_of_the_canonical_form_and_measures_what_is_asked()
     (b'[{"\\u00e9": 1, "\xc3\xa9": 2}]', "line 1, column 2", "appears twice"),
     (b'{":": 1, "a": 2, ":": 3}', "line 1, column 1", "':' appears twice"),
     (b"[1, 1e400]", "line 1, column 5", "too large"),
+    (b"[1, " + b"7" * 5000 + b"]", "line 1, column 5", "too large"),
     (b"[NaN]", "line 1, column 2", "expected a value"),
     (b'"\\ud800"', "line 1, column 1", "not valid Unicode"),
     (b'"\xff"', "line 1, column 1", "not valid Unicode"),
