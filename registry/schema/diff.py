@@ -85,14 +85,17 @@ class _Differ:
                     breaks_writers=not resolve(old, new).compatible)
 
     def run(self, old: Schema, new: Schema) -> SchemaDiff:
-        # Items: (old, new, path) to compare, or ("emit", changes) found earlier in document order.
+        # Items: (old, new, path, mask) to compare, or ("emit", changes) found earlier in
+        # document order. Children may leave out the mask to inherit their parent's.
         stack: list[tuple] = [(old, new, "", (True, True))]
         while stack:
             item = stack.pop()
-            if item[0] == "emit":
+            if len(item) == 2:
                 self.changes.extend(item[1])
                 continue
             o, n, path, self.mask = item
+            if o is n:
+                continue  # the very same schema object: nothing changed
             children: list[tuple] = []
             if isinstance(o, Union) and isinstance(n, Union):
                 self._unions(o, n, path, children)
@@ -110,8 +113,7 @@ class _Differ:
             elif isinstance(o, Primitive):
                 self._logical(o, n, path)
             for child in reversed(children):
-                stack.append(child if child[0] == "emit" or len(child) == 4
-                             else (*child, self.mask))
+                stack.append(child if len(child) in (2, 4) else (*child, self.mask))
         return SchemaDiff(tuple(self.changes))
 
     def _logical(self, o: Schema, n: Schema, path: str) -> None:

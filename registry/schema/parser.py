@@ -307,7 +307,7 @@ class _Parser:
                                   place=f"{place}/symbols/{position}")
             seen.add(symbol)
         default = obj.get("default")
-        if "default" in obj and default not in seen:
+        if "default" in obj and not (isinstance(default, str) and default in seen):
             raise SchemaError(f"enum default {default!r} is not one of its symbols",
                               place=f"{place}/default")
         logical, ignored = interpret(obj, "enum")

@@ -60,6 +60,7 @@ class Note:
     rule: str
     message: str
     severity: Literal["info", "warning"] = "info"
+    direction: str = ""  # set by check_both: "backward" or "forward"
 
 
 @dataclass(frozen=True)
@@ -341,8 +342,10 @@ def check_both(new: Schema, old: Schema) -> Resolution:
     backward, forward = check_backward(new, old), check_forward(new, old)
     problems = tuple(replace(p, direction="backward") for p in backward.problems) + tuple(
         replace(p, direction="forward") for p in forward.problems)
+    notes = tuple(replace(n, direction="backward") for n in backward.notes) + tuple(
+        replace(n, direction="forward") for n in forward.notes)
     return Resolution(compatible=backward.compatible and forward.compatible, problems=problems,
-                      notes=backward.notes + forward.notes)
+                      notes=notes)
 
 
 def check_against_all(reader: Schema, writers: Sequence[Schema]) -> tuple[Resolution, ...]:

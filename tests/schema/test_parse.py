@@ -183,6 +183,8 @@ BAD_SCHEMAS = [
     ("invalid enum symbol", {"type": "enum", "name": "E", "symbols": ["A", "B C"]}, "/symbols/1"),
     ("enum default not a symbol", {"type": "enum", "name": "E", "symbols": ["A"],
                                    "default": "Z"}, "/default"),
+    ("enum default not a string", {"type": "enum", "name": "E", "symbols": ["A"],
+                                   "default": ["A"]}, "/default"),
     ("enum without symbols", {"type": "enum", "name": "E"}, "/"),
     ("fixed without size", {"type": "fixed", "name": "F"}, "/"),
     ("negative fixed size", {"type": "fixed", "name": "F", "size": -1}, "/size"),

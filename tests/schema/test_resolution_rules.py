@@ -242,6 +242,7 @@ def test_direction_helpers():
     assert check_forward(new, old).compatible  # old reads new: b is ignored
     both = check_both(new, old)
     assert not both.compatible and [p.direction for p in both.problems] == ["backward"]
+    assert [(n.direction, n.rule) for n in both.notes] == [("forward", "writer-field-ignored")]
     assert reads(new, old) == resolve(new, old)
     assert [r.compatible for r in check_against_all(new, [old, new])] == [False, True]
 
