@@ -8,7 +8,7 @@ literal that fits a signed 64-bit long keeps its exact digits, so PFA long value
 not rounded to a double. docs/document-digest.md states the rules with test vectors.
 
 The reader streams: it tokenises the bytes with regular expressions, writes each container's
-canonical text once into a rope of chunks and never builds Python objects for the values, so a
+canonical text once into a rope of chunks and decodes no values into Python objects, so a
 50 MB document costs the input plus about one canonical copy. Runs of numbers inside an array
 are handled a few thousand at a time by C-level conversions.
 """
