@@ -48,6 +48,7 @@ COMMAND_MODULES = [
     "registry.cli.metrics_commands",
     "registry.cli.dataset_commands",
     "registry.cli.dataset_catalogue_commands",
+    "registry.cli.document_commands",
 ]
 
 
