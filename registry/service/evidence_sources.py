@@ -116,8 +116,33 @@ def acknowledgements(uow: UnitOfWork, version: t.Version, stage: str,
                  for row in rows for change in review)
 
 
+def _definitions(version: t.Version):
+    from registry.features import parse_feature_file
+
+    if not version.features_json:
+        return None
+    return parse_feature_file(json.loads(version.features_json)["toml"],
+                              origin=f"version {version.number} features")
+
+
 def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.FeatureChange, ...]:
-    return ()
+    """The semantic diff of feature definitions, incumbent to candidate (registry.features)."""
+    from registry.features import diff_features
+
+    old, new = _definitions(incumbent), _definitions(candidate)
+    if new is None and old is None:
+        return ()
+    if new is None or old is None:
+        # Without definitions on both sides, no meaning can be compared: a person must look.
+        which = f"version {candidate.number}" if new is None else f"version {incumbent.number}"
+        return (gates.FeatureChange(field="*", kind="definitions-missing",
+                                    classification="needs-review",
+                                    message=f"{which} was registered without feature "
+                                            "definitions, so no change of meaning can be ruled out"),)
+    found = diff_features(old, _schema_of(incumbent, "input"), new, _schema_of(candidate, "input"))
+    return tuple(gates.FeatureChange(field=change.path, kind=change.change,
+                                     classification=change.severity, message=change.message)
+                 for change in found.changes)
 
 
 def containment(uow: UnitOfWork, version: t.Version) -> tuple[gates.ContainmentEstimate, ...]:
