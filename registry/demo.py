@@ -34,7 +34,13 @@ class Step:
 
 
 def _seed(path: Path) -> str:
-    return str(path.relative_to(SEED.parent)) if path.is_relative_to(SEED.parent) else str(path)
+    return str(path)
+
+
+def _shown(arguments: Sequence[str]) -> str:
+    """The command as a person would type it from the project folder."""
+    prefix = str(SEED.parent) + "/"
+    return shlex.join(a.removeprefix(prefix) for a in arguments)
 
 
 def brackwater_datasets() -> list[Step]:
@@ -179,10 +185,10 @@ def play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str]
         if step.caption:
             echo("")
             echo(f"# {step.caption}")
-        echo(f"$ lockkeeper --as {step.user} {shlex.join(step.arguments)}")
+        echo(f"$ lockkeeper --as {step.user} {_shown(step.arguments)}")
         code = run(["--db", db_url, "--as", step.user, *step.arguments], step.user)
         if code != step.expect:
-            raise UserError(f"the demo step `{shlex.join(step.arguments)}` ended with exit code "
+            raise UserError(f"the demo step `{_shown(step.arguments)}` ended with exit code "
                             f"{code}, expected {step.expect}", place="demo")
 
 
