@@ -49,6 +49,7 @@ COMMAND_MODULES = [
     "registry.cli.dataset_commands",
     "registry.cli.dataset_catalogue_commands",
     "registry.cli.document_commands",
+    "registry.cli.backup_commands",
 ]
 
 

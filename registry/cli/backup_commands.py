@@ -1,0 +1,53 @@
+"""`lockkeeper export DIR` and `lockkeeper import DIR`: the whole catalogue to a folder and back."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from registry.cli.output import emit, json_option
+
+
+def _render(verb: str):
+    def text(summary) -> str:
+        rows = sum(summary.tables.values())
+        return (f"{verb} {rows} rows and {summary.blobs} blobs ({summary.folder}); audit head "
+                f"event {summary.audit_sequence} {summary.audit_hash[:12]}")
+    return text
+
+
+@click.command("export")
+@click.argument("folder", metavar="DIR", type=click.Path(file_okay=False))
+@json_option
+def export_command(folder: str, as_json: bool) -> None:
+    """Write the whole catalogue, from one snapshot, into a new or empty folder."""
+    from registry.service.backup import export_catalogue
+    from registry.store import migrate
+
+    catalogue = click.get_current_context().obj.catalogue()
+    summary = export_catalogue(catalogue, Path(folder), migrate.current_revision(catalogue) or "")
+    emit(summary, as_json, _render("exported"))
+
+
+@click.command("import")
+@click.argument("folder", metavar="DIR", type=click.Path(file_okay=False))
+@json_option
+def import_command(folder: str, as_json: bool) -> None:
+    """Rebuild an exported catalogue into an empty one, after checking every digest."""
+    from registry.service.backup import import_catalogue, read_export
+    from registry.store import migrate
+    from registry.store.catalogue import open_catalogue
+
+    context = click.get_current_context().obj
+    export = read_export(Path(folder), migrate.head_revision())  # checked before any change
+    catalogue = open_catalogue(context.db_url, must_exist=False)
+    try:
+        migrate.upgrade(catalogue)  # an empty catalogue may not have been initialised yet
+        summary = import_catalogue(catalogue, export)
+    finally:
+        catalogue.close()
+    emit(summary, as_json, _render("imported"))
+
+
+COMMANDS = [export_command, import_command]
