@@ -129,6 +129,11 @@ def _run_to_end(url: str, arguments: list[str], user: str) -> tuple[float, subpr
     return time.monotonic() - started, done
 
 
+def _wait_for_transaction(url: str, application: str, process: subprocess.Popen) -> None:
+    while process.poll() is None and not write_transaction_open(url, application):
+        time.sleep(0.005)
+
+
 def kill_trials(cli: Cli, tmp_path: Path, operation: Operation, trials: int, seed: int,
                 database: str) -> CrashFigures:
     """Trial 0 runs to the end and sets the reference change and the time window; every
@@ -151,10 +156,13 @@ def kill_trials(cli: Cli, tmp_path: Path, operation: Operation, trials: int, see
             lockkeeper_command(url, *arguments),
             env=process_env(operation.user, PGAPPNAME=application),
             stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
-        delay = rng.uniform(0.25, 1.05) * window
         figures.trials += 1
         try:
-            process.wait(timeout=delay)
+            if trial % 2:  # a random moment of the whole run
+                process.wait(timeout=rng.uniform(0.25, 1.05) * window)
+            else:  # a random moment shortly after the write transaction opened
+                _wait_for_transaction(url, application, process)
+                process.wait(timeout=rng.uniform(0.0, 0.2))
             figures.finished_first += 1
             assert process.returncode == 0, process.stderr.read()
         except subprocess.TimeoutExpired:
