@@ -9,6 +9,7 @@ from typing import Any
 
 from sqlalchemy import select
 
+from registry.canonical_json import sha256_hex
 from registry.errors import AlreadyExists, UserError
 from registry.evaluation import Predictions, compute_metrics, slice_metrics
 from registry.service.actors import Actor
@@ -95,10 +96,11 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
             raise AlreadyExists(f"{line.name} v{version.number} already has an evaluation on "
                                 f"{dataset.name} from other predictions; evaluations never "
                                 "change", place="--dataset")
+        metrics_json = json.dumps(document, allow_nan=False)
         evaluation = t.Evaluation(
             version_id=version.id, dataset_id=dataset.id,
             dataset_content_digest=dataset.content_digest, task=request.predictions.task,
-            metrics_json=json.dumps(document, allow_nan=False),
+            metrics_json=metrics_json,
             predictions_digest=predictions_digest, created_at=utc_now(), created_by=actor.name)
         uow.session.add(evaluation)
         uow.session.flush()
@@ -106,6 +108,8 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
                          f"model/{line.name}/version/{version.number}/evaluation/{dataset.name}",
                          {"dataset_content_digest": dataset.content_digest,
                           "predictions_digest": predictions_digest,
+                          # So `audit verify` can find any change to the stored metrics.
+                          "metrics_digest": sha256_hex(metrics_json.encode("utf-8")),
                           "metrics": document["metrics"]})
         summary = _summary(line, version, dataset, evaluation)
         uow.commit()

@@ -1,4 +1,5 @@
-"""`audit verify`: recompute the audit chain, every blob digest and every registration digest."""
+"""`audit verify`: recompute the audit chain, every blob digest and every registration digest,
+and check every evaluation against what the audit log recorded when it was added."""
 
 from __future__ import annotations
 
@@ -29,6 +30,7 @@ class VerificationReport:
     blobs: int
     versions: int
     datasets: int
+    evaluations: int = 0
     findings: list[Finding] = field(default_factory=list)
 
     @property
@@ -49,7 +51,7 @@ def _audit_findings(uow: UnitOfWork) -> tuple[int, list[Finding], dict[str, dict
             details = {"unreadable": row.details_json}
         records.append(AuditRecord(row.sequence, row.occurred_at, row.actor, row.action,
                                    row.subject, details, row.previous_hash, row.hash))
-        if row.action in ("version.register", "dataset.add"):
+        if row.action in ("version.register", "dataset.add", "evaluation.add"):
             registered[row.subject] = details
     head = uow.session.get(t.AuditHead, 1)
     breaks = verify_chain(records, (head.sequence, head.hash) if head else None)
@@ -155,13 +157,77 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
             findings.append(Finding(place, "its registration digest differs from the one the "
                                            "audit log recorded"))
         blob = uow.session.get(t.Blob, dataset.fingerprint_digest)
+        if blob is not None and hashlib.sha256(blob.content).hexdigest() != blob.digest:
+            findings.append(Finding(place, "its stored fingerprint no longer matches its digest"))
         try:
             stored = json.loads(blob.content) if blob else {}
         except (json.JSONDecodeError, UnicodeDecodeError):
             stored = {}
-        if stored.get("content_digest") != dataset.content_digest:
+        if not isinstance(stored, dict) or stored.get("content_digest") != dataset.content_digest:
             findings.append(Finding(place, "its stored fingerprint does not carry the content "
                                            "digest it was registered with"))
+        elif stored.get("rows") != dataset.rows:
+            findings.append(Finding(place, "its row count differs from its stored fingerprint's"))
+        findings += _dataset_schema_findings(dataset, place)
+    return count, findings
+
+
+def _dataset_schema_findings(dataset: t.Dataset, place: str) -> list[Finding]:
+    """The stored schema must still give the schema fingerprint the dataset was added with."""
+    from registry.datasets.fingerprint import schema_fingerprint
+
+    try:
+        recomputed = schema_fingerprint(json.loads(dataset.schema_json))
+    except Exception:  # the stored schema no longer parses: that is the finding
+        recomputed = None
+    if recomputed != dataset.schema_fingerprint:
+        return [Finding(place, "its stored schema no longer gives its schema fingerprint")]
+    return []
+
+
+def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
+                         ) -> tuple[int, list[Finding]]:
+    """Metrics and predictions must be what the audit log recorded when the evaluation was added."""
+    from registry.canonical_json import canonical_json
+
+    findings = []
+    count = 0
+    rows = uow.session.execute(
+        select(t.Evaluation, t.Model.name, t.Version.number, t.Dataset.name)
+        .join(t.Version, t.Version.id == t.Evaluation.version_id)
+        .join(t.Model, t.Model.id == t.Version.model_id)
+        .join(t.Dataset, t.Dataset.id == t.Evaluation.dataset_id)
+        .order_by(t.Model.name, t.Version.number, t.Dataset.name))
+    for evaluation, model_name, number, dataset_name in rows:
+        count += 1
+        place = f"model/{model_name}/version/{number}/evaluation/{dataset_name}"
+        recorded = registered.get(place)
+        try:
+            metrics = json.loads(evaluation.metrics_json)["metrics"]
+        except (json.JSONDecodeError, KeyError, TypeError):
+            findings.append(Finding(place, "its stored metrics are not readable JSON"))
+            metrics = None
+        if recorded is None:
+            findings.append(Finding(place, "no evaluation event in the audit log"))
+        elif recorded.get("predictions_digest") != evaluation.predictions_digest:
+            findings.append(Finding(place, "it points at other predictions than the audit log "
+                                           "recorded"))
+        elif recorded.get("dataset_content_digest") != evaluation.dataset_content_digest:
+            findings.append(Finding(place, "its dataset content digest differs from the one the "
+                                           "audit log recorded"))
+        elif "metrics_digest" in recorded and recorded["metrics_digest"] != hashlib.sha256(
+                evaluation.metrics_json.encode("utf-8")).hexdigest():
+            findings.append(Finding(place, "its stored metrics no longer match the digest the "
+                                           "audit log recorded"))
+        elif metrics is not None and canonical_json(metrics) != canonical_json(
+                recorded.get("metrics")):
+            findings.append(Finding(place, "its stored metrics differ from the ones the audit "
+                                           "log recorded"))
+        blob = uow.session.get(t.Blob, evaluation.predictions_digest)
+        if blob is None:
+            findings.append(Finding(place, "its predictions are missing"))
+        elif hashlib.sha256(blob.content).hexdigest() != blob.digest:
+            findings.append(Finding(place, "its stored predictions no longer match their digest"))
     return count, findings
 
 
@@ -171,6 +237,8 @@ def verify_catalogue(catalogue: Catalogue) -> VerificationReport:
         blobs, blob_findings = _blob_findings(uow)
         versions, version_findings = _version_findings(uow, registered)
         datasets, dataset_findings = _dataset_findings(uow, registered)
-    everything = findings + blob_findings + version_findings + dataset_findings
+        evaluations, evaluation_findings = _evaluation_findings(uow, registered)
+    everything = (findings + blob_findings + version_findings + dataset_findings
+                  + evaluation_findings)
     return VerificationReport(ok=not everything, events=events, blobs=blobs, versions=versions,
-                              datasets=datasets, findings=everything)
+                              datasets=datasets, evaluations=evaluations, findings=everything)
