@@ -33,10 +33,6 @@ class Step:
     caption: str = ""
 
 
-def _seed(path: Path) -> str:
-    return str(path)
-
-
 def _shown(arguments: Sequence[str]) -> str:
     """The command as a person would type it from the project folder."""
     prefix = str(SEED.parent) + "/"
@@ -50,20 +46,20 @@ def brackwater_datasets() -> list[Step]:
     split = ("--key", "segment_id", "--exclude", "burst_within_90d")
     return [
         Step(AUTHOR, ("dataset", "add", "brackwater-asset-register",
-                      _seed(d / "brackwater-asset-register.csv"),
-                      "--schema", _seed(s / "brackwater-asset-register.avsc"), "--role", "source"),
+                      str(d / "brackwater-asset-register.csv"),
+                      "--schema", str(s / "brackwater-asset-register.avsc"), "--role", "source"),
              caption="The asset register and the telemetry extract are the sources."),
         Step(AUTHOR, ("dataset", "add", "brackwater-telemetry-extract",
-                      _seed(d / "brackwater-telemetry-extract.avro"), "--role", "source")),
+                      str(d / "brackwater-telemetry-extract.avro"), "--role", "source")),
         Step(AUTHOR, ("dataset", "add", "brackwater-training-set",
-                      _seed(d / "brackwater-training-set.parquet"), "--role", "training",
+                      str(d / "brackwater-training-set.parquet"), "--role", "training",
                       *derived, *split),
              caption="Training and evaluation sets are derived from both, on disjoint segments."),
         Step(AUTHOR, ("dataset", "add", "brackwater-evaluation-set",
-                      _seed(d / "brackwater-evaluation-set.parquet"), "--role", "evaluation",
+                      str(d / "brackwater-evaluation-set.parquet"), "--role", "evaluation",
                       *derived, *split)),
         Step(AUTHOR, ("dataset", "add", "brackwater-live-sample",
-                      _seed(d / "brackwater-live-sample.avro"), "--role", "live-sample",
+                      str(d / "brackwater-live-sample.avro"), "--role", "live-sample",
                       "--feed-of", "main-burst-risk"),
              caption="A sample of what the live feed writes, for the data-aware schema check."),
     ]
@@ -71,13 +67,13 @@ def brackwater_datasets() -> list[Step]:
 
 def _register_and_evaluate(number: int, *, evaluate: bool = True) -> list[Step]:
     steps = [Step(AUTHOR, ("register", "main-burst-risk",
-                           _seed(BRACKWATER / "documents" / f"main-burst-risk-v{number}.pfa.json"),
+                           str(BRACKWATER / "documents" / f"main-burst-risk-v{number}.pfa.json"),
                            "--manifest",
-                           _seed(BRACKWATER / "manifests" / f"main-burst-risk-v{number}.toml")))]
+                           str(BRACKWATER / "manifests" / f"main-burst-risk-v{number}.toml")))]
     if evaluate:
         steps.append(Step(AUTHOR, (
             "evaluate", "main-burst-risk", str(number), "--dataset", "brackwater-evaluation-set",
-            "--predictions", _seed(BRACKWATER / "predictions" / f"main-burst-risk-v{number}.csv"),
+            "--predictions", str(BRACKWATER / "predictions" / f"main-burst-risk-v{number}.csv"),
             "--slice", "district")))
     return steps
 
@@ -130,22 +126,22 @@ def night_flow_story() -> list[Step]:
     d = NIGHT_FLOW / "datasets"
     return [
         Step(ADMIN, ("model", "policy", "set", "night-flow-leak",
-                     _seed(NIGHT_FLOW / "policy.toml")),
+                     str(NIGHT_FLOW / "policy.toml")),
              caption="night-flow-leak is a regression: its policy judges RMSE instead of AUC."),
         Step(AUTHOR, ("dataset", "add", "night-flow-training-set",
-                      _seed(d / "night-flow-training-set.parquet"), "--role", "training",
+                      str(d / "night-flow-training-set.parquet"), "--role", "training",
                       "--key", "dma_id", "--exclude", "leak_l_h")),
         Step(AUTHOR, ("dataset", "add", "night-flow-evaluation-set",
-                      _seed(d / "night-flow-evaluation-set.parquet"), "--role", "evaluation",
+                      str(d / "night-flow-evaluation-set.parquet"), "--role", "evaluation",
                       "--key", "dma_id", "--exclude", "leak_l_h")),
         Step(AUTHOR, ("dataset", "add", "night-flow-live-sample",
-                      _seed(d / "night-flow-live-sample.avro"), "--role", "live-sample",
+                      str(d / "night-flow-live-sample.avro"), "--role", "live-sample",
                       "--feed-of", "night-flow-leak")),
         Step(AUTHOR, ("register", "night-flow-leak",
-                      _seed(NIGHT_FLOW / "documents" / "night-flow-leak-v1.pfa.json"),
-                      "--manifest", _seed(NIGHT_FLOW / "manifests" / "night-flow-leak-v1.toml"))),
+                      str(NIGHT_FLOW / "documents" / "night-flow-leak-v1.pfa.json"),
+                      "--manifest", str(NIGHT_FLOW / "manifests" / "night-flow-leak-v1.toml"))),
         Step(AUTHOR, ("evaluate", "night-flow-leak", "1", "--dataset", "night-flow-evaluation-set",
-                      "--predictions", _seed(NIGHT_FLOW / "predictions" / "night-flow-leak-v1.csv"))),
+                      "--predictions", str(NIGHT_FLOW / "predictions" / "night-flow-leak-v1.csv"))),
         _promote(1, "canary", model="night-flow-leak"),
         Step(SECOND_APPROVER, ("approve", "night-flow-leak", "1", "--for", "live")),
         Step(APPROVER, ("approve", "night-flow-leak", "1", "--for", "live"),
