@@ -43,6 +43,10 @@ _RECORD_KEYS = {"type", "name", "namespace", "aliases", "doc", "fields"}
 _ENUM_KEYS = {"type", "name", "namespace", "aliases", "doc", "symbols", "default"}
 _FIXED_KEYS = {"type", "name", "namespace", "aliases", "doc", "size"}
 _FIELD_KEYS = {"name", "type", "default", "aliases", "order", "doc"}
+# Each nested type's place (a JSON pointer) is longer than its parent's, so a schema nested
+# 100,000 deep would hold gigabytes of places. This bound (records 2,000 deep pass) keeps a
+# hostile schema to a few hundred megabytes at most.
+MAX_PLACE_LENGTH = 32_768
 
 
 def parse(obj: Any, *, names: Names | None = None, place: str = "",
@@ -110,6 +114,10 @@ class _Parser:
 
     def _parse_one(self, obj: Any, place: str, namespace: str, slot: list[Any], index: int,
                    stack: list[tuple[Any, ...]]) -> None:
+        if len(place) > MAX_PLACE_LENGTH:
+            raise SchemaError(f"the schema nests types too deeply (the JSON pointer to this place "
+                              f"is over {MAX_PLACE_LENGTH:,} characters long); name the inner "
+                              "types and refer to them instead", place=place[:120] + "...")
         if isinstance(obj, str):
             slot[index] = self._reference(obj, place, namespace)
         elif isinstance(obj, list):
