@@ -246,6 +246,11 @@ def _canonicalise(data: bytes, patterns: tuple[Pattern, ...]
             gc.enable()
 
 
+# Deeper documents cannot be decoded by Python's JSON reader anyway (one recursion per level),
+# and copying paths and ropes level by level would take time with the square of the depth.
+MAX_NESTING = 1_000
+
+
 def _walk(data: bytes, patterns: tuple[Pattern, ...]
           ) -> tuple[bytes | list[bytes], dict[Path, MeasuredValue]]:
     depths = {len(pattern) for pattern in patterns}
@@ -381,6 +386,8 @@ def _walk(data: bytes, patterns: tuple[Pattern, ...]
         byte = data[position]
         if state == VALUE:
             if byte == 0x7B or byte == 0x5B:  # { or [
+                if len(stack) >= MAX_NESTING:
+                    raise fail(f"values nest deeper than {MAX_NESTING:,} levels", position)
                 path = child_path() if patterns else ()  # paths matter only to patterns
                 frame = _Frame(byte == 0x7B, path, position,
                                bool(patterns) and selected(path))

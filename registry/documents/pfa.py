@@ -82,6 +82,10 @@ def read_pfa(data: bytes, *, source: str = "") -> PfaSummary:
         if source:
             raise type(error)(error.message, place=f"{source} {error.place or '/'}") from None
         raise
+    except RecursionError:
+        # Python's JSON decoder recurses once per level; no real document nests this deep.
+        raise Unprocessable("the document nests JSON values too deeply to be read",
+                            place=source or "/") from None
 
 
 def _decode_without_large_values(data: bytes, digest: CanonicalDigest) -> Any:
