@@ -168,6 +168,9 @@ def load_policy(text: str, *, source: str, base: Policy | None = None) -> Policy
         document = tomllib.loads(text)
     except tomllib.TOMLDecodeError as error:
         raise PolicyError(f"not valid TOML: {error}", place=None, source=source) from None
+    except RecursionError:  # tomllib recurses once per nested array or inline table
+        raise PolicyError("not valid TOML: values nest too deeply", place=None,
+                          source=source) from None
     if base is not None:
         underlay = base.to_dict()
         if "ladder" in document:
