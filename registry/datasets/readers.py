@@ -105,10 +105,28 @@ def read_batches(source: Source, part: Part = (0, 1),
 
 # --- Avro ------------------------------------------------------------------------------------
 
+class _ReadsNoFurtherThanTheEnd:
+    """A file handle whose reads never ask for more than the file holds: fastavro reads a
+    length from the file and then asks for that many bytes, which a damaged or hostile header
+    could set to gigabytes."""
+
+    def __init__(self, handle) -> None:
+        self._handle = handle
+        self._size = os.fstat(handle.fileno()).st_size
+
+    def read(self, size: int = -1) -> bytes:
+        left = max(self._size - self._handle.tell(), 0)
+        return self._handle.read(left if size is None or size < 0 else min(size, left))
+
+    def __getattr__(self, name: str) -> Any:
+        return getattr(self._handle, name)
+
+
 def _avro_writer_schema(path: str) -> dict[str, Any]:
     try:
         with open(path, "rb") as handle:
-            return json.loads(fastavro.reader(handle).metadata["avro.schema"])
+            return json.loads(fastavro.reader(_ReadsNoFurtherThanTheEnd(handle))
+                              .metadata["avro.schema"])
     except Exception as error:  # fastavro reports a bad header in several ways
         raise DatasetFileError(f"not an Avro container file or its header is damaged ({error})",
                                place=path) from error
@@ -123,7 +141,7 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
     pending_start = 0
     with open(source.path, "rb") as handle:
         try:
-            blocks = fastavro.block_reader(handle, reader_schema)
+            blocks = fastavro.block_reader(_ReadsNoFurtherThanTheEnd(handle), reader_schema)
         except fastavro.read.SchemaResolutionError as error:
             raise ColumnsNotMatching(f"the file's records cannot be read with the given "
                                      f"schema ({error})", place=source.path) from error
