@@ -42,6 +42,7 @@ def main(ctx: click.Context, db_url: str | None, acting_user: str | None) -> Non
 # Each module named here exposes COMMANDS, a list of click commands or groups.
 COMMAND_MODULES = [
     "registry.cli.catalogue_commands",
+    "registry.cli.lineage_commands",
 ]
 
 
