@@ -43,6 +43,7 @@ def main(ctx: click.Context, db_url: str | None, acting_user: str | None) -> Non
 COMMAND_MODULES = [
     "registry.cli.catalogue_commands",
     "registry.cli.lineage_commands",
+    "registry.cli.serve_commands",
 ]
 
 
