@@ -34,9 +34,17 @@ class CatalogueHolder:
     def catalogue(self):
         with self._lock:
             if self._catalogue is None:
+                from registry.errors import CatalogueUnavailable, UserError
                 from registry.store.catalogue import open_catalogue
 
-                self._catalogue = open_catalogue(self.url)
+                try:
+                    self._catalogue = open_catalogue(self.url)
+                except CatalogueUnavailable:
+                    raise
+                except UserError as error:
+                    # A catalogue that is missing or not initialised is the server's problem,
+                    # not the visitor's: answer 503 and say what to run.
+                    raise CatalogueUnavailable(error.message, place=error.place) from None
             return self._catalogue
 
     def close(self) -> None:
