@@ -63,7 +63,12 @@ def _secure(response: Response) -> Response:
     return response
 
 
-def _error_page(status: int, title: str, message: str) -> tuple[str, int]:
+TITLES = {400: "Bad request", 404: "Not found", 405: "Method not allowed",
+          413: "Request too large", 503: "Catalogue unavailable"}
+
+
+def _error_page(status: int, message: str) -> tuple[str, int]:
+    title = TITLES.get(status, "Bad request" if status < 500 else "Something went wrong")
     return render_template("error.html", status=status, title=title, message=message), status
 
 
@@ -86,19 +91,17 @@ def create_app(catalogue_url: str | None = None, *, config: dict[str, Any] | Non
     @app.errorhandler(LockkeeperError)
     def typed_error(error: LockkeeperError):
         status = error.http_status if 400 <= error.http_status < 600 else 400
-        title = {404: "Not found", 503: "Catalogue unavailable"}.get(status, "Bad request")
-        return _error_page(status, title, error.one_line())
+        return _error_page(status, error.one_line())
 
     @app.errorhandler(HTTPException)
     def http_error(error: HTTPException):
         if isinstance(error, InternalServerError):
             return unexpected(error)
-        return _error_page(error.code or 400, error.name, error.description or error.name)
+        return _error_page(error.code or 400, error.description or error.name)
 
     @app.errorhandler(Exception)
     def unexpected(error: Exception):
         log.exception("unexpected error on %s", request.path)
-        return _error_page(500, "Something went wrong",
-                           "the page could not be drawn; the error is in the server's log")
+        return _error_page(500, "the page could not be drawn; the error is in the server's log")
 
     return app
