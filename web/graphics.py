@@ -7,6 +7,7 @@ every label passes through Jinja's autoescaping.
 from __future__ import annotations
 
 import math
+import struct
 from dataclasses import dataclass
 from typing import Any
 
@@ -165,10 +166,54 @@ def _format(value: float) -> str:
     return f"{value:.4g}"
 
 
+MAX_BARS = 40
+
+
+def _bucket_bounds(index: int, mantissa_bits: int) -> tuple[float, float]:
+    """Value range of a signed log-linear bucket: index sign(x) * (1 + (bits(|x|) >> (52 - m))),
+    as the dataset profile stores it (registry.datasets.histogram)."""
+    if index == 0:
+        return 0.0, 0.0
+    shift = 52 - mantissa_bits
+    magnitude = abs(index) - 1
+    low = struct.unpack("<d", struct.pack("<Q", magnitude << shift))[0]
+    high = struct.unpack("<d", struct.pack("<Q", min((magnitude + 1) << shift, 0x7FEFFFFFFFFFFFFF)))[0]
+    return (low, high) if index > 0 else (-high, -low)
+
+
+def _log_buckets(histogram: dict) -> Chart | None:
+    bits, buckets = histogram.get("mantissa_bits"), histogram.get("buckets")
+    if (not isinstance(bits, int) or not 0 <= bits <= 52 or not isinstance(buckets, list)
+            or not buckets or len(buckets) > 100_000):
+        return None
+    ranges = []
+    for pair in buckets:
+        if (not isinstance(pair, list) or len(pair) != 2
+                or not all(isinstance(v, int) and not isinstance(v, bool) for v in pair)
+                or pair[1] < 0 or abs(pair[0]) > (1 << (64 - 52 + bits))):
+            return None
+        low, high = _bucket_bounds(pair[0], bits)
+        if not (math.isfinite(low) and math.isfinite(high)):
+            return None
+        ranges.append((low, high, pair[1]))
+    ranges.sort()
+    size = math.ceil(len(ranges) / MAX_BARS)
+    groups = [ranges[i:i + size] for i in range(0, len(ranges), size)]
+    labels = [f"{_format(g[0][0])} to {_format(g[-1][1])}" for g in groups]
+    counts = [sum(c for _, _, c in g) for g in groups]
+    return Chart(CHART_WIDTH, CHART_HEIGHT, _bars(labels, counts), _format(ranges[0][0]),
+                 _format(ranges[-1][1]),
+                 f"{sum(counts)} values in {len(ranges)} log-spaced buckets"
+                 + (f", shown as {len(groups)} bars" if size > 1 else ""))
+
+
 def histogram_chart(histogram: Any) -> Chart | None:
-    """Bars for a stored histogram {edges, counts}; None when it is absent or malformed."""
+    """Bars for a stored histogram, {edges, counts} or log-linear {mantissa_bits, buckets};
+    None when it is absent or malformed."""
     if not isinstance(histogram, dict):
         return None
+    if "buckets" in histogram:
+        return _log_buckets(histogram)
     edges, counts = histogram.get("edges"), histogram.get("counts")
     if (not isinstance(edges, list) or not isinstance(counts, list) or not counts
             or len(edges) != len(counts) + 1 or not all(_finite(e) for e in edges)

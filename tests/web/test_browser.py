@@ -6,6 +6,7 @@ are skipped only when that file is absent (.ci/install-browser installs it).
 
 from __future__ import annotations
 
+import os
 import threading
 from pathlib import Path
 from urllib.parse import urlsplit
@@ -47,7 +48,10 @@ def browser():
 
 @pytest.fixture(scope="module")
 def screenshots(tmp_path_factory) -> Path:
-    folder = tmp_path_factory.mktemp("screenshots")
+    # LOCKKEEPER_SCREENSHOTS keeps them somewhere known; by default a temporary folder.
+    chosen = os.environ.get("LOCKKEEPER_SCREENSHOTS")
+    folder = Path(chosen) if chosen else tmp_path_factory.mktemp("screenshots")
+    folder.mkdir(parents=True, exist_ok=True)
     print(f"\nscreenshots in {folder}")
     return folder
 

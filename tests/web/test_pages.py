@@ -211,3 +211,64 @@ def test_bad_serve_options_exit_2(populated_url, arguments):
 def test_serve_refuses_an_uninitialised_catalogue(tmp_path):
     result = run_cli(["--db", f"sqlite:///{tmp_path / 'absent.db'}", "serve"])
     assert result.exit_code == 2 and "lockkeeper init" in result.stderr
+
+
+ODD_FINGERPRINTS = [
+    b"not json", b"[]", b'{"profile": "x"}', b'{"profile": {"c": "x"}}',
+    b'{"profile": {"c": {"histogram": {"edges": [1], "counts": [1, 2]}, "categories": 3}}}',
+    b'{"profile": {"c": {"categories": {"counts": {"a": 2, "b": "x"}}, "mean": "NaN"}}}',
+]
+
+
+def test_stored_json_of_any_shape_renders_without_error(catalogue, catalogue_url, tmp_path):
+    """Rows written by other builds may hold less or other JSON; the pages show what is there."""
+    from datetime import UTC, datetime
+
+    from registry.store import tables as t
+    from registry.store.unit_of_work import UnitOfWork
+    from tests.lineage.scenario import INES, MARA
+    from registry.service import models
+    from registry.service.roles import grant_role
+    from tests.catalogue.helpers import write_version_files
+
+    grant_role(catalogue, MARA.name, "admin", MARA)
+    models.create_model(catalogue, "odd", "", INES)
+    now = datetime(2026, 3, 2, tzinfo=UTC)
+    with UnitOfWork(catalogue) as uow:
+        for index, content in enumerate(ODD_FINGERPRINTS):
+            digest = uow.blobs.put(content)
+            uow.session.add(t.Dataset(
+                name=f"odd-{index}", role="training", source_uri="", rows=1,
+                content_digest="0" * 64, schema_fingerprint="0" * 64,
+                schema_json="not json" if index % 2 else '{"type": "record", "fields": 3}',
+                fingerprint_digest=digest, registration_digest="0" * 64, created_at=now,
+                created_by="x"))
+        uow.commit()
+    document, manifest = write_version_files(
+        tmp_path, manifest_extra='trained_on = ["odd-0"]\nevaluated_on = ["odd-1"]\n')
+    run_cli(["--db", catalogue_url, "register", "odd", str(document), "--manifest", str(manifest)])
+    with UnitOfWork(catalogue) as uow:
+        version = uow.session.query(t.Version).one()
+        dataset = uow.session.query(t.Dataset).filter_by(name="odd-1").one()
+        version_id, dataset_id = version.id, dataset.id
+        uow.session.add(t.Evaluation(
+            version_id=version_id, dataset_id=dataset_id, dataset_content_digest="0" * 64,
+            task="binary", metrics_json='{"metrics": {"roc_auc": "high"}, "slices": {"d": 3}}',
+            predictions_digest=uow.blobs.put(b"p"), created_at=now, created_by="x"))
+        for report in ("not json", '{"results": [1, {"gate": "g", "evidence": [[{"a": null}]]}]}'):
+            uow.session.add(t.GateReportRow(model_id=version.model_id, version_id=version_id,
+                                            stage="shadow", attempt="promote", passed=False,
+                                            report_json=report, created_at=now, created_by="x"))
+        uow.commit()
+    app = create_app(catalogue_url)
+    try:
+        with app.test_client() as client:
+            urls = ["/", "/models/odd", "/models/odd/versions/1", "/models/odd/compare?a=1&b=1",
+                    "/lineage?node=odd@1"] + [
+                f"/datasets/odd-{i}" for i in range(len(ODD_FINGERPRINTS))] + [
+                "/datasets/odd-2?against=odd-3"]
+            for url in urls:
+                response = client.get(url)
+                assert response.status_code == 200, (url, response.get_data(as_text=True)[:300])
+    finally:
+        app.extensions["lockkeeper"].close()
