@@ -82,8 +82,8 @@ def _next(depth_column, max_depth: int | None):
     return literal(0, Integer) if max_depth is None else depth_column + 1
 
 
-def _within(depth_column, max_depth: int | None):
-    return literal(True) if max_depth is None else depth_column < max_depth
+def _within(statement: Select, depth_column, max_depth: int | None) -> Select:
+    return statement if max_depth is None else statement.where(depth_column < max_depth)
 
 
 def _anchor(parts: list[Select], name: str) -> CTE | None:
@@ -92,120 +92,134 @@ def _anchor(parts: list[Select], name: str) -> CTE | None:
     return (parts[0] if len(parts) == 1 else union(*parts)).cte(name)
 
 
+def _recursive(anchor_parts: list[Select], name: str, step) -> CTE:
+    """A recursive CTE (id, depth) from its anchor rows and a function giving the step."""
+    start = _anchor(anchor_parts, f"{name}_start")
+    walked = select(start.c.id, start.c.depth).cte(name, recursive=True)
+    return walked.union(step(walked))
+
+
+def _stage_rows(versions: CTE, max_depth: int | None) -> list[Select]:
+    """Stages the walked versions hold now (holdings) or held once (events)."""
+    rows = []
+    for table in (t.StageEvent.__table__, t.StageHolding.__table__):
+        rows.append(_within(
+            select(literal("stage").label("kind"), table.c.model_id.label("ref"),
+                   table.c.stage, _next(versions.c.depth, max_depth).label("depth"))
+            .join(versions, table.c.version_id == versions.c.id),
+            versions.c.depth, max_depth))
+    return rows
+
+
+def _as_nodes(walked: CTE, kind: str) -> Select:
+    return select(literal(kind).label("kind"), walked.c.id.label("ref"),
+                  literal("").label("stage"), walked.c.depth)
+
+
+def _stage_seed_rows(seed) -> Select:
+    return select(literal("stage").label("kind"), seed.c.model_id.label("ref"), seed.c.stage,
+                  literal(0, Integer).label("depth"))
+
+
 def _downstream(seeds: Seeds, max_depth: int | None) -> Select:
-    # Layer 1: datasets, and everything derived from them.
-    dataset_parts = []
+    edge = t.DatasetParent.__table__
+    link = t.VersionDataset.__table__
+    parent = t.Version.__table__.alias("parent_version")
+    child = t.Version.__table__.alias("child_version")
+
+    def derived(walked: CTE) -> Select:  # datasets made from a walked dataset
+        return _within(select(edge.c.child_id, _next(walked.c.depth, max_depth))
+                       .join(walked, edge.c.parent_id == walked.c.id),
+                       walked.c.depth, max_depth)
+
+    def descendants(walked: CTE) -> Select:  # versions naming a walked version as parent
+        return _within(select(child.c.id, _next(walked.c.depth, max_depth))
+                       .select_from(walked.join(parent, parent.c.id == walked.c.id)
+                                    .join(child, and_(child.c.model_id == parent.c.model_id,
+                                                      # always true (a parent is registered
+                                                      # first); it lets the (model_id, number)
+                                                      # index bound the scan to later versions
+                                                      child.c.number > parent.c.number,
+                                                      child.c.parent_number == parent.c.number))),
+                       walked.c.depth, max_depth)
+
+    datasets = versions = None
     if seeds.datasets is not None:
         seed = seeds.datasets.subquery("dataset_seed")
-        dataset_parts.append(select(seed.c.id, literal(0, Integer).label("depth")))
-    datasets = None
-    if dataset_parts:
-        start = _anchor(dataset_parts, "dataset_start")
-        datasets = select(start.c.id, start.c.depth).cte("walked_datasets", recursive=True)
-        edge = t.DatasetParent.__table__
-        datasets = datasets.union(
-            select(edge.c.child_id, _next(datasets.c.depth, max_depth))
-            .join(datasets, edge.c.parent_id == datasets.c.id)
-            .where(_within(datasets.c.depth, max_depth)))
-
-    # Layer 2: versions trained or evaluated on those datasets, and their descendant versions.
-    version_parts = []
+        datasets = _recursive([select(seed.c.id, literal(0, Integer).label("depth"))],
+                              "walked_datasets", derived)
+    version_anchor = []
     if seeds.versions is not None:
         seed = seeds.versions.subquery("version_seed")
-        version_parts.append(select(seed.c.id, literal(0, Integer).label("depth")))
+        version_anchor.append(select(seed.c.id, literal(0, Integer).label("depth")))
     if datasets is not None:
-        link = t.VersionDataset.__table__
-        version_parts.append(
+        version_anchor.append(_within(
             select(link.c.version_id.label("id"), _next(datasets.c.depth, max_depth).label("depth"))
-            .join(datasets, link.c.dataset_id == datasets.c.id)
-            .where(_within(datasets.c.depth, max_depth)))
-    versions = None
-    if version_parts:
-        start = _anchor(version_parts, "version_start")
-        versions = select(start.c.id, start.c.depth).cte("walked_versions", recursive=True)
-        parent = t.Version.__table__.alias("parent_version")
-        child = t.Version.__table__.alias("child_version")
-        versions = versions.union(
-            select(child.c.id, _next(versions.c.depth, max_depth))
-            .select_from(versions.join(parent, parent.c.id == versions.c.id)
-                         .join(child, and_(child.c.model_id == parent.c.model_id,
-                                           child.c.parent_number == parent.c.number)))
-            .where(_within(versions.c.depth, max_depth)))
+            .join(datasets, link.c.dataset_id == datasets.c.id),
+            datasets.c.depth, max_depth))
+    if version_anchor:
+        versions = _recursive(version_anchor, "walked_versions", descendants)
 
-    # Layer 3: the stages those versions hold or held.
     parts: list[Select] = []
     if datasets is not None:
-        parts.append(select(literal("dataset").label("kind"), datasets.c.id.label("ref"),
-                            literal("").label("stage"), datasets.c.depth))
+        parts.append(_as_nodes(datasets, "dataset"))
     if versions is not None:
-        parts.append(select(literal("version").label("kind"), versions.c.id.label("ref"),
-                            literal("").label("stage"), versions.c.depth))
-        for table in (t.StageEvent.__table__, t.StageHolding.__table__):
-            parts.append(
-                select(literal("stage").label("kind"), table.c.model_id.label("ref"),
-                       table.c.stage, _next(versions.c.depth, max_depth).label("depth"))
-                .join(versions, table.c.version_id == versions.c.id)
-                .where(_within(versions.c.depth, max_depth)))
-    if seeds.stages is not None:
-        seed = seeds.stages.subquery("stage_seed")
-        parts.append(select(literal("stage").label("kind"), seed.c.model_id.label("ref"),
-                            seed.c.stage, literal(0, Integer).label("depth")))
+        parts.append(_as_nodes(versions, "version"))
+        parts.extend(_stage_rows(versions, max_depth))
+    if seeds.stages is not None:  # a stage is the last layer: nothing lies downstream of it
+        parts.append(_stage_seed_rows(seeds.stages.subquery("stage_seed")))
     return union_all(*parts) if len(parts) > 1 else parts[0]
 
 
 def _upstream(seeds: Seeds, max_depth: int | None) -> Select:
+    edge = t.DatasetParent.__table__
+    link = t.VersionDataset.__table__
+    child = t.Version.__table__.alias("child_version")
+    parent = t.Version.__table__.alias("parent_version")
+
+    def sources(walked: CTE) -> Select:  # datasets a walked dataset was made from
+        return _within(select(edge.c.parent_id, _next(walked.c.depth, max_depth))
+                       .join(walked, edge.c.child_id == walked.c.id),
+                       walked.c.depth, max_depth)
+
+    def ancestors(walked: CTE) -> Select:  # the parent version of a walked version
+        return _within(select(parent.c.id, _next(walked.c.depth, max_depth))
+                       .select_from(walked.join(child, child.c.id == walked.c.id)
+                                    .join(parent, and_(parent.c.model_id == child.c.model_id,
+                                                       parent.c.number == child.c.parent_number))),
+                       walked.c.depth, max_depth)
+
     parts: list[Select] = []
-    version_parts = []
+    version_anchor = []
     if seeds.stages is not None:
         seed = seeds.stages.subquery("stage_seed")
-        parts.append(select(literal("stage").label("kind"), seed.c.model_id.label("ref"),
-                            seed.c.stage, literal(0, Integer).label("depth")))
+        parts.append(_stage_seed_rows(seed))
         if max_depth is None or max_depth > 0:
             for table in (t.StageEvent.__table__, t.StageHolding.__table__):
-                version_parts.append(
+                version_anchor.append(
                     select(table.c.version_id.label("id"),
                            _depth(literal(1, Integer), max_depth).label("depth"))
                     .join(seed, and_(table.c.model_id == seed.c.model_id,
                                      table.c.stage == seed.c.stage)))
     if seeds.versions is not None:
         seed = seeds.versions.subquery("version_seed")
-        version_parts.append(select(seed.c.id, literal(0, Integer).label("depth")))
-
+        version_anchor.append(select(seed.c.id, literal(0, Integer).label("depth")))
     versions = None
-    if version_parts:
-        start = _anchor(version_parts, "version_start")
-        versions = select(start.c.id, start.c.depth).cte("walked_versions", recursive=True)
-        child = t.Version.__table__.alias("child_version")
-        parent = t.Version.__table__.alias("parent_version")
-        versions = versions.union(
-            select(parent.c.id, _next(versions.c.depth, max_depth))
-            .select_from(versions.join(child, child.c.id == versions.c.id)
-                         .join(parent, and_(parent.c.model_id == child.c.model_id,
-                                            parent.c.number == child.c.parent_number)))
-            .where(_within(versions.c.depth, max_depth)))
-        parts.append(select(literal("version").label("kind"), versions.c.id.label("ref"),
-                            literal("").label("stage"), versions.c.depth))
+    if version_anchor:
+        versions = _recursive(version_anchor, "walked_versions", ancestors)
+        parts.append(_as_nodes(versions, "version"))
 
-    dataset_parts = []
+    dataset_anchor = []
     if seeds.datasets is not None:
         seed = seeds.datasets.subquery("dataset_seed")
-        dataset_parts.append(select(seed.c.id, literal(0, Integer).label("depth")))
+        dataset_anchor.append(select(seed.c.id, literal(0, Integer).label("depth")))
     if versions is not None:
-        link = t.VersionDataset.__table__
-        dataset_parts.append(
+        dataset_anchor.append(_within(
             select(link.c.dataset_id.label("id"), _next(versions.c.depth, max_depth).label("depth"))
-            .join(versions, link.c.version_id == versions.c.id)
-            .where(_within(versions.c.depth, max_depth)))
-    if dataset_parts:
-        start = _anchor(dataset_parts, "dataset_start")
-        datasets = select(start.c.id, start.c.depth).cte("walked_datasets", recursive=True)
-        edge = t.DatasetParent.__table__
-        datasets = datasets.union(
-            select(edge.c.parent_id, _next(datasets.c.depth, max_depth))
-            .join(datasets, edge.c.child_id == datasets.c.id)
-            .where(_within(datasets.c.depth, max_depth)))
-        parts.append(select(literal("dataset").label("kind"), datasets.c.id.label("ref"),
-                            literal("").label("stage"), datasets.c.depth))
+            .join(versions, link.c.version_id == versions.c.id),
+            versions.c.depth, max_depth))
+    if dataset_anchor:
+        parts.append(_as_nodes(_recursive(dataset_anchor, "walked_datasets", sources), "dataset"))
     return union_all(*parts) if len(parts) > 1 else parts[0]
 
 

@@ -134,3 +134,31 @@ def test_downstream_of_a_root_is_fast_and_matches_networkx(big_catalogue):
           f"{best * 1000:.1f} ms (best of 5), networkx.descendants in memory "
           f"{reference * 1000:.1f} ms; ratio {best / reference:.2f}")
     assert best < LIMIT_SECONDS
+
+
+def test_an_index_on_parent_number_would_speed_the_version_step(big_catalogue):
+    """Not a migration: a figure for the index the catalogue could add, on the bench copy."""
+    catalogue, _ = big_catalogue
+    seeds = walks.seeds_for(walks.NodeKey("dataset", 1))
+
+    def best_of(runs: int = 5) -> float:
+        timings = []
+        with UnitOfWork(catalogue, write=False) as uow:
+            for _ in range(runs):
+                started = time.perf_counter()
+                walks.walk(uow.session, seeds, "down")
+                timings.append(time.perf_counter() - started)
+        return min(timings)
+
+    without = best_of()
+    with catalogue.engine.begin() as connection:
+        connection.exec_driver_sql(
+            "CREATE INDEX bench_versions_parent ON versions (model_id, parent_number)")
+    try:
+        with_index = best_of()
+    finally:
+        with catalogue.engine.begin() as connection:
+            connection.exec_driver_sql("DROP INDEX bench_versions_parent")
+    print(f"downstream walk without an index on versions (model_id, parent_number): "
+          f"{without * 1000:.1f} ms; with one: {with_index * 1000:.1f} ms; "
+          f"ratio {without / with_index:.2f}")
