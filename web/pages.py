@@ -10,7 +10,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 
 from registry.errors import NotFound
 from registry.service import lineage as lineage_service
@@ -79,8 +79,8 @@ def catalogue_page(catalogue: Catalogue) -> CataloguePage:
         flagged = lineage_service.flagged_keys(uow)
         models = []
         for model in uow.session.execute(select(t.Model).order_by(t.Model.name)).scalars():
-            count = len(uow.session.execute(
-                select(t.Version.id).where(t.Version.model_id == model.id)).all())
+            count = uow.session.execute(select(func.count()).select_from(t.Version)
+                                        .where(t.Version.model_id == model.id)).scalar_one()
             models.append(ModelLine(model.name, model.description, count,
                                     holders_by_stage(uow, model)))
         datasets = [

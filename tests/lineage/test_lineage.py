@@ -34,8 +34,8 @@ def _ids(graph, kind=None):
     return {n.id for n in graph.nodes if kind is None or n.kind == kind}
 
 
-def test_downstream_of_telemetry_reaches_derived_sets_every_version_and_stages(brackwater):
-    graph = lineage_of(brackwater, TELEMETRY, "down")
+def test_downstream_of_telemetry_reaches_derived_sets_every_version_and_stages(shared):
+    graph = lineage_of(shared, TELEMETRY, "down")
     assert _ids(graph, "dataset") == {TELEMETRY, "dataset/brackwater-training-set",
                                       "dataset/brackwater-evaluation-set"}
     assert _ids(graph, "version") == {V(n) for n in (1, 2, 3, 4)}
@@ -43,8 +43,8 @@ def test_downstream_of_telemetry_reaches_derived_sets_every_version_and_stages(b
     assert not any(n.model == "night-flow-leak" for n in graph.nodes)
 
 
-def test_upstream_of_a_version_follows_parent_versions_and_derived_from(brackwater):
-    graph = lineage_of(brackwater, "main-burst-risk@3", "up")
+def test_upstream_of_a_version_follows_parent_versions_and_derived_from(shared):
+    graph = lineage_of(shared, "main-burst-risk@3", "up")
     assert _ids(graph) == {V(3), V(2), V(1), TELEMETRY, "dataset/brackwater-asset-register",
                            "dataset/brackwater-training-set", "dataset/brackwater-evaluation-set"}
     relations = {(e.source, e.relation, e.target) for e in graph.edges}
@@ -53,27 +53,27 @@ def test_upstream_of_a_version_follows_parent_versions_and_derived_from(brackwat
     assert (V(3), "trained-on", "dataset/brackwater-training-set") in relations
 
 
-def test_depth_limits_the_walk_and_reports_the_shortest_distance(brackwater):
-    graph = lineage_of(brackwater, TELEMETRY, "down", depth=1)
+def test_depth_limits_the_walk_and_reports_the_shortest_distance(shared):
+    graph = lineage_of(shared, TELEMETRY, "down", depth=1)
     assert _ids(graph) == {TELEMETRY, "dataset/brackwater-training-set",
                            "dataset/brackwater-evaluation-set"}
     assert graph.node(TELEMETRY).depth == 0
-    deeper = lineage_of(brackwater, TELEMETRY, "down", depth=2)
+    deeper = lineage_of(shared, TELEMETRY, "down", depth=2)
     assert deeper.node(V(2)).depth == 2
 
 
-def test_walks_agree_with_networkx_on_the_same_edges(brackwater):
+def test_walks_agree_with_networkx_on_the_same_edges(shared):
     # Reference: networkx.descendants / ancestors over the edges the graph reports.
-    full = lineage_of(brackwater, TELEMETRY, "down")
+    full = lineage_of(shared, TELEMETRY, "down")
     reference = networkx.DiGraph((e.target, e.source) for e in full.edges)
     assert _ids(full) - {TELEMETRY} == networkx.descendants(reference, TELEMETRY)
-    live_up = lineage_of(brackwater, "model/main-burst-risk/stage/live", "up")
+    live_up = lineage_of(shared, "model/main-burst-risk/stage/live", "up")
     reference = networkx.DiGraph((e.target, e.source) for e in live_up.edges)
     assert _ids(live_up) - {live_up.root} == networkx.ancestors(reference, live_up.root)
 
 
-def test_stage_nodes_say_whether_someone_holds_them_now(brackwater):
-    graph = lineage_of(brackwater, "model/main-burst-risk/stage/live", "up", depth=1)
+def test_stage_nodes_say_whether_someone_holds_them_now(shared):
+    graph = lineage_of(shared, "model/main-burst-risk/stage/live", "up", depth=1)
     assert _ids(graph, "version") == {V(1), V(2)}
     relations = {(e.target, e.relation) for e in graph.edges if e.source == graph.root}
     assert relations == {(V(1), "held-by"), (V(2), "was-held-by")}
@@ -98,23 +98,23 @@ def test_malformed_node_is_a_user_error(bad):
 
 @pytest.mark.parametrize("node", ["dataset/nope", "nope@1", "main-burst-risk@99",
                                   "model/main-burst-risk/stage/nowhere"])
-def test_unknown_node_is_not_found(brackwater, node):
+def test_unknown_node_is_not_found(shared, node):
     with pytest.raises(NotFound):
-        lineage_of(brackwater, node, "down")
+        lineage_of(shared, node, "down")
 
 
-def test_lineage_command_json_and_text(brackwater, cli):
-    document = cli.json("lineage", "brackwater-telemetry-extract", "--down")
+def test_lineage_command_json_and_text(shared_cli):
+    document = shared_cli.json("lineage", "brackwater-telemetry-extract", "--down")
     assert document["root"] == TELEMETRY and document["direction"] == "down"
     assert {"id", "kind", "label", "recalled", "flagged"} <= set(document["nodes"][0])
     assert {"source", "target", "relation"} == set(document["edges"][0])
-    text = cli("lineage", "main-burst-risk@2", "--up", "--depth", "1")
+    text = shared_cli("lineage", "main-burst-risk@2", "--up", "--depth", "1")
     assert text.exit_code == 0 and "derived-from" not in text.stdout
     assert "dataset/brackwater-training-set" in text.stdout
 
 
-def test_prov_json_reads_back_with_the_prov_library(brackwater, cli):
-    result = cli("lineage", "model/main-burst-risk/stage/live", "--up", "--format", "prov-json")
+def test_prov_json_reads_back_with_the_prov_library(shared_cli):
+    result = shared_cli("lineage", "model/main-burst-risk/stage/live", "--up", "--format", "prov-json")
     assert result.exit_code == 0, result.output
     # Reference: the `prov` library's PROV-JSON deserializer (W3C PROV-JSON submission).
     document = ProvDocument.deserialize(content=result.stdout, format="json")
@@ -137,8 +137,8 @@ def test_prov_json_reads_back_with_the_prov_library(brackwater, cli):
     ["lineage", "brackwater-telemetry-extract", "--down", "--format", "dot"],
     ["lineage", "brackwater-telemetry-extract", "--down", "--json", "--format", "prov-json"],
 ])
-def test_bad_lineage_input_is_one_line_and_exit_2(brackwater, cli, arguments):
-    result = cli(*arguments)
+def test_bad_lineage_input_is_one_line_and_exit_2(shared_cli, arguments):
+    result = shared_cli(*arguments)
     assert result.exit_code == 2, result.output
     assert "Traceback" not in result.output
 
@@ -196,12 +196,10 @@ def test_recalled_upstream_gives_the_chain_for_the_gate(brackwater):
     ("brackwater-telemetry-extract", "   ", "reason"),
     ("no-such-dataset", "bad", "unknown dataset"),
 ])
-def test_bad_recall_is_refused_and_changes_nothing(brackwater, catalogue_url, name, reason,
-                                                    message):
-    result = CliRunner().invoke(_recall_shell(catalogue_url),
-                                ["recall", name, "--reason", reason])
+def test_bad_recall_is_refused_and_changes_nothing(shared, shared_url, name, reason, message):
+    result = CliRunner().invoke(_recall_shell(shared_url), ["recall", name, "--reason", reason])
     assert result.exit_code == 2 and message in result.stderr
-    assert not lineage_of(brackwater, TELEMETRY, "down").node(TELEMETRY).recalled
+    assert not lineage_of(shared, TELEMETRY, "down").node(TELEMETRY).recalled
 
 
 def test_a_dataset_cannot_be_recalled_twice(brackwater):
@@ -210,9 +208,9 @@ def test_a_dataset_cannot_be_recalled_twice(brackwater):
         recall_dataset(brackwater, "brackwater-telemetry-extract", "again", INES)
 
 
-def test_recall_needs_a_publisher_or_approver(brackwater):
+def test_recall_needs_a_publisher_or_approver(shared):
     from registry.errors import Forbidden
     from registry.service.actors import Actor
 
     with pytest.raises(Forbidden):
-        recall_dataset(brackwater, "brackwater-telemetry-extract", "fault", Actor("visitor"))
+        recall_dataset(shared, "brackwater-telemetry-extract", "fault", Actor("visitor"))

@@ -27,6 +27,9 @@ pytestmark = pytest.mark.skipif(not CHROMIUM.exists(),
 
 @pytest.fixture(scope="module")
 def server(populated_url):
+    import logging
+
+    logging.getLogger("werkzeug").setLevel(logging.WARNING)  # one line per request is noise here
     app = create_app(populated_url)
     httpd = make_server("127.0.0.1", 0, app, threaded=True)
     thread = threading.Thread(target=httpd.serve_forever, daemon=True)
@@ -156,3 +159,17 @@ def test_the_skip_link_is_the_first_stop_for_the_keyboard(watched, server):
     assert page.evaluate("document.activeElement.textContent") == "Skip to content"
     page.keyboard.press("Enter")
     assert page.evaluate("document.activeElement.id") == "content"
+
+
+def test_graph_nodes_are_reached_with_tab_alone(watched, server):
+    page = watched.page
+    page.goto(server + "/lineage?node=" + TELEMETRY)
+    for _ in range(40):
+        page.keyboard.press("Tab")
+        if page.evaluate("document.activeElement.getAttribute('data-node')"):
+            break
+    focused = page.evaluate("document.activeElement.getAttribute('data-node')")
+    assert focused
+    page.keyboard.press("Enter")
+    page.wait_for_url(f"**/lineage?node={focused}&direction=both&depth=2")
+    assert page.locator("svg.lineage a.node.root").get_attribute("data-node") == focused
