@@ -17,6 +17,7 @@ from registry.service import lineage as lineage_service
 from registry.service.models import find_model, find_version, holders_by_stage, stages_by_version
 from registry.service.recall import RecalledSource, recalled_upstream
 from registry.store import tables as t
+from registry.store.lineage import utc_iso
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 
@@ -171,11 +172,11 @@ def model_page(catalogue: Catalogue, name: str) -> ModelPage:
         versions = uow.session.execute(select(t.Version).where(t.Version.model_id == model.id)
                                        .order_by(t.Version.number)).scalars().all()
         number_of = {v.id: v.number for v in versions}
-        lines = [VersionLine(v.number, v.description, v.author, v.created_at.isoformat(),
+        lines = [VersionLine(v.number, v.description, v.author, utc_iso(v.created_at),
                              held.get(v.number, []),
                              any(k.kind == "version" and k.ref == v.id for k in flagged))
                  for v in versions]
-        timeline = [StageEventLine(e.created_at.isoformat(), number_of.get(e.version_id, 0),
+        timeline = [StageEventLine(utc_iso(e.created_at), number_of.get(e.version_id, 0),
                                    e.stage, e.event, e.created_by,
                                    loads(e.details_json, {}) or {})
                     for e in uow.session.execute(
@@ -187,7 +188,7 @@ def model_page(catalogue: Catalogue, name: str) -> ModelPage:
                                        .order_by(t.GateReportRow.created_at.desc(),
                                                  t.GateReportRow.id.desc())).scalars():
             results, readable = _gate_results(loads(row.report_json))
-            attempts.append(GateAttempt(row.id, row.created_at.isoformat(),
+            attempts.append(GateAttempt(row.id, utc_iso(row.created_at),
                                         number_of.get(row.version_id, 0), row.stage, row.attempt,
                                         row.passed, row.created_by, results, readable))
         return ModelPage(model.name, model.description, holders_by_stage(uow, model), lines,
@@ -279,10 +280,10 @@ def _slices(document: dict) -> list:
 def evaluation_view(dataset: str, row: t.Evaluation) -> EvaluationView:
     document = loads(row.metrics_json)
     if not isinstance(document, dict):
-        return EvaluationView(dataset, row.task, None, row.created_at.isoformat(), [], [], False)
+        return EvaluationView(dataset, row.task, None, utc_iso(row.created_at), [], [], False)
     metrics = document.get("metrics") if isinstance(document.get("metrics"), dict) else {}
     listed = [(str(name), value, *_interval(document, name)) for name, value in metrics.items()]
-    return EvaluationView(dataset, row.task, document.get("n"), row.created_at.isoformat(), listed,
+    return EvaluationView(dataset, row.task, document.get("n"), utc_iso(row.created_at), listed,
                           _slices(document), True)
 
 
@@ -306,7 +307,7 @@ def version_page(catalogue: Catalogue, model_name: str, number: int) -> VersionP
         return VersionPage(
             model=model.name, number=version.number, description=version.description,
             author=version.author, code_revision=version.code_revision,
-            created_at=version.created_at.isoformat(), created_by=version.created_by,
+            created_at=utc_iso(version.created_at), created_by=version.created_by,
             parent_number=version.parent_number, document_digest=version.document_digest,
             document_kind=version.document_kind,
             document_summary=loads(version.document_summary_json, {}),
@@ -381,8 +382,8 @@ def dataset_page(catalogue: Catalogue, name: str) -> DatasetPage:
         return DatasetPage(
             name=row.name, role=row.role, rows=row.rows, source_uri=row.source_uri,
             content_digest=row.content_digest, schema_fingerprint=row.schema_fingerprint,
-            created_at=row.created_at.isoformat(), created_by=row.created_by,
-            recalled_at=row.recalled_at.isoformat() if row.recalled_at else None,
+            created_at=utc_iso(row.created_at), created_by=row.created_by,
+            recalled_at=utc_iso(row.recalled_at) if row.recalled_at else None,
             recall_reason=row.recall_reason or "", recalled_by=row.recalled_by or "",
             flagged_by=flagged_by, parents=parents, children=children, versions=versions,
             schema=loads(row.schema_json), fingerprint=fingerprint_of(uow, row), others=others)

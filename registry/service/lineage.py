@@ -214,7 +214,7 @@ def provenance_of(catalogue: Catalogue, node: str, direction: str,
                 if (row.model_id, row.stage) in staged:
                     events.append(prov.ProvStageEvent(
                         id=row.id, version=version_ids[row.version_id], stage=row.stage,
-                        event=row.event, at=row.created_at.isoformat(), by=row.created_by))
+                        event=row.event, at=walks.utc_iso(row.created_at), by=row.created_by))
     uses = [prov.ProvUse(version=e.source, dataset=e.target, relation=e.relation)
             for e in graph.edges if e.relation in ("trained-on", "evaluated-on")]
     derivations = [prov.ProvDerivation(derived=e.source, source=e.target, relation=e.relation)

@@ -97,7 +97,7 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
             raise NotFound(f"unknown dataset {name!r}", place="dataset")
         if dataset.recalled_at is not None:
             raise UserError(f"dataset {name!r} was already recalled on "
-                            f"{dataset.recalled_at.isoformat()} by {dataset.recalled_by}: "
+                            f"{walks.utc_iso(dataset.recalled_at)} by {dataset.recalled_by}: "
                             f"{dataset.recall_reason}", place="dataset")
         now = utc_now()
         dataset.recalled_at, dataset.recall_reason, dataset.recalled_by = now, reason, actor.name
@@ -150,6 +150,6 @@ def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledS
             step = came_from.get(step)
         row = uow.session.get(t.Dataset, key.ref)
         sources.append(RecalledSource(dataset=row.name, reason=row.recall_reason or "",
-                                      recalled_at=row.recalled_at.isoformat(),
+                                      recalled_at=walks.utc_iso(row.recalled_at),
                                       recalled_by=row.recalled_by or "", chain=tuple(chain)))
     return sources

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
+from datetime import UTC, datetime
 from typing import Literal
 
 from sqlalchemy import (
@@ -317,6 +318,11 @@ class NodeFacts:
     recall_reason: str = ""
 
 
+def utc_iso(moment: datetime) -> str:
+    """ISO 8601 with the offset: SQLite hands timestamps back without one, and they are UTC."""
+    return (moment if moment.tzinfo else moment.replace(tzinfo=UTC)).isoformat()
+
+
 def facts_of(session: Session, keys: Iterable[NodeKey]) -> dict[NodeKey, NodeFacts]:
     keys = set(keys)
     facts: dict[NodeKey, NodeFacts] = {}
@@ -324,7 +330,7 @@ def facts_of(session: Session, keys: Iterable[NodeKey]) -> dict[NodeKey, NodeFac
         for row in session.execute(select(t.Dataset).where(t.Dataset.id.in_(chunk))).scalars():
             key = NodeKey("dataset", row.id)
             facts[key] = NodeFacts(key, name=row.name, recalled=row.recalled_at is not None,
-                                   created_at=row.created_at.isoformat(),
+                                   created_at=utc_iso(row.created_at),
                                    created_by=row.created_by,
                                    recall_reason=row.recall_reason or "")
     for chunk in _chunks(k.ref for k in keys if k.kind == "version"):
@@ -333,7 +339,7 @@ def facts_of(session: Session, keys: Iterable[NodeKey]) -> dict[NodeKey, NodeFac
                 .where(t.Version.id.in_(chunk))):
             key = NodeKey("version", version.id)
             facts[key] = NodeFacts(key, model=model, number=version.number,
-                                   created_at=version.created_at.isoformat(),
+                                   created_at=utc_iso(version.created_at),
                                    created_by=version.created_by)
     stage_keys = {k for k in keys if k.kind == "stage"}
     for chunk in _chunks(k.ref for k in stage_keys):
