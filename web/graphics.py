@@ -13,11 +13,12 @@ from typing import Any
 
 from registry.service.lineage import LineageGraph, LineageNode
 
-NODE_WIDTH = 190
+NODE_WIDTH = 206
 NODE_HEIGHT = 44
 COLUMN_GAP = 70
 ROW_GAP = 18
 MARGIN = 16
+ARC_ROOM = 44
 
 
 @dataclass(frozen=True)
@@ -88,13 +89,17 @@ def layout(graph: LineageGraph) -> GraphDrawing:
         by_column.setdefault(columns[node.id], []).append(node)
     placed: dict[str, PlacedNode] = {}
     tallest = max((len(v) for v in by_column.values()), default=1)
-    height = 2 * MARGIN + tallest * NODE_HEIGHT + (tallest - 1) * ROW_GAP + 20
+    # Edges that skip a column arc over the nodes between, through a corridor above them.
+    skips = any(columns[e.source] - columns[e.target] > 1 for e in graph.edges
+                if e.source in columns and e.target in columns)
+    corridor = ARC_ROOM if skips else 0
+    height = 2 * MARGIN + tallest * NODE_HEIGHT + (tallest - 1) * ROW_GAP + 20 + corridor
     headings: dict[str, float] = {}
     for column, members in sorted(by_column.items()):
         x = MARGIN + column * (NODE_WIDTH + COLUMN_GAP)
         members.sort(key=lambda n: n.label)
         used = len(members) * NODE_HEIGHT + (len(members) - 1) * ROW_GAP
-        top = MARGIN + 20 + (height - 2 * MARGIN - 20 - used) / 2
+        top = MARGIN + 20 + corridor + (height - 2 * MARGIN - 20 - corridor - used) / 2
         for index, node in enumerate(members):
             headings.setdefault(node.kind, x)
             marks = [word for word, on in (("RECALLED", node.recalled),
@@ -116,6 +121,10 @@ def layout(graph: LineageGraph) -> GraphDrawing:
             x2, y2 = end.x + end.width, y2
             bend = COLUMN_GAP / 2 + 20
             path = f"M{x1:.1f},{y1:.1f} C{x1 + bend:.1f},{y1:.1f} {x2 + bend:.1f},{y2:.1f} {x2:.1f},{y2:.1f}"
+        elif columns[edge.source] - columns[edge.target] > 1:
+            lift = MARGIN + 22
+            path = (f"M{x1:.1f},{y1:.1f} C{x1 + COLUMN_GAP:.1f},{lift:.1f} "
+                    f"{x2 - COLUMN_GAP:.1f},{lift:.1f} {x2 - 6:.1f},{y2:.1f}")
         else:
             middle = (x1 + x2) / 2
             path = f"M{x1:.1f},{y1:.1f} C{middle:.1f},{y1:.1f} {middle:.1f},{y2:.1f} {x2 - 6:.1f},{y2:.1f}"

@@ -15,6 +15,7 @@ from web import blueprint, comparisons, graphics, pages, schemas
 
 DEFAULT_DEPTH = 2
 PAGE_DEPTH_LIMIT = 8
+MAX_DRAWN_NODES = 250  # beyond this a drawing helps nobody; the page lists the nodes instead
 _NUMBER = re.compile(r"^[0-9]{1,9}$")
 
 
@@ -124,8 +125,9 @@ def lineage():
         abort(400, description=error.one_line())
     with UnitOfWork(_catalogue(), write=False) as uow:
         graph = lineage_service.graph_in(uow, canonical, direction, depth)
-    return render_template("lineage.html", graph=graph, drawing=graphics.layout(graph),
-                           direction=direction, depth=depth, depth_limit=PAGE_DEPTH_LIMIT)
+    drawing = graphics.layout(graph) if len(graph.nodes) <= MAX_DRAWN_NODES else None
+    return render_template("lineage.html", graph=graph, drawing=drawing, direction=direction,
+                           depth=depth, depth_limit=PAGE_DEPTH_LIMIT, drawn_limit=MAX_DRAWN_NODES)
 
 
 @blueprint.route("/datasets/<name>")

@@ -272,3 +272,36 @@ def test_stored_json_of_any_shape_renders_without_error(catalogue, catalogue_url
                 assert response.status_code == 200, (url, response.get_data(as_text=True)[:300])
     finally:
         app.extensions["lockkeeper"].close()
+
+
+def test_a_neighbourhood_too_large_to_draw_is_listed_instead(tmp_path):
+    from datetime import UTC, datetime
+
+    from sqlalchemy import insert
+
+    from registry.store import tables as t
+    from registry.store.catalogue import open_catalogue
+    from web.views import MAX_DRAWN_NODES
+
+    url = f"sqlite:///{tmp_path / 'wide.db'}"
+    assert run_cli(["--db", url, "init"]).exit_code == 0
+    catalogue = open_catalogue(url)
+    now = datetime(2026, 3, 2, tzinfo=UTC)
+    count = MAX_DRAWN_NODES + 10
+    with catalogue.engine.begin() as connection:
+        connection.execute(insert(t.Blob), [{"digest": "0" * 64, "size": 0, "content": b""}])
+        connection.execute(insert(t.Dataset), [
+            {"id": i, "name": f"part-{i}", "role": "source", "source_uri": "", "rows": 1,
+             "content_digest": "0" * 64, "schema_fingerprint": "0" * 64, "schema_json": "{}",
+             "fingerprint_digest": "0" * 64, "registration_digest": "0" * 64,
+             "created_at": now, "created_by": "x"} for i in range(1, count + 1)])
+        connection.execute(insert(t.DatasetParent), [
+            {"child_id": i, "parent_id": 1} for i in range(2, count + 1)])
+    catalogue.close()
+    app = create_app(url)
+    try:
+        html = app.test_client().get("/lineage?node=part-1&depth=1").get_data(as_text=True)
+    finally:
+        app.extensions["lockkeeper"].close()
+    assert '<svg class="lineage"' not in html and "more than a drawing can show" in html
+    assert html.count('href="/lineage?node=dataset/part-') == count
