@@ -211,6 +211,7 @@ class EvaluationView:
     metrics: list[tuple[str, Any, Any, Any]]  # name, value, interval low, interval high
     slices: list[tuple[str, list[str], list[tuple[str, Any, list[Any]]]]]  # column, metric names, rows
     readable: bool
+    comparisons: list[tuple[str, Any, Any, Any, Any, str]] = field(default_factory=list)
 
 
 @dataclass(frozen=True)
@@ -253,14 +254,21 @@ def _interval(document: dict, name: str) -> tuple[Any, Any]:
     return None, None
 
 
+def _slice_reports(slices: Any) -> list[tuple[str, dict]]:
+    """(column, {value: entry}) pairs from any of the stored forms: one report
+    {"column", "values"}, a list of such reports, or a mapping column -> {value: entry}."""
+    if isinstance(slices, list):
+        return [pair for item in slices for pair in _slice_reports(item)]
+    if not isinstance(slices, dict):
+        return []
+    if isinstance(slices.get("values"), dict) and "column" in slices:
+        return [(str(slices["column"]), slices["values"])]
+    return [(str(column), values) for column, values in slices.items() if isinstance(values, dict)]
+
+
 def _slices(document: dict) -> list:
     found = []
-    slices = document.get("slices")
-    if not isinstance(slices, dict):
-        return found
-    for column, values in slices.items():
-        if not isinstance(values, dict):
-            continue
+    for column, values in _slice_reports(document.get("slices")):
         names: list[str] = []
         rows = []
         for value, entry in values.items():
@@ -272,9 +280,19 @@ def _slices(document: dict) -> list:
                 if metric not in names:
                     names.append(str(metric))
             rows.append((str(value), entry.get("n"), metrics))
-        found.append((str(column), names,
+        found.append((column, names,
                       [(value, n, [m.get(name) for name in names]) for value, n, m in rows]))
     return found
+
+
+def _comparisons(document: dict) -> list[tuple[str, Any, Any, Any, Any, str]]:
+    """Differences against the baseline the evaluation was run with, with their intervals."""
+    comparison = document.get("comparison")
+    if not isinstance(comparison, dict):
+        return []
+    return [(str(name), _number(c.get("difference")), _number(c.get("ci_low")),
+             _number(c.get("ci_high")), _number(c.get("p_value")), str(c.get("method", "")))
+            for name, c in comparison.items() if isinstance(c, dict)]
 
 
 def evaluation_view(dataset: str, row: t.Evaluation) -> EvaluationView:
@@ -284,7 +302,7 @@ def evaluation_view(dataset: str, row: t.Evaluation) -> EvaluationView:
     metrics = document.get("metrics") if isinstance(document.get("metrics"), dict) else {}
     listed = [(str(name), value, *_interval(document, name)) for name, value in metrics.items()]
     return EvaluationView(dataset, row.task, document.get("n"), utc_iso(row.created_at), listed,
-                          _slices(document), True)
+                          _slices(document), True, _comparisons(document))
 
 
 def version_page(catalogue: Catalogue, model_name: str, number: int) -> VersionPage:

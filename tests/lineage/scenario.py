@@ -151,19 +151,22 @@ def register(catalogue: Catalogue, model: str, folder: Path, number: int, input_
 
 
 def _metrics(seed: int, task: str) -> str:
+    """Shaped as the evaluation use case stores it (DESIGN.md, `metrics --json`)."""
     generator = np.random.default_rng(seed)
     if task == "binary":
-        auc = 0.70 + 0.02 * seed % 0.1
+        auc = 0.70 + 0.02 * seed
         metrics = {"roc_auc": auc, "average_precision": auc - 0.3, "log_loss": 0.31,
                    "brier": 0.09, "accuracy": 0.88}
-        intervals = {"roc_auc": {"ci_low": auc - 0.03, "ci_high": auc + 0.03}}
-        slices = {"district": {d: {"n": 120, "metrics": {"roc_auc": auc + generator.normal(0, 0.02)}}
-                               for d in DISTRICTS}}
+        comparison = {} if seed == 1 else {"roc_auc": {
+            "difference": 0.02, "ci_low": 0.004, "ci_high": 0.036, "p_value": 0.014,
+            "method": "delong"}}
+        slices = {"column": "district", "correction": "holm-bonferroni", "values": {
+            d: {"n": 120, "metrics": {"roc_auc": auc + float(generator.normal(0, 0.02))}}
+            for d in DISTRICTS}}
     else:
         metrics = {"rmse": 41.5, "mae": 30.2, "r2": 0.61}
-        intervals = {"rmse": {"ci_low": 38.0, "ci_high": 45.1}}
-        slices = {}
-    return json.dumps({"task": task, "n": 600, "metrics": metrics, "intervals": intervals,
+        comparison, slices = {}, {}
+    return json.dumps({"task": task, "n": 600, "metrics": metrics, "comparison": comparison,
                        "slices": slices})
 
 
