@@ -16,6 +16,19 @@ depends_on = None
 
 
 def upgrade() -> None:
+    op.create_table('api_tokens',
+    sa.Column('id', sa.Integer(), nullable=False),
+    sa.Column('token_hash', sa.String(length=64), nullable=False),
+    sa.Column('user', sa.String(length=100), nullable=False),
+    sa.Column('role', sa.String(length=20), nullable=False),
+    sa.Column('label', sa.Text(), nullable=False),
+    sa.Column('created_at', sa.DateTime(timezone=True), nullable=False),
+    sa.Column('created_by', sa.String(length=100), nullable=False),
+    sa.Column('expires_at', sa.DateTime(timezone=True), nullable=True),
+    sa.Column('revoked_at', sa.DateTime(timezone=True), nullable=True),
+    sa.PrimaryKeyConstraint('id'),
+    sa.UniqueConstraint('token_hash')
+    )
     op.create_table('audit_events',
     sa.Column('sequence', sa.Integer(), autoincrement=False, nullable=False),
     sa.Column('occurred_at', sa.String(length=40), nullable=False),
@@ -66,6 +79,7 @@ def upgrade() -> None:
     sa.Column('schema_fingerprint', sa.String(length=64), nullable=False),
     sa.Column('schema_json', sa.Text(), nullable=False),
     sa.Column('fingerprint_digest', sa.String(length=64), nullable=False),
+    sa.Column('feed_model_id', sa.Integer(), nullable=True),
     sa.Column('registration_digest', sa.String(length=64), nullable=False),
     sa.Column('created_at', sa.DateTime(timezone=True), nullable=False),
     sa.Column('created_by', sa.String(length=100), nullable=False),
@@ -73,6 +87,7 @@ def upgrade() -> None:
     sa.Column('recall_reason', sa.Text(), nullable=True),
     sa.Column('recalled_by', sa.String(length=100), nullable=True),
     sa.ForeignKeyConstraint(['fingerprint_digest'], ['blobs.digest'], ),
+    sa.ForeignKeyConstraint(['feed_model_id'], ['models.id'], ),
     sa.PrimaryKeyConstraint('id'),
     sa.UniqueConstraint('name')
     )
@@ -253,3 +268,4 @@ def downgrade() -> None:
     op.drop_table('blobs')
     op.drop_table('audit_head')
     op.drop_table('audit_events')
+    op.drop_table('api_tokens')

@@ -42,6 +42,11 @@ def main(ctx: click.Context, db_url: str | None, acting_user: str | None) -> Non
 # Each module named here exposes COMMANDS, a list of click commands or groups.
 COMMAND_MODULES = [
     "registry.cli.catalogue_commands",
+    "registry.cli.stage_commands",
+    "registry.cli.evaluation_commands",
+    "registry.cli.schema_commands",
+    "registry.cli.metrics_commands",
+    "registry.cli.dataset_commands",
     "registry.cli.lineage_commands",
     "registry.cli.serve_commands",
 ]

@@ -153,24 +153,6 @@ def registration_request(model_name: str, document: str, manifest_path: str,
         features_text=features_text)
 
 
-@click.command()
-@click.argument("model_name", metavar="MODEL")
-@json_option
-def status(model_name: str, as_json: bool) -> None:
-    """Who holds each stage of MODEL."""
-    detail = models.show_model(_context().catalogue(), model_name)
-    document = {"model": detail.model.name, "stages": detail.model.stages,
-                "versions": detail.model.versions}
-
-    def text(d):
-        if not d["stages"]:
-            return f"{d['model']}: {d['versions']} version(s), no stage held"
-        return "\n".join([f"{d['model']}:"] + [
-            f"  {stage:<10} v{', v'.join(map(str, numbers))}" for stage, numbers in d["stages"].items()])
-
-    emit(document, as_json, text)
-
-
 @click.group()
 def audit() -> None:
     """The tamper-evident audit log."""
@@ -238,4 +220,4 @@ def user_list(as_json: bool) -> None:
         f"{name}: {', '.join(roles)}" for name, roles in d["users"].items()) or "no roles granted")
 
 
-COMMANDS = [init, model, register, status, audit, user]
+COMMANDS = [init, model, register, audit, user]

@@ -25,17 +25,11 @@ class VersionContents:
 
 
 def _schema_json(text: str, place: str) -> str:
-    import fastavro
+    """Parse and validate an Avro schema; keep its normalised JSON form (full names)."""
+    from registry import schema as avro
 
-    try:
-        parsed = json.loads(text)
-        fastavro.parse_schema(parsed)
-    except json.JSONDecodeError as error:
-        raise UserError(f"not valid JSON: {error.msg} at line {error.lineno}, column "
-                        f"{error.colno}", place=place) from None
-    except Exception as error:  # fastavro raises several kinds for a bad schema
-        raise UserError(f"not a valid Avro schema: {error}", place=place) from None
-    return json.dumps(parsed, sort_keys=True, separators=(",", ":"))
+    parsed = avro.load(text, source=place)
+    return json.dumps(avro.to_json(parsed), sort_keys=True, separators=(",", ":"))
 
 
 def read_version_contents(request: RegistrationRequest) -> VersionContents:

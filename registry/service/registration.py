@@ -14,6 +14,7 @@ from registry.names import check_name
 from registry.service.actors import Actor
 from registry.service.contents import VersionContents, read_version_contents
 from registry.service.models import find_model
+from registry.service.stages import enter_first_stage
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -122,6 +123,7 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
                 uow.session.add(t.VersionDataset(version_id=version.id, dataset_id=dataset.id,
                                                  relation=relation))
         uow.session.flush()
+        enter_first_stage(uow, model, version, actor)
         uow.audit.append(actor.name, "version.register", f"model/{model.name}/version/{number}", {
             "document_digest": document_digest, "registration_digest": digest,
             "document_kind": contents.document_kind,

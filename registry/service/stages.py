@@ -7,6 +7,7 @@ the evidence that allowed it.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 from dataclasses import dataclass, field
 from typing import Any
@@ -164,7 +165,7 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
         if stage in current:
             raise UserError(f"version {number} already holds {stage!r}", place="--to")
         policy.check_transition(current, stage)
-        if policy.is_guarded(stage) and not actor.has_role("approver"):
+        if gatekeeping.is_guarded(policy, stage) and not actor.has_role("approver"):
             raise Forbidden(f"promoting into the guarded stage {stage!r} needs the approver role; "
                             f"{actor.name} does not have it", place="--to")
         now = _numbers(uow, holders(uow, line, stage))
@@ -181,7 +182,7 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
                          f"model/{line.name}/version/{number}",
                          {"stage": stage, "passed": report.passed, "report_id": report_id,
                           "displaced_version": displaced, "summary": report.summary(),
-                          "waivers": [w.to_dict() for w in report.waivers]})
+                          "waivers": [dataclasses.asdict(w) for w in report.waivers]})
         uow.commit()
         return StageOutcome(line.name, number, stage, report.passed, report.to_dict(), report_id,
                             displaced)
@@ -198,7 +199,7 @@ def approve(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
         line = find_model(uow, model)
         version = find_version(uow, line, number)
         policy = gatekeeping.policy_of(line)
-        policy.require_stage(stage)
+        policy.stage(stage)
         if not actor.has_role("approver"):
             raise Forbidden(f"{actor.name} does not have the approver role", place="approve")
         if actor.name in (version.author, version.created_by):
@@ -227,11 +228,11 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
     with UnitOfWork(catalogue) as uow:
         line = find_model(uow, model)
         policy = gatekeeping.policy_of(line)
-        policy.require_stage(stage)
+        policy.stage(stage)
         if not policy.is_exclusive(stage):
             raise UserError(f"{stage!r} is not an exclusive stage; roll back works on a stage "
                             "held by one version", place="--stage")
-        if policy.is_guarded(stage) and not actor.has_role("approver"):
+        if gatekeeping.is_guarded(policy, stage) and not actor.has_role("approver"):
             raise Forbidden(f"rolling back {stage!r} needs the approver role", place="--stage")
         current = holders(uow, line, stage)
         if not current:
@@ -292,7 +293,7 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
         held = stages_of(uow, version)
         if "retired" in held:
             raise UserError(f"version {number} is already retired", place="retire")
-        guarded = [s for s in held if policy.is_guarded(s)]
+        guarded = [s for s in held if gatekeeping.is_guarded(policy, s)]
         if guarded and not actor.has_role("approver"):
             raise Forbidden(f"v{number} holds {', '.join(guarded)}; retiring it needs the "
                             "approver role", place="retire")

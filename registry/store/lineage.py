@@ -371,6 +371,81 @@ def count_reached(session: Session, seeds: Seeds, direction: Direction,
     return session.execute(select(func.count()).select_from(statement)).scalar_one()
 
 
+def _dataset_distances(session: Session, dataset_ids: Iterable[int], direction: Direction,
+                       depth: int | None) -> dict[int, int]:
+    starts = sorted(set(dataset_ids))
+    if not starts:
+        return {}
+    seed = union(*[select(literal(i, Integer).label("id")) for i in starts]) if len(starts) > 1 \
+        else select(literal(starts[0], Integer).label("id"))
+    reached = [r for r in walk(session, Seeds(datasets=seed), direction, depth)
+               if r.key.kind == "dataset"]
+    if depth is not None:
+        return {r.key.ref: r.depth for r in reached}
+    # Without a limit the walk keeps no depth (so it ends on any graph); count the steps here,
+    # breadth first over the walked edges.
+    neighbours: dict[int, list[int]] = {}
+    for link in links_among(session, [r.key for r in reached]):
+        near, far = ((link.upstream, link.downstream) if direction == "down"
+                     else (link.downstream, link.upstream))
+        neighbours.setdefault(near.ref, []).append(far.ref)
+    distance = {start: 0 for start in starts}
+    frontier = list(starts)
+    while frontier:
+        following = []
+        for node in frontier:
+            for other in neighbours.get(node, ()):
+                if other not in distance:
+                    distance[other] = distance[node] + 1
+                    following.append(other)
+        frontier = following
+    return distance
+
+
+def upstream_datasets(session: Session, dataset_ids: Iterable[int],
+                      depth: int | None = None) -> dict[int, int]:
+    """Datasets the given ones were derived from, transitively: id -> distance, the starts
+    at 0. For the gates (registry.service.evidence_sources)."""
+    return _dataset_distances(session, dataset_ids, "up", depth)
+
+
+def downstream_datasets(session: Session, dataset_ids: Iterable[int],
+                        depth: int | None = None) -> dict[int, int]:
+    """Datasets derived from the given ones, transitively, as upstream_datasets."""
+    return _dataset_distances(session, dataset_ids, "down", depth)
+
+
+def derivation_chain(session: Session, ancestor_id: int, descendants: set[int]) -> list[int]:
+    """The derived-from path from an ancestor down to the nearest of `descendants`, ancestor
+    first; [ancestor_id] when none of them descends from it."""
+    if ancestor_id in descendants:
+        return [ancestor_id]
+    parent_of: dict[int, int] = {}
+    frontier = [ancestor_id]
+    seen = {ancestor_id}
+    while frontier:  # breadth first: the derived-from graph around one version is small
+        found = []
+        for chunk in _chunks(frontier):
+            found.extend(session.execute(
+                select(t.DatasetParent.parent_id, t.DatasetParent.child_id)
+                .where(t.DatasetParent.parent_id.in_(chunk))
+                .order_by(t.DatasetParent.parent_id, t.DatasetParent.child_id)).all())
+        frontier = []
+        for parent, child in found:
+            if child in seen:
+                continue
+            seen.add(child)
+            parent_of[child] = parent
+            if child in descendants:
+                path = [child]
+                while path[-1] != ancestor_id:
+                    path.append(parent_of[path[-1]])
+                return list(reversed(path))
+            frontier.append(child)
+    return [ancestor_id]
+
+
 __all__ = ["Direction", "KINDS", "Link", "NodeFacts", "NodeKey", "Reached", "Seeds",
-           "count_reached", "facts_of", "links_among", "recalled_seeds", "seeds_for",
-           "stage_exists", "walk", "walk_statement"]
+           "count_reached", "derivation_chain", "downstream_datasets", "facts_of", "links_among",
+           "recalled_seeds", "seeds_for", "stage_exists", "upstream_datasets", "utc_iso", "walk",
+           "walk_statement"]

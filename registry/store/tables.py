@@ -78,6 +78,8 @@ class Dataset(Base):
     schema_fingerprint: Mapped[str] = mapped_column(String(64))
     schema_json: Mapped[str] = mapped_column(Text)
     fingerprint_digest: Mapped[str] = mapped_column(ForeignKey("blobs.digest"))  # full fingerprint JSON
+    # For a live sample: the model whose feed it was taken from.
+    feed_model_id: Mapped[int | None] = mapped_column(ForeignKey("models.id"), nullable=True)
     registration_digest: Mapped[str] = mapped_column(String(64))
     created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
     created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
@@ -192,6 +194,21 @@ class RoleGrant(Base):
     role: Mapped[str] = mapped_column(String(20), primary_key=True)
     granted_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
     granted_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
+
+
+class ApiToken(Base):
+    """A bearer token for the HTTP API, kept only as the SHA-256 of its secret."""
+
+    __tablename__ = "api_tokens"
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    token_hash: Mapped[str] = mapped_column(String(64), unique=True)
+    user: Mapped[str] = mapped_column(String(NAME_LENGTH))
+    role: Mapped[str] = mapped_column(String(20))
+    label: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
+    expires_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True), nullable=True)
+    revoked_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True), nullable=True)
 
 
 class AuditHead(Base):

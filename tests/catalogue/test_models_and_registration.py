@@ -42,9 +42,13 @@ def test_same_document_with_new_metadata_is_a_new_version(cli, tmp_path):
     assert cli.json("register", "m", str(document), "--manifest", str(manifest))["version"] == 2
 
 
-def test_status_of_a_new_model_holds_no_stage(cli):
+def test_status_lists_every_stage_and_a_new_version_starts_as_candidate(cli, tmp_path):
     cli.json("model", "create", "m")
-    assert cli.json("status", "m")["stages"] == {}
+    assert cli.json("status", "m")["stages"] == {
+        "candidate": [], "shadow": [], "canary": [], "live": [], "retired": []}
+    document, manifest = write_version_files(tmp_path)
+    cli.json("register", "m", str(document), "--manifest", str(manifest))
+    assert cli.json("status", "m")["stages"]["candidate"] == [1]
 
 
 def _assert_one_line_error(result, code=2):

@@ -1,0 +1,212 @@
+"""Commands that move versions between stages: check, promote, approve, rollback, retire,
+history, and the model's policy."""
+
+from __future__ import annotations
+
+import click
+
+from registry.cli.catalogue_commands import _actor, _context, read_text
+from registry.cli.catalogue_commands import model as model_group
+from registry.cli.output import emit, json_option
+from registry.errors import UserError
+from registry.gates import GateReport, render_report
+from registry.service import gatekeeping, stages
+
+
+def _waivers(gates: tuple[str, ...], reasons: tuple[str, ...], actor) -> list:
+    if not gates:
+        if reasons:
+            raise UserError("--reason goes with --waive GATE", place="--reason")
+        return []
+    if not reasons:
+        raise UserError("a waiver needs a reason: add --reason TEXT", place="--waive")
+    if len(reasons) == 1:
+        reasons = reasons * len(gates)
+    if len(reasons) != len(gates):
+        raise UserError("give one --reason, or one per --waive", place="--reason")
+    return gatekeeping.parse_waivers(list(zip(gates, reasons)), actor)
+
+
+def _render_outcome(outcome: stages.StageOutcome, verb: str) -> str:
+    report = GateReport.from_dict(outcome.report)
+    if outcome.moved:
+        head = f"{verb}: {outcome.model} v{outcome.version} now holds {outcome.stage}"
+        if outcome.displaced:
+            head += f" (v{outcome.displaced} left it)"
+    else:
+        head = f"REFUSED: {outcome.model} v{outcome.version} may not enter {outcome.stage}"
+    return head + "\n" + render_report(report)
+
+
+waive_options = [
+    click.option("--waive", "waive_gates", multiple=True, metavar="GATE",
+                 help="Override this failed gate (approvers only; needs --reason)."),
+    click.option("--reason", "reasons", multiple=True, metavar="TEXT",
+                 help="Why the gate is waived, in your words."),
+]
+
+
+def with_waive_options(function):
+    for option in reversed(waive_options):
+        function = option(function)
+    return function
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@click.argument("version", type=int)
+@click.option("--to", "stage", required=True, help="The stage to check entry into.")
+@with_waive_options
+@json_option
+def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_json: bool) -> None:
+    """Run the gates of a stage for a version, as a dry run: nothing changes."""
+    actor = _actor()
+    outcome = stages.check(_context().catalogue(), model_name, version, stage, actor,
+                           _waivers(waive_gates, reasons, actor))
+    passed = outcome.report["passed"]
+    emit({**outcome.report, "would_move": passed}, as_json,
+         lambda _: ("WOULD PASS" if passed else "WOULD BE REFUSED") + "\n" +
+         render_report(GateReport.from_dict(outcome.report)))
+    if not passed:
+        click.get_current_context().exit(1)
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@click.argument("version", type=int)
+@click.option("--to", "stage", required=True, help="The stage to move the version into.")
+@click.option("--expect-holder", default=None, metavar="VERSION|none",
+              help="Only move if the stage is still held by this version (default: whoever "
+                   "held it when the command started).")
+@with_waive_options
+@json_option
+def promote(model_name: str, version: int, stage: str, expect_holder: str | None, waive_gates,
+            reasons, as_json: bool) -> None:
+    """Move a version into a stage if the stage's gates allow it."""
+    catalogue = _context().catalogue()
+    actor = _actor()
+    waivers = _waivers(waive_gates, reasons, actor)
+    if expect_holder is None:
+        expected = stages.snapshot(catalogue, model_name, stage)
+    elif expect_holder == "none":
+        expected = stages.HolderSnapshot(stage, ())
+    elif expect_holder.isdigit():
+        expected = stages.HolderSnapshot(stage, (int(expect_holder),))
+    else:
+        raise UserError("--expect-holder takes a version number or `none`",
+                        place="--expect-holder")
+    outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers, expected)
+    emit(outcome, as_json, lambda o: _render_outcome(o, "PROMOTED"))
+    if not outcome.moved:
+        click.get_current_context().exit(1)
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@click.argument("version", type=int)
+@click.option("--for", "stage", required=True, help="The stage the approval is for.")
+@click.option("--note", default="", help="What you checked.")
+@json_option
+def approve(model_name: str, version: int, stage: str, note: str, as_json: bool) -> None:
+    """Record your approval of a version for a stage (approvers; never your own version)."""
+    outcome = stages.approve(_context().catalogue(), model_name, version, stage, _actor(), note)
+    emit(outcome, as_json, lambda o: f"{o['approver']} approved {o['model']} v{o['version']} for "
+                                     f"{o['stage']} ({o['approvals']} approval(s))")
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@click.option("--stage", default="live", show_default=True, help="The exclusive stage.")
+@with_waive_options
+@json_option
+def rollback(model_name: str, stage: str, waive_gates, reasons, as_json: bool) -> None:
+    """Give a stage back to the version its holder displaced, after re-running the schema gates."""
+    actor = _actor()
+    outcome = stages.rollback(_context().catalogue(), model_name, stage, actor,
+                              _waivers(waive_gates, reasons, actor))
+    emit(outcome, as_json, lambda o: _render_outcome(o, "ROLLED BACK"))
+    if not outcome.moved:
+        click.get_current_context().exit(1)
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@click.argument("version", type=int)
+@click.option("--reason", default="", help="Why the version leaves service.")
+@json_option
+def retire(model_name: str, version: int, reason: str, as_json: bool) -> None:
+    """Take a version out of service: it leaves every stage and enters `retired`."""
+    outcome = stages.retire(_context().catalogue(), model_name, version, _actor(), reason)
+    emit(outcome, as_json, lambda o: f"retired {o['model']} v{o['version']}" + (
+        f" (left {', '.join(o['left_stages'])})" if o["left_stages"] else ""))
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@json_option
+def status(model_name: str, as_json: bool) -> None:
+    """Who holds each stage of MODEL."""
+    document = stages.status(_context().catalogue(), model_name)
+
+    def text(d):
+        lines = [f"{d['model']}:"]
+        for stage, numbers in d["stages"].items():
+            held = ", ".join(f"v{n}" for n in numbers) or "-"
+            lines.append(f"  {stage:<10} {held}")
+        return "\n".join(lines)
+
+    emit(document, as_json, text)
+
+
+@click.command()
+@click.argument("model_name", metavar="MODEL")
+@json_option
+def history(model_name: str, as_json: bool) -> None:
+    """Every stage event of MODEL, oldest first, with the gate report of each attempt."""
+    document = stages.history(_context().catalogue(), model_name)
+
+    def text(d):
+        lines = [f"{d['model']}: {len(d['events'])} stage event(s)"]
+        for e in d["events"]:
+            lines.append(f"  {e['at'][:19]}  v{e['version']:<3} {e['event']:<11} {e['stage']:<10} "
+                         f"by {e['by']}")
+        refused = [a for a in d["attempts"] if not a["passed"]]
+        for attempt in refused:
+            lines.append(f"  refused: v{attempt['version']} into {attempt['stage']} "
+                         f"(report {attempt['id']}) by {attempt['by']}")
+        return "\n".join(lines)
+
+    emit(document, as_json, text)
+
+
+@click.group("policy")
+def policy_group() -> None:
+    """A model's promotion policy: the ladder, exclusive stages and the gates of each stage."""
+
+
+@policy_group.command("show")
+@click.argument("model_name", metavar="MODEL")
+@json_option
+def policy_show(model_name: str, as_json: bool) -> None:
+    """Show the policy in force for MODEL (its own laid over the default)."""
+    from registry.service.policies import show_policy
+
+    emit(show_policy(_context().catalogue(), model_name), as_json, lambda d: d["text"])
+
+
+@policy_group.command("set")
+@click.argument("model_name", metavar="MODEL")
+@click.argument("policy_file", type=click.Path(dir_okay=False))
+@json_option
+def policy_set(model_name: str, policy_file: str, as_json: bool) -> None:
+    """Give MODEL its own policy (TOML, laid over the default; admins only)."""
+    from registry.service.policies import set_policy
+
+    text = read_text(policy_file, what="POLICY")
+    outcome = set_policy(_context().catalogue(), model_name, text, _actor(), source=policy_file)
+    emit(outcome, as_json, lambda o: f"{o['model']} now follows {policy_file}")
+
+
+model_group.add_command(policy_group)  # `lockkeeper model policy show|set`
+
+COMMANDS = [check, promote, approve, rollback, retire, status, history]

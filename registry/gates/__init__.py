@@ -1,0 +1,25 @@
+"""Promotion gates: policy loading and pure functions from evidence to a gate report."""
+
+from registry.gates.approval_gate import check_approval
+from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval, ColumnCounts,
+                                     ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
+                                     FeatureChange, PairedComparison, RecalledDataset,
+                                     SampleProfile, SchemaCheck, SchemaProblem, SliceComparison,
+                                     Waiver, from_plain, to_plain)
+from registry.gates.policy import (RETIRED, GateSpec, Policy, PolicyError, StageRule,
+                                   TransitionError, UnknownStage, default_policy,
+                                   default_policy_text, load_policy)
+from registry.gates.regression_gates import holm_adjust
+from registry.gates.report import GateReport, GateResult, render_report
+from registry.gates.settings import GATES
+from registry.gates.verdict import check_waivers, evaluate
+
+__all__ = [
+    "APPROVER", "GATES", "RETIRED", "Acknowledgement", "Actor", "Approval", "ColumnCounts",
+    "ContainmentEstimate", "DatasetRecord", "Evidence", "EvidenceError", "FeatureChange",
+    "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
+    "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "SliceComparison",
+    "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_approval", "check_waivers",
+    "default_policy", "default_policy_text", "evaluate", "from_plain", "holm_adjust",
+    "load_policy", "render_report", "to_plain",
+]

@@ -1,0 +1,197 @@
+"""One function per kind of gate evidence: read the rows it needs, call the pure package, and
+return `registry.gates` evidence records."""
+
+from __future__ import annotations
+
+import json
+from functools import lru_cache
+
+from sqlalchemy import select
+
+from registry import gates
+from registry import schema as avro
+from registry.store import lineage
+from registry.store import tables as t
+from registry.store.unit_of_work import UnitOfWork
+
+WITNESS_KEYS = {"enum_symbol", "union_branch", "null", "column"}
+
+
+@lru_cache(maxsize=256)
+def _parsed(schema_json: str) -> avro.Schema:
+    return avro.parse(json.loads(schema_json))
+
+
+def _schema_of(version: t.Version, which: str) -> avro.Schema | None:
+    text = version.input_schema_json if which == "input" else version.output_schema_json
+    return _parsed(text) if text else None
+
+
+def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version) -> gates.SchemaCheck:
+    problems = tuple(
+        gates.SchemaProblem(path=p.path, rule=p.rule, message=p.message,
+                            witness={k: v for k, v in (p.witness or {}).items() if k in WITNESS_KEYS})
+        for p in resolution.problems)
+    notes = tuple(f"{n.path}: {n.message}" for n in resolution.notes)
+    return gates.SchemaCheck(reader_version=reader.number, writer_version=writer.number,
+                             compatible=resolution.compatible, problems=problems, notes=notes)
+
+
+def schema_check(reader: t.Version, writer: t.Version, which: str) -> gates.SchemaCheck:
+    """`reader`'s schema (input or output) resolving `writer`'s (Avro Schema Resolution)."""
+    return _as_check(avro.resolve(_schema_of(reader, which), _schema_of(writer, which)),
+                     reader, writer)
+
+
+def output_check(incumbent: t.Version, candidate: t.Version) -> gates.SchemaCheck | None:
+    """The consumers read with the incumbent's output schema; None when either has none."""
+    if incumbent.output_schema_json is None or candidate.output_schema_json is None:
+        return None
+    return schema_check(incumbent, candidate, "output")
+
+
+def _linked(uow: UnitOfWork, version: t.Version) -> list[tuple[str, t.Dataset]]:
+    return list(uow.session.execute(
+        select(t.VersionDataset.relation, t.Dataset)
+        .join(t.Dataset, t.Dataset.id == t.VersionDataset.dataset_id)
+        .where(t.VersionDataset.version_id == version.id)
+        .order_by(t.VersionDataset.relation, t.Dataset.name)).all())
+
+
+def dataset_records(uow: UnitOfWork, version: t.Version) -> tuple[gates.DatasetRecord, ...]:
+    records = []
+    for relation, dataset in _linked(uow, version):
+        records.append(gates.DatasetRecord(
+            name=dataset.name, role="training" if relation == "trained-on" else "evaluation",
+            registered=True, registered_at=dataset.created_at.isoformat(),
+            fingerprint=dataset.content_digest))
+    return tuple(records)
+
+
+def recalled_upstream(uow: UnitOfWork, version: t.Version) -> tuple[gates.RecalledDataset, ...]:
+    """Every recalled dataset at or upstream of the version's own datasets."""
+    own = {dataset.id: dataset for _, dataset in _linked(uow, version)}
+    reachable = lineage.upstream_datasets(uow.session, own)
+    if not reachable:
+        return ()
+    recalled = uow.session.execute(
+        select(t.Dataset).where(t.Dataset.id.in_(reachable), t.Dataset.recalled_at.is_not(None))
+        .order_by(t.Dataset.name)).scalars().all()
+    found = []
+    for dataset in recalled:
+        via = lineage.derivation_chain(uow.session, dataset.id, set(own))
+        found.append(gates.RecalledDataset(
+            name=dataset.name, reason=dataset.recall_reason or "",
+            recalled_at=dataset.recalled_at.isoformat(),
+            via=tuple(uow.session.get(t.Dataset, i).name for i in via)))
+    return tuple(found)
+
+
+def _roles_of(uow: UnitOfWork, user: str) -> tuple[str, ...]:
+    return tuple(sorted(uow.session.execute(
+        select(t.RoleGrant.role).where(t.RoleGrant.user == user)).scalars()))
+
+
+def approvals(uow: UnitOfWork, version: t.Version) -> tuple[gates.Approval, ...]:
+    rows = uow.session.execute(
+        select(t.Approval).where(t.Approval.version_id == version.id)
+        .order_by(t.Approval.id)).scalars()
+    return tuple(gates.Approval(user=row.approver, roles=_roles_of(uow, row.approver),
+                                at=row.created_at.isoformat(), stage=row.stage) for row in rows)
+
+
+def acknowledgements(uow: UnitOfWork, version: t.Version, stage: str,
+                     changes: tuple[gates.FeatureChange, ...]) -> tuple[gates.Acknowledgement, ...]:
+    """An approver's approval for this stage acknowledges the needs-review feature changes the
+    check report showed them; the approval's note says what they checked."""
+    review = [change for change in changes if change.classification == "needs-review"]
+    if not review:
+        return ()
+    rows = uow.session.execute(
+        select(t.Approval).where(t.Approval.version_id == version.id,
+                                 t.Approval.stage == stage)).scalars().all()
+    return tuple(gates.Acknowledgement(field=change.field, user=row.approver,
+                                       roles=_roles_of(uow, row.approver),
+                                       at=row.created_at.isoformat(), note=row.note)
+                 for row in rows for change in review)
+
+
+def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.FeatureChange, ...]:
+    return ()
+
+
+def containment(uow: UnitOfWork, version: t.Version) -> tuple[gates.ContainmentEstimate, ...]:
+    return ()
+
+
+def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
+    return None
+
+
+def _quality_settings(specs) -> dict[str, dict]:
+    return {spec.gate: dict(spec.settings) for spec in specs
+            if spec.gate in ("no-regression", "slice-guard")}
+
+
+def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Version, specs
+                        ) -> tuple[tuple[gates.PairedComparison, ...], tuple[gates.SliceComparison, ...]]:
+    """Paired comparisons of candidate and incumbent on every evaluation dataset both were
+    evaluated on (same content digest), overall and per slice, with the stored predictions."""
+    from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
+    from registry.service.evaluations import evaluations_of, stored_predictions
+
+    settings = _quality_settings(specs)
+    if not settings:
+        return (), ()
+    mine = evaluations_of(uow, candidate)
+    theirs = {e.dataset_content_digest: e for e, _ in evaluations_of(uow, incumbent)}
+    metrics = {s["metric"] for s in settings.values()}
+    confidence = settings.get("no-regression", {}).get("confidence", 0.95)
+    comparisons: list[gates.PairedComparison] = []
+    slices: list[gates.SliceComparison] = []
+    for evaluation, dataset in mine:
+        baseline_row = theirs.get(evaluation.dataset_content_digest)
+        if baseline_row is None:
+            continue
+        ours, base = stored_predictions(uow, evaluation), stored_predictions(uow, baseline_row)
+        report = compare(ours, base, confidence=confidence, seed=0)
+        for metric in sorted(metrics):
+            difference = report.differences.get(metric)
+            if difference is None:
+                continue
+            comparisons.append(gates.PairedComparison(
+                metric=metric, difference=difference.difference, ci_low=difference.ci_low,
+                ci_high=difference.ci_high, p_value=difference.p_value, method=difference.method,
+                higher_is_better=HIGHER_IS_BETTER[metric],
+                candidate_dataset=evaluation.dataset_content_digest,
+                incumbent_dataset=baseline_row.dataset_content_digest, confidence=confidence,
+                candidate_value=report.candidate.metrics.get(metric),
+                incumbent_value=report.baseline.metrics.get(metric), rows=report.matching.matched))
+        if "slice-guard" in settings:
+            metric = settings["slice-guard"]["metric"]
+            for column in json.loads(evaluation.metrics_json).get("slice_columns", []):
+                if column not in base.extra_columns:
+                    continue
+                per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)
+                for value, result in sorted(per_slice.values.items()):
+                    difference = result.differences.get(metric)
+                    if difference is None:
+                        continue
+                    slices.append(gates.SliceComparison(
+                        column=column, value=str(value), metric=metric,
+                        difference=difference.difference, ci_low=difference.ci_low,
+                        ci_high=difference.ci_high, p_value=difference.p_value,
+                        higher_is_better=HIGHER_IS_BETTER[metric],
+                        adjusted_p_value=difference.p_value_holm, confidence=confidence,
+                        rows=result.n))
+    if not comparisons and mine and theirs:
+        # Both were evaluated, never on the same data: say so rather than compare.
+        evaluation, _ = mine[0]
+        other = next(iter(theirs.values()))
+        for metric in sorted(metrics):
+            comparisons.append(gates.PairedComparison(
+                metric=metric, difference=0.0, ci_low=0.0, ci_high=0.0, p_value=1.0,
+                method="not-compared", higher_is_better=HIGHER_IS_BETTER[metric],
+                candidate_dataset=evaluation.dataset_content_digest,
+                incumbent_dataset=other.dataset_content_digest, confidence=confidence))
+    return tuple(comparisons), tuple(slices)

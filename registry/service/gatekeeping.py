@@ -1,0 +1,127 @@
+"""Gathering the evidence the gates judge, from the catalogue, inside the caller's transaction.
+
+The gates themselves are pure (registry.gates); this module is the only place that turns rows,
+blobs and the pure results of the schema, feature, dataset and evaluation packages into
+`registry.gates.Evidence`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+from collections.abc import Sequence
+from datetime import UTC, datetime
+
+from sqlalchemy import select
+
+from registry import gates
+from registry.gates import GateReport, Policy, Waiver
+from registry.service import evidence_sources as sources
+from registry.service.actors import Actor
+from registry.store import tables as t
+from registry.store.unit_of_work import UnitOfWork
+
+__all__ = ["GateReport", "Policy", "Waiver", "is_guarded", "policy_of", "run_gates",
+           "run_rollback_gates", "SCHEMA_GATES"]
+
+SCHEMA_GATES = ("reads-live-feed", "rollback-safe", "output-readable", "live-data-check")
+
+
+def policy_of(model: t.Model) -> Policy:
+    """The model's own policy laid over the catalogue-wide default, or the default alone."""
+    if model.policy_toml:
+        return gates.load_policy(model.policy_toml, source=f"policy of {model.name}",
+                                 base=gates.default_policy())
+    return gates.default_policy()
+
+
+def is_guarded(policy: Policy, stage: str) -> bool:
+    """A guarded stage has gates; entering it needs the approver role."""
+    return bool(policy.gates_for(stage))
+
+
+def gates_actor(actor: Actor) -> gates.Actor:
+    return gates.Actor(user=actor.name, roles=tuple(sorted(actor.roles)))
+
+
+def top_holder(uow: UnitOfWork, model: t.Model, policy: Policy) -> t.Version | None:
+    holding = uow.session.execute(
+        select(t.StageHolding).where(t.StageHolding.model_id == model.id,
+                                     t.StageHolding.stage == policy.top_stage)
+        .order_by(t.StageHolding.since.desc())).scalars().first()
+    return uow.session.get(t.Version, holding.version_id) if holding else None
+
+
+def past_top_holders(uow: UnitOfWork, model: t.Model, policy: Policy,
+                     exclude: Sequence[int]) -> list[t.Version]:
+    ids = uow.session.execute(
+        select(t.StageEvent.version_id).where(
+            t.StageEvent.model_id == model.id, t.StageEvent.stage == policy.top_stage,
+            t.StageEvent.event.in_(("entered", "restored"))).distinct()).scalars().all()
+    return [uow.session.get(t.Version, i) for i in sorted(set(ids) - set(exclude))]
+
+
+def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str,
+                    policy: Policy, *, incumbent: t.Version | None,
+                    include_quality: bool = True) -> gates.Evidence:
+    """Everything the gates of `stage` may look at for `candidate` against `incumbent`."""
+    now = datetime.now(UTC).isoformat(timespec="seconds")
+    evidence = gates.Evidence(
+        model=model.name, version=candidate.number, author=candidate.author or candidate.created_by,
+        evaluated_at=now, code_revision=candidate.code_revision or None,
+        incumbent_version=incumbent.number if incumbent else None,
+        datasets=sources.dataset_records(uow, candidate),
+        recalled_upstream=sources.recalled_upstream(uow, candidate),
+        approvals=sources.approvals(uow, candidate),
+        containment=sources.containment(uow, candidate),
+        live_sample=sources.live_sample(uow, model),
+    )
+    if incumbent is None or incumbent.id == candidate.id:
+        return dataclasses.replace(evidence, incumbent_version=None)
+    past = past_top_holders(uow, model, policy, exclude=(incumbent.id, candidate.id))
+    evidence = dataclasses.replace(
+        evidence,
+        feed=sources.schema_check(candidate, incumbent, "input"),
+        past_feeds=tuple(sources.schema_check(candidate, holder, "input") for holder in past),
+        rollback=sources.schema_check(incumbent, candidate, "input"),
+        output=sources.output_check(incumbent, candidate),
+        feature_changes=sources.feature_changes(incumbent, candidate),
+    )
+    evidence = dataclasses.replace(
+        evidence, acknowledgements=sources.acknowledgements(uow, candidate, stage,
+                                                            evidence.feature_changes))
+    if include_quality:
+        comparisons, slices = sources.quality_comparisons(uow, candidate, incumbent,
+                                                          policy.gates_for(stage))
+        evidence = dataclasses.replace(evidence, comparisons=comparisons, slices=slices)
+    return evidence
+
+
+def run_gates(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str, actor: Actor,
+              waivers: Sequence[Waiver] = (), *, policy: Policy) -> GateReport:
+    incumbent = top_holder(uow, model, policy)
+    evidence = gather_evidence(uow, model, candidate, stage, policy, incumbent=incumbent)
+    return gates.evaluate(policy, stage, evidence, waivers, gates_actor(actor))
+
+
+def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, holder: t.Version,
+                       stage: str, actor: Actor, waivers: Sequence[Waiver] = (), *,
+                       policy: Policy) -> GateReport:
+    """Only the schema gates, re-run with the restored version as candidate against the feed
+    the current holder's input schema describes."""
+    rule = policy.stage(stage)
+    schema_only = dataclasses.replace(
+        rule, gates=tuple(spec for spec in rule.gates if spec.gate in SCHEMA_GATES))
+    restricted = dataclasses.replace(policy, stages={**policy.stages, stage: schema_only})
+    evidence = gather_evidence(uow, model, restored, stage, restricted, incumbent=holder,
+                               include_quality=False)
+    return gates.evaluate(restricted, stage, evidence, waivers, gates_actor(actor))
+
+
+def parse_waivers(pairs: Sequence[tuple[str, str]], actor: Actor) -> list[Waiver]:
+    """`--waive GATE --reason TEXT` pairs from a shell, as waivers given by the acting user."""
+    return [Waiver(gate=gate, approver=actor.name, reason=reason) for gate, reason in pairs]
+
+
+def report_json(report: GateReport) -> str:
+    return json.dumps(report.to_dict())

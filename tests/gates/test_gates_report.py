@@ -1,0 +1,109 @@
+"""The gate report: JSON round trip, audit summary, plain text, refusal; evidence round trip."""
+
+import json
+
+import pytest
+
+from gates_helpers import TOMAS, passing_evidence, waive
+from registry.errors import Refusal
+from registry.gates import (Evidence, EvidenceError, FeatureChange, GateReport, SchemaProblem,
+                            default_policy, evaluate, from_plain, render_report, to_plain)
+
+UNIT_CHANGED = FeatureChange("mean_pressure_psi", "unit-changed", "breaking",
+                             "unit changed from kPa to [psi]")
+
+
+@pytest.fixture
+def report() -> GateReport:
+    evidence = passing_evidence(version=3, feature_changes=(UNIT_CHANGED,), approvals=(),
+                                containment=())
+    return evaluate(default_policy(), "live", evidence, waive("no-leakage", "disjoint by "
+                                                              "construction"), TOMAS)
+
+
+def test_report_round_trips_through_json(report):
+    document = json.loads(json.dumps(report.to_dict()))
+    assert GateReport.from_dict(document) == report
+
+
+def test_report_document_names_each_gate_with_its_status(report):
+    document = report.to_dict()
+    assert document["passed"] is False
+    assert document["stage"] == "live" and document["version"] == 3
+    statuses = {r["gate"]: r["status"] for r in document["results"]}
+    assert statuses["feature-meaning"] == "failed"
+    assert statuses["no-leakage"] == "waived"
+    assert statuses["reads-live-feed"] == "passed"
+
+
+def test_summary_for_the_audit_log_lists_failed_gates_and_waivers(report):
+    summary = report.summary()
+    json.dumps(summary)
+    assert set(summary["failed"]) == {"feature-meaning", "approved"}
+    assert summary["failed"]["feature-meaning"].startswith("mean_pressure_psi: ")
+    assert summary["waived"] == [{"gate": "no-leakage", "approver": "tomas.lindqvist",
+                                  "reason": "disjoint by construction"}]
+    assert len(summary["gates"]) == 11
+
+
+def test_plain_text_shows_the_verdict_every_gate_and_the_waiver(report):
+    text = render_report(report)
+    first, *lines = text.splitlines()
+    assert first == "main-burst-risk version 3 -> live: refused (9 of 11 gates cleared)"
+    assert any(line.split()[:2] == ["failed", "feature-meaning"] and "mean_pressure_psi" in line
+               for line in lines)
+    assert any(line.split()[:2] == ["waived", "no-leakage"] for line in lines)
+    assert any("waived by tomas.lindqvist: disjoint by construction" in line for line in lines)
+
+
+def test_plain_text_of_a_stage_without_gates_says_so():
+    report = evaluate(default_policy(), "candidate", passing_evidence(), (), TOMAS)
+    assert report.passed
+    assert "no gate guards this stage" in render_report(report)
+
+
+def test_refusal_names_every_failed_gate_and_its_place(report):
+    refusal = report.refusal()
+    assert isinstance(refusal, Refusal) and refusal.exit_code == 1
+    assert refusal.place == "feature-meaning"
+    assert "feature-meaning: mean_pressure_psi: unit changed" in refusal.message
+    assert "approved: 0 of 1 approval" in refusal.message
+
+
+def test_malformed_report_document_is_a_user_error():
+    with pytest.raises(Exception) as caught:
+        GateReport.from_dict({"model": "main-burst-risk"})
+    assert getattr(caught.value, "exit_code", None) == 2
+
+
+def test_evidence_round_trips_through_json():
+    evidence = passing_evidence()
+    document = json.loads(json.dumps(to_plain(evidence)))
+    assert from_plain(Evidence, document) == evidence
+
+
+def test_evidence_document_with_an_unknown_key_is_an_evidence_error():
+    document = to_plain(passing_evidence())
+    document["feed"]["compatibel"] = True
+    with pytest.raises(EvidenceError) as caught:
+        from_plain(Evidence, document)
+    assert caught.value.place == "evidence.feed"
+
+
+def test_evidence_document_with_a_wrong_type_is_an_evidence_error():
+    document = to_plain(passing_evidence())
+    document["version"] = "two"
+    with pytest.raises(EvidenceError) as caught:
+        from_plain(Evidence, document)
+    assert caught.value.place == "evidence.version"
+
+
+def test_feature_change_with_an_unknown_classification_is_an_evidence_error():
+    with pytest.raises(EvidenceError):
+        FeatureChange("diameter_mm", "type-changed", "dangerous", "int to string")
+
+
+def test_schema_problem_with_an_unknown_witness_key_is_an_evidence_error():
+    with pytest.raises(EvidenceError):
+        SchemaProblem("/fields/pipe_material/type", "enum-symbol-missing", "x",
+                      witness={"symbol": "PVC"})
