@@ -256,14 +256,21 @@ def _interval(document: dict, name: str) -> tuple[Any, Any]:
 
 def _slice_reports(slices: Any) -> list[tuple[str, dict]]:
     """(column, {value: entry}) pairs from any of the stored forms: one report
-    {"column", "values"}, a list of such reports, or a mapping column -> {value: entry}."""
+    {"column", "values"}, a list of reports, a mapping column -> report (what the evaluation
+    use case stores), or a mapping column -> {value: entry}."""
     if isinstance(slices, list):
         return [pair for item in slices for pair in _slice_reports(item)]
     if not isinstance(slices, dict):
         return []
     if isinstance(slices.get("values"), dict) and "column" in slices:
         return [(str(slices["column"]), slices["values"])]
-    return [(str(column), values) for column, values in slices.items() if isinstance(values, dict)]
+    found = []
+    for column, values in slices.items():
+        if isinstance(values, dict) and isinstance(values.get("values"), dict):
+            found.append((str(values.get("column", column)), values["values"]))
+        elif isinstance(values, dict):
+            found.append((str(column), values))
+    return found
 
 
 def _slices(document: dict) -> list:

@@ -150,9 +150,11 @@ def dataset(name: str):
             categories = None
             if chart is None:
                 for key in ("symbols", "categories"):
-                    categories = graphics.category_chart(facts.get(key))
-                    if categories is None and isinstance(facts.get(key), dict):
-                        categories = graphics.category_chart(facts[key].get("counts"))
+                    stored = facts.get(key)
+                    # Category counts are stored as {"counts": {...}, "total", "cap", ...}.
+                    if isinstance(stored, dict) and isinstance(stored.get("counts"), dict):
+                        stored = stored["counts"]
+                    categories = graphics.category_chart(stored)
                     if categories:
                         break
             scalars = [(k, v) for k, v in facts.items()

@@ -1,7 +1,8 @@
 """The Brackwater catalogue for lineage and web tests: use cases where they exist, rows otherwise.
 
-Datasets, evaluations, gate reports and stage moves have no use case on this branch yet, so they
-are written as rows, shaped as those use cases write them.
+Datasets and evaluations go through their use cases with the seed files. Stage moves are written
+as rows, shaped as the stage use cases write them, so the story's end state (v1 back in live
+after v2's rollback, v3 and v4 refused) does not depend on the gates' current settings.
 """
 
 from __future__ import annotations
@@ -11,7 +12,6 @@ from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
-import numpy as np
 
 from registry.manifest import Manifest
 from registry.service import models, registration
@@ -30,81 +30,55 @@ INES = Actor("ines.okafor", frozenset({"publisher"}))
 TOMAS = Actor("tomas.lindqvist", frozenset({"approver"}))
 MARA = Actor("mara.kowalczyk", frozenset({"admin"}))
 
-DISTRICTS = ["NORTHGATE", "RIVERSIDE", "OLD_TOWN", "HILLCREST", "SALTMARSH"]
-
 
 @dataclass(frozen=True)
 class DatasetSpec:
     name: str
     role: str
     folder: Path
-    rows: int
     parents: tuple[str, ...] = ()
 
 
 BRACKWATER_DATASETS = (
-    DatasetSpec("brackwater-asset-register", "source", BRACKWATER, 2000),
-    DatasetSpec("brackwater-telemetry-extract", "source", BRACKWATER, 2000),
-    DatasetSpec("brackwater-training-set", "training", BRACKWATER, 1400,
+    DatasetSpec("brackwater-asset-register", "source", BRACKWATER),
+    DatasetSpec("brackwater-telemetry-extract", "source", BRACKWATER),
+    DatasetSpec("brackwater-training-set", "training", BRACKWATER,
                 ("brackwater-asset-register", "brackwater-telemetry-extract")),
-    DatasetSpec("brackwater-evaluation-set", "evaluation", BRACKWATER, 600,
+    DatasetSpec("brackwater-evaluation-set", "evaluation", BRACKWATER,
                 ("brackwater-asset-register", "brackwater-telemetry-extract")),
-    DatasetSpec("brackwater-live-sample", "live-sample", BRACKWATER, 500),
+    DatasetSpec("brackwater-live-sample", "live-sample", BRACKWATER),
 )
 NIGHT_FLOW_DATASETS = (
-    DatasetSpec("night-flow-training-set", "training", NIGHT_FLOW, 300),
-    DatasetSpec("night-flow-evaluation-set", "evaluation", NIGHT_FLOW, 120),
-    DatasetSpec("night-flow-live-sample", "live-sample", NIGHT_FLOW, 90),
+    DatasetSpec("night-flow-training-set", "training", NIGHT_FLOW),
+    DatasetSpec("night-flow-evaluation-set", "evaluation", NIGHT_FLOW),
+    DatasetSpec("night-flow-live-sample", "live-sample", NIGHT_FLOW),
 )
 
 
-def _profile(schema: dict, rows: int, seed: int) -> dict:
-    """A plausible column profile with histograms, deterministic per dataset."""
-    generator = np.random.default_rng(seed)
-    profile = {}
-    for field in schema["fields"]:
-        kind = field["type"]
-        if isinstance(kind, dict) and kind.get("type") == "enum":
-            counts = generator.multinomial(rows, np.ones(len(kind["symbols"])) / len(kind["symbols"]))
-            profile[field["name"]] = {"type": "enum", "count": rows, "nulls": 0,
-                                      "symbols": dict(zip(kind["symbols"], map(int, counts)))}
-        elif kind in ("int", "long", "double", "float"):
-            values = generator.gamma(3.0, 10.0, size=rows)
-            counts, edges = np.histogram(values, bins=12)
-            profile[field["name"]] = {
-                "type": kind, "count": rows, "nulls": 0, "min": float(values.min()),
-                "max": float(values.max()), "mean": float(values.mean()),
-                "histogram": {"edges": [float(e) for e in edges],
-                              "counts": [int(c) for c in counts]}}
-        elif field["name"] == "district":
-            counts = generator.multinomial(rows, np.ones(5) / 5)
-            profile[field["name"]] = {"type": "string", "count": rows, "nulls": 0,
-                                      "categories": dict(zip(DISTRICTS, map(int, counts)))}
-        else:
-            profile[field["name"]] = {"type": "string", "count": rows, "nulls": 0}
-    return profile
+KEYS = {BRACKWATER: ("segment_id",), NIGHT_FLOW: ("dma_id",)}
 
 
-def add_dataset_row(uow: UnitOfWork, spec: DatasetSpec, when: datetime, seed: int) -> t.Dataset:
-    schema_text = (spec.folder / "schemas" / f"{spec.name}.avsc").read_text()
-    schema = json.loads(schema_text)
-    fingerprint = {"rows": spec.rows, "content_digest": f"{seed:064x}",
-                   "schema_fingerprint": f"{seed + 7:064x}", "profile": _profile(schema, spec.rows, seed)}
-    digest = uow.blobs.put(json.dumps(fingerprint, sort_keys=True).encode())
-    row = t.Dataset(name=spec.name, role=spec.role, source_uri=f"datasets/{spec.name}",
-                    rows=spec.rows, content_digest=fingerprint["content_digest"],
-                    schema_fingerprint=fingerprint["schema_fingerprint"],
-                    schema_json=json.dumps(schema, sort_keys=True), fingerprint_digest=digest,
-                    registration_digest=f"{seed + 11:064x}", created_at=when,
-                    created_by=INES.name)
-    uow.session.add(row)
-    uow.session.flush()
-    for parent in spec.parents:
-        parent_row = uow.session.query(t.Dataset).filter_by(name=parent).one()
-        uow.session.add(t.DatasetParent(child_id=row.id, parent_id=parent_row.id))
-    uow.session.flush()
-    uow.audit.append(INES.name, "dataset.add", f"dataset/{spec.name}", {"rows": spec.rows})
-    return row
+def add_dataset(catalogue: Catalogue, spec: DatasetSpec) -> None:
+    """Through the dataset use case, with the real fingerprint of the seed file."""
+    from registry.datasets import fingerprint_file
+    from registry.service.datasets import DatasetRequest, add_dataset as add
+
+    schema = json.loads((spec.folder / "schemas" / f"{spec.name}.avsc").read_text())
+    [path] = sorted((spec.folder / "datasets").glob(f"{spec.name}.*"))
+    fingerprint = fingerprint_file(str(path), schema_json=schema, keys=KEYS[spec.folder])
+    add(catalogue, DatasetRequest(name=spec.name, role=spec.role, fingerprint=fingerprint,
+                                  source_uri=f"datasets/{path.name}", derived_from=spec.parents),
+        INES)
+
+
+def add_evaluation(catalogue: Catalogue, model: str, number: int, folder: Path, dataset: str,
+                   task: str, slices: tuple[str, ...] = ()) -> None:
+    from registry.evaluation import read_predictions
+    from registry.service.evaluations import EvaluationRequest, add_evaluation as add
+
+    predictions = read_predictions(folder / "predictions" / f"{model}-v{number}.csv", task)
+    add(catalogue, EvaluationRequest(model=model, version=number, dataset=dataset,
+                                     predictions=predictions, slice_columns=slices), INES)
 
 
 def _features(schema: dict) -> str:
@@ -148,26 +122,6 @@ def register(catalogue: Catalogue, model: str, folder: Path, number: int, input_
         row.features_json = _features(json.loads(schema_text))
         uow.commit()
     return outcome.version
-
-
-def _metrics(seed: int, task: str) -> str:
-    """Shaped as the evaluation use case stores it (DESIGN.md, `metrics --json`)."""
-    generator = np.random.default_rng(seed)
-    if task == "binary":
-        auc = 0.70 + 0.02 * seed
-        metrics = {"roc_auc": auc, "average_precision": auc - 0.3, "log_loss": 0.31,
-                   "brier": 0.09, "accuracy": 0.88}
-        comparison = {} if seed == 1 else {"roc_auc": {
-            "difference": 0.02, "ci_low": 0.004, "ci_high": 0.036, "p_value": 0.014,
-            "method": "delong"}}
-        slices = {"column": "district", "correction": "holm-bonferroni", "values": {
-            d: {"n": 120, "metrics": {"roc_auc": auc + float(generator.normal(0, 0.02))}}
-            for d in DISTRICTS}}
-    else:
-        metrics = {"rmse": 41.5, "mae": 30.2, "r2": 0.61}
-        comparison, slices = {}, {}
-    return json.dumps({"task": task, "n": 600, "metrics": metrics, "comparison": comparison,
-                       "slices": slices})
 
 
 def _report(model: str, number: int, stage: str, passed: bool, when: datetime) -> str:
@@ -238,10 +192,8 @@ def build_brackwater(catalogue: Catalogue, *, markup_model: bool = False) -> Non
     grant_role(catalogue, MARA.name, "admin", MARA)
     grant_role(catalogue, INES.name, "publisher", MARA)
     grant_role(catalogue, TOMAS.name, "approver", MARA)
-    with UnitOfWork(catalogue) as uow:
-        for seed, spec in enumerate(BRACKWATER_DATASETS + NIGHT_FLOW_DATASETS, start=1):
-            add_dataset_row(uow, spec, START + timedelta(hours=seed), seed)
-        uow.commit()
+    for spec in BRACKWATER_DATASETS + NIGHT_FLOW_DATASETS:
+        add_dataset(catalogue, spec)
     models.create_model(catalogue, "main-burst-risk",
                         "Water-main segments likely to burst within 90 days", INES)
     models.create_model(catalogue, "night-flow-leak",
@@ -257,22 +209,12 @@ def build_brackwater(catalogue: Catalogue, *, markup_model: bool = False) -> Non
                  parent=parent)
     register(catalogue, "night-flow-leak", NIGHT_FLOW, 1, "meter-area-v1.avsc",
              "leak-estimate.avsc", "night-flow-training-set", "night-flow-evaluation-set")
+    for number in (1, 2, 3):
+        add_evaluation(catalogue, "main-burst-risk", number, BRACKWATER,
+                       "brackwater-evaluation-set", "binary", ("district",))
+    add_evaluation(catalogue, "night-flow-leak", 1, NIGHT_FLOW, "night-flow-evaluation-set",
+                   "regression")
     with UnitOfWork(catalogue) as uow:
-        for model, number, dataset, task, seed in (
-                ("main-burst-risk", 1, "brackwater-evaluation-set", "binary", 1),
-                ("main-burst-risk", 2, "brackwater-evaluation-set", "binary", 2),
-                ("main-burst-risk", 3, "brackwater-evaluation-set", "binary", 3),
-                ("night-flow-leak", 1, "night-flow-evaluation-set", "regression", 4)):
-            version = uow.session.query(t.Version).join(t.Model).filter(
-                t.Model.name == model, t.Version.number == number).one()
-            data = uow.session.query(t.Dataset).filter_by(name=dataset).one()
-            predictions = uow.blobs.put(f"predictions {model} {number}".encode())
-            uow.session.add(t.Evaluation(version_id=version.id, dataset_id=data.id,
-                                         dataset_content_digest=data.content_digest, task=task,
-                                         metrics_json=_metrics(seed, task),
-                                         predictions_digest=predictions,
-                                         created_at=START + timedelta(days=5 + seed),
-                                         created_by=INES.name))
         moves = StageMoves(uow, "main-burst-risk")
         moves.attempt(1, "candidate")
         moves.attempt(1, "live", exclusive=True)

@@ -10,7 +10,7 @@ ONE_REPORT = {"column": "district", "correction": "holm-bonferroni",
               "values": {"NORTHGATE": {"n": 80, "metrics": {"roc_auc": 0.7}}}}
 
 
-@pytest.mark.parametrize("slices", [ONE_REPORT, [ONE_REPORT],
+@pytest.mark.parametrize("slices", [ONE_REPORT, [ONE_REPORT], {"district": ONE_REPORT},
                                     {"district": {"NORTHGATE": {"n": 80, "roc_auc": 0.7}}}])
 def test_slices_read_from_each_stored_form(slices):
     assert _slices({"slices": slices}) == [("district", ["roc_auc"], [("NORTHGATE", 80, [0.7])])]
