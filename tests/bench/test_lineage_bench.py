@@ -110,52 +110,55 @@ def big_catalogue(tmp_path_factory):
     catalogue.close()
 
 
+def _timed(function, runs: int = 5) -> tuple[object, float, float]:
+    """The result and the best processor and wall-clock times of several runs.
+
+    Processor time is what is asserted: it stays steady on a machine shared with other work,
+    where wall-clock time depends on who else is running.
+    """
+    best_cpu = best_wall = float("inf")
+    for _ in range(runs):
+        cpu, wall = time.process_time(), time.perf_counter()
+        result = function()
+        best_cpu = min(best_cpu, time.process_time() - cpu)
+        best_wall = min(best_wall, time.perf_counter() - wall)
+    return result, best_cpu, best_wall
+
+
 def test_downstream_of_a_root_is_fast_and_matches_networkx(big_catalogue):
     catalogue, graph = big_catalogue
     assert graph.number_of_nodes() == DATASETS + VERSIONS == 100_000
     assert graph.number_of_edges() == EDGES
     root = ("dataset", 1)
     seeds = walks.seeds_for(walks.NodeKey("dataset", 1))
-    timings = []
     with UnitOfWork(catalogue, write=False) as uow:
-        for _ in range(5):
-            started = time.perf_counter()
-            reached = walks.walk(uow.session, seeds, "down")
-            timings.append(time.perf_counter() - started)
+        reached, cpu, wall = _timed(lambda: walks.walk(uow.session, seeds, "down"))
     answer = {(r.key.kind, r.key.ref) for r in reached} - {root}
-    reference_timings = []
-    for _ in range(5):
-        started = time.perf_counter()
-        expected = networkx.descendants(graph, root)
-        reference_timings.append(time.perf_counter() - started)
+    expected, reference_cpu, _ = _timed(lambda: networkx.descendants(graph, root))
     assert answer == expected  # reference: networkx.descendants on the same graph
-    best, reference = min(timings), min(reference_timings)
     print(f"downstream of {root}: {len(answer)} nodes; recursive CTE on SQLite "
-          f"{best * 1000:.1f} ms (best of 5), networkx.descendants in memory "
-          f"{reference * 1000:.1f} ms; ratio {best / reference:.2f}")
-    assert best < LIMIT_SECONDS
+          f"{cpu * 1000:.1f} ms processor time ({wall * 1000:.1f} ms wall clock), best of 5; "
+          f"networkx.descendants in memory {reference_cpu * 1000:.1f} ms; "
+          f"ratio {cpu / reference_cpu:.2f}")
+    assert cpu < LIMIT_SECONDS
 
 
-def test_an_index_on_parent_number_would_speed_the_version_step(big_catalogue):
-    """Not a migration: a figure for the index the catalogue could add, on the bench copy."""
+def test_figure_for_an_index_on_parent_number(big_catalogue):
+    """Not a migration: whether an index on versions (model_id, parent_number) would help the
+    step to child versions, measured on the bench copy only."""
     catalogue, _ = big_catalogue
     seeds = walks.seeds_for(walks.NodeKey("dataset", 1))
 
-    def best_of(runs: int = 5) -> float:
-        timings = []
+    def best() -> float:
         with UnitOfWork(catalogue, write=False) as uow:
-            for _ in range(runs):
-                started = time.perf_counter()
-                walks.walk(uow.session, seeds, "down")
-                timings.append(time.perf_counter() - started)
-        return min(timings)
+            return _timed(lambda: walks.walk(uow.session, seeds, "down"))[1]
 
-    without = best_of()
+    without = best()
     with catalogue.engine.begin() as connection:
         connection.exec_driver_sql(
             "CREATE INDEX bench_versions_parent ON versions (model_id, parent_number)")
     try:
-        with_index = best_of()
+        with_index = best()
     finally:
         with catalogue.engine.begin() as connection:
             connection.exec_driver_sql("DROP INDEX bench_versions_parent")
