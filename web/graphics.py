@@ -120,17 +120,20 @@ def layout(graph: LineageGraph) -> GraphDrawing:
         if x2 <= x1:  # same column (should not happen for a layered graph): bow outwards
             x2, y2 = end.x + end.width, y2
             bend = COLUMN_GAP / 2 + 20
-            path = f"M{x1:.1f},{y1:.1f} C{x1 + bend:.1f},{y1:.1f} {x2 + bend:.1f},{y2:.1f} {x2:.1f},{y2:.1f}"
+            path = (f"M{x1:.1f},{y1:.1f} C{x1 + bend:.1f},{y1:.1f} "
+                    f"{x2 + bend:.1f},{y2:.1f} {x2:.1f},{y2:.1f}")
         elif columns[edge.source] - columns[edge.target] > 1:
             lift = MARGIN + 22
             path = (f"M{x1:.1f},{y1:.1f} C{x1 + COLUMN_GAP:.1f},{lift:.1f} "
                     f"{x2 - COLUMN_GAP:.1f},{lift:.1f} {x2 - 6:.1f},{y2:.1f}")
         else:
             middle = (x1 + x2) / 2
-            path = f"M{x1:.1f},{y1:.1f} C{middle:.1f},{y1:.1f} {middle:.1f},{y2:.1f} {x2 - 6:.1f},{y2:.1f}"
+            path = (f"M{x1:.1f},{y1:.1f} C{middle:.1f},{y1:.1f} "
+                    f"{middle:.1f},{y2:.1f} {x2 - 6:.1f},{y2:.1f}")
         edges.append(PlacedEdge(path, edge.relation,
                                 f"{edge.source} {edge.relation} {edge.target}"))
-    width = 2 * MARGIN + (max(columns.values(), default=0) + 1) * (NODE_WIDTH + COLUMN_GAP) - COLUMN_GAP
+    column_count = max(columns.values(), default=0) + 1
+    width = 2 * MARGIN + column_count * (NODE_WIDTH + COLUMN_GAP) - COLUMN_GAP
     heading_names = {"dataset": "datasets", "version": "versions", "stage": "stages"}
     return GraphDrawing(width, height, tuple(placed.values()), tuple(edges),
                         tuple((x, heading_names[k]) for k, x in headings.items()))
@@ -186,7 +189,8 @@ def _bucket_bounds(index: int, mantissa_bits: int) -> tuple[float, float]:
     shift = 52 - mantissa_bits
     magnitude = abs(index) - 1
     low = struct.unpack("<d", struct.pack("<Q", magnitude << shift))[0]
-    high = struct.unpack("<d", struct.pack("<Q", min((magnitude + 1) << shift, 0x7FEFFFFFFFFFFFFF)))[0]
+    top = min((magnitude + 1) << shift, 0x7FEFFFFFFFFFFFFF)  # at most the largest double
+    high = struct.unpack("<d", struct.pack("<Q", top))[0]
     return (low, high) if index > 0 else (-high, -low)
 
 
@@ -244,6 +248,8 @@ def category_chart(counts: Any, limit: int = 30) -> Chart | None:
         return None
     pairs.sort(key=lambda p: -p[1])
     shown = pairs[:limit]
-    caption = f"{len(pairs)} values" + (f", the {limit} most frequent shown" if len(pairs) > limit else "")
+    caption = f"{len(pairs)} values"
+    if len(pairs) > limit:
+        caption += f", the {limit} most frequent shown"
     return Chart(CHART_WIDTH, CHART_HEIGHT, _bars([k for k, _ in shown], [v for _, v in shown]),
                  "", "", caption)

@@ -209,7 +209,8 @@ class EvaluationView:
     n: Any
     created_at: str
     metrics: list[tuple[str, Any, Any, Any]]  # name, value, interval low, interval high
-    slices: list[tuple[str, list[str], list[tuple[str, Any, list[Any]]]]]  # column, metric names, rows
+    # column, metric names, and a row (value, n, metric values) per slice value
+    slices: list[tuple[str, list[str], list[tuple[str, Any, list[Any]]]]]
     readable: bool
     comparisons: list[tuple[str, Any, Any, Any, Any, str]] = field(default_factory=list)
 
@@ -323,7 +324,8 @@ def version_page(catalogue: Catalogue, model_name: str, number: int) -> VersionP
                         .where(t.VersionDataset.version_id == version.id)
                         .order_by(t.VersionDataset.relation, t.Dataset.name))]
         evaluations = [evaluation_view(name, row) for row, name in uow.session.execute(
-            select(t.Evaluation, t.Dataset.name).join(t.Dataset, t.Dataset.id == t.Evaluation.dataset_id)
+            select(t.Evaluation, t.Dataset.name)
+            .join(t.Dataset, t.Dataset.id == t.Evaluation.dataset_id)
             .where(t.Evaluation.version_id == version.id).order_by(t.Dataset.name))]
         others = list(uow.session.execute(
             select(t.Version.number).where(t.Version.model_id == model.id,
@@ -385,9 +387,10 @@ def dataset_page(catalogue: Catalogue, name: str) -> DatasetPage:
         row = _dataset(uow, name)
         up = walks.walk(uow.session, walks.seeds_for(walks.NodeKey("dataset", row.id)), "up")
         up_ids = [r.key.ref for r in up if r.key.kind == "dataset" and r.key.ref != row.id]
-        flagged_by = sorted(d.name for d in uow.session.execute(
-            select(t.Dataset).where(t.Dataset.id.in_(up_ids),
-                                    t.Dataset.recalled_at.is_not(None))).scalars()) if up_ids else []
+        flagged_by = sorted(uow.session.execute(
+            select(t.Dataset.name).where(t.Dataset.id.in_(up_ids),
+                                         t.Dataset.recalled_at.is_not(None))).scalars()
+                            ) if up_ids else []
         parent = t.Dataset.__table__.alias("parent")
         child = t.Dataset.__table__.alias("child")
         parents = sorted(uow.session.execute(

@@ -189,7 +189,8 @@ def feature_rows(features: Any) -> list[FeatureRow]:
         elif isinstance(inner, list):
             features = inner
     if isinstance(features, list):
-        items = [(str(f.get("name", f.get("path", "?"))), f) for f in features if isinstance(f, dict)]
+        items = [(str(f.get("name", f.get("path", "?"))), f)
+                 for f in features if isinstance(f, dict)]
     rows = []
     for name, definition in items:
         if not isinstance(definition, dict):
@@ -220,11 +221,14 @@ def compare_features(old: Any, new: Any) -> list[FeatureDifference]:
         a, b = before.get(name), after.get(name)
         if a is None or b is None:
             found.append(FeatureDifference(name, "added" if a is None else "removed",
-                                           "" if a is None else a.unit, "" if b is None else b.unit))
+                                           "" if a is None else a.unit,
+                                           "" if b is None else b.unit))
             continue
         for aspect in ("unit", "domain", "nullable", "description"):
             if getattr(a, aspect) != getattr(b, aspect):
-                found.append(FeatureDifference(name, aspect, getattr(a, aspect), getattr(b, aspect)))
+                found.append(FeatureDifference(name, aspect, getattr(a, aspect),
+                                               getattr(b, aspect)))
         if a.other != b.other:
-            found.append(FeatureDifference(name, "other", _text(dict(a.other)), _text(dict(b.other))))
+            found.append(FeatureDifference(name, "other", _text(dict(a.other)),
+                                           _text(dict(b.other))))
     return found

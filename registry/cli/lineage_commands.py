@@ -1,4 +1,4 @@
-"""Commands on lineage: `lineage NODE --up|--down`, and `recall`, which the dataset group carries."""
+"""Commands on lineage: `lineage NODE --up|--down`, and `recall` for the dataset group."""
 
 from __future__ import annotations
 
@@ -79,8 +79,9 @@ def _render_recall(outcome: recall_service.RecallOutcome) -> str:
         lines.extend(f"  {name}" for name in outcome.downstream_datasets)
     if outcome.downstream_versions:
         lines.append("downstream versions, flagged and blocked from promotion:")
-        lines.extend(f"  {v.model} v{v.version}" + (f"  [{', '.join(v.stages)}]" if v.stages else "")
-                     for v in outcome.downstream_versions)
+        for v in outcome.downstream_versions:
+            held = f"  [{', '.join(v.stages)}]" if v.stages else ""
+            lines.append(f"  {v.model} v{v.version}{held}")
     if outcome.holding_stages:
         lines.append("act on these now (they hold a stage):")
         lines.extend(f"  {s.model} v{s.version} in {s.stage}" for s in outcome.holding_stages)

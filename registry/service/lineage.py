@@ -47,7 +47,8 @@ class LineageEdge:
 
     source: str
     target: str
-    relation: str  # derived-from | trained-on | evaluated-on | parent-version | held-by | was-held-by
+    # derived-from | trained-on | evaluated-on | parent-version | held-by | was-held-by
+    relation: str
 
 
 @dataclass(frozen=True)

@@ -228,7 +228,8 @@ def walk_statement(seeds: Seeds, direction: Direction, max_depth: int | None = N
     """One statement: every node reached from the seeds, each once, with its smallest depth."""
     if max_depth is not None and max_depth < 0:
         raise ValueError("max_depth must be at least 0")
-    reached = (_downstream if direction == "down" else _upstream)(seeds, max_depth).subquery("reached")
+    build = _downstream if direction == "down" else _upstream
+    reached = build(seeds, max_depth).subquery("reached")
     return (select(reached.c.kind, reached.c.ref, reached.c.stage,
                    func.min(reached.c.depth).label("depth"))
             .group_by(reached.c.kind, reached.c.ref, reached.c.stage))
