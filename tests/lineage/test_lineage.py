@@ -214,3 +214,11 @@ def test_recall_needs_a_publisher_or_approver(shared):
 
     with pytest.raises(Forbidden):
         recall_dataset(shared, "brackwater-telemetry-extract", "fault", Actor("visitor"))
+
+
+def test_recall_in_text_names_what_to_act_on(brackwater, catalogue_url):
+    result = CliRunner().invoke(_recall_shell(catalogue_url),
+                                ["recall", "brackwater-telemetry-extract", "--reason", "fault"])
+    assert result.exit_code == 0, result.output
+    assert "recalled brackwater-telemetry-extract: fault" in result.stdout
+    assert "act on these now" in result.stdout and "main-burst-risk v1 in live" in result.stdout

@@ -310,3 +310,38 @@ def test_a_neighbourhood_too_large_to_draw_is_listed_instead(tmp_path):
         app.extensions["lockkeeper"].close()
     assert '<svg class="lineage"' not in html and "more than a drawing can show" in html
     assert html.count('href="/lineage?node=dataset/part-') == count
+
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+_ANY_TEXT = st.text(st.characters(blacklist_categories=("Cs",)), max_size=40)
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(path=st.sampled_from(["/lineage", "/models/main-burst-risk/compare",
+                             "/datasets/brackwater-training-set", "/models/main-burst-risk",
+                             "/"]),
+       names=st.lists(st.sampled_from(["node", "depth", "direction", "a", "b", "against", "x"]),
+                      max_size=4),
+       values=st.lists(_ANY_TEXT, min_size=4, max_size=4))
+def test_no_query_string_makes_a_page_fail(client, path, names, values):
+    from urllib.parse import urlencode
+
+    query = urlencode(list(zip(names, values)))
+    response = client.get(f"{path}?{query}")
+    assert response.status_code in (200, 400, 404), (path, query, response.status_code)
+
+
+@settings(max_examples=60, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(template=st.sampled_from(["/models/{}", "/models/{}/versions/1",
+                                 "/models/{}/compare?a=1&b=2", "/datasets/{}",
+                                 "/models/main-burst-risk/versions/{}", "/lineage?node={}"]),
+       name=_ANY_TEXT)
+def test_no_name_in_a_path_makes_a_page_fail(client, template, name):
+    from urllib.parse import quote
+
+    response = client.get(template.format(quote(name, safe="")))
+    assert response.status_code in (200, 400, 404, 308), (template, name, response.status_code)
