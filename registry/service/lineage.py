@@ -104,7 +104,11 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
         found = uow.session.execute(
             select(t.Dataset.id).where(t.Dataset.name == m.group(1))).scalar_one_or_none()
         if found is None:
-            raise NotFound(f"unknown dataset {m.group(1)!r}", place="NODE")
+            hint = ""
+            if uow.session.execute(select(t.Model.id).where(t.Model.name == m.group(1))).first():
+                hint = (f"; {m.group(1)!r} is a model: name one of its versions "
+                        f"({m.group(1)}@N) or stages (model/{m.group(1)}/stage/STAGE)")
+            raise NotFound(f"unknown dataset {m.group(1)!r}{hint}", place="NODE")
         return node, walks.NodeKey("dataset", found)
     if m := _VERSION_ID.match(node):
         model_id = _model_id(uow, m.group(1))

@@ -222,3 +222,8 @@ def test_recall_in_text_names_what_to_act_on(brackwater, catalogue_url):
     assert result.exit_code == 0, result.output
     assert "recalled brackwater-telemetry-extract: fault" in result.stdout
     assert "act on these now" in result.stdout and "main-burst-risk v1 in live" in result.stdout
+
+
+def test_a_model_name_alone_is_not_found_with_a_hint(shared):
+    with pytest.raises(NotFound, match="is a model"):
+        lineage_of(shared, "main-burst-risk", "up")
