@@ -47,6 +47,8 @@ COMMAND_MODULES = [
     "registry.cli.schema_commands",
     "registry.cli.metrics_commands",
     "registry.cli.dataset_commands",
+    "registry.cli.dataset_catalogue_commands",
+    "registry.cli.document_commands",
     "registry.cli.lineage_commands",
     "registry.cli.serve_commands",
 ]

@@ -73,6 +73,18 @@ def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format:
                                 exclude=exclude, progress=progress)
 
 
+def file_or_catalogue_fingerprint(argument: str, schema_json: dict[str, Any] | None):
+    """A file's fingerprint, or, when no such file exists, a registered dataset's."""
+    if os.path.exists(argument):
+        return fingerprint_path(argument, schema_json, None)
+    from registry.names import NAME_PATTERN
+    from registry.service.datasets import fingerprint_of
+
+    if not NAME_PATTERN.fullmatch(argument):
+        raise UserError("no such file", place=argument)
+    return fingerprint_of(click.get_current_context().obj.catalogue(), argument)
+
+
 @dataset.command("fingerprint")
 @click.argument("file", type=click.Path(dir_okay=False))
 @click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
@@ -99,12 +111,14 @@ def fingerprint_command(file: str, schema_path: str | None, file_format: str | N
 @json_option
 def compare_command(reference: str, current: str, schema_path: str | None,
                     as_json: bool) -> None:
-    """Compare dataset A (the reference) with B: record overlap and drift of every column."""
+    """Compare dataset A (the reference) with B: record overlap and drift of every column.
+
+    A and B are files, or the names of registered datasets."""
     from registry.datasets import compare
 
     schema_json = load_schema(schema_path)
-    comparison = compare(fingerprint_path(reference, schema_json, None),
-                         fingerprint_path(current, schema_json, None))
+    comparison = compare(file_or_catalogue_fingerprint(reference, schema_json),
+                         file_or_catalogue_fingerprint(current, schema_json))
     emit(comparison.to_dict(), as_json, render_comparison)
 
 

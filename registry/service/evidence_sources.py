@@ -116,16 +116,76 @@ def acknowledgements(uow: UnitOfWork, version: t.Version, stage: str,
                  for row in rows for change in review)
 
 
+def _definitions(version: t.Version):
+    from registry.features import parse_feature_file
+
+    if not version.features_json:
+        return None
+    return parse_feature_file(json.loads(version.features_json)["toml"],
+                              origin=f"version {version.number} features")
+
+
 def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.FeatureChange, ...]:
-    return ()
+    """The semantic diff of feature definitions, incumbent to candidate (registry.features)."""
+    from registry.features import diff_features
+
+    old, new = _definitions(incumbent), _definitions(candidate)
+    if new is None and old is None:
+        return ()
+    if new is None or old is None:
+        # Without definitions on both sides, no meaning can be compared: a person must look.
+        which = f"version {candidate.number}" if new is None else f"version {incumbent.number}"
+        return (gates.FeatureChange(field="*", kind="definitions-missing",
+                                    classification="needs-review",
+                                    message=f"{which} was registered without feature "
+                                            "definitions, so no change of meaning can be ruled out"),)
+    found = diff_features(old, _schema_of(incumbent, "input"), new, _schema_of(candidate, "input"))
+    return tuple(gates.FeatureChange(field=change.path, kind=change.change,
+                                     classification=change.severity, message=change.message)
+                 for change in found.changes)
 
 
 def containment(uow: UnitOfWork, version: t.Version) -> tuple[gates.ContainmentEstimate, ...]:
-    return ()
+    """For each (training, evaluation) pair of the version: the share of the evaluation set's
+    feature-only records (key and label left out) that also occur in the training set, from
+    bottom-k sketches (Broder 1997; Cohen and Kaplan 2007)."""
+    from registry.datasets import overlap
+    from registry.service.datasets import load_fingerprint
+
+    linked = _linked(uow, version)
+    training = [d for relation, d in linked if relation == "trained-on"]
+    evaluation = [d for relation, d in linked if relation == "evaluated-on"]
+    estimates = []
+    for train in training:
+        train_sketch = load_fingerprint(uow, train).feature_sketch
+        for held_out in evaluation:
+            found = overlap(train_sketch, load_fingerprint(uow, held_out).feature_sketch)
+            estimates.append(gates.ContainmentEstimate(
+                training_dataset=train.name, evaluation_dataset=held_out.name,
+                containment=found.containment, error_bound=found.containment_error_bound,
+                method="exact" if found.is_exact else "bottom-k"))
+    return tuple(estimates)
 
 
 def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
-    return None
+    """The newest live sample registered as taken from this model's feed, with the counts of
+    enum symbols, union branches and nulls per column from its profile."""
+    from registry.service.datasets import load_fingerprint
+
+    sample = uow.session.execute(
+        select(t.Dataset).where(t.Dataset.feed_model_id == model.id,
+                                t.Dataset.role == "live-sample")
+        .order_by(t.Dataset.created_at.desc(), t.Dataset.id.desc())).scalars().first()
+    if sample is None:
+        return None
+    profile = load_fingerprint(uow, sample).to_dict().get("profile", {})
+    columns = {
+        name: gates.ColumnCounts(enum_symbols=dict(column.get("symbols") or {}),
+                                 union_branches=dict(column.get("branches") or {}),
+                                 nulls=int(column.get("nulls", 0)))
+        for name, column in profile.items()}
+    return gates.SampleProfile(dataset=sample.name, fingerprint=sample.content_digest,
+                               rows=sample.rows, columns=columns)
 
 
 def _quality_settings(specs) -> dict[str, dict]:

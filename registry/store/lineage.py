@@ -377,8 +377,8 @@ def _dataset_distances(session: Session, dataset_ids: Iterable[int], direction: 
     starts = sorted(set(dataset_ids))
     if not starts:
         return {}
-    seed = union(*[select(literal(i, Integer).label("id")) for i in starts]) if len(starts) > 1 \
-        else select(literal(starts[0], Integer).label("id"))
+    # One IN list, not a compound of literal rows: SQLite allows at most 500 compound terms.
+    seed = select(t.Dataset.id.label("id")).where(t.Dataset.id.in_(starts))
     reached = [r for r in walk(session, Seeds(datasets=seed), direction, depth)
                if r.key.kind == "dataset"]
     if depth is not None:
