@@ -179,8 +179,58 @@ def _text(value: Any) -> str:
     return json.dumps(value, sort_keys=True, default=str)[:200]
 
 
+def feature_definitions(features: Any) -> Any:
+    """The stored definitions as registry.features reads them ({"toml": ...} as registration
+    stores it), or None when they are absent, in another form, or unreadable."""
+    if not isinstance(features, dict) or not isinstance(features.get("toml"), str):
+        return None
+    try:
+        from registry.features import parse_feature_file
+
+        return parse_feature_file(features["toml"], origin="stored definitions")
+    except Exception:  # ImportError, or definitions this build cannot read
+        return None
+
+
+def _domain_text(domain: Any) -> str:
+    if domain is None:
+        return ""
+    if hasattr(domain, "values"):
+        return "one of " + ", ".join(str(v) for v in domain.values)
+    if hasattr(domain, "minimum"):
+        return f"{_number_text(domain.minimum)} to {_number_text(domain.maximum)}"
+    return _text(domain)
+
+
+def _number_text(value: float) -> str:
+    if value == float("inf"):
+        return "∞"
+    if value == float("-inf"):
+        return "−∞"
+    return f"{value:g}"
+
+
+def _rows_of_definitions(definitions: Any) -> list[FeatureRow]:
+    rows = []
+    for d in definitions.definitions:
+        other = []
+        if d.source is not None:
+            other.append(("source", f"{d.source.dataset} column {d.source.column}"))
+        for key in ("transform", "owner"):
+            if getattr(d, key, None):
+                other.append((key, str(getattr(d, key))))
+        rows.append(FeatureRow(name=d.path, description=d.description, unit=d.unit or "",
+                               domain=_domain_text(d.domain), nullable="yes" if d.nullable else "no",
+                               other=tuple(other)))
+    return rows
+
+
 def feature_rows(features: Any) -> list[FeatureRow]:
-    """Feature definitions as rows, from a mapping by name or a list of definitions."""
+    """Feature definitions as rows: read by registry.features when stored as registration
+    stores them, otherwise from a mapping by name or a list of definitions."""
+    definitions = feature_definitions(features)
+    if definitions is not None:
+        return _rows_of_definitions(definitions)
     items: list[tuple[str, Any]] = []
     if isinstance(features, dict):
         inner = features.get("features", features)
@@ -211,9 +261,17 @@ class FeatureDifference:
     aspect: str
     before: str
     after: str
+    severity: str = ""  # from registry.features: breaking, needs-review, safe
+    message: str = ""
 
 
-def compare_features(old: Any, new: Any) -> list[FeatureDifference]:
+def compare_features(old: Any, new: Any, old_schema: Any = None,
+                     new_schema: Any = None) -> list[FeatureDifference]:
+    """The semantic diff of registry.features when both versions' definitions are readable
+    by it (the schemas supply renames through aliases); otherwise a field-by-field comparison."""
+    semantic = _semantic_feature_diff(old, new, old_schema, new_schema)
+    if semantic is not None:
+        return semantic
     before = {r.name: r for r in feature_rows(old)}
     after = {r.name: r for r in feature_rows(new)}
     found = []
@@ -232,3 +290,24 @@ def compare_features(old: Any, new: Any) -> list[FeatureDifference]:
             found.append(FeatureDifference(name, "other", _text(dict(a.other)),
                                            _text(dict(b.other))))
     return found
+
+
+def _semantic_feature_diff(old: Any, new: Any, old_schema: Any,
+                           new_schema: Any) -> list[FeatureDifference] | None:
+    old_definitions, new_definitions = feature_definitions(old), feature_definitions(new)
+    if old_definitions is None or new_definitions is None:
+        return None
+    try:
+        from registry import schema as avro
+        from registry.features import diff_features
+
+        def loaded(schema: Any) -> Any:
+            return avro.load(json.dumps(schema)) if schema is not None else None
+
+        result = diff_features(old_definitions, loaded(old_schema), new_definitions,
+                               loaded(new_schema))
+    except Exception:  # definitions that contradict their schema: compare field by field
+        return None
+    return [FeatureDifference(name=c.path, aspect=c.change, before=_text(c.before),
+                              after=_text(c.after), severity=str(c.severity),
+                              message=c.message) for c in result.changes]

@@ -108,7 +108,8 @@ def compare(name: str):
         "compare.html", a=first, b=second,
         input_diff=schemas.compare_schemas(first.input_schema, second.input_schema),
         output_diff=schemas.compare_schemas(first.output_schema, second.output_schema),
-        feature_diff=schemas.compare_features(first.features, second.features),
+        feature_diff=schemas.compare_features(first.features, second.features,
+                                              first.input_schema, second.input_schema),
         metrics=comparisons.metric_differences(first, second))
 
 

@@ -13,7 +13,6 @@ from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
 
-from registry.manifest import Manifest
 from registry.service import models, registration
 from registry.service.actors import Actor
 from registry.service.roles import grant_role
@@ -81,47 +80,18 @@ def add_evaluation(catalogue: Catalogue, model: str, number: int, folder: Path, 
                                      predictions=predictions, slice_columns=slices), INES)
 
 
-def _features(schema: dict) -> str:
-    units = {"pipe_age_years": "a", "diameter_mm": "mm", "mean_pressure_kpa": "kPa",
-             "mean_pressure_psi": "[psi]", "pressure_transients_7d": "{count}",
-             "min_air_temp_c_7d": "Cel", "repairs_5y": "{count}", "mains_length_km": "km",
-             "connections": "{count}", "mean_night_pressure_kpa": "kPa",
-             "min_night_flow_l_h": "L/h"}
-    features = {}
-    for field in schema["fields"]:
-        definition = {"description": f"{field['name'].replace('_', ' ')} of the record",
-                      "nullable": False, "source": "asset register or telemetry"}
-        if field["name"] in units:
-            definition["unit"] = units[field["name"]]
-            definition["domain"] = {"min": 0, "max": 1000}
-        elif isinstance(field["type"], dict) and field["type"].get("type") == "enum":
-            definition["domain"] = {"categories": field["type"]["symbols"]}
-        features[field["name"]] = definition
-    return json.dumps(features, sort_keys=True)
+def register(catalogue: Catalogue, model: str, folder: Path, number: int,
+             parent: int | None = None) -> int:
+    """Through the registration use case, from the seed manifest (with a parent version)."""
+    import dataclasses
 
+    from registry.cli.catalogue_commands import registration_request
 
-def register(catalogue: Catalogue, model: str, folder: Path, number: int, input_schema: str,
-             output_schema: str, trained_on: str, evaluated_on: str,
-             parent: int | None = None, description: str = "") -> int:
-    document = folder / "documents" / f"{model}-v{number}.pfa.json"
-    schema_text = (folder / "schemas" / input_schema).read_text()
-    manifest = Manifest(input_schema=input_schema, output_schema=output_schema,
-                        description=description or f"{model} version {number}",
-                        code_revision=f"{number:07x}", author=INES.name,
-                        trained_on=(trained_on,), evaluated_on=(evaluated_on,),
-                        parent_version=parent)
-    request = registration.RegistrationRequest(
-        model=model, document=document.read_bytes(), document_name=document.name,
-        manifest=manifest, input_schema_text=schema_text,
-        output_schema_text=(folder / "schemas" / output_schema).read_text())
-    outcome = registration.register_version(catalogue, request, INES)
-    with UnitOfWork(catalogue) as uow:
-        row = uow.session.query(t.Version).filter_by(number=outcome.version).join(
-            t.Model, t.Model.id == t.Version.model_id).filter(t.Model.name == model).one()
-        # Feature definitions have no reader on this branch yet: store what one would.
-        row.features_json = _features(json.loads(schema_text))
-        uow.commit()
-    return outcome.version
+    request = registration_request(model, str(folder / "documents" / f"{model}-v{number}.pfa.json"),
+                                   str(folder / "manifests" / f"{model}-v{number}.toml"), None)
+    request = dataclasses.replace(
+        request, manifest=dataclasses.replace(request.manifest, parent_version=parent))
+    return registration.register_version(catalogue, request, INES).version
 
 
 def _report(model: str, number: int, stage: str, passed: bool, when: datetime) -> str:
@@ -201,14 +171,9 @@ def build_brackwater(catalogue: Catalogue, *, markup_model: bool = False) -> Non
     if markup_model:
         models.create_model(catalogue, "markup-check",
                             "<script>window.scriptRan = true;</script><b>bold?</b> & more", INES)
-    schemas = {1: "segment-v1.avsc", 2: "segment-v2.avsc", 3: "segment-v3.avsc",
-               4: "segment-v4.avsc"}
     for number, parent in ((1, None), (2, 1), (3, 2), (4, 2)):
-        register(catalogue, "main-burst-risk", BRACKWATER, number, schemas[number],
-                 "burst-risk.avsc", "brackwater-training-set", "brackwater-evaluation-set",
-                 parent=parent)
-    register(catalogue, "night-flow-leak", NIGHT_FLOW, 1, "meter-area-v1.avsc",
-             "leak-estimate.avsc", "night-flow-training-set", "night-flow-evaluation-set")
+        register(catalogue, "main-burst-risk", BRACKWATER, number, parent=parent)
+    register(catalogue, "night-flow-leak", NIGHT_FLOW, 1)
     for number in (1, 2, 3):
         add_evaluation(catalogue, "main-burst-risk", number, BRACKWATER,
                        "brackwater-evaluation-set", "binary", ("district",))
