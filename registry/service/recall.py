@@ -78,8 +78,17 @@ def _downstream_of_dataset(uow: UnitOfWork, dataset: t.Dataset):
          for k in (walks.NodeKey("version", i) for i in version_ids)),
         key=lambda v: (v.model, v.version)))
     to_act = tuple(StageToActOn(v.model, v.version, stage)
-                   for v in versions for stage in v.stages)
+                   for v in versions for stage in v.stages
+                   if stage not in _resting_stages(uow, v.model))
     return datasets, versions, to_act
+
+
+def _resting_stages(uow: UnitOfWork, model: str) -> tuple[str, ...]:
+    """Stages from which nothing is served: the first rung of the ladder, and retired."""
+    from registry.service.gatekeeping import policy_of
+
+    line = uow.session.execute(select(t.Model).where(t.Model.name == model)).scalar_one()
+    return (policy_of(line).ladder[0], "retired")
 
 
 def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -> RecallOutcome:

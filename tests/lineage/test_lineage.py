@@ -164,8 +164,8 @@ def test_recall_flags_downstream_and_names_the_versions_in_a_stage(brackwater, c
                                               "brackwater-training-set"]
     assert [(v["model"], v["version"]) for v in outcome["downstream_versions"]] == [
         ("main-burst-risk", n) for n in (1, 2, 3, 4)]
-    assert {(s["version"], s["stage"]) for s in outcome["holding_stages"]} == {
-        (1, "live"), (3, "candidate"), (4, "candidate")}
+    # Only stages something is served from need acting on: not candidate, not retired.
+    assert {(s["version"], s["stage"]) for s in outcome["holding_stages"]} == {(1, "live")}
     graph = lineage_of(brackwater, "main-burst-risk@2", "up")
     assert graph.node(TELEMETRY).recalled and graph.node(V(2)).flagged
     assert not graph.node("dataset/brackwater-asset-register").flagged
