@@ -6,7 +6,7 @@ import json
 
 import click
 
-from registry.cli.output import emit, json_option, to_plain
+from registry.cli.output import emit, json_option
 from registry.errors import UserError
 from registry.service import lineage as lineage_service
 from registry.service import recall as recall_service
@@ -24,23 +24,24 @@ def _actor() -> Actor:
     return load_actor(context.catalogue(), context.user)
 
 
-def _render_graph(graph: lineage_service.LineageGraph) -> str:
-    way = {"up": "upstream of", "down": "downstream of", "both": "around"}[graph.direction]
-    lines = [f"{way} {graph.root}" + (f" (depth {graph.depth})" if graph.depth is not None else "")]
-    for node in graph.nodes:
-        if node.id == graph.root:
+def _render_graph(graph: dict) -> str:
+    way = {"up": "upstream of", "down": "downstream of", "both": "around"}[graph["direction"]]
+    depth_limit = graph.get("depth")
+    lines = [f"{way} {graph['root']}" + (f" (depth {depth_limit})" if depth_limit is not None
+                                         else "")]
+    for node in graph["nodes"]:
+        if node["id"] == graph["root"]:
             continue
-        marks = [word for word, on in (("RECALLED", node.recalled),
-                                       ("flagged", node.flagged and not node.recalled),
-                                       ("formerly", node.kind == "stage" and not node.current))
-                 if on]
-        depth = f"{node.depth:>3}  " if node.depth is not None else "  "
-        lines.append(f"  {depth}{node.id}" + (f"  [{', '.join(marks)}]" if marks else ""))
+        marks = [word for word, on in (
+            ("RECALLED", node["recalled"]), ("flagged", node["flagged"] and not node["recalled"]),
+            ("formerly", node["kind"] == "stage" and not node.get("current", True))) if on]
+        depth = f"{node['depth']:>3}  " if node.get("depth") is not None else "  "
+        lines.append(f"  {depth}{node['id']}" + (f"  [{', '.join(marks)}]" if marks else ""))
     if len(lines) == 1:
         lines.append("  nothing")
-    if graph.edges:
+    if graph["edges"]:
         lines.append("edges:")
-        lines.extend(f"  {e.source}  {e.relation}  {e.target}" for e in graph.edges)
+        lines.extend(f"  {e['source']}  {e['relation']}  {e['target']}" for e in graph["edges"])
     return "\n".join(lines)
 
 
@@ -72,19 +73,20 @@ def lineage(node: str, direction: str | None, depth: int | None, output_format: 
     emit(graph, output_format == "json", _render_graph)
 
 
-def _render_recall(outcome: recall_service.RecallOutcome) -> str:
-    lines = [f"recalled {outcome.dataset}: {outcome.reason}"]
-    if outcome.downstream_datasets:
+def _render_recall(outcome: dict) -> str:
+    lines = [f"recalled {outcome['dataset']}: {outcome['reason']}"]
+    if outcome["downstream_datasets"]:
         lines.append("downstream datasets, flagged:")
-        lines.extend(f"  {name}" for name in outcome.downstream_datasets)
-    if outcome.downstream_versions:
+        lines.extend(f"  {name}" for name in outcome["downstream_datasets"])
+    if outcome["downstream_versions"]:
         lines.append("downstream versions, flagged and blocked from promotion:")
-        for v in outcome.downstream_versions:
-            held = f"  [{', '.join(v.stages)}]" if v.stages else ""
-            lines.append(f"  {v.model} v{v.version}{held}")
-    if outcome.holding_stages:
+        for v in outcome["downstream_versions"]:
+            held = f"  [{', '.join(v['stages'])}]" if v["stages"] else ""
+            lines.append(f"  {v['model']} v{v['version']}{held}")
+    if outcome["holding_stages"]:
         lines.append("act on these now (they hold a stage):")
-        lines.extend(f"  {s.model} v{s.version} in {s.stage}" for s in outcome.holding_stages)
+        lines.extend(f"  {s['model']} v{s['version']} in {s['stage']}"
+                     for s in outcome["holding_stages"])
     else:
         lines.append("no flagged version holds a stage")
     return "\n".join(lines)
@@ -97,7 +99,7 @@ def _render_recall(outcome: recall_service.RecallOutcome) -> str:
 def recall_command(name: str, reason: str, as_json: bool) -> None:
     """Recall dataset NAME: flag everything downstream and block it from promotion."""
     outcome = recall_service.recall_dataset(_context().catalogue(), name, reason, _actor())
-    emit(to_plain(outcome), as_json, lambda _: _render_recall(outcome))
+    emit(outcome, as_json, _render_recall)
 
 
 COMMANDS = [lineage]
