@@ -85,7 +85,8 @@ def build_graph_catalogue(path):
             {"child_id": c, "parent_id": p} for c, p in dataset_edges])
         connection.execute(insert(t.Version), [
             {"id": v, "model_id": m, "number": n, "parent_number": parent,
-             "document_digest": "0" * 64, "document_kind": "artifact",
+             "document_digest": "0" * 64, "stored_blob_digest": "0" * 64,
+             "document_kind": "artifact",
              "document_summary_json": "{}", "input_schema_json": "{}",
              "registration_digest": "0" * 64, "created_at": now, "created_by": "bench"}
             for v, m, n, parent in version_rows])

@@ -227,3 +227,12 @@ def test_recall_in_text_names_what_to_act_on(brackwater, catalogue_url):
 def test_a_model_name_alone_is_not_found_with_a_hint(shared):
     with pytest.raises(NotFound, match="is a model"):
         lineage_of(shared, "main-burst-risk", "up")
+
+
+def test_dataset_recall_is_a_command_of_the_dataset_group(brackwater, cli):
+    outcome = cli.json("dataset", "recall", "brackwater-telemetry-extract", "--reason",
+                       "calibration fault")
+    assert outcome["dataset"] == "brackwater-telemetry-extract"
+    assert {"model": "main-burst-risk", "version": 1, "stage": "live"} in outcome["holding_stages"]
+    again = cli("dataset", "recall", "brackwater-telemetry-extract", "--reason", "again")
+    assert again.exit_code == 2 and "already recalled" in again.stderr
