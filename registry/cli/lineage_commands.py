@@ -102,15 +102,5 @@ def recall_command(name: str, reason: str, as_json: bool) -> None:
     emit(outcome, as_json, _render_recall)
 
 
-def _join_dataset_group() -> None:
-    # `lockkeeper dataset recall`: recall joins the `dataset` group, as the catalogue's other
-    # dataset commands do (registry/cli/dataset_catalogue_commands.py).
-    from registry.cli.dataset_commands import dataset
-
-    if "recall" not in dataset.commands:
-        dataset.add_command(recall_command)
-
-
-_join_dataset_group()
 
 COMMANDS = [lineage]
