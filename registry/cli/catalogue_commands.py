@@ -73,7 +73,7 @@ def model() -> None:
 def model_create(name: str, description: str, as_json: bool) -> None:
     """Create a model line NAME."""
     summary = models.create_model(_context().catalogue(), name, description, _actor())
-    emit(summary, as_json, lambda s: f"created model {s.name}")
+    emit(summary, as_json, lambda s: f"created model {s['name']}")
 
 
 @model.command("list")
@@ -82,17 +82,17 @@ def model_list(as_json: bool) -> None:
     """List every model with its number of versions and who holds each stage."""
     found = models.list_models(_context().catalogue())
 
-    def text(items):
-        if not items:
+    def text(d):
+        if not d["models"]:
             return "no models yet"
         lines = []
-        for item in items:
+        for item in d["models"]:
             held = ", ".join(f"{stage}: v{','.join(map(str, numbers))}"
-                             for stage, numbers in item.stages.items()) or "no stages held"
-            lines.append(f"{item.name}  {item.versions} version(s)  {held}")
+                             for stage, numbers in item["stages"].items()) or "no stages held"
+            lines.append(f"{item['name']}  {item['versions']} version(s)  {held}")
         return "\n".join(lines)
 
-    emit({"models": found} if as_json else found, as_json, text)
+    emit({"models": found}, as_json, text)
 
 
 @model.command("show")
@@ -103,12 +103,13 @@ def model_show(name: str, as_json: bool) -> None:
     detail = models.show_model(_context().catalogue(), name)
 
     def text(d):
-        lines = [f"{d.model.name}: {d.model.description}".rstrip(": "),
-                 f"created {d.model.created_at} by {d.model.created_by}"]
-        for v in d.versions:
-            stages = f"  [{', '.join(v.stages)}]" if v.stages else ""
-            lines.append(f"  v{v.number}  {v.document_kind}  {v.document_digest[:12]}  "
-                         f"{v.author}  {v.description}{stages}")
+        model = d["model"]
+        lines = [f"{model['name']}: {model['description']}".rstrip(": "),
+                 f"created {model['created_at']} by {model['created_by']}"]
+        for v in d["versions"]:
+            stages = f"  [{', '.join(v['stages'])}]" if v["stages"] else ""
+            lines.append(f"  v{v['number']}  {v['document_kind']}  {v['document_digest'][:12]}  "
+                         f"{v['author']}  {v['description']}{stages}")
         return "\n".join(lines)
 
     emit(detail, as_json, text)
@@ -127,9 +128,17 @@ def register(model_name: str, document: str, manifest_path: str, features_path: 
     """Register DOCUMENT as the next version of MODEL."""
     request = registration_request(model_name, document, manifest_path, features_path)
     outcome = registration.register_version(_context().catalogue(), request, _actor())
-    emit(outcome, as_json, lambda o: (f"registered {o.model} version {o.version}" if o.created
-                                      else f"{o.model} version {o.version} already holds this "
-                                           "registration; nothing changed"))
+    emit(outcome, as_json, render_registration)
+
+
+def render_registration(o: dict) -> str:
+    if not o["created"]:
+        return (f"{o['model']} version {o['version']} already holds this registration; "
+                "nothing changed")
+    text = f"registered {o['model']} version {o['version']}"
+    if o.get("missing_features"):
+        text += f"\nno feature definition yet for: {', '.join(o['missing_features'])}"
+    return text
 
 
 def registration_request(model_name: str, document: str, manifest_path: str,
@@ -170,9 +179,9 @@ def audit_verify(as_json: bool) -> None:
     def text(d):
         if d["ok"]:
             return (f"audit chain intact: {d['events']} events, {d['blobs']} blobs, "
-                    f"{d['versions']} versions checked")
+                    f"{d['versions']} versions, {d['datasets']} datasets checked")
         return "\n".join([f"BROKEN at {d['first_broken_link']}"] +
-                         [f"  {f.place}: {f.problem}" for f in d["findings"]])
+                         [f"  {f['place']}: {f['problem']}" for f in d["findings"]])
 
     emit(document, as_json, text)
     if not report.ok:

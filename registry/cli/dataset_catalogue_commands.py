@@ -12,6 +12,7 @@ import click
 from registry.cli.catalogue_commands import _actor, _context
 from registry.cli.dataset_commands import (FORMAT_CHOICE, dataset, fingerprint_path, load_schema,
                                            render_fingerprint)
+from registry.cli.lineage_commands import recall_command
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
 
@@ -51,9 +52,9 @@ def dataset_add(name: str, file: str, schema_path: str | None, file_format: str 
                              derived_from=derived_from, feed_of=feed_of)
     summary = add_dataset(catalogue, request, _actor())
     emit(summary, as_json, lambda s: (
-        f"registered dataset {s.name} ({s.role}, {s.rows} rows, {s.content_digest[:12]})"
-        if s.created else f"dataset {s.name} is already registered with this content; "
-                          "nothing changed"))
+        f"registered dataset {s['name']} ({s['role']}, {s['rows']} rows, "
+        f"{s['content_digest'][:12]})" if s["created"]
+        else f"dataset {s['name']} is already registered with this content; nothing changed"))
 
 
 @dataset.command("show")
@@ -66,10 +67,11 @@ def dataset_show(name: str, as_json: bool) -> None:
     summary = show_dataset(_context().catalogue(), name)
 
     def text(s):
-        head = [f"{s.name}  ({s.role}, {s.rows} rows){'  RECALLED: ' + s.recall_reason if s.recalled else ''}",
-                f"derived from        {', '.join(s.derived_from) or '-'}",
-                f"source              {s.source_uri}",
-                f"registered          {s.created_at} by {s.created_by}"]
+        recalled = f"  RECALLED: {s['recall_reason']}" if s["recalled"] else ""
+        head = [f"{s['name']}  ({s['role']}, {s['rows']} rows){recalled}",
+                f"derived from        {', '.join(s['derived_from']) or '-'}",
+                f"source              {s['source_uri']}",
+                f"registered          {s['created_at']} by {s['created_by']}"]
         return "\n".join(head) + "\n" + render_fingerprint(
             fingerprint_of(_context().catalogue(), name).to_dict())
 
@@ -84,8 +86,10 @@ def dataset_list(as_json: bool) -> None:
 
     found = list_datasets(_context().catalogue())
     emit({"datasets": found}, as_json, lambda d: "\n".join(
-        f"{s.name:<32} {s.role:<12} {s.rows:>8} rows{'  RECALLED' if s.recalled else ''}"
+        f"{s['name']:<32} {s['role']:<12} {s['rows']:>8} rows{'  RECALLED' if s['recalled'] else ''}"
         for s in d["datasets"]) or "no datasets yet")
 
+
+dataset.add_command(recall_command, "recall")
 
 COMMANDS: list = []  # the commands above join the `dataset` group

@@ -65,10 +65,10 @@ def evaluate(model_name: str, version: int, dataset_name: str, predictions_path:
     summary = add_evaluation(_context().catalogue(), request, _actor())
 
     def text(s):
-        shown = ", ".join(f"{name} {value:.4f}" for name, value in s.metrics.items()
+        shown = ", ".join(f"{name} {value:.4f}" for name, value in s["metrics"].items()
                           if isinstance(value, float))
-        verb = "evaluated" if s.created else "already evaluated (nothing changed):"
-        return f"{verb} {s.model} v{s.version} on {s.dataset} ({s.n} rows): {shown}"
+        verb = "evaluated" if s["created"] else "already evaluated (nothing changed):"
+        return f"{verb} {s['model']} v{s['version']} on {s['dataset']} ({s['n']} rows): {shown}"
 
     emit(summary, as_json, text)
 

@@ -34,13 +34,16 @@ def to_plain(value: Any) -> Any:
 
 
 def emit(document: Any, as_json: bool, render_text: Callable[[Any], str] | None = None) -> None:
-    """Print one report: the JSON document, or its text rendering for a person."""
+    """Print one report: the JSON document, or its text rendering for a person.
+
+    The renderer always gets the plain JSON form, so a report fetched from a remote catalogue
+    renders exactly like one computed here."""
     plain = to_plain(document)
     if as_json:
         click.echo(json.dumps(plain, indent=2, sort_keys=False, allow_nan=False, default=str))
         return
     if render_text is not None:
-        text = render_text(document)
+        text = render_text(plain)
     else:
         text = json.dumps(plain, indent=2, default=str)
     click.echo(text.rstrip("\n"))

@@ -27,14 +27,15 @@ def _waivers(gates: tuple[str, ...], reasons: tuple[str, ...], actor) -> list:
     return gatekeeping.parse_waivers(list(zip(gates, reasons)), actor)
 
 
-def _render_outcome(outcome: stages.StageOutcome, verb: str) -> str:
-    report = GateReport.from_dict(outcome.report)
-    if outcome.moved:
-        head = f"{verb}: {outcome.model} v{outcome.version} now holds {outcome.stage}"
-        if outcome.displaced:
-            head += f" (v{outcome.displaced} left it)"
+def _render_outcome(outcome: dict, verb: str) -> str:
+    report = GateReport.from_dict(outcome["report"])
+    where = f"{outcome['model']} v{outcome['version']}"
+    if outcome["moved"]:
+        head = f"{verb}: {where} now holds {outcome['stage']}"
+        if outcome["displaced"]:
+            head += f" (v{outcome['displaced']} left it)"
     else:
-        head = f"REFUSED: {outcome.model} v{outcome.version} may not enter {outcome.stage}"
+        head = f"REFUSED: {where} may not enter {outcome['stage']}"
     return head + "\n" + render_report(report)
 
 

@@ -1,0 +1,1 @@
+"""The catalogue's storage: tables, opening, unit of work, audit chain and lineage walks."""
