@@ -10,10 +10,10 @@ from registry.cli.output import emit, json_option
 
 
 def _render(verb: str):
-    def text(summary) -> str:
-        rows = sum(summary.tables.values())
-        return (f"{verb} {rows} rows and {summary.blobs} blobs ({summary.folder}); audit head "
-                f"event {summary.audit_sequence} {summary.audit_hash[:12]}")
+    def text(summary: dict) -> str:
+        rows = sum(summary["tables"].values())
+        return (f"{verb} {rows} rows and {summary['blobs']} blobs ({summary['folder']}); audit "
+                f"head event {summary['audit_sequence']} {summary['audit_hash'][:12]}")
     return text
 
 
