@@ -102,5 +102,4 @@ def recall_command(name: str, reason: str, as_json: bool) -> None:
     emit(outcome, as_json, _render_recall)
 
 
-
 COMMANDS = [lineage]
