@@ -44,6 +44,7 @@ COMMAND_MODULES = [
     "registry.cli.catalogue_commands",
     "registry.cli.stage_commands",
     "registry.cli.schema_commands",
+    "registry.cli.token_commands",
 ]
 
 
