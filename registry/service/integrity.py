@@ -107,12 +107,46 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
     return count, findings
 
 
+def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int, list[Finding]]:
+    from registry.service.datasets import dataset_registration_digest, parents_of
+
+    findings = []
+    count = 0
+    for dataset in uow.session.execute(select(t.Dataset).order_by(t.Dataset.name)).scalars():
+        count += 1
+        place = f"dataset/{dataset.name}"
+        feed_of = uow.session.get(t.Model, dataset.feed_model_id).name \
+            if dataset.feed_model_id else None
+        recomputed = dataset_registration_digest(
+            dataset.name, dataset.role, dataset.source_uri, dataset.content_digest,
+            dataset.schema_fingerprint, dataset.fingerprint_digest, parents_of(uow, dataset),
+            feed_of)
+        if recomputed != dataset.registration_digest:
+            findings.append(Finding(place, "its stored content no longer matches its "
+                                           "registration digest: it was changed after registration"))
+        recorded = registered.get(place)
+        if recorded is None:
+            findings.append(Finding(place, "no registration event in the audit log"))
+        elif recorded.get("registration_digest") != dataset.registration_digest:
+            findings.append(Finding(place, "its registration digest differs from the one the "
+                                           "audit log recorded"))
+        blob = uow.session.get(t.Blob, dataset.fingerprint_digest)
+        try:
+            stored = json.loads(blob.content) if blob else {}
+        except (json.JSONDecodeError, UnicodeDecodeError):
+            stored = {}
+        if stored.get("content_digest") != dataset.content_digest:
+            findings.append(Finding(place, "its stored fingerprint does not carry the content "
+                                           "digest it was registered with"))
+    return count, findings
+
+
 def verify_catalogue(catalogue: Catalogue) -> VerificationReport:
     with UnitOfWork(catalogue, write=False) as uow:
         events, findings, registered = _audit_findings(uow)
         blobs, blob_findings = _blob_findings(uow)
         versions, version_findings = _version_findings(uow, registered)
-        datasets = uow.session.query(t.Dataset).count()
-    everything = findings + blob_findings + version_findings
+        datasets, dataset_findings = _dataset_findings(uow, registered)
+    everything = findings + blob_findings + version_findings + dataset_findings
     return VerificationReport(ok=not everything, events=events, blobs=blobs, versions=versions,
                               datasets=datasets, findings=everything)

@@ -1,0 +1,164 @@
+"""Use cases on datasets: register a fingerprinted dataset with its parents, show, load back.
+
+Fingerprinting a file is pure and can take long, so shells do it before the transaction; the
+use case only checks and stores what it is given (a producer may compute the fingerprint on its
+own side and send it).
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+from sqlalchemy import select
+
+from registry.canonical_json import canonical_json, digest_of
+from registry.errors import AlreadyExists, NotFound, UserError
+from registry.names import check_name
+from registry.service.actors import Actor
+from registry.service.models import find_model
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork, utc_now
+
+if TYPE_CHECKING:
+    from registry.datasets import DatasetFingerprint
+
+DATASET_ROLES = ("source", "training", "evaluation", "live-sample")
+
+
+@dataclass(frozen=True)
+class DatasetRequest:
+    name: str
+    role: str
+    fingerprint: DatasetFingerprint
+    source_uri: str = ""
+    derived_from: tuple[str, ...] = ()
+    feed_of: str | None = None  # for a live sample: the model whose feed it was taken from
+
+
+@dataclass(frozen=True)
+class DatasetSummary:
+    name: str
+    role: str
+    rows: int
+    content_digest: str
+    schema_fingerprint: str
+    source_uri: str
+    derived_from: list[str]
+    feed_of: str | None
+    created_at: str
+    created_by: str
+    recalled: bool
+    recall_reason: str | None = None
+    created: bool = True
+    profile: dict[str, Any] = field(default_factory=dict)
+
+
+def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
+    dataset = uow.session.execute(select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+    if dataset is None:
+        raise NotFound(f"unknown dataset {name!r}", place="dataset")
+    return dataset
+
+
+def parents_of(uow: UnitOfWork, dataset: t.Dataset) -> list[str]:
+    return sorted(uow.session.execute(
+        select(t.Dataset.name).join(t.DatasetParent, t.DatasetParent.parent_id == t.Dataset.id)
+        .where(t.DatasetParent.child_id == dataset.id)).scalars())
+
+
+def load_fingerprint(uow: UnitOfWork, dataset: t.Dataset) -> DatasetFingerprint:
+    from registry.datasets import DatasetFingerprint
+
+    return DatasetFingerprint.from_dict(json.loads(uow.blobs.get(dataset.fingerprint_digest)))
+
+
+def dataset_registration_digest(name: str, role: str, source_uri: str, content_digest: str,
+                                schema_fingerprint: str, fingerprint_digest: str,
+                                parents: list[str], feed_of: str | None) -> str:
+    """What makes two dataset registrations the same; recomputed by `audit verify`."""
+    return digest_of({"name": name, "role": role, "source_uri": source_uri,
+                      "content_digest": content_digest, "schema_fingerprint": schema_fingerprint,
+                      "fingerprint_digest": fingerprint_digest, "derived_from": sorted(parents),
+                      "feed_of": feed_of})
+
+
+def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
+             with_profile: bool = False) -> DatasetSummary:
+    feed_of = uow.session.get(t.Model, dataset.feed_model_id).name if dataset.feed_model_id else None
+    profile = load_fingerprint(uow, dataset).to_dict().get("profile", {}) if with_profile else {}
+    return DatasetSummary(
+        name=dataset.name, role=dataset.role, rows=dataset.rows,
+        content_digest=dataset.content_digest, schema_fingerprint=dataset.schema_fingerprint,
+        source_uri=dataset.source_uri, derived_from=parents_of(uow, dataset), feed_of=feed_of,
+        created_at=dataset.created_at.isoformat(), created_by=dataset.created_by,
+        recalled=dataset.recalled_at is not None, recall_reason=dataset.recall_reason,
+        created=created, profile=profile)
+
+
+def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> DatasetSummary:
+    """Register a dataset; the same name with the same content again changes nothing."""
+    check_name(request.name, what="dataset")
+    if request.role not in DATASET_ROLES:
+        raise UserError(f"unknown dataset role {request.role!r}; roles are "
+                        f"{', '.join(DATASET_ROLES)}", place="--role")
+    if request.feed_of is not None and request.role != "live-sample":
+        raise UserError("--feed-of names the model a live sample was taken from; use it with "
+                        "--role live-sample", place="--feed-of")
+    if request.name in request.derived_from:
+        raise UserError("a dataset cannot be derived from itself", place="--derived-from")
+    fingerprint_bytes = canonical_json(request.fingerprint.to_dict())
+    with UnitOfWork(catalogue) as uow:
+        parents = [find_dataset(uow, name) for name in sorted(set(request.derived_from))]
+        feed_model = find_model(uow, request.feed_of) if request.feed_of else None
+        fingerprint_digest = uow.blobs.put(fingerprint_bytes)
+        digest = dataset_registration_digest(
+            request.name, request.role, request.source_uri, request.fingerprint.content_digest,
+            request.fingerprint.schema_fingerprint, fingerprint_digest,
+            [p.name for p in parents], request.feed_of)
+        existing = uow.session.execute(
+            select(t.Dataset).where(t.Dataset.name == request.name)).scalar_one_or_none()
+        if existing is not None:
+            if existing.registration_digest == digest:
+                return _summary(uow, existing, created=False)
+            raise AlreadyExists(f"a dataset named {request.name!r} is already registered with "
+                                "other content; datasets never change, so give this one a new "
+                                "name", place="dataset")
+        dataset = t.Dataset(
+            name=request.name, role=request.role, source_uri=request.source_uri,
+            rows=request.fingerprint.rows, content_digest=request.fingerprint.content_digest,
+            schema_fingerprint=request.fingerprint.schema_fingerprint,
+            schema_json=json.dumps(request.fingerprint.schema_json, sort_keys=True),
+            fingerprint_digest=fingerprint_digest, registration_digest=digest,
+            feed_model_id=feed_model.id if feed_model else None,
+            created_at=utc_now(), created_by=actor.name)
+        uow.session.add(dataset)
+        uow.session.flush()
+        for parent in parents:
+            uow.session.add(t.DatasetParent(child_id=dataset.id, parent_id=parent.id))
+        uow.session.flush()
+        uow.audit.append(actor.name, "dataset.add", f"dataset/{request.name}", {
+            "registration_digest": digest, "content_digest": request.fingerprint.content_digest,
+            "fingerprint_digest": fingerprint_digest, "role": request.role,
+            "derived_from": [p.name for p in parents]})
+        summary = _summary(uow, dataset)
+        uow.commit()
+        return summary
+
+
+def show_dataset(catalogue: Catalogue, name: str) -> DatasetSummary:
+    with UnitOfWork(catalogue, write=False) as uow:
+        return _summary(uow, find_dataset(uow, name), with_profile=True)
+
+
+def list_datasets(catalogue: Catalogue) -> list[DatasetSummary]:
+    with UnitOfWork(catalogue, write=False) as uow:
+        rows = uow.session.execute(select(t.Dataset).order_by(t.Dataset.name)).scalars().all()
+        return [_summary(uow, row) for row in rows]
+
+
+def fingerprint_of(catalogue: Catalogue, name: str) -> DatasetFingerprint:
+    with UnitOfWork(catalogue, write=False) as uow:
+        return load_fingerprint(uow, find_dataset(uow, name))
