@@ -192,7 +192,8 @@ def authenticate(catalogue: Catalogue, secret: str, *, now: datetime | None = No
             raise Unauthenticated(f"token {row.id} expired at {expires_at.isoformat()}",
                                   place="Authorization")
         held = _catalogue_roles(uow, row.user)
-    if row.role == "reader" or row.role in held or "admin" in held:
-        return Actor(name=row.user, roles=frozenset({row.role}))
+        user, role = row.user, row.role
+    if role == "reader" or role in held or "admin" in held:
+        return Actor(name=user, roles=frozenset({role}))
     # The user lost the role after the token was made: the token may still read.
-    return Actor(name=row.user, roles=frozenset({"reader"}))
+    return Actor(name=user, roles=frozenset({"reader"}))

@@ -1,0 +1,147 @@
+"""The role matrix: every write endpoint under every role, and nothing stored when refused."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import pytest
+
+from tests.api.api_helpers import HOLDERS, problem, set_up_model
+
+ROLES = (None, "reader", "publisher", "approver", "admin")
+
+
+@dataclass(frozen=True)
+class Write:
+    name: str
+    allowed: tuple[str, ...]
+    set_up: Callable  # (api, tmp_path, model) -> None, once per role on a model of its own
+    call: Callable    # (api, role, model) -> response
+
+
+def _model(api, tmp_path, model):
+    set_up_model(api, tmp_path, model, {"live": ["reads-live-feed"]})
+
+
+def _with_version(api, tmp_path, model):
+    _model(api, tmp_path, model)
+    assert api.register(model, tmp_path / model).status_code == 201
+
+
+def _with_failing_shadow_gate(api, tmp_path, model):
+    set_up_model(api, tmp_path, model, {"shadow": ["lineage-complete"]})
+    assert api.register(model, tmp_path / model).status_code == 201
+
+
+def _with_two_live(api, tmp_path, model):
+    _model(api, tmp_path, model)
+    api.register(model, tmp_path / model, tag="v1")
+    api.register(model, tmp_path / model, tag="v2")
+    for version in (1, 2):
+        assert api.post(f"/models/{model}/versions/{version}/promote", {"stage": "live"},
+                        role="admin").json["moved"]
+
+
+def _nothing(api, tmp_path, model):
+    pass
+
+
+def _token_to_revoke(api, tmp_path, model):
+    made = api.post("/tokens", {"user": "ines.okafor", "role": "reader", "label": model})
+    assert made.status_code == 201
+
+
+def _revoke_token(api, role, model):
+    listed = api.get("/tokens", role="admin").json["tokens"]
+    token_id = next(t["id"] for t in listed if t["label"] == model)
+    return api.delete(f"/tokens/{token_id}", role=role)
+
+
+WRITES = [
+    Write("create model", ("admin",), _nothing,
+          lambda api, role, model: api.post("/models", {"name": model}, role=role)),
+    Write("set policy", ("admin",), _model,
+          lambda api, role, model: api.put(f"/models/{model}/policy",
+                                           {"policy": "[stages.live]\nexclusive = true\n"},
+                                           role=role)),
+    Write("register", ("publisher", "admin"), _model,
+          lambda api, role, model: api.register(model, api_tmp[0] / model, role=role)),
+    Write("promote into an unguarded stage", ("publisher", "approver", "admin"), _with_version,
+          lambda api, role, model: api.post(f"/models/{model}/versions/1/promote",
+                                            {"stage": "shadow"}, role=role)),
+    Write("promote into a guarded stage", ("approver", "admin"), _with_version,
+          lambda api, role, model: api.post(f"/models/{model}/versions/1/promote",
+                                            {"stage": "live"}, role=role)),
+    Write("promote with a waiver", ("approver",), _with_failing_shadow_gate,
+          lambda api, role, model: api.post(
+              f"/models/{model}/versions/1/promote",
+              {"stage": "shadow", "waivers": [{"gate": "lineage-complete", "reason": "test"}]},
+              role=role)),
+    Write("approve", ("approver", "admin"), _with_version,
+          lambda api, role, model: api.post(f"/models/{model}/versions/1/approve",
+                                            {"stage": "live"}, role=role)),
+    Write("roll back a guarded stage", ("approver", "admin"), _with_two_live,
+          lambda api, role, model: api.post(f"/models/{model}/stages/live/rollback", role=role)),
+    Write("retire a candidate", ("publisher", "approver", "admin"), _with_version,
+          lambda api, role, model: api.post(f"/models/{model}/versions/1/retire", role=role)),
+    Write("grant a role", ("admin",), _nothing,
+          lambda api, role, model: api.post(f"/users/{model}/roles", {"role": "publisher"},
+                                            role=role)),
+    Write("revoke a role", ("admin",),
+          lambda api, tmp_path, model: api.post(f"/users/{model}/roles", {"role": "publisher"}),
+          lambda api, role, model: api.delete(f"/users/{model}/roles/publisher", role=role)),
+    Write("create a token", ("admin",), _nothing,
+          lambda api, role, model: api.post("/tokens", {"user": "ines.okafor",
+                                                        "role": "reader"}, role=role)),
+    Write("revoke a token", ("admin",), _token_to_revoke, _revoke_token),
+]
+api_tmp: list = [None]  # the test's tmp_path, for the register call
+
+
+def _events(api) -> int:
+    return api.get("/audit/verify", role="admin").json["events"]
+
+
+@pytest.mark.parametrize("write", WRITES, ids=[w.name for w in WRITES])
+def test_every_write_checks_the_role_of_the_token(api, tmp_path, write):
+    api_tmp[0] = tmp_path
+    models = {role: f"m-{role or 'anonymous'}" for role in ROLES}
+    for role in ROLES:
+        write.set_up(api, tmp_path, models[role])
+    for role in ROLES:
+        before = _events(api)
+        response = write.call(api, role, models[role])
+        if role in write.allowed:
+            assert 200 <= response.status_code < 300, (role, response.data)
+            assert _events(api) > before
+        else:
+            expected = 401 if role is None else 403
+            assert response.status_code == expected, (role, response.data)
+            assert problem(response)["type"].endswith(
+                "/unauthenticated" if role is None else "/forbidden")
+            assert _events(api) == before, f"{role} changed the catalogue"
+
+
+def test_reads_need_a_token_unless_the_app_opens_them(api, cli):
+    from tests.api.api_helpers import make_api
+
+    assert api.get("/models", role=None).status_code == 401
+    assert api.get("/models", role="reader").status_code == 200
+    assert api.get("/tokens", role="reader").status_code == 403
+    opened = make_api(cli, config={"LOCKKEEPER_OPEN_READS": True})
+    assert opened.get("/models", role=None).status_code == 200
+    # Open reads are for reading only.
+    assert opened.post("/models", {"name": "x"}, role=None).status_code == 401
+
+
+def test_the_audit_log_records_the_tokens_user(api, catalogue):
+    from sqlalchemy import select
+
+    from registry.store import tables as t
+
+    assert api.post("/models", {"name": "audited"}).status_code == 201
+    with catalogue.sessions() as session:
+        event = session.execute(select(t.AuditEvent).where(
+            t.AuditEvent.action == "model.create")).scalar_one()
+    assert event.actor == HOLDERS["admin"]
