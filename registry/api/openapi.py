@@ -8,7 +8,7 @@ from functools import lru_cache
 from typing import Any
 
 from registry.api.problems import PROBLEM_BASE, PROBLEM_MEDIA_TYPE, TITLES
-from registry.api.routing import API_PREFIX, OPERATIONS, Operation
+from registry.api.routing import API_PREFIX, LARGEST_NUMBER, OPERATIONS, Operation
 from registry.names import NAME_PATTERN
 
 RULE_PARAMETER = re.compile(r"<(?:(\w+):)?(\w+)>")
@@ -39,7 +39,8 @@ def openapi_path(rule: str) -> str:
 def _path_parameters(rule: str) -> list[dict[str, Any]]:
     parameters = []
     for converter, name in RULE_PARAMETER.findall(rule):
-        schema: dict[str, Any] = ({"type": "integer", "minimum": 0} if converter == "int" else
+        schema: dict[str, Any] = ({"type": "integer", "minimum": 0, "maximum": LARGEST_NUMBER}
+                                  if converter == "number" else
                                   {"type": "string", "pattern": NAME_PATTERN.pattern})
         parameters.append({"name": name, "in": "path", "required": True, "schema": schema})
     return parameters

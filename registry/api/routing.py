@@ -9,6 +9,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from flask import Blueprint, g
+from werkzeug.routing import IntegerConverter
 
 from registry.api.auth import authorise
 from registry.api.bodies import refuse_oversize_body
@@ -16,7 +17,20 @@ from registry.api.problems import install_problem_handlers
 
 API_PREFIX = "/api/v1"
 
+# Ids and version numbers fit a 32-bit column on every database; a larger number in a path
+# is no such thing (404), never a database error.
+LARGEST_NUMBER = 2**31 - 1
+
+
+class NumberConverter(IntegerConverter):
+    def __init__(self, url_map, *args, **kwargs) -> None:
+        super().__init__(url_map, min=0, max=LARGEST_NUMBER)
+
+
 api = Blueprint("api", __name__, url_prefix=API_PREFIX)
+# Recorded before any route, so the converter exists when the app binds the rules.
+api.record_once(lambda state: state.app.url_map.converters.setdefault("number",
+                                                                      NumberConverter))
 install_problem_handlers(api)
 api.before_request(refuse_oversize_body)
 

@@ -21,7 +21,7 @@ APPROVE_BODY = strict_object({"stage": NAME, "note": TEXT}, ("stage",))
 ROLLBACK_BODY = strict_object({"waivers": WAIVERS})
 RETIRE_BODY = strict_object({"reason": TEXT})
 MOVERS = ("publisher", "approver")
-VERSION_PATH = "/models/<model>/versions/<int:version>"
+VERSION_PATH = "/models/<model>/versions/<number:version>"
 
 
 def _waivers(body: dict) -> list[gatekeeping.Waiver]:
@@ -101,6 +101,6 @@ def stage_holding(model: str, stage: str):
                           "since": holder.since, "holders": list(holder.holders)}, 200, headers)
 
 
-@route("/reports/<int:report_id>", "GET", summary="One stored gate report", tag="stages")
+@route("/reports/<number:report_id>", "GET", summary="One stored gate report", tag="stages")
 def gate_report(report_id: int):
     return json_response(stages.find_report(catalogue(), report_id))

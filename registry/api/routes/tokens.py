@@ -32,6 +32,7 @@ def create_token():
     return json_response(created, 201, {"Location": f"/api/v1/tokens/{created.token.id}"})
 
 
-@route("/tokens/<int:token_id>", "DELETE", role="admin", summary="Revoke a token", tag="tokens")
+@route("/tokens/<number:token_id>", "DELETE", role="admin", summary="Revoke a token",
+       tag="tokens")
 def revoke_token(token_id: int):
     return json_response(tokens.revoke_token(catalogue(), token_id, g.actor))
