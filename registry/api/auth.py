@@ -8,10 +8,10 @@ from __future__ import annotations
 
 from flask import current_app, request
 
-from registry.api.context import catalogue
+from registry.api.context import cached_reads, generation
 from registry.errors import Forbidden
 from registry.service.actors import Actor
-from registry.service.tokens import Unauthenticated, authenticate
+from registry.service.tokens import Unauthenticated
 
 ANONYMOUS = Actor(name="anonymous", roles=frozenset({"reader"}))
 
@@ -37,7 +37,7 @@ def authorise(role: str | tuple[str, ...] | None, *, is_read: bool) -> Actor | N
             return ANONYMOUS
         raise Unauthenticated("this operation needs a bearer token "
                               "(`lockkeeper token create`)", place="Authorization")
-    actor = authenticate(catalogue(), secret)
+    actor = cached_reads().authenticate(secret, generation())
     wanted = (role,) if isinstance(role, str) else role
     if not any(actor.has_role(each) for each in wanted):
         raise Forbidden(f"{actor.name}'s token acts as {', '.join(sorted(actor.roles))}; this "

@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import threading
 
-from flask import Flask, current_app
+from flask import Flask, current_app, g
 
+from registry.service.cached_reads import CachedReads
 from registry.store.catalogue import Catalogue, open_catalogue
 
 EXTENSION = "lockkeeper.catalogue"
+READS_EXTENSION = "lockkeeper.cached_reads"
 _opening = threading.Lock()
 
 
@@ -25,7 +27,30 @@ def catalogue() -> Catalogue:
     return opened
 
 
+def cached_reads() -> CachedReads:
+    app = current_app
+    reads = app.extensions.get(READS_EXTENSION)
+    if reads is None:
+        opened = catalogue()
+        with _opening:
+            reads = app.extensions.get(READS_EXTENSION)
+            if reads is None:
+                reads = CachedReads(opened)
+                app.extensions[READS_EXTENSION] = reads
+    return reads
+
+
+def generation() -> int:
+    """The catalogue's version, read once per request."""
+    if "catalogue_generation" not in g:
+        g.catalogue_generation = cached_reads().generation()
+    return g.catalogue_generation
+
+
 def close_catalogue(app: Flask) -> None:
+    reads = app.extensions.pop(READS_EXTENSION, None)
+    if reads is not None:
+        reads.close()
     opened = app.extensions.pop(EXTENSION, None)
     if opened is not None:
         opened.close()

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 from functools import lru_cache
 
-from sqlalchemy import select
+from sqlalchemy import Connection, select
 
 from registry.errors import NotFound
 from registry.names import check_name
@@ -44,6 +44,11 @@ def _utc(moment: datetime) -> datetime:
 
 
 def stage_holder(catalogue: Catalogue, model: str, stage: str) -> StageHolder:
+    with catalogue.engine.connect() as connection:
+        return read_stage_holder(connection, model, stage)
+
+
+def read_stage_holder(connection: Connection, model: str, stage: str) -> StageHolder:
     check_name(model, what="model")
     check_name(stage, what="stage")
     query = (select(t.StageHolding.id, t.StageHolding.since, t.Version.number,
@@ -52,8 +57,7 @@ def stage_holder(catalogue: Catalogue, model: str, stage: str) -> StageHolder:
              .join(t.Version, t.Version.id == t.StageHolding.version_id)
              .where(t.Model.name == model, t.StageHolding.stage == stage)
              .order_by(t.StageHolding.since.desc(), t.StageHolding.id.desc()))
-    with catalogue.engine.connect() as connection:
-        rows = connection.execute(query).all()
+    rows = connection.execute(query).all()
     if not rows:
         raise NotFound(f"no version of {model!r} holds {stage!r} (or there is no such model)",
                        place="stage")

@@ -169,14 +169,32 @@ def list_tokens(catalogue: Catalogue, actor: Actor) -> list[TokenRecord]:
         return [_record(row) for row in rows]
 
 
+@dataclass(frozen=True)
+class TokenStanding:
+    """What a valid token stands for now, and until when (None: no expiry)."""
+
+    actor: Actor
+    expires_at: datetime | None
+
+    def check_expiry(self, now: datetime) -> Actor:
+        if self.expires_at is not None and self.expires_at <= now:
+            raise Unauthenticated(f"the token expired at {self.expires_at.isoformat()}",
+                                  place="Authorization")
+        return self.actor
+
+
 def authenticate(catalogue: Catalogue, secret: str, *, now: datetime | None = None) -> Actor:
-    """The actor a bearer secret stands for, or Unauthenticated. One indexed lookup by hash,
-    then a constant-time comparison so timing says nothing about how close a guess came."""
+    """The actor a bearer secret stands for, or Unauthenticated."""
+    return token_standing(catalogue, secret).check_expiry(now or utc_now())
+
+
+def token_standing(catalogue: Catalogue, secret: str) -> TokenStanding:
+    """One indexed lookup by hash, then a constant-time comparison so timing says nothing
+    about how close a guess came; refuses unknown and revoked tokens."""
     if not secret.startswith(SECRET_PREFIX) or len(secret) > 200:
         raise Unauthenticated("the bearer token is not one this catalogue issued",
                               place="Authorization")
     wanted = hash_secret(secret)
-    now = now or utc_now()
     with UnitOfWork(catalogue, write=False) as uow:
         row = uow.session.execute(
             select(t.ApiToken).where(t.ApiToken.token_hash == wanted)).scalar_one_or_none()
@@ -188,12 +206,8 @@ def authenticate(catalogue: Catalogue, secret: str, *, now: datetime | None = No
         expires_at = row.expires_at
         if expires_at is not None and expires_at.tzinfo is None:
             expires_at = expires_at.replace(tzinfo=UTC)  # SQLite hands back naive UTC
-        if expires_at is not None and expires_at <= now:
-            raise Unauthenticated(f"token {row.id} expired at {expires_at.isoformat()}",
-                                  place="Authorization")
         held = _catalogue_roles(uow, row.user)
         user, role = row.user, row.role
-    if role == "reader" or role in held or "admin" in held:
-        return Actor(name=user, roles=frozenset({role}))
-    # The user lost the role after the token was made: the token may still read.
-    return Actor(name=user, roles=frozenset({"reader"}))
+    if not (role == "reader" or role in held or "admin" in held):
+        role = "reader"  # the user lost the role after the token was made: it may still read
+    return TokenStanding(Actor(name=user, roles=frozenset({role})), expires_at)

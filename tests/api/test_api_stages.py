@@ -86,3 +86,16 @@ def test_promotion_that_lost_a_race_is_a_409_conflict(api, tmp_path):
     assert stale.status_code == 409
     assert problem(stale)["type"].endswith("/conflict")
     assert api.get("/models/m/status").json["stages"]["live"] == [1]
+
+
+def test_a_change_made_elsewhere_is_seen_by_the_next_lookup(api, cli, tmp_path):
+    set_up_model(api, tmp_path)
+    api.register("m", tmp_path, tag="v1")
+    api.register("m", tmp_path, tag="v2")
+    api.post("/models/m/versions/1/promote", {"stage": "live"}, role="approver")
+    assert api.get("/models/m/stages/live").json["version"] == 1  # now cached by the server
+    # Another writer (the CLI, another server process) moves the stage.
+    cli.json("promote", "m", "2", "--to", "live", user="tomas.lindqvist")
+    assert api.get("/models/m/stages/live").json["version"] == 2
+    cli.json("token", "revoke", "1", user="mara.kowalczyk")
+    assert api.get("/models/m/stages/live", role="reader").status_code == 401

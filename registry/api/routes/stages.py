@@ -6,12 +6,11 @@ from __future__ import annotations
 from flask import Response, g, request
 
 from registry.api.bodies import NAME, TEXT, WAIVERS, json_body, strict_object
-from registry.api.context import catalogue
+from registry.api.context import cached_reads, catalogue, generation
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
 from registry.errors import Forbidden
 from registry.service import gatekeeping, stages
-from registry.service.stage_lookup import stage_holder
 
 CHECK_BODY = strict_object({"stage": NAME, "waivers": WAIVERS}, ("stage",))
 PROMOTE_BODY = strict_object({"stage": NAME, "waivers": WAIVERS,
@@ -90,7 +89,7 @@ def roll_back_stage(model: str, stage: str):
        "(what a scoring service polls; send If-None-Match with the last ETag)", tag="stages",
        responses={200: "OK", 304: "Not Modified: the holder is unchanged"})
 def stage_holding(model: str, stage: str):
-    holder = stage_holder(catalogue(), model, stage)
+    holder = cached_reads().stage_holder(model, stage, generation())
     etag = f'"{holder.tag}"'
     headers = {"ETag": etag, "Cache-Control": "no-cache"}
     if request.if_none_match.contains_weak(holder.tag):
