@@ -9,28 +9,34 @@ the very next request.
 
 from __future__ import annotations
 
+import itertools
+import queue
 import threading
 from typing import Any
 
-from sqlalchemy import Engine, create_engine, event, select
+from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.pool import QueuePool
 
 from registry.service import tokens
 from registry.service.actors import Actor
 from registry.service.stage_lookup import StageHolder, read_stage_holder
-from registry.store import tables as t
-from registry.store.catalogue import SQLITE_BUSY_TIMEOUT_MS, Catalogue
+from registry.errors import CatalogueUnavailable
+from registry.store.catalogue import SQLITE_BUSY_TIMEOUT_MS, Catalogue, describe
 from registry.store.unit_of_work import utc_now
 
-HEAD_QUERY = select(t.AuditHead.sequence).where(t.AuditHead.id == 1)
+# Asked on every request, so it goes straight to the driver: the Core layer costs more than the
+# primary-key read itself. Both drivers take this text as it is.
+HEAD_SQL = "SELECT sequence FROM audit_head WHERE id = 1"
 
 
 def read_engine(catalogue: Catalogue) -> Engine:
-    """PostgreSQL's engine already pools; SQLite's opens a file per unit of work, so readers get
-    a small pool of their own, read-only and waiting politely for a writer."""
+    """A small pool of reading connections in autocommit: each read is one round trip, with no
+    BEGIN, ROLLBACK or liveness ping around it. SQLite's are read-only and wait for a writer."""
     if catalogue.dialect != "sqlite":
-        return catalogue.engine
-    engine = create_engine(catalogue.url, poolclass=QueuePool, pool_size=8, max_overflow=8,
+        return create_engine(catalogue.url, isolation_level="AUTOCOMMIT", pool_size=8,
+                             max_overflow=56, pool_recycle=300,
+                             connect_args={"connect_timeout": 5})
+    engine = create_engine(catalogue.url, poolclass=QueuePool, pool_size=8, max_overflow=56,
                            connect_args={"check_same_thread": False})
 
     @event.listens_for(engine, "connect")
@@ -51,17 +57,71 @@ class CachedReads:
         self._generation: int | None = None
         self._standings: dict[str, tokens.TokenStanding] = {}
         self._holders: dict[tuple[str, str], StageHolder] = {}
+        # Shared reads of the audit head (see generation): tickets order arrivals and reads.
+        self._flight = threading.Condition()
+        self._tickets = itertools.count(1)
+        self._in_flight: set[int] = set()          # tickets of the reads under way
+        self._newest_read: tuple[int, int] = (0, 0)  # (ticket, value) of the newest read done
+        self._idle_connections: queue.SimpleQueue = queue.SimpleQueue()
 
     def generation(self) -> int:
-        """The catalogue's version now; forgets every cached answer when it moved."""
-        with self.engine.connect() as connection:
-            value = connection.execute(HEAD_QUERY).scalar() or 0
+        """The catalogue's version now; forgets every cached answer when it moved.
+
+        Concurrent requests share reads of the audit head: a request may take the value of a
+        read that *began after it arrived*, which therefore saw every change committed before
+        it arrived. So no request ever misses a change made before it, and a busy worker makes
+        one read per batch of requests instead of one each."""
+        with self._flight:
+            arrived = next(self._tickets)
+            while True:
+                ticket, value = self._newest_read
+                if ticket > arrived:
+                    return value
+                if not any(started > arrived for started in self._in_flight):
+                    mine = next(self._tickets)
+                    self._in_flight.add(mine)
+                    break
+                self._flight.wait()  # a late enough read is under way: take its answer
+        value = None
+        try:
+            value = self._read_head()
+        finally:
+            with self._flight:
+                self._in_flight.discard(mine)
+                if value is not None and mine > self._newest_read[0]:
+                    self._newest_read = (mine, value)
+                    self._forget_if_moved(value)
+                self._flight.notify_all()
+        return value
+
+    def _read_head(self) -> int:
+        # Connections for this read are kept out of the pool, on an idle list of their own: a
+        # pool checkout costs more than the read itself.
+        try:
+            connection = self._idle_connections.get_nowait()
+        except queue.Empty:
+            connection = None
+        try:
+            if connection is None:
+                connection = self.engine.raw_connection()
+            cursor = connection.cursor()
+            cursor.execute(HEAD_SQL)
+            row = cursor.fetchone()
+            cursor.close()
+        except Exception as error:
+            if connection is not None:
+                connection.invalidate()
+            raise CatalogueUnavailable(f"cannot read the catalogue at "
+                                       f"{describe(self.catalogue.url)}: {error}") from None
+        self._idle_connections.put(connection)
+        return row[0] if row else 0
+
+    def _forget_if_moved(self, value: int) -> None:
         with self._lock:
             if value != self._generation:
                 self._standings.clear()
                 self._holders.clear()
                 self._generation = value
-        return value
 
     def _remember(self, cache: dict, key: Any, value: Any, generation: int) -> None:
         with self._lock:
@@ -87,5 +147,6 @@ class CachedReads:
         return holder
 
     def close(self) -> None:
-        if self.engine is not self.catalogue.engine:
-            self.engine.dispose()
+        while not self._idle_connections.empty():
+            self._idle_connections.get_nowait().close()
+        self.engine.dispose()

@@ -31,6 +31,12 @@ class StageHolder:
     holders: tuple[int, ...]  # every holder, newest first; one for an exclusive stage
     tag: str                  # changes whenever the holders change: the ETag
 
+    def to_dict(self) -> dict:
+        return {"model": self.model, "stage": self.stage, "version": self.version,
+                "document_digest": self.document_digest,
+                "input_schema_fingerprint": self.input_schema_fingerprint,
+                "since": self.since, "holders": list(self.holders)}
+
 
 @lru_cache(maxsize=1024)
 def input_schema_fingerprint(schema_json: str) -> str:
