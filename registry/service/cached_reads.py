@@ -27,6 +27,7 @@ from registry.store.unit_of_work import utc_now
 # Asked on every request, so it goes straight to the driver: the Core layer costs more than the
 # primary-key read itself. Both drivers take this text as it is.
 HEAD_SQL = "SELECT sequence FROM audit_head WHERE id = 1"
+READS_IN_FLIGHT = 2
 
 
 def read_engine(catalogue: Catalogue) -> Engine:
@@ -69,19 +70,23 @@ class CachedReads:
 
         Concurrent requests share reads of the audit head: a request may take the value of a
         read that *began after it arrived*, which therefore saw every change committed before
-        it arrived. So no request ever misses a change made before it, and a busy worker makes
-        one read per batch of requests instead of one each."""
+        it arrived. So no request ever misses a change made before it. With at most
+        READS_IN_FLIGHT reads under way, requests that arrive meanwhile wait and then share
+        one read: a busy worker makes one read per batch of requests, not one each."""
         with self._flight:
             arrived = next(self._tickets)
             while True:
                 ticket, value = self._newest_read
                 if ticket > arrived:
                     return value
-                if not any(started > arrived for started in self._in_flight):
+                late_enough = any(started > arrived for started in self._in_flight)
+                if not late_enough and len(self._in_flight) < READS_IN_FLIGHT:
                     mine = next(self._tickets)
                     self._in_flight.add(mine)
                     break
-                self._flight.wait()  # a late enough read is under way: take its answer
+                # Wait for a late enough read under way, or for room to start one that every
+                # request waiting by then will share.
+                self._flight.wait()
         value = None
         try:
             value = self._read_head()
@@ -104,10 +109,8 @@ class CachedReads:
         try:
             if connection is None:
                 connection = self.engine.raw_connection()
-            cursor = connection.cursor()
-            cursor.execute(HEAD_SQL)
-            row = cursor.fetchone()
-            cursor.close()
+            # Both drivers (sqlite3, psycopg) execute on the connection itself.
+            row = connection.dbapi_connection.execute(HEAD_SQL).fetchone()
         except Exception as error:
             if connection is not None:
                 connection.invalidate()
