@@ -96,6 +96,7 @@ def upgrade() -> None:
     sa.Column('model_id', sa.Integer(), nullable=False),
     sa.Column('number', sa.Integer(), nullable=False),
     sa.Column('document_digest', sa.String(length=64), nullable=False),
+    sa.Column('stored_blob_digest', sa.String(length=64), nullable=False),
     sa.Column('document_kind', sa.String(length=20), nullable=False),
     sa.Column('document_summary_json', sa.Text(), nullable=False),
     sa.Column('input_schema_json', sa.Text(), nullable=False),
@@ -108,7 +109,7 @@ def upgrade() -> None:
     sa.Column('registration_digest', sa.String(length=64), nullable=False),
     sa.Column('created_at', sa.DateTime(timezone=True), nullable=False),
     sa.Column('created_by', sa.String(length=100), nullable=False),
-    sa.ForeignKeyConstraint(['document_digest'], ['blobs.digest'], ),
+    sa.ForeignKeyConstraint(['stored_blob_digest'], ['blobs.digest'], ),
     sa.ForeignKeyConstraint(['model_id'], ['models.id'], ),
     sa.PrimaryKeyConstraint('id'),
     sa.UniqueConstraint('model_id', 'number', name='uq_versions_model_number')

@@ -43,7 +43,12 @@ def main(ctx: click.Context, db_url: str | None, acting_user: str | None) -> Non
 COMMAND_MODULES = [
     "registry.cli.catalogue_commands",
     "registry.cli.stage_commands",
+    "registry.cli.evaluation_commands",
     "registry.cli.schema_commands",
+    "registry.cli.metrics_commands",
+    "registry.cli.dataset_commands",
+    "registry.cli.dataset_catalogue_commands",
+    "registry.cli.document_commands",
     "registry.cli.token_commands",
 ]
 

@@ -221,3 +221,19 @@ def user_list(as_json: bool) -> None:
 
 
 COMMANDS = [init, model, register, audit, user]
+
+
+@click.command()
+def demo() -> None:
+    """Build a fresh demo catalogue from seed_data/ and play the Brackwater story."""
+    from registry import demo as story
+
+    context = _context()
+    url = context.db_url or "sqlite:///.lockkeeper/demo.db"
+    story.fresh_sqlite_file(url)
+    story.play(url, story.run_in_process, click.echo)
+    click.echo("")
+    click.echo(f"demo catalogue ready: {url}")
+
+
+COMMANDS.append(demo)

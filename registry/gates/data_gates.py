@@ -57,7 +57,9 @@ def fresh_data(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> G
             findings.append({"dataset": dataset.name, "as_of": None, "age_days": None})
             failures.append(f"dataset {dataset.name}: its age is unknown (not registered)")
             continue
-        age = (now - parse_time(stamp, place=f"dataset {dataset.name}")).total_seconds() / 86400
+        # A stamp a moment after the attempt (clocks of two writers) counts as age 0.
+        age = max(0.0, (now - parse_time(stamp, place=f"dataset {dataset.name}")).total_seconds()
+                  / 86400)
         basis = "newest record" if dataset.data_as_of else "registered"
         findings.append({"dataset": dataset.name, "as_of": stamp, "basis": basis,
                          "age_days": round(age, 3)})

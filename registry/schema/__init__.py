@@ -41,10 +41,10 @@ from registry.schema.resolution import (
 from registry.schema.serialise import canonical_form, to_json
 
 __all__ = [
-    "Change", "SchemaDiff", "diff",
-    "Fingerprint", "Note", "Problem", "Resolution", "check_against_all", "check_backward",
-    "check_both", "check_forward", "crc64_avro", "fingerprint", "reads", "resolve",
-    "NO_DEFAULT", "PRIMITIVE_TYPES", "Array", "Enum", "Field", "Fixed", "IgnoredLogicalType",
-    "LeafField", "LogicalType", "Map", "NamedSchema", "Names", "Primitive", "Record", "Schema",
-    "SchemaError", "Union", "canonical_form", "leaf_fields", "load", "parse", "to_json",
+    "NO_DEFAULT", "PRIMITIVE_TYPES", "Array", "Change", "Enum", "Field", "Fingerprint", "Fixed",
+    "IgnoredLogicalType", "LeafField", "LogicalType", "Map", "NamedSchema", "Names", "Note",
+    "Primitive", "Problem", "Record", "Resolution", "Schema", "SchemaDiff", "SchemaError", "Union",
+    "canonical_form", "check_against_all", "check_backward", "check_both", "check_forward",
+    "crc64_avro", "diff", "fingerprint", "leaf_fields", "load", "parse", "reads", "resolve",
+    "to_json",
 ]

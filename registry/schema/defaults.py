@@ -43,6 +43,11 @@ def _primitive_problem(kind: str, value: Any) -> str | None:
     return f"unknown type {kind}"
 
 
+def _pointer_token(key: str) -> str:
+    """A map key as one JSON pointer token (RFC 6901: ~ and / are escaped)."""
+    return key.replace("~", "~0").replace("/", "~1")
+
+
 def check_default(schema: Schema, value: Any) -> tuple[str, str] | None:
     """None when `value` fits `schema`, else (JSON pointer into the value, message)."""
     stack: list[tuple[Schema, Any, str]] = [(schema, value, "")]
@@ -65,7 +70,8 @@ def check_default(schema: Schema, value: Any) -> tuple[str, str] | None:
         elif isinstance(current, Map):
             if not isinstance(datum, dict):
                 return at, f"{datum!r} is not an object"
-            stack.extend((current.values, item, f"{at}/{key}") for key, item in datum.items())
+            stack.extend((current.values, item, f"{at}/{_pointer_token(key)}")
+                         for key, item in datum.items())
         elif isinstance(current, Record):
             if not isinstance(datum, dict):
                 return at, f"{datum!r} is not an object for record {current.name}"

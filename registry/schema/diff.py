@@ -8,12 +8,14 @@ breaks both is listed once for each; everything else is "safe". Classes follow `
 
 from __future__ import annotations
 
+import json
 from dataclasses import dataclass
 from typing import Literal
 
 from registry.schema.model import (
     Array,
     Enum,
+    Field,
     Fixed,
     Map,
     NamedSchema,
@@ -51,21 +53,24 @@ class SchemaDiff:
         return any(c.classification == "breaking-for-writers" for c in self.changes)
 
 
-def _describe_default(value: object) -> str:
-    import json
-
-    return json.dumps(value)
+def _describe_default(field: Field) -> str:
+    return json.dumps(field.default) if field.has_default else "none"
 
 
 class _Differ:
     def __init__(self) -> None:
         self.changes: list[Change] = []
         self.current = self.changes  # where change() puts what it finds
-        self.visited: set[tuple[int, int]] = set()
+        # Which directions the current comparison speaks for: under a renamed field that only one
+        # side links by an alias, the other side reads a default and the types do not matter.
+        self.mask = (True, True)
+        self.visited: set[tuple[int, int, tuple[bool, bool]]] = set()
 
     def change(self, path: str, kind: str, message: str, breaks_readers: bool = False,
                breaks_writers: bool = False) -> None:
         path = path or "/"
+        breaks_readers = breaks_readers and self.mask[0]
+        breaks_writers = breaks_writers and self.mask[1]
         if breaks_readers:
             self.current.append(Change(path, kind, message + " (new readers cannot read old "
                                        "data)", "breaking-for-readers"))
@@ -80,14 +85,17 @@ class _Differ:
                     breaks_writers=not resolve(old, new).compatible)
 
     def run(self, old: Schema, new: Schema) -> SchemaDiff:
-        # Items: (old, new, path) to compare, or ("emit", changes) found earlier in document order.
-        stack: list[tuple] = [(old, new, "")]
+        # Items: (old, new, path, mask) to compare, or ("emit", changes) found earlier in
+        # document order. Children may leave out the mask to inherit their parent's.
+        stack: list[tuple] = [(old, new, "", (True, True))]
         while stack:
             item = stack.pop()
-            if item[0] == "emit":
+            if len(item) == 2:
                 self.changes.extend(item[1])
                 continue
-            o, n, path = item
+            o, n, path, self.mask = item
+            if o is n:
+                continue  # the very same schema object: nothing changed
             children: list[tuple] = []
             if isinstance(o, Union) and isinstance(n, Union):
                 self._unions(o, n, path, children)
@@ -99,12 +107,13 @@ class _Differ:
             elif isinstance(o, Map) and isinstance(n, Map):
                 children.append((o.values, n.values, f"{path}/values"))
             elif isinstance(o, NamedSchema) and isinstance(n, NamedSchema):
-                if (id(o), id(n)) not in self.visited:
-                    self.visited.add((id(o), id(n)))
+                if (id(o), id(n), self.mask) not in self.visited:
+                    self.visited.add((id(o), id(n), self.mask))
                     self._named(o, n, path, children)
             elif isinstance(o, Primitive):
                 self._logical(o, n, path)
-            stack.extend(reversed(children))
+            for child in reversed(children):
+                stack.append(child if len(child) in (2, 4) else (*child, self.mask))
         return SchemaDiff(tuple(self.changes))
 
     def _logical(self, o: Schema, n: Schema, path: str) -> None:
@@ -171,6 +180,21 @@ class _Differ:
             self.change(path, "enum-default-changed", f"enum default of {n.name} changed from "
                         f"{o.default} to {n.default}")
 
+    @staticmethod
+    def _renamed_from(o: Record, field: Field, new_names: set[str], matched_old: set[str]
+                      ) -> Field | None:
+        """The old field a new field renames: named by a new alias, or naming it by an old one."""
+        for alias in field.aliases:
+            candidate = o.field_named(alias)
+            if candidate is not None and candidate.name not in new_names \
+                    and candidate.name not in matched_old:
+                return candidate
+        for candidate in o.fields:
+            if field.name in candidate.aliases and candidate.name not in new_names \
+                    and candidate.name not in matched_old:
+                return candidate
+        return None
+
     def _records(self, o: Record, n: Record, path: str,
                  children: list[tuple[Schema, Schema, str]]) -> None:
         new_names = {f.name for f in n.fields}
@@ -183,12 +207,8 @@ class _Differ:
             before = o.field_named(field.name)
             renamed = False
             if before is None:
-                for alias in field.aliases:
-                    candidate = o.field_named(alias)
-                    if candidate is not None and candidate.name not in new_names \
-                            and candidate.name not in matched_old:
-                        before, renamed = candidate, True
-                        break
+                before = self._renamed_from(o, field, new_names, matched_old)
+                renamed = before is not None
             if before is None:
                 self.change(field_path, "field-added", f"field {field.name} added"
                             + (" with a default" if field.has_default else " without a default"),
@@ -197,17 +217,18 @@ class _Differ:
                 continue
             matched_old.add(before.name)
             if renamed:
-                kept = before.has_default or field.name in before.aliases
+                # New readers find the old field through the new field's aliases; old readers
+                # find the new field through the old field's aliases; else a default must do.
+                readers_find = before.name in field.aliases or field.has_default
+                writers_find = field.name in before.aliases or before.has_default
                 self.change(field_path, "field-renamed", f"field {before.name} renamed to "
-                            f"{field.name}, keeping the old name as an alias",
-                            breaks_writers=not kept)
+                            f"{field.name}, linked by an alias",
+                            breaks_readers=not readers_find, breaks_writers=not writers_find)
             if before.has_default != field.has_default or (
                     before.has_default and before.default != field.default):
                 self.change(field_path, "field-default-changed",
                             f"default of field {field.name} changed from "
-                            f"{_describe_default(before.default) if before.has_default else 'none'}"
-                            f" to "
-                            f"{_describe_default(field.default) if field.has_default else 'none'}")
+                            f"{_describe_default(before)} to {_describe_default(field)}")
             if set(before.aliases) != set(field.aliases) and not renamed:
                 self.change(field_path, "field-aliases-changed",
                             f"aliases of field {field.name} changed from {list(before.aliases)} "
@@ -217,7 +238,13 @@ class _Differ:
                             f"sort order of field {field.name} changed from {before.order} to "
                             f"{field.order}")
             self.current = self.changes
-            children.append((before.type, field.type, f"{field_path}/type"))
+            if renamed:
+                mask = (self.mask[0] and before.name in field.aliases,
+                        self.mask[1] and field.name in before.aliases)
+                if mask != (False, False):
+                    children.append((before.type, field.type, f"{field_path}/type", mask))
+            else:
+                children.append((before.type, field.type, f"{field_path}/type"))
         removed: list[Change] = []
         self.current = removed
         for field in o.fields:

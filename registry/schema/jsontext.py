@@ -19,11 +19,11 @@ _LITERALS = {"true": True, "false": False, "null": None, "NaN": float("nan"),
              "Infinity": float("inf"), "-Infinity": float("-inf")}
 
 
-def _place(source: str, text: str, position: int) -> str:
+def _error(message: str, source: str, text: str, position: int) -> SchemaError:
     line = text.count("\n", 0, position) + 1
     column = position - (text.rfind("\n", 0, position) + 1) + 1
-    where = f"line {line}, column {column}"
-    return f"{source} {where}" if source else where
+    return SchemaError(f"invalid JSON: {message}", place=f"line {line}, column {column}",
+                       source=source, line=line, column=column)
 
 
 def decode(text: str, source: str = "") -> Any:
@@ -31,8 +31,7 @@ def decode(text: str, source: str = "") -> Any:
     try:
         return json.loads(text)
     except json.JSONDecodeError as error:
-        raise SchemaError(f"invalid JSON: {error.msg}",
-                          place=_place(source, text, error.pos)) from None
+        raise _error(error.msg, source, text, error.pos) from None
     except RecursionError:
         return _decode_iteratively(text, source)
 
@@ -48,8 +47,7 @@ def _decode_iteratively(text: str, source: str) -> Any:
     try:
         return _Decoder(text).run()
     except _Bad as bad:
-        raise SchemaError(f"invalid JSON: {bad.message}",
-                          place=_place(source, text, bad.position)) from None
+        raise _error(bad.message, source, text, bad.position) from None
 
 
 class _Decoder:

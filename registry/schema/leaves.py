@@ -23,7 +23,8 @@ def _without_null(schema: Schema) -> tuple[Schema, bool]:
         return schema, True
     if not isinstance(schema, Union):
         return schema, False
-    others = tuple(b for b in schema.branches if not (isinstance(b, Primitive) and b.kind == "null"))
+    others = tuple(b for b in schema.branches
+                   if not (isinstance(b, Primitive) and b.kind == "null"))
     nullable = len(others) != len(schema.branches)
     if len(others) == 1:
         return others[0], nullable
@@ -33,7 +34,7 @@ def _without_null(schema: Schema) -> tuple[Schema, bool]:
 
 
 def leaf_fields(schema: Schema) -> tuple[LeafField, ...]:
-    """Every leaf field, depth-first in field order; nested records (even nullable ones) are opened.
+    """Every leaf field, depth-first in field order; nested records, nullable or not, are opened.
 
     A record met again inside itself (a recursive type) is a leaf. A top-level schema that is not
     a record is one leaf with the empty path.

@@ -1,4 +1,4 @@
-"""Logical types: which underlying types they annotate, and when the specification says to ignore them.
+"""Logical types: the underlying types they annotate, and when to ignore them.
 
 Avro specification, Logical Types: an unknown or invalid logical type is ignored and the
 underlying type used; here it is kept as `IgnoredLogicalType` so the reports can say so.
@@ -32,7 +32,7 @@ LOGICAL_ATTRIBUTES = ("logicalType", "precision", "scale")
 
 
 def max_decimal_precision(size: int) -> int:
-    """Most decimal digits a signed two's-complement fixed of `size` bytes holds (Logical Types)."""
+    """Most decimal digits a two's-complement fixed of `size` bytes holds (Logical Types)."""
     if size <= 0:
         return 0
     return int(math.floor(math.log10(2 ** (8 * size - 1) - 1))) if size > 0 else 0

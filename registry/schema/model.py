@@ -53,7 +53,7 @@ class IgnoredLogicalType:
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
 class Schema:
-    """Any Avro schema; `kind` is its type name (a primitive, record, enum, fixed, array, map, union)."""
+    """Any Avro schema; `kind` names its type (a primitive, record, enum, fixed, array, ...)."""
 
     logical: LogicalType | None = None
     ignored_logical: IgnoredLogicalType | None = None
@@ -76,11 +76,7 @@ class Schema:
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
 class Primitive(Schema):
-    type_name: str
-
-    @property
-    def kind(self) -> str:  # type: ignore[override]
-        return self.type_name
+    kind: str  # type: ignore[misc]  # one of PRIMITIVE_TYPES
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -144,14 +140,14 @@ class Record(NamedSchema):
     kind = "record"
 
     def field_named(self, name: str) -> Field | None:
-        index = self._field_index().get(name)
-        return None if index is None else self.fields[index]
+        return self.fields_by_name().get(name)
 
-    def _field_index(self) -> dict[str, int]:
-        cached = self.__dict__.get("_index")
+    def fields_by_name(self) -> dict[str, Field]:
+        """Fields keyed by name (built once; do not modify the returned dict)."""
+        cached = self.__dict__.get("_by_name")
         if cached is None or len(cached) != len(self.fields):
-            cached = {f.name: i for i, f in enumerate(self.fields)}
-            object.__setattr__(self, "_index", cached)
+            cached = {f.name: f for f in self.fields}
+            object.__setattr__(self, "_by_name", cached)
         return cached
 
 
@@ -161,7 +157,7 @@ class Array(Schema):
     kind = "array"
 
     def describe(self) -> str:
-        return f"array of {self.items.describe()}"
+        return _describe_nested(self)
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -170,7 +166,7 @@ class Map(Schema):
     kind = "map"
 
     def describe(self) -> str:
-        return f"map of {self.values.describe()}"
+        return _describe_nested(self)
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -179,8 +175,30 @@ class Union(Schema):
     kind = "union"
 
     def describe(self) -> str:
-        return "union [" + ", ".join(b.name if isinstance(b, NamedSchema) else b.describe()
-                                     for b in self.branches) + "]"
+        return "union [" + ", ".join(b.name if isinstance(b, NamedSchema) else
+                                     _describe_nested(b, levels=1) for b in self.branches) + "]"
+
+
+def _describe_nested(schema: Schema, levels: int = 3) -> str:
+    """"array of map of int": a few levels of arrays and maps, then an ellipsis (no recursion)."""
+    words = []
+    while isinstance(schema, (Array, Map)) and len(words) < levels:
+        words.append("array of" if isinstance(schema, Array) else "map of")
+        schema = schema.items if isinstance(schema, Array) else schema.values
+    if isinstance(schema, (Array, Map, Union)):
+        tail = f"{schema.kind} of ..." if not isinstance(schema, Union) else "union [...]"
+    else:
+        tail = schema.describe()
+    return " ".join([*words, tail])
+
+
+def make_field(name: str, type: Schema, default: Any, aliases: tuple[str, ...], order: str,
+               doc: str | None, properties: tuple[tuple[str, Any], ...]) -> Field:
+    """A Field built without the frozen-dataclass __init__ (the parser makes many of them)."""
+    made = object.__new__(Field)
+    made.__dict__.update(name=name, type=type, default=default, aliases=aliases, order=order,
+                         doc=doc, properties=properties)
+    return made
 
 
 def branch_label(schema: Schema) -> str:

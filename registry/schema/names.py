@@ -20,7 +20,7 @@ def is_valid_name(text: object) -> bool:
 
 
 def full_name(name: str, namespace: str | None) -> str:
-    """The full name for `name` declared or referenced in `namespace` (Avro specification, Names)."""
+    """The full name of `name` declared or used in `namespace` (Avro specification, Names)."""
     if "." in name or not namespace:
         return name
     return f"{namespace}.{name}"
@@ -87,7 +87,7 @@ class Names:
         return len(self._types)
 
     def copy(self) -> Names:
-        """An independent registry holding the same declarations (to try a parse and discard it)."""
+        """An independent registry with the same declarations (to try a parse, then discard it)."""
         twin = Names()
         twin._types = dict(self._types)
         return twin

@@ -1,4 +1,4 @@
-"""Parse JSON-decoded Avro schemas into immutable Schema objects, validating as the specification asks.
+"""Parse JSON-decoded Avro schemas into immutable Schema objects, validated as the spec asks.
 
 Avro specification, Schema Declaration and Names. The walk uses an explicit stack, so nesting
 depth is limited by memory rather than by Python's recursion limit.
@@ -15,7 +15,6 @@ from registry.schema.model import (
     PRIMITIVE_TYPES,
     Array,
     Enum,
-    Field,
     Fixed,
     Map,
     NO_DEFAULT,
@@ -24,6 +23,7 @@ from registry.schema.model import (
     Record,
     Schema,
     Union,
+    make_field,
 )
 from registry.schema.names import (
     Names,
@@ -33,8 +33,11 @@ from registry.schema.names import (
     is_valid_name,
 )
 
-PLAIN_PRIMITIVES = {name: Primitive(type_name=name) for name in PRIMITIVE_TYPES}
+PLAIN_PRIMITIVES = {name: Primitive(kind=name) for name in PRIMITIVE_TYPES}
 FIELD_ORDERS = ("ascending", "descending", "ignore")
+# Caches of immutable results: names already found valid, unions of plain primitives.
+_VALID_NAMES: set[str] = set()
+_PLAIN_UNIONS: dict[tuple[str, ...], Union] = {}
 
 _RECORD_KEYS = {"type", "name", "namespace", "aliases", "doc", "fields"}
 _ENUM_KEYS = {"type", "name", "namespace", "aliases", "doc", "symbols", "default"}
@@ -65,7 +68,7 @@ def _extra_properties(obj: dict[str, Any], known: set[str]) -> tuple[tuple[str, 
 
 
 class _Parser:
-    """One parse: an explicit stack of tasks, and the defaults to check once every type is built."""
+    """One parse: an explicit stack of tasks, and defaults to check once every type is built."""
 
     def __init__(self, names: Names) -> None:
         self.names = names
@@ -110,11 +113,20 @@ class _Parser:
         if isinstance(obj, str):
             slot[index] = self._reference(obj, place, namespace)
         elif isinstance(obj, list):
+            plain_union = self._plain_union(obj, place)
+            if plain_union is not None:
+                slot[index] = plain_union
+                return
             holder: list[Any] = [None] * len(obj)
             stack.append(("union", holder, place, slot, index))
+            plain = PLAIN_PRIMITIVES
             for position in range(len(obj) - 1, -1, -1):
-                stack.append(("parse", obj[position], f"{place}/{position}", namespace, holder,
-                              position))
+                branch = obj[position]
+                if branch.__class__ is str and branch in plain:
+                    holder[position] = plain[branch]
+                else:
+                    stack.append(("parse", branch, f"{place}/{position}", namespace, holder,
+                                  position))
         elif isinstance(obj, dict):
             self._parse_object(obj, place, namespace, slot, index, stack)
         else:
@@ -150,7 +162,7 @@ class _Parser:
             if logical is None and ignored is None and not extra:
                 slot[index] = PLAIN_PRIMITIVES[kind]
             else:
-                slot[index] = Primitive(type_name=kind, logical=logical, ignored_logical=ignored,
+                slot[index] = Primitive(kind=kind, logical=logical, ignored_logical=ignored,
                                         properties=extra)
         elif kind == "array":
             if "items" not in obj:
@@ -220,46 +232,63 @@ class _Parser:
         slot[index] = record
         holder: list[Any] = [None] * len(fields_obj)
         seen: dict[str, int] = {}
+        known = _VALID_NAMES
         for position, field_obj in enumerate(fields_obj):
-            at = f"{place}/fields/{position}"
-            if not isinstance(field_obj, dict):
-                raise SchemaError("a field must be an object with a name and a type", place=at)
+            if field_obj.__class__ is not dict:
+                raise SchemaError("a field must be an object with a name and a type",
+                                  place=f"{place}/fields/{position}")
             field_name = field_obj.get("name")
-            if not is_valid_name(field_name):
-                raise SchemaError(f"field name {field_name!r} is not a valid Avro name "
-                                  "([A-Za-z_][A-Za-z0-9_]*)", place=f"{at}/name")
+            if not (field_name.__class__ is str and field_name in known):
+                if not is_valid_name(field_name):
+                    raise SchemaError(f"field name {field_name!r} is not a valid Avro name "
+                                      "([A-Za-z_][A-Za-z0-9_]*)",
+                                      place=f"{place}/fields/{position}/name")
+                if len(known) < 100_000:
+                    known.add(field_name)
             if field_name in seen:
                 raise SchemaError(f"duplicate field name {field_name!r} (also field "
-                                  f"{seen[field_name]})", place=f"{at}/name")
+                                  f"{seen[field_name]})", place=f"{place}/fields/{position}/name")
             seen[field_name] = position
             if "type" not in field_obj:
-                raise SchemaError(f'field {field_name!r} needs a "type"', place=at)
+                raise SchemaError(f'field {field_name!r} needs a "type"',
+                                  place=f"{place}/fields/{position}")
         stack.append(("record", record, fields_obj, holder, place))
+        plain = PLAIN_PRIMITIVES
         for position in range(len(fields_obj) - 1, -1, -1):
-            stack.append(("parse", fields_obj[position]["type"],
-                          f"{place}/fields/{position}/type", own_namespace, holder, position))
+            field_type = fields_obj[position]["type"]
+            if field_type.__class__ is str and field_type in plain:
+                holder[position] = plain[field_type]  # the common case, without a task
+            else:
+                stack.append(("parse", field_type, f"{place}/fields/{position}/type",
+                              own_namespace, holder, position))
 
     def _finish_record(self, record: Record, fields_obj: list[dict[str, Any]],
                        holder: list[Schema], place: str) -> None:
         fields = []
         for position, field_obj in enumerate(fields_obj):
-            at = f"{place}/fields/{position}"
-            aliases_obj = field_obj.get("aliases", [])
-            if not isinstance(aliases_obj, list) or not all(map(is_valid_name, aliases_obj)):
-                raise SchemaError("field aliases must be a list of valid Avro names",
-                                  place=f"{at}/aliases")
-            order = field_obj.get("order", "ascending")
-            if order not in FIELD_ORDERS:
-                raise SchemaError(f"field order must be one of {', '.join(FIELD_ORDERS)}",
-                                  place=f"{at}/order")
-            default = field_obj.get("default", NO_DEFAULT)
-            if default is not NO_DEFAULT:
-                self.pending_defaults.append((holder[position], default, f"{at}/default"))
-            fields.append(Field(name=field_obj["name"], type=holder[position], default=default,
-                                aliases=tuple(aliases_obj), order=order,
-                                doc=self._doc(field_obj, at),
-                                properties=tuple((k, v) for k, v in field_obj.items()
-                                                 if k not in _FIELD_KEYS)))
+            aliases: tuple[str, ...] = ()
+            order = "ascending"
+            default = NO_DEFAULT
+            doc = None
+            properties: tuple[tuple[str, Any], ...] = ()
+            if len(field_obj) > 2:  # more than name and type: check the optional attributes
+                at = f"{place}/fields/{position}"
+                aliases_obj = field_obj.get("aliases", [])
+                if not isinstance(aliases_obj, list) or not all(map(is_valid_name, aliases_obj)):
+                    raise SchemaError("field aliases must be a list of valid Avro names",
+                                      place=f"{at}/aliases")
+                aliases = tuple(aliases_obj)
+                order = field_obj.get("order", "ascending")
+                if order not in FIELD_ORDERS:
+                    raise SchemaError(f"field order must be one of {', '.join(FIELD_ORDERS)}",
+                                      place=f"{at}/order")
+                default = field_obj.get("default", NO_DEFAULT)
+                if default is not NO_DEFAULT:
+                    self.pending_defaults.append((holder[position], default, f"{at}/default"))
+                doc = self._doc(field_obj, at)
+                properties = tuple((k, v) for k, v in field_obj.items() if k not in _FIELD_KEYS)
+            fields.append(make_field(field_obj["name"], holder[position], default, aliases, order,
+                                     doc, properties))
         object.__setattr__(record, "fields", tuple(fields))
 
     def _enum(self, obj: dict[str, Any], place: str, namespace: str) -> Enum:
@@ -278,7 +307,7 @@ class _Parser:
                                   place=f"{place}/symbols/{position}")
             seen.add(symbol)
         default = obj.get("default")
-        if "default" in obj and default not in seen:
+        if "default" in obj and not (isinstance(default, str) and default in seen):
             raise SchemaError(f"enum default {default!r} is not one of its symbols",
                               place=f"{place}/default")
         logical, ignored = interpret(obj, "enum")
@@ -303,8 +332,22 @@ class _Parser:
 
     # -- unions ---------------------------------------------------------------------------------
 
+    def _plain_union(self, obj: list[Any], place: str) -> Union | None:
+        """A union of plain primitive names, shared between uses (schemas are immutable)."""
+        plain = PLAIN_PRIMITIVES
+        for branch in obj:
+            if not (branch.__class__ is str and branch in plain):
+                return None
+        key = tuple(obj)
+        union = _PLAIN_UNIONS.get(key)
+        if union is None:
+            union = self._build_union([plain[name] for name in obj], place)
+            if len(_PLAIN_UNIONS) < 10_000:
+                _PLAIN_UNIONS[key] = union
+        return union
+
     def _build_union(self, branches: list[Schema], place: str) -> Union:
-        """Avro specification, Unions: no nested unions, one schema per unnamed type, unique names."""
+        """Avro specification, Unions: no nested union, one schema per unnamed type or name."""
         seen: dict[str, int] = {}
         for position, branch in enumerate(branches):
             at = f"{place}/{position}"

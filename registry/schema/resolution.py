@@ -42,7 +42,7 @@ CONDITIONAL_PROMOTIONS = {("bytes", "string"): " (bytes that are not UTF-8 canno
 
 @dataclass(frozen=True)
 class Problem:
-    """Why some data written with the writer cannot be read; `path` points into the reader schema."""
+    """Why some written data cannot be read; `path` points into the reader schema."""
 
     path: str
     rule: str
@@ -54,12 +54,13 @@ class Problem:
 
 @dataclass(frozen=True)
 class Note:
-    """A safe difference worth knowing (a promotion, a default used), or a warning about meaning."""
+    """A safe difference worth knowing (a promotion, a default used), or a warning."""
 
     path: str
     rule: str
     message: str
     severity: Literal["info", "warning"] = "info"
+    direction: str = ""  # set by check_both: "backward" or "forward"
 
 
 @dataclass(frozen=True)
@@ -82,7 +83,7 @@ def names_match(reader: NamedSchema, writer: NamedSchema) -> bool:
 
 def matches(reader: Schema, writer: Schema) -> bool:
     """The specification's shallow match of two non-union schemas (kind, name, promotion)."""
-    if isinstance(reader, Primitive) and isinstance(writer, Primitive):
+    if reader.__class__ is Primitive and writer.__class__ is Primitive:
         return reader.kind == writer.kind or reader.kind in PROMOTIONS.get(writer.kind, ())
     if isinstance(reader, Array):
         return isinstance(writer, Array)
@@ -119,6 +120,11 @@ class _Resolver:
 
     def problem(self, path: str, rule: str, message: str, writer_path: str,
                 witness: dict | None = None) -> None:
+        if witness is None and writer_path.endswith("/type"):
+            # A fault in the type of one writer field: name that field.
+            head, _, field_name = writer_path[:-len("/type")].rpartition("/")
+            if head.endswith("/fields"):
+                witness = {"writer_field": field_name}
         self.problems.append(Problem(path or "/", rule, message, writer_path or "/", witness))
 
     def note(self, path: str, rule: str, message: str, severity: str = "info") -> None:
@@ -129,13 +135,19 @@ class _Resolver:
         stack: list[tuple] = [(reader, writer, "", "")]
         while stack:
             item = stack.pop()
-            if item[0] == "emit":  # a finding deferred to keep document order
+            if len(item) == 2:  # ("emit", finding): deferred to keep document order
                 item[1]()
                 continue
             r, w, rpath, wpath = item
+            if r is w:
+                # The very same schema object (shared primitives, types from one Names) reads
+                # itself with nothing to report.
+                continue
             children: list[tuple] = []
-            self._note_ignored_logical(r, rpath, "reader")
-            self._note_ignored_logical(w, wpath, "writer")
+            if r.ignored_logical is not None:
+                self._note_ignored_logical(r, rpath, "reader", rpath)
+            if w.ignored_logical is not None:
+                self._note_ignored_logical(w, rpath, "writer", wpath)
             if isinstance(w, Union):
                 self._writer_union(r, w, rpath, wpath, children)
             elif isinstance(r, Union):
@@ -153,28 +165,31 @@ class _Resolver:
                 if pair not in self.visited_pairs:
                     self.visited_pairs.add(pair)
                     self._named(r, w, rpath, wpath, children)  # type: ignore[arg-type]
-            elif isinstance(r, Array):
-                children.append((r.items, w.items, f"{rpath}/items", f"{wpath}/items"))  # type: ignore[union-attr]
-            elif isinstance(r, Map):
-                children.append((r.values, w.values, f"{rpath}/values", f"{wpath}/values"))  # type: ignore[union-attr]
+            elif isinstance(r, Array) and isinstance(w, Array):
+                children.append((r.items, w.items, f"{rpath}/items", f"{wpath}/items"))
+            elif isinstance(r, Map) and isinstance(w, Map):
+                children.append((r.values, w.values, f"{rpath}/values", f"{wpath}/values"))
             else:
                 self._primitive(r, w, rpath, wpath)
             stack.extend(reversed(children))
         return Resolution(compatible=not self.problems, problems=tuple(self.problems),
                           notes=tuple(self.notes))
 
-    def _note_ignored_logical(self, schema: Schema, path: str, role: str) -> None:
+    def _note_ignored_logical(self, schema: Schema, rpath: str, role: str, own_path: str
+                              ) -> None:
         ignored = schema.ignored_logical
         if ignored is not None and id(schema) not in self.noted_ignored:
             self.noted_ignored.add(id(schema))
-            where = path if role == "reader" else f"writer {path or '/'}"
-            self.note(where, "logical-type-ignored",
-                      f"the {role}'s logical type {ignored.name} is ignored ({ignored.reason}); "
-                      f"its underlying {schema.kind} is used", "warning")
+            where = f" at {own_path or '/'}" if role == "writer" else ""
+            self.note(rpath, "logical-type-ignored",
+                      f"the {role}'s logical type {ignored.name}{where} is ignored "
+                      f"({ignored.reason}); its underlying {schema.kind} is used", "warning")
 
     def _writer_union(self, r: Schema, w: Union, rpath: str, wpath: str,
                       children: list[tuple]) -> None:
         """A writer union: every branch the writer may pick must be readable."""
+        if isinstance(r, Union) and r.branches == w.branches:
+            return  # the same branch objects in the same order (tuples compare by identity here)
         for position, branch in enumerate(w.branches):
             branch_path = f"{wpath}/{position}"
             label = branch_label(branch)
@@ -222,15 +237,19 @@ class _Resolver:
     def _record(self, r: Record, w: Record, rpath: str, wpath: str,
                 children: list[tuple]) -> None:
         """Avro specification, Schema Resolution, records: fields match by name or reader alias."""
-        reader_names = {f.name for f in r.fields}
+        reader_names = r.fields_by_name()
+        writer_fields = w.fields_by_name()
         used: set[str] = set()
         for field in r.fields:
+            source = writer_fields.get(field.name)
+            if source is not None and source.type is field.type:
+                used.add(source.name)  # the same type object: nothing to resolve
+                continue
             field_path = f"{rpath}/fields/{field.name}"
-            source = w.field_named(field.name)
             if source is None:
                 for alias in field.aliases:
                     # A writer field that has a reader field of its own name goes to that field.
-                    candidate = w.field_named(alias)
+                    candidate = writer_fields.get(alias)
                     if candidate is not None and candidate.name not in reader_names \
                             and candidate.name not in used:
                         source = candidate
@@ -241,8 +260,9 @@ class _Resolver:
                         break
             if source is not None:
                 used.add(source.name)
-                children.append((field.type, source.type, f"{field_path}/type",
-                                 f"{wpath}/fields/{source.name}/type"))
+                if source.type is not field.type:
+                    children.append((field.type, source.type, f"{field_path}/type",
+                                     f"{wpath}/fields/{source.name}/type"))
             elif field.has_default:
                 children.append(("emit", partial(
                     self.note, field_path, "default-used",
@@ -252,14 +272,14 @@ class _Resolver:
                     self.problem, field_path, "missing-field",
                     f"the writer has no field {field.name} and the reader's field has no "
                     "default", wpath, {"reader_field": field.name})))
-        for field in w.fields:
+        for field in w.fields if len(used) < len(w.fields) else ():
             if field.name not in used:
                 children.append(("emit", partial(
                     self.note, rpath, "writer-field-ignored",
                     f"the writer's field {field.name} is not read and is skipped")))
 
     def _enum(self, r: Enum, w: Enum, rpath: str, wpath: str) -> None:
-        """Avro specification, Schema Resolution, enums: an unknown writer symbol needs a default."""
+        """Avro specification, Schema Resolution, enums: unknown writer symbols need a default."""
         known = set(r.symbols)
         for symbol in w.symbols:
             if symbol in known:
@@ -284,7 +304,7 @@ class _Resolver:
         self._logical(r, w, rpath, wpath)
 
     def _logical(self, r: Schema, w: Schema, rpath: str, wpath: str) -> None:
-        """Avro specification, Logical Types: decimals match only with equal precision and scale."""
+        """Avro specification, Logical Types: decimals match only with equal precision, scale."""
         if r.logical == w.logical:
             return
         rl, wl = r.logical, w.logical
@@ -318,12 +338,14 @@ def check_forward(new: Schema, old: Schema) -> Resolution:
 
 
 def check_both(new: Schema, old: Schema) -> Resolution:
-    """Both directions; each problem says its direction (paths point into that direction's reader)."""
+    """Both directions; each problem names its direction, its path that direction's reader."""
     backward, forward = check_backward(new, old), check_forward(new, old)
     problems = tuple(replace(p, direction="backward") for p in backward.problems) + tuple(
         replace(p, direction="forward") for p in forward.problems)
+    notes = tuple(replace(n, direction="backward") for n in backward.notes) + tuple(
+        replace(n, direction="forward") for n in forward.notes)
     return Resolution(compatible=backward.compatible and forward.compatible, problems=problems,
-                      notes=backward.notes + forward.notes)
+                      notes=notes)
 
 
 def check_against_all(reader: Schema, writers: Sequence[Schema]) -> tuple[Resolution, ...]:

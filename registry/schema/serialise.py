@@ -1,4 +1,4 @@
-"""Schemas back to JSON: a normalised form that `parse` accepts again, and the Parsing Canonical Form.
+"""Schemas back to JSON: a normal form `parse` accepts again, and the Parsing Canonical Form.
 
 Both walks use explicit stacks, so deep nesting is fine. A named type is written in full at its
 first occurrence (depth-first, in document order) and by its full name afterwards.
@@ -46,7 +46,7 @@ def _naming(schema: NamedSchema, enclosing: str) -> dict[str, Any]:
 
 
 def to_json(schema: Schema) -> Any:
-    """A normalised JSON form of `schema`: full names, every attribute kept, plain primitives as strings."""
+    """A normalised JSON form of `schema`: full names, all attributes, plain primitive names."""
     written: set[int] = set()
     root: list[Any] = [None]
     # Tasks: (schema, enclosing namespace, container, key)
@@ -146,7 +146,8 @@ def canonical_form(schema: Schema) -> str:
             pieces.append(f'{{"name":{quoted(current.name)},"type":"enum","symbols":[{symbols}]}}')
         elif isinstance(current, Fixed):
             written.add(id(current))
-            pieces.append(f'{{"name":{quoted(current.name)},"type":"fixed","size":{current.size}}}')
+            pieces.append(f'{{"name":{quoted(current.name)},"type":"fixed",'
+                          f'"size":{current.size}}}')
         elif isinstance(current, Array):
             pieces.append('{"type":"array","items":')
             stack.append("}")

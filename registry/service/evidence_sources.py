@@ -116,18 +116,142 @@ def acknowledgements(uow: UnitOfWork, version: t.Version, stage: str,
                  for row in rows for change in review)
 
 
+def _definitions(version: t.Version):
+    from registry.features import parse_feature_file
+
+    if not version.features_json:
+        return None
+    return parse_feature_file(json.loads(version.features_json)["toml"],
+                              origin=f"version {version.number} features")
+
+
 def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.FeatureChange, ...]:
-    return ()
+    """The semantic diff of feature definitions, incumbent to candidate (registry.features)."""
+    from registry.features import diff_features
+
+    old, new = _definitions(incumbent), _definitions(candidate)
+    if new is None and old is None:
+        return ()
+    if new is None or old is None:
+        # Without definitions on both sides, no meaning can be compared: a person must look.
+        which = f"version {candidate.number}" if new is None else f"version {incumbent.number}"
+        return (gates.FeatureChange(field="*", kind="definitions-missing",
+                                    classification="needs-review",
+                                    message=f"{which} was registered without feature "
+                                            "definitions, so no change of meaning can be ruled out"),)
+    found = diff_features(old, _schema_of(incumbent, "input"), new, _schema_of(candidate, "input"))
+    return tuple(gates.FeatureChange(field=change.path, kind=change.change,
+                                     classification=change.severity, message=change.message)
+                 for change in found.changes)
 
 
 def containment(uow: UnitOfWork, version: t.Version) -> tuple[gates.ContainmentEstimate, ...]:
-    return ()
+    """For each (training, evaluation) pair of the version: the share of the evaluation set's
+    feature-only records (key and label left out) that also occur in the training set, from
+    bottom-k sketches (Broder 1997; Cohen and Kaplan 2007)."""
+    from registry.datasets import overlap
+    from registry.service.datasets import load_fingerprint
+
+    linked = _linked(uow, version)
+    training = [d for relation, d in linked if relation == "trained-on"]
+    evaluation = [d for relation, d in linked if relation == "evaluated-on"]
+    estimates = []
+    for train in training:
+        train_sketch = load_fingerprint(uow, train).feature_sketch
+        for held_out in evaluation:
+            found = overlap(train_sketch, load_fingerprint(uow, held_out).feature_sketch)
+            estimates.append(gates.ContainmentEstimate(
+                training_dataset=train.name, evaluation_dataset=held_out.name,
+                containment=found.containment, error_bound=found.containment_error_bound,
+                method="exact" if found.is_exact else "bottom-k"))
+    return tuple(estimates)
 
 
 def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
-    return None
+    """The newest live sample registered as taken from this model's feed, with the counts of
+    enum symbols, union branches and nulls per column from its profile."""
+    from registry.service.datasets import load_fingerprint
+
+    sample = uow.session.execute(
+        select(t.Dataset).where(t.Dataset.feed_model_id == model.id,
+                                t.Dataset.role == "live-sample")
+        .order_by(t.Dataset.created_at.desc(), t.Dataset.id.desc())).scalars().first()
+    if sample is None:
+        return None
+    profile = load_fingerprint(uow, sample).to_dict().get("profile", {})
+    columns = {
+        name: gates.ColumnCounts(enum_symbols=dict(column.get("symbols") or {}),
+                                 union_branches=dict(column.get("branches") or {}),
+                                 nulls=int(column.get("nulls", 0)))
+        for name, column in profile.items()}
+    return gates.SampleProfile(dataset=sample.name, fingerprint=sample.content_digest,
+                               rows=sample.rows, columns=columns)
+
+
+def _quality_settings(specs) -> dict[str, dict]:
+    return {spec.gate: dict(spec.settings) for spec in specs
+            if spec.gate in ("no-regression", "slice-guard")}
 
 
 def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Version, specs
                         ) -> tuple[tuple[gates.PairedComparison, ...], tuple[gates.SliceComparison, ...]]:
-    return (), ()
+    """Paired comparisons of candidate and incumbent on every evaluation dataset both were
+    evaluated on (same content digest), overall and per slice, with the stored predictions."""
+    from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
+    from registry.service.evaluations import evaluations_of, stored_predictions
+
+    settings = _quality_settings(specs)
+    if not settings:
+        return (), ()
+    mine = evaluations_of(uow, candidate)
+    theirs = {e.dataset_content_digest: e for e, _ in evaluations_of(uow, incumbent)}
+    metrics = {s["metric"] for s in settings.values()}
+    confidence = settings.get("no-regression", {}).get("confidence", 0.95)
+    comparisons: list[gates.PairedComparison] = []
+    slices: list[gates.SliceComparison] = []
+    for evaluation, dataset in mine:
+        baseline_row = theirs.get(evaluation.dataset_content_digest)
+        if baseline_row is None:
+            continue
+        ours, base = stored_predictions(uow, evaluation), stored_predictions(uow, baseline_row)
+        report = compare(ours, base, confidence=confidence, seed=0)
+        for metric in sorted(metrics):
+            difference = report.differences.get(metric)
+            if difference is None:
+                continue
+            comparisons.append(gates.PairedComparison(
+                metric=metric, difference=difference.difference, ci_low=difference.ci_low,
+                ci_high=difference.ci_high, p_value=difference.p_value, method=difference.method,
+                higher_is_better=HIGHER_IS_BETTER[metric],
+                candidate_dataset=evaluation.dataset_content_digest,
+                incumbent_dataset=baseline_row.dataset_content_digest, confidence=confidence,
+                candidate_value=report.candidate.metrics.get(metric),
+                incumbent_value=report.baseline.metrics.get(metric), rows=report.matching.matched))
+        if "slice-guard" in settings:
+            metric = settings["slice-guard"]["metric"]
+            for column in json.loads(evaluation.metrics_json).get("slice_columns", []):
+                if column not in base.extra_columns:
+                    continue
+                per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)
+                for value, result in sorted(per_slice.values.items()):
+                    difference = result.differences.get(metric)
+                    if difference is None:
+                        continue
+                    slices.append(gates.SliceComparison(
+                        column=column, value=str(value), metric=metric,
+                        difference=difference.difference, ci_low=difference.ci_low,
+                        ci_high=difference.ci_high, p_value=difference.p_value,
+                        higher_is_better=HIGHER_IS_BETTER[metric],
+                        adjusted_p_value=difference.p_value_holm, confidence=confidence,
+                        rows=result.n))
+    if not comparisons and mine and theirs:
+        # Both were evaluated, never on the same data: say so rather than compare.
+        evaluation, _ = mine[0]
+        other = next(iter(theirs.values()))
+        for metric in sorted(metrics):
+            comparisons.append(gates.PairedComparison(
+                metric=metric, difference=0.0, ci_low=0.0, ci_high=0.0, p_value=1.0,
+                method="not-compared", higher_is_better=HIGHER_IS_BETTER[metric],
+                candidate_dataset=evaluation.dataset_content_digest,
+                incumbent_dataset=other.dataset_content_digest, confidence=confidence))
+    return tuple(comparisons), tuple(slices)

@@ -65,7 +65,7 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
                     policy: Policy, *, incumbent: t.Version | None,
                     include_quality: bool = True) -> gates.Evidence:
     """Everything the gates of `stage` may look at for `candidate` against `incumbent`."""
-    now = datetime.now(UTC).isoformat(timespec="seconds")
+    now = datetime.now(UTC).isoformat(timespec="microseconds")
     evidence = gates.Evidence(
         model=model.name, version=candidate.number, author=candidate.author or candidate.created_by,
         evaluated_at=now, code_revision=candidate.code_revision or None,

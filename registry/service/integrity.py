@@ -104,7 +104,31 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
         elif recorded.get("document_digest") != version.document_digest:
             findings.append(Finding(place, "its document digest differs from the one the audit "
                                            "log recorded"))
+        elif recorded.get("stored_blob_digest") != version.stored_blob_digest:
+            findings.append(Finding(place, "it points at other stored bytes than the audit log "
+                                           "recorded"))
+        else:
+            findings += _document_findings(uow, version, place)
     return count, findings
+
+
+def _document_findings(uow: UnitOfWork, version: t.Version, place: str) -> list[Finding]:
+    """The stored bytes must still give the version's document digest."""
+    from registry.documents import canonical_digest
+
+    blob = uow.session.get(t.Blob, version.stored_blob_digest)
+    if blob is None:
+        return [Finding(place, "its document bytes are missing")]
+    if version.document_kind == "pfa":
+        try:
+            digest = canonical_digest(blob.content).sha256
+        except Exception:  # the bytes no longer parse: that is the finding
+            digest = None
+    else:
+        digest = hashlib.sha256(blob.content).hexdigest()
+    if digest != version.document_digest:
+        return [Finding(place, "its stored document no longer gives its document digest")]
+    return []
 
 
 def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int, list[Finding]]:

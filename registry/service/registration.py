@@ -40,6 +40,7 @@ class RegistrationOutcome:
     created: bool  # False when an identical registration already existed
     document_digest: str
     registration_digest: str
+    missing_features: tuple[str, ...] = ()
 
 
 def registration_digest(model: str, contents: VersionContents, manifest: Manifest) -> str:
@@ -93,7 +94,8 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
         ).scalars().first()
         if existing is not None:
             return RegistrationOutcome(model.name, existing.number, False,
-                                       existing.document_digest, digest)
+                                       existing.document_digest, digest,
+                                       contents.missing_features)
         trained = _lineage_datasets(uow, request.manifest.trained_on, "trained-on")
         evaluated = _lineage_datasets(uow, request.manifest.evaluated_on, "evaluated-on")
         last = uow.session.execute(
@@ -103,11 +105,11 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
         if request.manifest.parent_version is not None and request.manifest.parent_version >= number:
             raise UserError(f"parent_version {request.manifest.parent_version} does not exist yet "
                             f"(this registration would be version {number})", place="manifest")
-        document_digest = uow.blobs.put(contents.stored_document)
-        # The catalogue stores what it digests, so a version's digest is its blob's key.
-        assert document_digest == contents.document_digest
+        stored_blob_digest = uow.blobs.put(contents.stored_document)
+        document_digest = contents.document_digest
         version = t.Version(
             model_id=model.id, number=number, document_digest=document_digest,
+            stored_blob_digest=stored_blob_digest,
             document_kind=contents.document_kind,
             document_summary_json=json.dumps(contents.document_summary, sort_keys=True),
             input_schema_json=contents.input_schema_json,
@@ -126,7 +128,9 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
         enter_first_stage(uow, model, version, actor)
         uow.audit.append(actor.name, "version.register", f"model/{model.name}/version/{number}", {
             "document_digest": document_digest, "registration_digest": digest,
+            "stored_blob_digest": stored_blob_digest,
             "document_kind": contents.document_kind,
         })
         uow.commit()
-        return RegistrationOutcome(model.name, number, True, document_digest, digest)
+        return RegistrationOutcome(model.name, number, True, document_digest, digest,
+                                   contents.missing_features)

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 
-from sqlalchemy import literal, select, union
+from sqlalchemy import literal, select
 from sqlalchemy.orm import Session
 
 from registry.store import tables as t
@@ -22,8 +22,8 @@ def _dataset_walk(session: Session, start_ids: Iterable[int], *, downward: bool,
     edges = t.DatasetParent.__table__
     source, target = (edges.c.parent_id, edges.c.child_id) if downward else \
         (edges.c.child_id, edges.c.parent_id)
-    seed = union(*[select(literal(i).label("id"), literal(0).label("distance")) for i in starts]) \
-        if len(starts) > 1 else select(literal(starts[0]).label("id"), literal(0).label("distance"))
+    seed = select(t.Dataset.id.label("id"), literal(0).label("distance")) \
+        .where(t.Dataset.id.in_(starts))
     walk = seed.cte("walk", recursive=True)
     step = select(target.label("id"), (walk.c.distance + 1).label("distance")) \
         .select_from(edges.join(walk, source == walk.c.id))

@@ -50,7 +50,10 @@ class Version(Base):
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
     model_id: Mapped[int] = mapped_column(ForeignKey("models.id"))
     number: Mapped[int] = mapped_column(Integer)
-    document_digest: Mapped[str] = mapped_column(ForeignKey("blobs.digest"))
+    # The version's identity: SHA-256 of the canonical JSON for PFA, of the bytes otherwise.
+    document_digest: Mapped[str] = mapped_column(String(64))
+    # The bytes exactly as the producer sent them, stored by their own SHA-256.
+    stored_blob_digest: Mapped[str] = mapped_column(ForeignKey("blobs.digest"))
     document_kind: Mapped[str] = mapped_column(String(20))
     document_summary_json: Mapped[str] = mapped_column(Text)
     input_schema_json: Mapped[str] = mapped_column(Text)

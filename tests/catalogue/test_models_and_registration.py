@@ -95,7 +95,7 @@ def test_manifest_without_input_schema_is_refused(cli, tmp_path):
     cli.json("model", "create", "m")
     document, manifest = write_version_files(tmp_path)
     manifest.write_text('description = "no schema"\n')
-    assert "input schema" in _assert_one_line_error(
+    assert "input_schema" in _assert_one_line_error(
         cli("register", "m", str(document), "--manifest", str(manifest)))
     assert cli.json("model", "show", "m")["versions"] == []
 

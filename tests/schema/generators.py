@@ -55,7 +55,7 @@ def default_for(type_json: Any) -> Any:
     return NOTHING
 
 
-class _Naming:
+class Naming:
     def __init__(self) -> None:
         self.counter = itertools.count()
 
@@ -64,7 +64,7 @@ class _Naming:
 
 
 @st.composite
-def type_json(draw: Any, naming: _Naming, depth: int, record_name: str) -> Any:
+def type_json(draw: Any, naming: Naming, depth: int, record_name: str) -> Any:
     choices = ["primitive"] * 4 + ["logical", "enum", "enum", "fixed", "union", "nullable"]
     if depth > 0:
         choices += ["array", "map", "record", "recursive"]
@@ -102,7 +102,7 @@ def type_json(draw: Any, naming: _Naming, depth: int, record_name: str) -> Any:
 
 
 @st.composite
-def record_json(draw: Any, naming: _Naming, depth: int) -> dict[str, Any]:
+def record_json(draw: Any, naming: Naming, depth: int) -> dict[str, Any]:
     name = naming.fresh("Segment")
     fields = []
     for index in range(draw(st.integers(1, 4))):
@@ -164,7 +164,8 @@ MUTATIONS = ["add-field", "remove-field", "rename-field", "promote", "demote", "
 
 
 @st.composite
-def mutated(draw: Any, schema: dict[str, Any], naming: _Naming) -> tuple[dict[str, Any], list[str]]:
+def mutated(draw: Any, schema: dict[str, Any], naming: Naming
+            ) -> tuple[dict[str, Any], list[str]]:
     """A copy of `schema` with up to two more mutations, and their names."""
     result = copy.deepcopy(schema)
     applied = []
@@ -175,7 +176,7 @@ def mutated(draw: Any, schema: dict[str, Any], naming: _Naming) -> tuple[dict[st
     return result, applied
 
 
-def _mutate(draw: Any, schema: dict[str, Any], mutation: str, naming: _Naming) -> bool:
+def _mutate(draw: Any, schema: dict[str, Any], mutation: str, naming: Naming) -> bool:
     records = _records(schema)
     record = draw(st.sampled_from(records))
     fields = record["fields"]
@@ -198,7 +199,7 @@ def _mutate(draw: Any, schema: dict[str, Any], mutation: str, naming: _Naming) -
             field["aliases"] = [old]
         return True
     if mutation in ("promote", "demote", "break-type"):
-        candidates = [f for f in all_fields if isinstance(f["type"], str) and f["type"] in PRIMITIVES]
+        candidates = [f for f in all_fields if f["type"] in PRIMITIVES]
         if not candidates:
             return False
         field = draw(st.sampled_from(candidates))
@@ -243,7 +244,10 @@ def _mutate(draw: Any, schema: dict[str, Any], mutation: str, naming: _Naming) -
         field.pop("default", None)
         return True
     if mutation == "narrow":
-        candidates = [f for f in all_fields if isinstance(f["type"], list) and len(f["type"]) > 1]
+        # Never narrow ["null", Self]: a record that must contain itself has no finite value.
+        candidates = [f for f in all_fields if isinstance(f["type"], list) and len(f["type"]) > 1
+                      and all(b in PRIMITIVES + ["null"] or isinstance(b, dict)
+                              for b in f["type"])]
         if not candidates:
             return False
         field = draw(st.sampled_from(candidates))
@@ -258,7 +262,8 @@ def _mutate(draw: Any, schema: dict[str, Any], mutation: str, naming: _Naming) -
         field = draw(st.sampled_from(candidates))
         branches = field["type"]
         if mutation == "union-add":
-            spare = [p for p in ["null", "int", "double", "string", "boolean"] if p not in branches]
+            spare = [p for p in ("null", "int", "double", "string", "boolean")
+                     if p not in branches]
             if not spare:
                 return False
             branches.append(draw(st.sampled_from(spare)))
@@ -298,7 +303,7 @@ def _mutate(draw: Any, schema: dict[str, Any], mutation: str, naming: _Naming) -
                                 else "timestamp-millis")
         return True
     if mutation == "nest":
-        candidates = [f for f in all_fields if isinstance(f["type"], str) and f["type"] in PRIMITIVES]
+        candidates = [f for f in all_fields if f["type"] in PRIMITIVES]
         if not candidates:
             return False
         field = draw(st.sampled_from(candidates))
@@ -356,7 +361,7 @@ def schema_pairs(draw: Any, first: str | None = None
     """(reader JSON, writer JSON, mutations): a random schema and a mutated copy, either way.
 
     `first` forces the first mutation (and adds a field it can apply to)."""
-    naming = _Naming()
+    naming = Naming()
     original = draw(record_json(naming, depth=2))
     if first in INGREDIENTS:
         original["fields"].append({"name": "ingredient", "type": INGREDIENTS[first](naming)})
@@ -406,7 +411,8 @@ def datum_for(draw: Any, schema: Schema, depth: int = 0) -> Any:
     if isinstance(schema, Array):
         return draw(st.lists(datum_for(schema.items, depth + 1), max_size=0 if depth > 3 else 2))
     if isinstance(schema, Map):
-        return draw(st.dictionaries(st.text("abc", max_size=2), datum_for(schema.values, depth + 1),
+        return draw(st.dictionaries(st.text("abc", max_size=2),
+                                    datum_for(schema.values, depth + 1),
                                     max_size=0 if depth > 3 else 2))
     return draw(primitive_value(schema.kind))
 

@@ -16,10 +16,17 @@ import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
-from registry.schema import canonical_form, fingerprint, parse, resolve, to_json
+from registry.schema import canonical_form, diff, fingerprint, parse, resolve, to_json
 from registry.schema.errors import SchemaError
 
-from tests.schema.generators import MUTATIONS, datum_for, record_json, schema_pairs, witness_datum, _Naming
+from .generators import (
+    MUTATIONS,
+    Naming,
+    datum_for,
+    record_json,
+    schema_pairs,
+    witness_datum,
+)
 
 # Where fastavro departs from the specification we follow the specification (see
 # docs/schema-compatibility.md): rules whose problems fastavro does not detect when reading.
@@ -58,6 +65,9 @@ def test_verdict_agrees_with_fastavro_reading_real_data(first_mutation, data):
         event("a mutation made an invalid schema")
         return  # a mutation made an invalid schema (a default no longer fitting, say)
     reader, writer = parsed
+    for schema_json, schema in ((reader_json, reader), (writer_json, writer)):
+        # fastavro.schema.to_parsing_canonical_form (the oracle), on every generated schema
+        assert canonical_form(schema) == fastavro.schema.to_parsing_canonical_form(schema_json)
     fast_writer = fastavro.parse_schema(to_json(writer))
     fast_reader = fastavro.parse_schema(to_json(reader))
     resolution = resolve(reader, writer)
@@ -82,7 +92,7 @@ def test_verdict_agrees_with_fastavro_reading_real_data(first_mutation, data):
 
 
 @settings(max_examples=100, deadline=None, derandomize=True)
-@given(schema_json=st.builds(_Naming).flatmap(lambda naming: record_json(naming, depth=2)))
+@given(schema_json=st.builds(Naming).flatmap(lambda naming: record_json(naming, depth=2)))
 def test_canonical_form_and_fingerprints_equal_fastavro(schema_json):
     try:
         schema = parse(schema_json)
@@ -95,3 +105,18 @@ def test_canonical_form_and_fingerprints_equal_fastavro(schema_json):
     assert result.crc64_avro == fastavro.schema.fingerprint(form, "CRC-64-AVRO")
     assert result.sha256 == fastavro.schema.fingerprint(form, "SHA-256")
     assert canonical_form(parse(to_json(schema))) == form
+
+
+@pytest.mark.parametrize("first_mutation", MUTATIONS)
+@settings(max_examples=10, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
+@given(data=st.data())
+def test_diff_classes_agree_with_resolution(first_mutation, data):
+    old_json, new_json, _ = data.draw(schema_pairs(first_mutation))
+    parsed = _parse_both(old_json, new_json)
+    if parsed is None:
+        return
+    old, new = parsed
+    changes = diff(old, new)
+    assert changes.breaks_readers == (not resolve(new, old).compatible), changes
+    assert changes.breaks_writers == (not resolve(old, new).compatible), changes

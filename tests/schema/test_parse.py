@@ -92,7 +92,8 @@ def test_null_namespace_inside_a_namespace_survives_to_json():
 
 def test_aliases_of_named_types_take_the_namespace_of_the_type():
     # Avro specification, Aliases: aliases may be fully qualified or relative to the namespace.
-    schema = parse({"type": "enum", "name": "x.E", "aliases": ["Old", "y.Other"], "symbols": ["A"]})
+    schema = parse({"type": "enum", "name": "x.E", "aliases": ["Old", "y.Other"],
+                    "symbols": ["A"]})
     assert schema.aliases == ("x.Old", "y.Other")
 
 
@@ -182,6 +183,8 @@ BAD_SCHEMAS = [
     ("invalid enum symbol", {"type": "enum", "name": "E", "symbols": ["A", "B C"]}, "/symbols/1"),
     ("enum default not a symbol", {"type": "enum", "name": "E", "symbols": ["A"],
                                    "default": "Z"}, "/default"),
+    ("enum default not a string", {"type": "enum", "name": "E", "symbols": ["A"],
+                                   "default": ["A"]}, "/default"),
     ("enum without symbols", {"type": "enum", "name": "E"}, "/"),
     ("fixed without size", {"type": "fixed", "name": "F"}, "/"),
     ("negative fixed size", {"type": "fixed", "name": "F", "size": -1}, "/size"),
@@ -249,8 +252,18 @@ def test_place_prefix_of_an_embedded_schema():
 def test_invalid_json_names_line_and_column(text, where):
     with pytest.raises(SchemaError) as caught:
         load(text, source="feed.avsc")
-    assert caught.value.place == f"feed.avsc {where}"
-    assert "invalid JSON" in caught.value.message
+    error = caught.value
+    assert error.place == where and error.source == "feed.avsc"
+    assert f"line {error.line}, column {error.column}" == where
+    assert "invalid JSON" in error.message
+    assert error.one_line().startswith(f"feed.avsc {where}: invalid JSON")
+
+
+def test_load_names_the_source_and_keeps_the_pointer():
+    with pytest.raises(SchemaError) as caught:
+        load('{"type": "map", "values": "Nope"}', source="feed.avsc")
+    assert caught.value.place == "/values" and caught.value.source == "feed.avsc"
+    assert caught.value.one_line().startswith("feed.avsc /values: undefined type name")
 
 
 def test_deep_invalid_json_names_line_and_column():
@@ -264,3 +277,10 @@ def test_load_accepts_what_json_accepts():
     assert to_json(load(json.dumps(SEGMENT))) == to_json(parse(SEGMENT))
     assert isinstance(load('{"type": "map", "values": "long"}'), Map)
     assert isinstance(load('["null", "string"]'), Union)
+
+
+def test_map_default_places_escape_the_key():
+    with pytest.raises(SchemaError) as caught:
+        parse({"type": "record", "name": "R", "fields": [
+            {"name": "m", "type": {"type": "map", "values": "int"}, "default": {"a/b": "x"}}]})
+    assert caught.value.place == "/fields/0/default/a~1b"

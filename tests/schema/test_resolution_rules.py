@@ -210,7 +210,7 @@ def test_every_problem_is_listed_not_just_the_first():
                                                   "symbols": MATERIAL})))
     result = resolve(reader, writer)
     assert [(p.path, p.rule, p.witness) for p in result.problems] == [
-        ("/fields/diameter_mm/type", "type-mismatch", None),
+        ("/fields/diameter_mm/type", "type-mismatch", {"writer_field": "diameter_mm"}),
         ("/fields/pipe_material/type", "enum-symbol", {"enum_symbol": "HDPE"}),
         ("/fields/pipe_material/type", "enum-symbol", {"enum_symbol": "ASBESTOS_CEMENT"}),
         ("/fields/repairs_5y", "missing-field", {"reader_field": "repairs_5y"}),
@@ -242,5 +242,17 @@ def test_direction_helpers():
     assert check_forward(new, old).compatible  # old reads new: b is ignored
     both = check_both(new, old)
     assert not both.compatible and [p.direction for p in both.problems] == ["backward"]
+    assert [(n.direction, n.rule) for n in both.notes] == [("forward", "writer-field-ignored")]
     assert reads(new, old) == resolve(new, old)
     assert [r.compatible for r in check_against_all(new, [old, new])] == [False, True]
+
+
+def test_deep_nesting_resolves_and_describes_without_recursion_limit():
+    deep: object = "int"
+    for _ in range(3000):
+        deep = {"type": "array", "items": deep}
+    reader = parse(deep)
+    result = resolve(reader, parse({"type": "map", "values": "int"}))
+    assert result.problems[0].message.endswith("array of array of array of array of ...")
+    assert repr(reader).startswith("Array(array of")
+    assert resolve(reader, parse(deep)).compatible
