@@ -27,6 +27,11 @@ TITLES = {
     "already-exists": "The name is already taken",
     "invalid-content": "The content parsed but is not acceptable",
     "invalid-schema": "The Avro schema is not valid",
+    "features-contradict-schema": "The feature definitions contradict the input schema",
+    "dataset-file": "The dataset file cannot be read",
+    "dataset-value": "A value in the dataset does not fit its schema",
+    "dataset-columns": "The dataset's columns do not match its schema",
+    "dataset-empty": "The dataset has no records",
     "forbidden": "The token's role does not allow this",
     "unauthenticated": "A valid bearer token is needed",
     "refused": "The catalogue refused this",
@@ -59,11 +64,13 @@ def problem_type(kind: str) -> str:
 
 
 def problem_response(kind: str, status: int, detail: str, place: str | None = None,
-                     headers: dict[str, str] | None = None) -> Response:
+                     headers: dict[str, str] | None = None,
+                     extensions: dict[str, object] | None = None) -> Response:
     document = {"type": problem_type(kind), "title": TITLES.get(kind, kind.replace("-", " ")),
                 "status": status, "detail": detail, "instance": request.path}
     if place is not None:
         document["place"] = place
+    document.update(extensions or {})
     response = Response(json.dumps(document), status=status, mimetype=PROBLEM_MEDIA_TYPE)
     for name, value in (headers or {}).items():
         response.headers[name] = value
@@ -72,10 +79,15 @@ def problem_response(kind: str, status: int, detail: str, place: str | None = No
     return response
 
 
+# Members some errors carry besides the place (a schema error: the file, line and column).
+EXTENSION_MEMBERS = ("source", "line", "column")
+
+
 def _from_lockkeeper_error(error: LockkeeperError) -> Response:
-    return problem_response(error.kind, error.http_status, error.one_line()
-                            if error.place is None else " ".join(error.message.split()),
-                            error.place)
+    extensions = {name: getattr(error, name) for name in EXTENSION_MEMBERS
+                  if getattr(error, name, None) not in (None, "")}
+    return problem_response(error.kind, error.http_status, " ".join(error.message.split()),
+                            error.place, extensions=extensions)
 
 
 def _from_http_exception(error: HTTPException) -> Response:

@@ -124,7 +124,7 @@ def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
                                         granted_by=actor.name))
             uow.audit.append(actor.name, "role.grant", f"user/{user}",
                              {"role": "admin", "bootstrap": True})
-        elif role != "reader" and role not in held and "admin" not in held:
+        elif role != "reader" and role not in held:
             # A token never carries more than its user holds: the approval gates count only
             # approvers known to the catalogue.
             raise UserError(f"{user} does not hold the {role} role; grant it first with "
@@ -208,6 +208,6 @@ def token_standing(catalogue: Catalogue, secret: str) -> TokenStanding:
             expires_at = expires_at.replace(tzinfo=UTC)  # SQLite hands back naive UTC
         held = _catalogue_roles(uow, row.user)
         user, role = row.user, row.role
-    if not (role == "reader" or role in held or "admin" in held):
+    if not (role == "reader" or role in held):
         role = "reader"  # the user lost the role after the token was made: it may still read
     return TokenStanding(Actor(name=user, roles=frozenset({role})), expires_at)

@@ -134,7 +134,7 @@ def test_an_invalid_schema_upload_is_a_422_problem(ready, tmp_path):
                           data=upload_parts(document, manifest),
                           content_type="multipart/form-data")
     document = _refused(ready, response, 422, "invalid-schema")
-    assert document["place"].startswith("input_schema")
+    assert document["source"] == "input_schema" and document["place"] == "/"
     assert _state(ready) == before
 
 

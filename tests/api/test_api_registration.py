@@ -41,8 +41,9 @@ def _stored(url: str, model: str) -> tuple:
             version = session.execute(
                 select(t.Version).join(t.Model, t.Model.id == t.Version.model_id)
                 .where(t.Model.name == model)).scalar_one()
-            blob = session.get(t.Blob, version.document_digest).content
+            blob = session.get(t.Blob, version.stored_blob_digest).content
             return (version.document_digest, version.registration_digest, blob,
+                    version.stored_blob_digest, version.features_json,
                     version.input_schema_json, version.output_schema_json,
                     version.document_summary_json)
     finally:
