@@ -52,15 +52,22 @@ def error_from_problem(status: int, document: dict[str, Any]) -> LockkeeperError
     return RemoteError(detail, kind=kind, status=status, place=place)
 
 
-def encode_multipart(parts: Sequence[tuple[str, str, bytes]]) -> tuple[bytes, str]:
-    """multipart/form-data (RFC 7578) from (name, file name, content) triples."""
+def _quoted(text: str) -> str:
+    return text.replace("\\", "\\\\").replace('"', '\\"').replace("\r", "").replace("\n", "")
+
+
+def encode_multipart(parts: Sequence[tuple[str, str, bytes]],
+                     fields: Sequence[tuple[str, str]] = ()) -> tuple[bytes, str]:
+    """multipart/form-data (RFC 7578) from (name, file name, content) files and (name, text)
+    fields."""
     boundary = "lockkeeper-" + secrets.token_hex(16)
     chunks = []
+    for name, text in fields:
+        chunks.append(f'--{boundary}\r\nContent-Disposition: form-data; name="{_quoted(name)}"'
+                      f"\r\n\r\n{text}\r\n".encode("utf-8"))
     for name, filename, content in parts:
-        quoted_name = name.replace("\\", "\\\\").replace('"', '\\"')
-        quoted_file = filename.replace("\\", "\\\\").replace('"', '\\"')
-        chunks.append(f'--{boundary}\r\nContent-Disposition: form-data; name="{quoted_name}"; '
-                      f'filename="{quoted_file}"\r\nContent-Type: application/octet-stream'
+        chunks.append(f'--{boundary}\r\nContent-Disposition: form-data; name="{_quoted(name)}"; '
+                      f'filename="{_quoted(filename)}"\r\nContent-Type: application/octet-stream'
                       "\r\n\r\n".encode("utf-8"))
         chunks.append(content)
         chunks.append(b"\r\n")
@@ -212,6 +219,57 @@ class ApiClient:
 
     def report(self, report_id: int) -> dict:
         return self._get(f"/reports/{int(report_id)}")
+
+    # --- datasets and evaluations -----------------------------------------------------------
+
+    def list_datasets(self) -> dict:
+        return self._get("/datasets")
+
+    def show_dataset(self, name: str) -> dict:
+        return self._get(f"/datasets/{_quote(name)}")
+
+    def add_dataset_fingerprint(self, name: str, fingerprint: dict, *, role: str = "source",
+                                derived_from: Sequence[str] = (), feed_of: str | None = None,
+                                source_uri: str = "") -> dict:
+        """Register a dataset from a fingerprint computed here (`dataset fingerprint --json`)."""
+        return self._post("/datasets", {"name": name, "fingerprint": fingerprint, "role": role,
+                                        "derived_from": list(derived_from), "feed_of": feed_of,
+                                        "source_uri": source_uri})
+
+    def add_dataset_file(self, name: str, file: str | Path, *, schema: str | Path | None = None,
+                         role: str = "source", file_format: str | None = None,
+                         keys: Sequence[str] = (), exclude: Sequence[str] = (),
+                         derived_from: Sequence[str] = (), feed_of: str | None = None,
+                         source_uri: str | None = None) -> dict:
+        """Upload a dataset file; the server fingerprints it."""
+        fields = [("name", name), ("role", role)]
+        fields += [("key", key) for key in keys] + [("exclude", column) for column in exclude]
+        fields += [("derived_from", parent) for parent in derived_from]
+        for field_name, value in (("format", file_format), ("feed_of", feed_of),
+                                  ("source_uri", source_uri)):
+            if value:
+                fields.append((field_name, value))
+        files = [("file", Path(file).name, _read(file, "FILE"))]
+        if schema is not None:
+            files.append(("schema", Path(schema).name, _read(schema, "--schema")))
+        data, content_type = encode_multipart(files, fields)
+        return self.request("POST", "/datasets", data=data, content_type=content_type)[2]
+
+    def evaluate(self, model: str, version: int, dataset: str, predictions: str | Path, *,
+                 task: str | None = None, slices: Sequence[str] = (),
+                 threshold: float | None = None) -> dict:
+        fields = [("dataset", dataset)] + [("slice", column) for column in slices]
+        if task:
+            fields.append(("task", task))
+        if threshold is not None:
+            fields.append(("threshold", repr(float(threshold))))
+        data, content_type = encode_multipart(
+            [("predictions", Path(predictions).name, _read(predictions, "--predictions"))], fields)
+        return self.request("POST", f"/models/{_quote(model)}/versions/{int(version)}/evaluations",
+                            data=data, content_type=content_type)[2]
+
+    def list_evaluations(self, model: str, version: int) -> dict:
+        return self._get(f"/models/{_quote(model)}/versions/{int(version)}/evaluations")
 
     # --- people, tokens, audit, schemas ----------------------------------------------------
 

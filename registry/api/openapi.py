@@ -55,12 +55,14 @@ def _operation(operation: Operation) -> dict[str, Any]:
                            "schema": {"type": "string"}})
     if parameters:
         document["parameters"] = parameters
+    content = {}
     if operation.body is not None:
-        document["requestBody"] = {"required": operation.body_required, "content": {
-            "application/json": {"schema": operation.body}}}
+        content["application/json"] = {"schema": operation.body}
     if operation.form is not None:
-        document["requestBody"] = {"required": True, "content": {
-            "multipart/form-data": {"schema": operation.form}}}
+        content["multipart/form-data"] = {"schema": operation.form}
+    if content:
+        document["requestBody"] = {"required": operation.body_required or operation.form is not None,
+                                   "content": content}
     responses: dict[str, Any] = {}
     for status, description in operation.responses.items():
         entry: dict[str, Any] = {"description": description}

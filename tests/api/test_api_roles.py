@@ -6,12 +6,18 @@ roles and tokens, but neither publishes nor approves, so four eyes always means 
 
 from __future__ import annotations
 
+import functools
+import io
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import pytest
 
+from registry.demo import BRACKWATER
+
 from tests.api.api_helpers import HOLDERS, problem, set_up_model
+
+DATA = BRACKWATER / "datasets"
 
 ROLES = (None, "reader", "publisher", "approver", "admin")
 
@@ -62,6 +68,30 @@ def _revoke_token(api, role, model):
     return api.delete(f"/tokens/{token_id}", role=role)
 
 
+@functools.lru_cache(maxsize=1)
+def _live_sample_fingerprint() -> dict:
+    from registry.datasets import fingerprint_file
+
+    return fingerprint_file(str(DATA / "brackwater-live-sample.avro"), schema_json=None).to_dict()
+
+
+def _with_version_and_evaluation_set(api, tmp_path, model):
+    _with_version(api, tmp_path, model)
+    if api.get("/datasets/evaluation").status_code == 404:
+        assert api.post("/datasets", role="publisher", content_type="multipart/form-data", data={
+            "name": "evaluation", "role": "evaluation", "key": "segment_id",
+            "file": (io.BytesIO((DATA / "brackwater-evaluation-set.parquet").read_bytes()),
+                     "evaluation.parquet")}).status_code == 201
+
+
+def _evaluate(api, role, model):
+    predictions = (DATA.parent / "predictions" / "main-burst-risk-v1.csv").read_bytes()
+    return api.post(f"/models/{model}/versions/1/evaluations", role=role,
+                    content_type="multipart/form-data",
+                    data={"dataset": "evaluation",
+                          "predictions": (io.BytesIO(predictions), "v1.csv")})
+
+
 WRITES = [
     Write("create model", ("admin",), _nothing,
           lambda api, role, model: api.post("/models", {"name": model}, role=role)),
@@ -99,6 +129,10 @@ WRITES = [
           lambda api, role, model: api.post("/tokens", {"user": "ines.okafor",
                                                         "role": "reader"}, role=role)),
     Write("revoke a token", ("admin",), _token_to_revoke, _revoke_token),
+    Write("register a dataset", ("publisher",), _nothing,
+          lambda api, role, model: api.post("/datasets", {
+              "name": model, "fingerprint": _live_sample_fingerprint()}, role=role)),
+    Write("add an evaluation", ("publisher",), _with_version_and_evaluation_set, _evaluate),
 ]
 api_tmp: list = [None]  # the test's tmp_path, for the register call
 

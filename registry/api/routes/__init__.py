@@ -1,5 +1,5 @@
 """The API's routes, one module per resource; importing this package registers them all."""
 
 from registry.api.routes import (  # noqa: F401 - imported for their routes
-    audit, meta, models, people, schemas, stages, tokens, versions,
+    audit, datasets, evaluations, meta, models, people, schemas, stages, tokens, versions,
 )
