@@ -61,8 +61,8 @@ def _operation(operation: Operation) -> dict[str, Any]:
     if operation.form is not None:
         content["multipart/form-data"] = {"schema": operation.form}
     if content:
-        document["requestBody"] = {"required": operation.body_required or operation.form is not None,
-                                   "content": content}
+        required = operation.body_required or operation.form is not None
+        document["requestBody"] = {"required": required, "content": content}
     responses: dict[str, Any] = {}
     for status, description in operation.responses.items():
         entry: dict[str, Any] = {"description": description}

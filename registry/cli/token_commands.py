@@ -47,13 +47,16 @@ def token_list(as_json: bool) -> None:
     """Every token: user, role, label, expiry, revocation (never the secret)."""
     found = tokens.list_tokens(_context().catalogue(), _actor())
 
+    def standing(record) -> str:
+        if record.revoked_at:
+            return "revoked"
+        return f"expires {record.expires_at}" if record.expires_at else "no expiry"
+
     def text(items):
         if not items:
             return "no tokens"
-        return "\n".join(
-            f"{r.id:>4}  {r.user:<20} {r.role:<10} "
-            f"{'revoked' if r.revoked_at else 'expires ' + r.expires_at if r.expires_at else 'active'}"
-            f"  {r.label}" for r in items)
+        return "\n".join(f"{r.id:>4}  {r.user:<20} {r.role:<10} {standing(r)}  {r.label}"
+                         for r in items)
 
     emit({"tokens": found} if as_json else found, as_json, text)
 
