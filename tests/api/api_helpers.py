@@ -78,10 +78,15 @@ def make_tokens(url: str) -> dict[str, str]:
         catalogue.close()
 
 
+def open_api(url: str, secrets: dict[str, str], *, config: dict | None = None) -> Api:
+    app = create_api_app(url, config={"TESTING": True, **(config or {})})
+    return Api(url=url, client=app.test_client(), secrets=secrets)
+
+
 def make_api(cli, *, config: dict | None = None) -> Api:
+    """An app of its own (with its own config) over the test's catalogue, with new tokens."""
     set_up_people(cli)
-    app = create_api_app(cli.url, config={"TESTING": True, **(config or {})})
-    return Api(url=cli.url, client=app.test_client(), secrets=make_tokens(cli.url))
+    return open_api(cli.url, make_tokens(cli.url), config=config)
 
 
 def set_up_model(api: Api, tmp_path: Path, name: str = "m",

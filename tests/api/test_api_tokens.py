@@ -89,7 +89,11 @@ def test_expiry_takes_durations_and_iso_dates():
     assert tokens.parse_expiry("2027-01-31", now=now) == datetime(2027, 1, 31, tzinfo=UTC)
 
 
-def test_the_first_admin_token_bootstraps_an_empty_catalogue(cli):
+def test_the_first_admin_token_bootstraps_an_empty_catalogue(empty_catalogue_url):
+    from tests.conftest import Cli
+
+    cli = Cli(empty_catalogue_url)
+    assert cli("init").exit_code == 0
     refused = cli("token", "create", "--user", "ines.okafor", "--role", "publisher",
                   user="ines.okafor")
     assert refused.exit_code == 2 and "no admin yet" in refused.stderr
