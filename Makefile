@@ -24,7 +24,8 @@ demo: $(VENV)/.installed
 	$(VENV)/bin/lockkeeper --db $(DEMO_DB) demo
 
 bench: $(VENV)/.installed
-	$(PY) -m pytest tests/bench -s $(PYTEST_ARGS)
+	$(PY) -m pip install --quiet -e '.[$(EXTRAS),bench]'
+	$(PY) -m pytest tests/bench -s -p no:cacheprovider $(PYTEST_ARGS)
 
 clean:
 	rm -rf $(VENV) .lockkeeper .pytest_cache .hypothesis

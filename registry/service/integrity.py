@@ -92,24 +92,32 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
         except (json.JSONDecodeError, TypeError, ValueError):
             findings.append(Finding(place, "its stored schemas or features are not readable JSON"))
             continue
-        if recomputed != version.registration_digest:
-            findings.append(Finding(place, "its stored content no longer matches its "
-                                           "registration digest: it was changed after registration"))
-        recorded = registered.get(place)
-        if recorded is None:
-            findings.append(Finding(place, "no registration event in the audit log"))
-        elif recorded.get("registration_digest") != version.registration_digest:
-            findings.append(Finding(place, "its registration digest differs from the one the "
-                                           "audit log recorded"))
-        elif recorded.get("document_digest") != version.document_digest:
-            findings.append(Finding(place, "its document digest differs from the one the audit "
-                                           "log recorded"))
-        elif recorded.get("stored_blob_digest") != version.stored_blob_digest:
-            findings.append(Finding(place, "it points at other stored bytes than the audit log "
-                                           "recorded"))
-        else:
+        found = _registration_findings(place, recomputed, registered.get(place), {
+            "registration_digest": version.registration_digest,
+            "document_digest": version.document_digest,
+            "stored_blob_digest": version.stored_blob_digest})
+        findings += found
+        if not found:
             findings += _document_findings(uow, version, place)
     return count, findings
+
+
+def _registration_findings(place: str, recomputed: str, recorded: dict | None,
+                           stored: dict[str, str]) -> list[Finding]:
+    """A registered row against what it was registered as: its own digest recomputed from its
+    content, and each stored digest against the one its registration event recorded."""
+    findings = []
+    if recomputed != stored["registration_digest"]:
+        findings.append(Finding(place, "its stored content no longer matches its registration "
+                                       "digest: it was changed after registration"))
+    if recorded is None:
+        return findings + [Finding(place, "no registration event in the audit log")]
+    for name, value in stored.items():
+        if recorded.get(name) != value:
+            findings.append(Finding(place, f"its {name.replace('_', ' ')} differs from the one "
+                                           "the audit log recorded"))
+            break
+    return findings
 
 
 def _document_findings(uow: UnitOfWork, version: t.Version, place: str) -> list[Finding]:
@@ -145,15 +153,8 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
             dataset.name, dataset.role, dataset.source_uri, dataset.content_digest,
             dataset.schema_fingerprint, dataset.fingerprint_digest, parents_of(uow, dataset),
             feed_of)
-        if recomputed != dataset.registration_digest:
-            findings.append(Finding(place, "its stored content no longer matches its "
-                                           "registration digest: it was changed after registration"))
-        recorded = registered.get(place)
-        if recorded is None:
-            findings.append(Finding(place, "no registration event in the audit log"))
-        elif recorded.get("registration_digest") != dataset.registration_digest:
-            findings.append(Finding(place, "its registration digest differs from the one the "
-                                           "audit log recorded"))
+        findings += _registration_findings(place, recomputed, registered.get(place), {
+            "registration_digest": dataset.registration_digest})
         blob = uow.session.get(t.Blob, dataset.fingerprint_digest)
         try:
             stored = json.loads(blob.content) if blob else {}
