@@ -114,12 +114,19 @@ def install_problem_handlers(blueprint: Blueprint) -> None:
     blueprint.register_error_handler(Exception, _from_unexpected)
 
 
-def install_app_problem_handler(app: Flask) -> None:
+def install_app_problem_handler(app: Flask, prefix: str = "/api/") -> None:
     """Routing errors (404, 405) happen before a request reaches the blueprint: the app turns
-    those under /api/ into problem documents and leaves every other path as it was."""
-    def handle(error: HTTPException):
-        if request.path.startswith("/api/"):
-            return _from_http_exception(error)
-        return error
+    those under the API's prefix into problem documents, and hands every other path to the
+    handler the app had before (the web pages' own), or to Flask's default."""
+    from werkzeug.exceptions import MethodNotAllowed, NotFound
 
-    app.register_error_handler(HTTPException, handle)
+    spec = app.error_handler_spec.setdefault(None, {})
+    for code, exception in ((None, HTTPException), (404, NotFound), (405, MethodNotAllowed)):
+        previous = spec.get(code, {}).get(exception)
+
+        def handle(error: HTTPException, previous=previous):
+            if request.path.startswith(prefix):
+                return _from_http_exception(error)
+            return previous(error) if previous is not None else error
+
+        app.register_error_handler(code or exception, handle)

@@ -58,3 +58,20 @@ def test_the_schema_check_answers_like_the_cli(api):
                         role="reader")
     # Avro specification, Schema Resolution: int is promotable to long.
     assert promoted.json["compatible"] is True
+
+
+def test_an_app_sharing_the_api_keeps_its_own_error_pages():
+    from flask import Flask
+
+    from registry.api import register_api
+
+    app = Flask("web-pages")
+
+    @app.errorhandler(404)
+    def page_not_found(error):
+        return "<p>no such page</p>", 404
+
+    register_api(app)
+    client = app.test_client()
+    assert client.get("/no-such-page").data == b"<p>no such page</p>"
+    assert client.get("/api/v1/no-such-route").mimetype == "application/problem+json"
