@@ -120,7 +120,7 @@ def install_app_problem_handler(app: Flask, prefix: str = "/api/") -> None:
     handler the app had before (the web pages' own), or to Flask's default."""
     from werkzeug.exceptions import MethodNotAllowed, NotFound
 
-    spec = app.error_handler_spec.setdefault(None, {})
+    spec = app.error_handler_spec[None]  # the app-wide handlers, by code (None: by class)
     for code, exception in ((None, HTTPException), (404, NotFound), (405, MethodNotAllowed)):
         previous = spec.get(code, {}).get(exception)
 
