@@ -11,6 +11,9 @@ from flask import current_app, request
 
 from registry.api.problems import ApiError
 
+# Far deeper than any Avro schema or fingerprint needs, and far shallower than the recursion
+# limit of the parsers that read the body next.
+MAX_DEPTH = 64
 JSON_TYPES = {"string": str, "integer": int, "object": dict, "array": list, "boolean": bool,
               "null": type(None)}
 
@@ -45,8 +48,26 @@ def json_body(schema: dict[str, Any], *, required: bool = True) -> dict[str, Any
         except (UnicodeDecodeError, json.JSONDecodeError) as error:
             raise ApiError(f"the body is not valid JSON: {error}", kind="malformed-json",
                            status=400, place="body") from None
+        except RecursionError:
+            raise ApiError(f"the body nests deeper than {MAX_DEPTH} levels", kind="bad-input",
+                           status=400, place="body") from None
+        if nesting_depth(value) > MAX_DEPTH:
+            raise ApiError(f"the body nests deeper than {MAX_DEPTH} levels", kind="bad-input",
+                           status=400, place="body")
     check_value(value, schema, "body")
     return value
+
+
+def nesting_depth(value: Any) -> int:
+    """How deep arrays and objects nest, counted without recursion."""
+    deepest, stack = 0, [(value, 1)]
+    while stack:
+        item, depth = stack.pop()
+        if isinstance(item, (list, dict)):
+            deepest = max(deepest, depth)
+            stack.extend((child, depth + 1)
+                         for child in (item.values() if isinstance(item, dict) else item))
+    return deepest
 
 
 def check_value(value: Any, schema: dict[str, Any], place: str) -> None:

@@ -100,9 +100,15 @@ def _from_http_exception(error: HTTPException) -> Response:
 
 
 def _from_unexpected(error: Exception) -> Response:
-    # A programming error: say so plainly and keep the traceback in the server log.
     from flask import current_app
 
+    if isinstance(error, RecursionError):
+        # Only input nested past the parsers' recursion limit (a schema part of a thousand
+        # levels, say) gets here: bad input, not a fault of the server.
+        current_app.logger.warning("input nested too deeply on %s %s", request.method,
+                                   request.path)
+        return problem_response("bad-input", 400, "the input nests too deeply to be read")
+    # A programming error: say so plainly and keep the traceback in the server log.
     current_app.logger.exception("unexpected error on %s %s", request.method, request.path)
     return problem_response("server-error", 500, "an unexpected error; nothing was changed")
 

@@ -198,3 +198,20 @@ def test_an_unknown_path_and_a_wrong_method_are_problems(ready):
     response = ready.client.delete("/api/v1/models", headers=ready.headers("admin"))
     _refused(ready, response, 405, "method-not-allowed")
     assert "GET" in response.headers["Allow"]
+
+
+def test_deeply_nested_input_is_a_400_problem_never_a_server_error(ready, tmp_path):
+    before = _state(ready)
+    for body in ("[" * 100_000 + "]" * 100_000,
+                 '{"reader": ' + "[" * 200 + '"int"' + "]" * 200 + ', "writer": "int"}'):
+        response = ready.post("/schemas/check", data=body, role="reader",
+                              headers={"Content-Type": "application/json"})
+        assert response.status_code == 400 and "nests" in problem(response)["detail"]
+    document, manifest = write_version_files(tmp_path / "deep")
+    (tmp_path / "deep" / "input.avsc").write_text("[" * 50_000 + '"int"' + "]" * 50_000)
+    response = ready.post("/models/m/versions", role="publisher",
+                          data=upload_parts(document, manifest),
+                          content_type="multipart/form-data")
+    assert 400 <= response.status_code < 500
+    problem(response)
+    assert _state(ready) == before
