@@ -20,8 +20,12 @@ install: $(VENV)/.installed
 test: $(VENV)/.installed
 	$(PY) -m pytest $(PYTEST_ARGS)
 
+# Builds the demo catalogue, then serves it on http://127.0.0.1:8765/ (Ctrl-C to stop);
+# `make demo SERVE=no` only builds it.
+SERVE ?= yes
 demo: $(VENV)/.installed
 	$(VENV)/bin/lockkeeper --db $(DEMO_DB) demo
+	@if [ "$(SERVE)" = yes ]; then $(VENV)/bin/lockkeeper --db $(DEMO_DB) serve; fi
 
 bench: $(VENV)/.installed
 	$(PY) -m pip install --quiet -e '.[$(EXTRAS),bench]'

@@ -49,6 +49,8 @@ COMMAND_MODULES = [
     "registry.cli.dataset_commands",
     "registry.cli.dataset_catalogue_commands",
     "registry.cli.document_commands",
+    "registry.cli.lineage_commands",
+    "registry.cli.serve_commands",
     "registry.cli.token_commands",
 ]
 

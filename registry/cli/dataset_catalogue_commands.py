@@ -12,6 +12,7 @@ import click
 from registry.cli.catalogue_commands import _actor, _context
 from registry.cli.dataset_commands import (FORMAT_CHOICE, dataset, fingerprint_path, load_schema,
                                            render_fingerprint)
+from registry.cli.lineage_commands import recall_command
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
 
@@ -87,5 +88,7 @@ def dataset_list(as_json: bool) -> None:
         f"{s.name:<32} {s.role:<12} {s.rows:>8} rows{'  RECALLED' if s.recalled else ''}"
         for s in d["datasets"]) or "no datasets yet")
 
+
+dataset.add_command(recall_command, "recall")
 
 COMMANDS: list = []  # the commands above join the `dataset` group

@@ -10,7 +10,6 @@ from sqlalchemy import select
 
 from registry import gates
 from registry import schema as avro
-from registry.store import lineage
 from registry.store import tables as t
 from registry.store.unit_of_work import UnitOfWork
 
@@ -69,22 +68,12 @@ def dataset_records(uow: UnitOfWork, version: t.Version) -> tuple[gates.DatasetR
 
 
 def recalled_upstream(uow: UnitOfWork, version: t.Version) -> tuple[gates.RecalledDataset, ...]:
-    """Every recalled dataset at or upstream of the version's own datasets."""
-    own = {dataset.id: dataset for _, dataset in _linked(uow, version)}
-    reachable = lineage.upstream_datasets(uow.session, own)
-    if not reachable:
-        return ()
-    recalled = uow.session.execute(
-        select(t.Dataset).where(t.Dataset.id.in_(reachable), t.Dataset.recalled_at.is_not(None))
-        .order_by(t.Dataset.name)).scalars().all()
-    found = []
-    for dataset in recalled:
-        via = lineage.derivation_chain(uow.session, dataset.id, set(own))
-        found.append(gates.RecalledDataset(
-            name=dataset.name, reason=dataset.recall_reason or "",
-            recalled_at=dataset.recalled_at.isoformat(),
-            via=tuple(uow.session.get(t.Dataset, i).name for i in via)))
-    return tuple(found)
+    """Every recalled dataset upstream of the version, with the lineage path down to it."""
+    from registry.service.recall import recalled_upstream as recalled_sources
+
+    return tuple(gates.RecalledDataset(name=source.dataset, reason=source.reason,
+                                       recalled_at=source.recalled_at, via=source.chain)
+                 for source in recalled_sources(uow, version))
 
 
 def _roles_of(uow: UnitOfWork, user: str) -> tuple[str, ...]:

@@ -120,24 +120,25 @@ def _place(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, is_e
     uow.session.add(t.StageHolding(model_id=model.id, version_id=version.id, stage=stage,
                                    is_exclusive=is_exclusive, since=utc_now(),
                                    report_id=report_id, previous_version_id=displaced_id))
-    _event(uow, model, version, stage, event, actor, report_id,
-           displaced_version=displaced_number)
+    details = {"displaced_version": displaced_number} if displaced_number is not None else {}
+    _event(uow, model, version, stage, event, actor, report_id, **details)
     uow.session.flush()
     return displaced_number
 
 
-def _return_to_start(uow: UnitOfWork, model: t.Model, version: t.Version, actor: Actor) -> None:
+def _return_to_start(uow: UnitOfWork, model: t.Model, version: t.Version, actor: Actor,
+                     reason: str = "left a stage it held") -> None:
     policy = gatekeeping.policy_of(model)
     start = policy.ladder[0]
     if start not in stages_of(uow, version):
         uow.session.add(t.StageHolding(model_id=model.id, version_id=version.id, stage=start,
                                        is_exclusive=policy.is_exclusive(start), since=utc_now()))
-        _event(uow, model, version, start, "entered", actor, reason="left a stage it held")
+        _event(uow, model, version, start, "entered", actor, reason=reason)
 
 
 def enter_first_stage(uow: UnitOfWork, model: t.Model, version: t.Version, actor: Actor) -> None:
     """A newly registered version starts on the first stage of its model's ladder."""
-    _return_to_start(uow, model, version, actor)
+    _return_to_start(uow, model, version, actor, reason="registered")
 
 
 def check(catalogue: Catalogue, model: str, number: int, stage: str, actor: Actor,

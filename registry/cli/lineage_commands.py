@@ -1,0 +1,103 @@
+"""Commands on lineage: `lineage NODE --up|--down`, and `recall` for the dataset group."""
+
+from __future__ import annotations
+
+import json
+
+import click
+
+from registry.cli.output import emit, json_option, to_plain
+from registry.errors import UserError
+from registry.service import lineage as lineage_service
+from registry.service import recall as recall_service
+from registry.service.actors import Actor
+
+
+def _context():
+    return click.get_current_context().obj
+
+
+def _actor() -> Actor:
+    from registry.service.roles import load_actor
+
+    context = _context()
+    return load_actor(context.catalogue(), context.user)
+
+
+def _render_graph(graph: lineage_service.LineageGraph) -> str:
+    way = {"up": "upstream of", "down": "downstream of", "both": "around"}[graph.direction]
+    lines = [f"{way} {graph.root}" + (f" (depth {graph.depth})" if graph.depth is not None else "")]
+    for node in graph.nodes:
+        if node.id == graph.root:
+            continue
+        marks = [word for word, on in (("RECALLED", node.recalled),
+                                       ("flagged", node.flagged and not node.recalled),
+                                       ("formerly", node.kind == "stage" and not node.current))
+                 if on]
+        depth = f"{node.depth:>3}  " if node.depth is not None else "  "
+        lines.append(f"  {depth}{node.id}" + (f"  [{', '.join(marks)}]" if marks else ""))
+    if len(lines) == 1:
+        lines.append("  nothing")
+    if graph.edges:
+        lines.append("edges:")
+        lines.extend(f"  {e.source}  {e.relation}  {e.target}" for e in graph.edges)
+    return "\n".join(lines)
+
+
+@click.command()
+@click.argument("node")
+@click.option("--up", "direction", flag_value="up", help="What went into NODE.")
+@click.option("--down", "direction", flag_value="down", help="What came of NODE.")
+@click.option("--depth", type=click.IntRange(0, lineage_service.MAX_DEPTH), default=None,
+              help="Follow at most this many edges (default: all).")
+@click.option("--format", "output_format", type=click.Choice(["text", "json", "prov-json"]),
+              default=None, help="text (default), json, or W3C PROV-JSON.")
+@json_option
+def lineage(node: str, direction: str | None, depth: int | None, output_format: str | None,
+            as_json: bool) -> None:
+    """The lineage of NODE: dataset/NAME (or NAME), MODEL@N, model/M/version/N, model/M/stage/S."""
+    if direction is None:
+        raise UserError("say which way to walk: --up (what went in) or --down (what came of it)",
+                        place="--up/--down")
+    if as_json and output_format not in (None, "json"):
+        raise UserError("--json and --format prov-json ask for different documents; use one",
+                        place="--format")
+    output_format = output_format or ("json" if as_json else "text")
+    catalogue = _context().catalogue()
+    if output_format == "prov-json":
+        document = lineage_service.provenance_of(catalogue, node, direction, depth)
+        click.echo(json.dumps(document, indent=2, sort_keys=True))
+        return
+    graph = lineage_service.lineage_of(catalogue, node, direction, depth)
+    emit(graph, output_format == "json", _render_graph)
+
+
+def _render_recall(outcome: recall_service.RecallOutcome) -> str:
+    lines = [f"recalled {outcome.dataset}: {outcome.reason}"]
+    if outcome.downstream_datasets:
+        lines.append("downstream datasets, flagged:")
+        lines.extend(f"  {name}" for name in outcome.downstream_datasets)
+    if outcome.downstream_versions:
+        lines.append("downstream versions, flagged and blocked from promotion:")
+        for v in outcome.downstream_versions:
+            held = f"  [{', '.join(v.stages)}]" if v.stages else ""
+            lines.append(f"  {v.model} v{v.version}{held}")
+    if outcome.holding_stages:
+        lines.append("act on these now (they hold a stage):")
+        lines.extend(f"  {s.model} v{s.version} in {s.stage}" for s in outcome.holding_stages)
+    else:
+        lines.append("no flagged version holds a stage")
+    return "\n".join(lines)
+
+
+@click.command("recall")
+@click.argument("name")
+@click.option("--reason", required=True, help="Why the dataset is bad: what someone must know.")
+@json_option
+def recall_command(name: str, reason: str, as_json: bool) -> None:
+    """Recall dataset NAME: flag everything downstream and block it from promotion."""
+    outcome = recall_service.recall_dataset(_context().catalogue(), name, reason, _actor())
+    emit(to_plain(outcome), as_json, lambda _: _render_recall(outcome))
+
+
+COMMANDS = [lineage]

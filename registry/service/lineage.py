@@ -1,0 +1,227 @@
+"""Lineage use cases: the graph around a node, upstream or downstream, as plain data.
+
+Node ids are strings a person can type: `dataset/<name>`, `model/<model>/version/<n>` and
+`model/<model>/stage/<stage>`; a bare dataset name and `MODEL@N` are accepted as input too.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from typing import Literal
+
+from sqlalchemy import select
+
+from registry.errors import NotFound, UserError
+from registry.store import lineage as walks
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork
+
+Direction = Literal["up", "down", "both"]
+DIRECTIONS = ("up", "down", "both")
+MAX_DEPTH = 1000
+
+_VERSION_ID = re.compile(r"^model/([^/]+)/version/([0-9]{1,9})$")
+_STAGE_ID = re.compile(r"^model/([^/]+)/stage/([^/]+)$")
+_DATASET_ID = re.compile(r"^dataset/([^/]+)$")
+_AT_VERSION = re.compile(r"^([^/@]+)@([0-9]{1,9})$")
+_BARE = re.compile(r"^[a-z0-9][a-z0-9._-]{0,99}$")
+
+
+@dataclass(frozen=True)
+class LineageNode:
+    id: str
+    kind: str  # dataset | version | stage
+    label: str
+    recalled: bool  # a dataset marked bad by a recall
+    flagged: bool  # downstream of a recalled dataset (computed from lineage, never stored)
+    depth: int | None
+    model: str = ""
+    current: bool = True  # for a stage: someone holds it now
+
+
+@dataclass(frozen=True)
+class LineageEdge:
+    """Reads `source <relation> target`: the source depends on the target."""
+
+    source: str
+    target: str
+    # derived-from | trained-on | evaluated-on | parent-version | held-by | was-held-by
+    relation: str
+
+
+@dataclass(frozen=True)
+class LineageGraph:
+    root: str
+    direction: str
+    depth: int | None
+    nodes: tuple[LineageNode, ...]
+    edges: tuple[LineageEdge, ...]
+
+    def node(self, node_id: str) -> LineageNode | None:
+        return next((n for n in self.nodes if n.id == node_id), None)
+
+
+def dataset_id(name: str) -> str:
+    return f"dataset/{name}"
+
+
+def version_id(model: str, number: int) -> str:
+    return f"model/{model}/version/{number}"
+
+
+def stage_id(model: str, stage: str) -> str:
+    return f"model/{model}/stage/{stage}"
+
+
+def normalise_node(text: str) -> str:
+    """The canonical id of what a person typed, without looking anything up."""
+    text = (text or "").strip()
+    if m := _AT_VERSION.match(text):
+        return version_id(m.group(1), int(m.group(2)))
+    if _VERSION_ID.match(text) or _STAGE_ID.match(text) or _DATASET_ID.match(text):
+        if m := _VERSION_ID.match(text):
+            return version_id(m.group(1), int(m.group(2)))
+        return text
+    if _BARE.match(text):
+        return dataset_id(text)
+    raise UserError(f"not a lineage node: {text!r}; use dataset/NAME, NAME, MODEL@N, "
+                    "model/MODEL/version/N or model/MODEL/stage/STAGE", place="NODE")
+
+
+def _model_id(uow: UnitOfWork, name: str) -> int:
+    found = uow.session.execute(select(t.Model.id).where(t.Model.name == name)).scalar_one_or_none()
+    if found is None:
+        raise NotFound(f"unknown model {name!r}", place="NODE")
+    return found
+
+
+def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
+    """The canonical id and database key of a node; NotFound when it is not in the catalogue."""
+    node = normalise_node(text)
+    if m := _DATASET_ID.match(node):
+        found = uow.session.execute(
+            select(t.Dataset.id).where(t.Dataset.name == m.group(1))).scalar_one_or_none()
+        if found is None:
+            hint = ""
+            if uow.session.execute(select(t.Model.id).where(t.Model.name == m.group(1))).first():
+                hint = (f"; {m.group(1)!r} is a model: name one of its versions "
+                        f"({m.group(1)}@N) or stages (model/{m.group(1)}/stage/STAGE)")
+            raise NotFound(f"unknown dataset {m.group(1)!r}{hint}", place="NODE")
+        return node, walks.NodeKey("dataset", found)
+    if m := _VERSION_ID.match(node):
+        model_id = _model_id(uow, m.group(1))
+        found = uow.session.execute(
+            select(t.Version.id).where(t.Version.model_id == model_id,
+                                       t.Version.number == int(m.group(2)))).scalar_one_or_none()
+        if found is None:
+            raise NotFound(f"model {m.group(1)!r} has no version {m.group(2)}", place="NODE")
+        return node, walks.NodeKey("version", found)
+    m = _STAGE_ID.match(node)
+    assert m is not None
+    model_id = _model_id(uow, m.group(1))
+    if not walks.stage_exists(uow.session, model_id, m.group(2)):
+        raise NotFound(f"no version of {m.group(1)!r} has ever held the stage {m.group(2)!r}",
+                       place="NODE")
+    return node, walks.NodeKey("stage", model_id, m.group(2))
+
+
+def node_name(facts: walks.NodeFacts) -> str:
+    if facts.key.kind == "dataset":
+        return dataset_id(facts.name)
+    if facts.key.kind == "version":
+        return version_id(facts.model, facts.number or 0)
+    return stage_id(facts.model, facts.name)
+
+
+def node_label(facts: walks.NodeFacts) -> str:
+    if facts.key.kind == "dataset":
+        return facts.name
+    if facts.key.kind == "version":
+        return f"{facts.model} v{facts.number}"
+    return f"{facts.model} {facts.name}"
+
+
+def check_depth(depth: int | None) -> int | None:
+    if depth is None:
+        return None
+    if isinstance(depth, bool) or not isinstance(depth, int) or not 0 <= depth <= MAX_DEPTH:
+        raise UserError(f"depth must be a whole number from 0 to {MAX_DEPTH}", place="--depth")
+    return depth
+
+
+def flagged_keys(uow: UnitOfWork) -> set[walks.NodeKey]:
+    """Every node downstream of a recalled dataset, the recalled datasets included."""
+    return {r.key for r in walks.walk(uow.session, walks.recalled_seeds(), "down")}
+
+
+def graph_in(uow: UnitOfWork, node: str, direction: str, depth: int | None = None) -> LineageGraph:
+    """The lineage graph around one node, inside an open unit of work."""
+    if direction not in DIRECTIONS:
+        raise UserError(f"direction must be one of {', '.join(DIRECTIONS)}", place="direction")
+    depth = check_depth(depth)
+    root, key = resolve_node(uow, node)
+    reached: dict[walks.NodeKey, int | None] = {}
+    for way in (("up", "down") if direction == "both" else (direction,)):
+        for item in walks.walk(uow.session, walks.seeds_for(key), way, depth):
+            known = reached.get(item.key)
+            reached[item.key] = (item.depth if known is None or item.depth is None
+                                 else min(known, item.depth))
+    links = walks.links_among(uow.session, reached)
+    facts = walks.facts_of(uow.session, reached)
+    flagged = flagged_keys(uow)
+    nodes = sorted(
+        (LineageNode(id=node_name(facts[k]), kind=k.kind, label=node_label(facts[k]),
+                     recalled=facts[k].recalled, flagged=k in flagged, depth=d,
+                     model=facts[k].model,
+                     current=facts[k].is_current if k.kind == "stage" else True)
+         for k, d in reached.items() if k in facts),
+        key=lambda n: (walks.KINDS.index(n.kind), n.depth or 0, n.id))
+    edges = sorted({LineageEdge(node_name(facts[link.downstream]), node_name(facts[link.upstream]),
+                                link.relation)
+                    for link in links if link.downstream in facts and link.upstream in facts},
+                   key=lambda e: (e.source, e.target, e.relation))
+    return LineageGraph(root=root, direction=direction, depth=depth, nodes=tuple(nodes),
+                        edges=tuple(edges))
+
+
+def lineage_of(catalogue: Catalogue, node: str, direction: str,
+               depth: int | None = None) -> LineageGraph:
+    """What went into a node (`up`), what came of it (`down`), or both, as far as `depth`."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        return graph_in(uow, node, direction, depth)
+
+
+def provenance_of(catalogue: Catalogue, node: str, direction: str,
+                  depth: int | None = None) -> dict:
+    """The lineage graph around a node as a W3C PROV-JSON document."""
+    from registry import provenance as prov
+
+    with UnitOfWork(catalogue, write=False) as uow:
+        graph = graph_in(uow, node, direction, depth)
+        root, key = resolve_node(uow, node)
+        reached: set[walks.NodeKey] = {key}
+        for way in (("up", "down") if direction == "both" else (direction,)):
+            reached |= {r.key for r in walks.walk(uow.session, walks.seeds_for(key), way, depth)}
+        facts = walks.facts_of(uow.session, reached)
+        entities = [prov.ProvEntity(id=node_name(f), kind=f.key.kind, label=node_label(f),
+                                    created_at=f.created_at, created_by=f.created_by,
+                                    recalled=f.recalled, recall_reason=f.recall_reason)
+                    for f in facts.values() if f.key.kind in ("dataset", "version")]
+        staged = {(f.key.ref, f.name) for f in facts.values() if f.key.kind == "stage"}
+        version_ids = {k.ref: node_name(facts[k]) for k in facts if k.kind == "version"}
+        events = []
+        for chunk in walks._chunks(version_ids):
+            for row in uow.session.execute(
+                    select(t.StageEvent).where(t.StageEvent.version_id.in_(chunk))
+                    .order_by(t.StageEvent.id)).scalars():
+                if (row.model_id, row.stage) in staged:
+                    events.append(prov.ProvStageEvent(
+                        id=row.id, version=version_ids[row.version_id], stage=row.stage,
+                        event=row.event, at=walks.utc_iso(row.created_at), by=row.created_by))
+    uses = [prov.ProvUse(version=e.source, dataset=e.target, relation=e.relation)
+            for e in graph.edges if e.relation in ("trained-on", "evaluated-on")]
+    derivations = [prov.ProvDerivation(derived=e.source, source=e.target, relation=e.relation)
+                   for e in graph.edges if e.relation in ("derived-from", "parent-version")]
+    return prov.prov_document(entities, uses, derivations, events)

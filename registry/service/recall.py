@@ -1,0 +1,164 @@
+"""Recalling a dataset: mark it bad, and name everything downstream that someone must act on.
+
+What is downstream is computed from lineage whenever it is asked for, never stored a second time,
+so a version registered after a recall is flagged as surely as one registered before it.
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass
+
+from sqlalchemy import select
+
+from registry.errors import Forbidden, NotFound, UserError
+from registry.service.actors import Actor
+from registry.service.lineage import dataset_id, version_id
+from registry.store import lineage as walks
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork, utc_now
+
+RECALL_ROLES = ("publisher", "approver")  # an admin may do everything
+
+
+@dataclass(frozen=True)
+class FlaggedVersion:
+    model: str
+    version: int
+    stages: tuple[str, ...]  # the stages it holds right now
+
+
+@dataclass(frozen=True)
+class StageToActOn:
+    model: str
+    version: int
+    stage: str
+
+
+@dataclass(frozen=True)
+class RecallOutcome:
+    dataset: str
+    reason: str
+    recalled_at: str
+    recalled_by: str
+    downstream_datasets: tuple[str, ...]
+    downstream_versions: tuple[FlaggedVersion, ...]
+    holding_stages: tuple[StageToActOn, ...]  # versions in a stage now: someone must act on these
+    audit_sequence: int
+
+
+@dataclass(frozen=True)
+class RecalledSource:
+    """A recalled dataset upstream of a version, and the lineage path from it to the version."""
+
+    dataset: str
+    reason: str
+    recalled_at: str
+    recalled_by: str
+    chain: tuple[str, ...]  # node ids from the recalled dataset down to the version
+
+
+def _downstream_of_dataset(uow: UnitOfWork, dataset: t.Dataset):
+    reached = walks.walk(uow.session, walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")
+    dataset_ids = sorted(r.key.ref for r in reached
+                         if r.key.kind == "dataset" and r.key.ref != dataset.id)
+    version_ids = sorted(r.key.ref for r in reached if r.key.kind == "version")
+    facts = walks.facts_of(uow.session, [walks.NodeKey("dataset", i) for i in dataset_ids]
+                           + [walks.NodeKey("version", i) for i in version_ids])
+    held: dict[int, list[str]] = {}
+    for chunk in walks._chunks(version_ids):
+        for version, stage in uow.session.execute(
+                select(t.StageHolding.version_id, t.StageHolding.stage)
+                .where(t.StageHolding.version_id.in_(chunk)).order_by(t.StageHolding.stage)):
+            held.setdefault(version, []).append(stage)
+    datasets = tuple(sorted(facts[walks.NodeKey("dataset", i)].name for i in dataset_ids))
+    versions = tuple(sorted(
+        (FlaggedVersion(facts[k].model, facts[k].number or 0, tuple(held.get(k.ref, ())))
+         for k in (walks.NodeKey("version", i) for i in version_ids)),
+        key=lambda v: (v.model, v.version)))
+    to_act = tuple(StageToActOn(v.model, v.version, stage)
+                   for v in versions for stage in v.stages
+                   if stage not in _resting_stages(uow, v.model))
+    return datasets, versions, to_act
+
+
+def _resting_stages(uow: UnitOfWork, model: str) -> tuple[str, ...]:
+    """Stages from which nothing is served: the first rung of the ladder, and retired."""
+    from registry.service.gatekeeping import policy_of
+
+    line = uow.session.execute(select(t.Model).where(t.Model.name == model)).scalar_one()
+    return (policy_of(line).ladder[0], "retired")
+
+
+def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -> RecallOutcome:
+    """Mark a dataset bad, in one transaction with its audit event, and report what it touched."""
+    reason = (reason or "").strip()
+    if not reason:
+        raise UserError("a recall needs a reason a person can act on", place="--reason")
+    if not any(actor.has_role(role) for role in RECALL_ROLES):
+        raise Forbidden(f"recalling a dataset needs the publisher or approver role; "
+                        f"{actor.name} has neither", place="recall")
+    with UnitOfWork(catalogue) as uow:
+        dataset = uow.session.execute(
+            select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+        if dataset is None:
+            raise NotFound(f"unknown dataset {name!r}", place="dataset")
+        if dataset.recalled_at is not None:
+            raise UserError(f"dataset {name!r} was already recalled on "
+                            f"{walks.utc_iso(dataset.recalled_at)} by {dataset.recalled_by}: "
+                            f"{dataset.recall_reason}", place="dataset")
+        now = utc_now()
+        dataset.recalled_at, dataset.recall_reason, dataset.recalled_by = now, reason, actor.name
+        uow.session.flush()
+        datasets, versions, to_act = _downstream_of_dataset(uow, dataset)
+        sequence = uow.audit.append(actor.name, "dataset.recall", dataset_id(name), {
+            "reason": reason,
+            "downstream_datasets": list(datasets),
+            "downstream_versions": [version_id(v.model, v.version) for v in versions],
+            "holding_stages": [f"{version_id(s.model, s.version)}:{s.stage}" for s in to_act],
+        })
+        uow.commit()
+        return RecallOutcome(dataset=name, reason=reason, recalled_at=now.isoformat(),
+                             recalled_by=actor.name, downstream_datasets=datasets,
+                             downstream_versions=versions, holding_stages=to_act,
+                             audit_sequence=sequence)
+
+
+def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledSource]:
+    """Each recalled dataset upstream of a version, with the derived-from chain to it.
+
+    For the promotion gate `lineage-complete`: an empty list means no recalled data went in.
+    """
+    start = walks.NodeKey("version", version_row.id)
+    reached = {r.key for r in walks.walk(uow.session, walks.seeds_for(start), "up")}
+    facts = walks.facts_of(uow.session, reached)
+    recalled = sorted((k for k in reached if k.kind == "dataset" and facts[k].recalled),
+                      key=lambda k: facts[k].name)
+    if not recalled:
+        return []
+    # Shortest path from the version up to each recalled dataset, over the walked edges.
+    depends_on: dict[walks.NodeKey, list[walks.NodeKey]] = {}
+    for link in walks.links_among(uow.session, reached):
+        depends_on.setdefault(link.downstream, []).append(link.upstream)
+    came_from: dict[walks.NodeKey, walks.NodeKey | None] = {start: None}
+    queue = deque([start])
+    while queue:
+        current = queue.popleft()
+        for upstream in sorted(depends_on.get(current, ())):
+            if upstream not in came_from:
+                came_from[upstream] = current
+                queue.append(upstream)
+    from registry.service.lineage import node_name
+
+    sources = []
+    for key in recalled:
+        chain, step = [], key
+        while step is not None:
+            chain.append(node_name(facts[step]))
+            step = came_from.get(step)
+        row = uow.session.get(t.Dataset, key.ref)
+        sources.append(RecalledSource(dataset=row.name, reason=row.recall_reason or "",
+                                      recalled_at=walks.utc_iso(row.recalled_at),
+                                      recalled_by=row.recalled_by or "", chain=tuple(chain)))
+    return sources
