@@ -22,6 +22,10 @@ DEFAULT_MAX_CONTENT_LENGTH = 64 * 1024 * 1024
 
 
 def register_api(app: Flask) -> None:
+    """Add the API to `app`. Call it after the app's own error handlers are registered, so
+    that routing errors under /api/ stay problem documents and other paths keep the app's
+    pages. Without LOCKKEEPER_DB in app.config the API uses the catalogue of registry.app's
+    holder when there is one (one engine per process)."""
     from registry.api import routes  # noqa: F401 - registers every route on the blueprint
     from registry.api.problems import install_app_problem_handler
     from registry.api.routing import api

@@ -11,6 +11,7 @@ from registry.store.catalogue import Catalogue, open_catalogue
 
 EXTENSION = "lockkeeper.catalogue"
 READS_EXTENSION = "lockkeeper.cached_reads"
+WEB_EXTENSION = "lockkeeper"  # registry.app's CatalogueHolder
 _opening = threading.Lock()
 
 
@@ -22,9 +23,18 @@ def catalogue() -> Catalogue:
         with _opening:
             opened = app.extensions.get(EXTENSION)
             if opened is None:
-                opened = open_catalogue(app.config.get("LOCKKEEPER_DB"))
+                opened = _shared_or_own(app)
                 app.extensions[EXTENSION] = opened
     return opened
+
+
+def _shared_or_own(app: Flask) -> Catalogue:
+    """The web app's catalogue when the API shares its app and no URL of its own was given,
+    so one process keeps one engine; otherwise the catalogue LOCKKEEPER_DB names."""
+    holder = app.extensions.get(WEB_EXTENSION)
+    if "LOCKKEEPER_DB" not in app.config and holder is not None and hasattr(holder, "catalogue"):
+        return holder.catalogue()
+    return open_catalogue(app.config.get("LOCKKEEPER_DB"))
 
 
 def cached_reads() -> CachedReads:

@@ -123,16 +123,28 @@ def install_problem_handlers(blueprint: Blueprint) -> None:
 def install_app_problem_handler(app: Flask, prefix: str = "/api/") -> None:
     """Routing errors (404, 405) happen before a request reaches the blueprint: the app turns
     those under the API's prefix into problem documents, and hands every other path to the
-    handler the app had before (the web pages' own), or to Flask's default."""
+    app's own handler (the web pages'), whether registered before or after this one."""
     from werkzeug.exceptions import MethodNotAllowed, NotFound
 
     spec = app.error_handler_spec[None]  # the app-wide handlers, by code (None: by class)
-    for code, exception in ((None, HTTPException), (404, NotFound), (405, MethodNotAllowed)):
-        previous = spec.get(code, {}).get(exception)
+    mine: dict[int | None, object] = {}
 
-        def handle(error: HTTPException, previous=previous):
+    def theirs(code: int | None):
+        for key in (code, None):
+            handler = spec.get(key, {}).get(HTTPException if key is None else
+                                            {404: NotFound, 405: MethodNotAllowed}[key])
+            if handler is not None and handler is not mine.get(key):
+                return handler
+        return None
+
+    for code, exception in ((None, HTTPException), (404, NotFound), (405, MethodNotAllowed)):
+        def handle(error: HTTPException, code=code):
             if request.path.startswith(prefix):
                 return _from_http_exception(error)
+            previous = earlier.get(code) or theirs(code)
             return previous(error) if previous is not None else error
 
-        app.register_error_handler(code or exception, handle)
+        mine[code] = handle
+    earlier = {code: theirs(code) for code in mine}  # code handlers the app had already
+    for code, handle in mine.items():
+        app.register_error_handler(code or HTTPException, handle)

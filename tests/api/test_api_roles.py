@@ -133,6 +133,11 @@ WRITES = [
           lambda api, role, model: api.post("/datasets", {
               "name": model, "fingerprint": _live_sample_fingerprint()}, role=role)),
     Write("add an evaluation", ("publisher",), _with_version_and_evaluation_set, _evaluate),
+    Write("recall a dataset", ("publisher", "approver"),
+          lambda api, tmp_path, model: api.post("/datasets", {
+              "name": model, "fingerprint": _live_sample_fingerprint()}, role="publisher"),
+          lambda api, role, model: api.post(f"/datasets/{model}/recall",
+                                            {"reason": "sensor calibration fault"}, role=role)),
 ]
 api_tmp: list = [None]  # the test's tmp_path, for the register call
 
