@@ -271,6 +271,16 @@ class ApiClient:
     def list_evaluations(self, model: str, version: int) -> dict:
         return self._get(f"/models/{_quote(model)}/versions/{int(version)}/evaluations")
 
+    def lineage(self, node: str, direction: str, *, depth: int | None = None,
+                output_format: str = "json") -> dict:
+        query = {"node": node, "direction": direction, "format": output_format}
+        if depth is not None:
+            query["depth"] = str(int(depth))
+        return self._get("/lineage?" + urllib.parse.urlencode(query))
+
+    def recall(self, dataset: str, reason: str) -> dict:
+        return self._post(f"/datasets/{_quote(dataset)}/recall", {"reason": reason})
+
     # --- people, tokens, audit, schemas ----------------------------------------------------
 
     def list_users(self) -> dict:

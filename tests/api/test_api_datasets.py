@@ -158,3 +158,7 @@ def test_the_client_registers_datasets_and_evaluations(live, tmp_path):  # noqa:
                                    slices=["district"], threshold=0.5)
     assert evaluated["n"] == 950 and "district" in evaluated["slices"]
     assert publisher.list_evaluations("m", 1)["evaluations"][0]["dataset"] == "evaluation"
+    assert "dataset/live" in {n["id"] for n in publisher.lineage("assets", "down")["nodes"]}
+    assert "entity" in publisher.lineage("dataset/assets", "down", depth=1,
+                                         output_format="prov-json")
+    assert publisher.recall("assets", "wrong schema")["downstream_datasets"] == ["live"]
