@@ -51,6 +51,7 @@ COMMAND_MODULES = [
     "registry.cli.document_commands",
     "registry.cli.lineage_commands",
     "registry.cli.serve_commands",
+    "registry.cli.token_commands",
 ]
 
 
