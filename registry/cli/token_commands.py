@@ -25,11 +25,15 @@ def token_group() -> None:
 @json_option
 def token_create(user: str, role: str, expires: str | None, label: str, as_json: bool) -> None:
     """Make a token; its secret is printed once and cannot be shown again."""
-    created = tokens.create_token(_context().catalogue(), user, role, _actor(),
-                                  expires_at=tokens.parse_expiry(expires), label=label)
+    remote = _context().remote()
+    if remote:
+        created = remote.create_token(user, role, expires, label)
+    else:
+        created = tokens.create_token(_context().catalogue(), user, role, _actor(),
+                                      expires_at=tokens.parse_expiry(expires), label=label)
     if not as_json:
         warn("keep this secret now: the catalogue stores only its hash")
-    emit(created, as_json, lambda c: c.secret)
+    emit(created, as_json, lambda c: c["secret"])
 
 
 @token_group.command("revoke")
@@ -37,28 +41,32 @@ def token_create(user: str, role: str, expires: str | None, label: str, as_json:
 @json_option
 def token_revoke(token_id: int, as_json: bool) -> None:
     """Stop token ID from working, from the next request on."""
-    record = tokens.revoke_token(_context().catalogue(), token_id, _actor())
-    emit(record, as_json, lambda r: f"token {r.id} ({r.user}, {r.role}) revoked")
+    remote = _context().remote()
+    record = (remote.revoke_token(token_id) if remote
+              else tokens.revoke_token(_context().catalogue(), token_id, _actor()))
+    emit(record, as_json, lambda r: f"token {r['id']} ({r['user']}, {r['role']}) revoked")
 
 
 @token_group.command("list")
 @json_option
 def token_list(as_json: bool) -> None:
     """Every token: user, role, label, expiry, revocation (never the secret)."""
-    found = tokens.list_tokens(_context().catalogue(), _actor())
+    remote = _context().remote()
+    found = (remote.list_tokens() if remote
+             else {"tokens": tokens.list_tokens(_context().catalogue(), _actor())})
 
     def standing(record) -> str:
-        if record.revoked_at:
+        if record["revoked_at"]:
             return "revoked"
-        return f"expires {record.expires_at}" if record.expires_at else "no expiry"
+        return f"expires {record['expires_at']}" if record["expires_at"] else "no expiry"
 
-    def text(items):
-        if not items:
+    def text(d):
+        if not d["tokens"]:
             return "no tokens"
-        return "\n".join(f"{r.id:>4}  {r.user:<20} {r.role:<10} {standing(r)}  {r.label}"
-                         for r in items)
+        return "\n".join(f"{r['id']:>4}  {r['user']:<20} {r['role']:<10} {standing(r)}  "
+                         f"{r['label']}" for r in d["tokens"])
 
-    emit({"tokens": found} if as_json else found, as_json, text)
+    emit(found, as_json, text)
 
 
 COMMANDS = [token_group]
