@@ -74,9 +74,9 @@ def _error_page(status: int, message: str) -> tuple[str, int]:
 
 def create_app(catalogue_url: str | None = None, *, config: dict[str, Any] | None = None) -> Flask:
     """An application over the catalogue at `catalogue_url` (default: LOCKKEEPER_DB, then the
-    local file), with the web pages registered."""
+    local file), with the web pages and the HTTP API under /api/v1 registered."""
     app = Flask("registry", static_folder=None)
-    app.config.update(JSON_SORT_KEYS=False, MAX_CONTENT_LENGTH=1024 * 1024)
+    app.config.update(JSON_SORT_KEYS=False)
     if config:
         app.config.update(config)
     app.extensions["lockkeeper"] = CatalogueHolder(catalogue_url)
@@ -104,4 +104,7 @@ def create_app(catalogue_url: str | None = None, *, config: dict[str, Any] | Non
         log.exception("unexpected error on %s", request.path)
         return _error_page(500, "the page could not be drawn; the error is in the server's log")
 
+    from registry.api import register_api
+
+    register_api(app)  # after the pages' handlers, so /api/ keeps its problem documents
     return app

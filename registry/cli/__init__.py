@@ -29,13 +29,18 @@ class LockkeeperGroup(click.Group):
               help="Catalogue URL (default: sqlite file ./.lockkeeper/catalogue.db).")
 @click.option("--as", "acting_user", envvar="LOCKKEEPER_USER", default=None, metavar="USER",
               help="Act as this user (default: the login name).")
+@click.option("--server", envvar="LOCKKEEPER_SERVER", default=None, metavar="URL",
+              help="Act on the remote catalogue served at URL (its HTTP API) instead.")
+@click.option("--token", envvar="LOCKKEEPER_TOKEN", default=None, metavar="T",
+              help="Bearer token for --server.")
 @click.version_option(package_name="lockkeeper", prog_name="lockkeeper")
 @click.pass_context
-def main(ctx: click.Context, db_url: str | None, acting_user: str | None) -> None:
+def main(ctx: click.Context, db_url: str | None, acting_user: str | None, server: str | None,
+         token: str | None) -> None:
     """Lockkeeper: a model release registry with lineage and promotion gates."""
     from registry.cli.context import CommandContext
 
-    ctx.obj = CommandContext(db_url=db_url, acting_user=acting_user)
+    ctx.obj = CommandContext(db_url=db_url, acting_user=acting_user, server=server, token=token)
     ctx.call_on_close(ctx.obj.close)
 
 
@@ -51,6 +56,7 @@ COMMAND_MODULES = [
     "registry.cli.document_commands",
     "registry.cli.lineage_commands",
     "registry.cli.serve_commands",
+    "registry.cli.token_commands",
     "registry.cli.backup_commands",
 ]
 

@@ -50,6 +50,7 @@ def init(as_json: bool) -> None:
     from registry.store.catalogue import describe, open_catalogue
 
     context = _context()
+    context.local_only("init")
     catalogue = open_catalogue(context.db_url, must_exist=False)
     try:
         before = migrate.current_revision(catalogue)
@@ -72,7 +73,9 @@ def model() -> None:
 @json_option
 def model_create(name: str, description: str, as_json: bool) -> None:
     """Create a model line NAME."""
-    summary = models.create_model(_context().catalogue(), name, description, _actor())
+    remote = _context().remote()
+    summary = (remote.create_model(name, description) if remote
+               else models.create_model(_context().catalogue(), name, description, _actor()))
     emit(summary, as_json, lambda s: f"created model {s['name']}")
 
 
@@ -80,7 +83,8 @@ def model_create(name: str, description: str, as_json: bool) -> None:
 @json_option
 def model_list(as_json: bool) -> None:
     """List every model with its number of versions and who holds each stage."""
-    found = models.list_models(_context().catalogue())
+    remote = _context().remote()
+    found = remote.list_models() if remote else {"models": models.list_models(_context().catalogue())}
 
     def text(d):
         if not d["models"]:
@@ -92,7 +96,7 @@ def model_list(as_json: bool) -> None:
             lines.append(f"{item['name']}  {item['versions']} version(s)  {held}")
         return "\n".join(lines)
 
-    emit({"models": found}, as_json, text)
+    emit(found, as_json, text)
 
 
 @model.command("show")
@@ -100,7 +104,8 @@ def model_list(as_json: bool) -> None:
 @json_option
 def model_show(name: str, as_json: bool) -> None:
     """Show a model line and its versions."""
-    detail = models.show_model(_context().catalogue(), name)
+    remote = _context().remote()
+    detail = remote.show_model(name) if remote else models.show_model(_context().catalogue(), name)
 
     def text(d):
         model = d["model"]
@@ -126,8 +131,12 @@ def model_show(name: str, as_json: bool) -> None:
 def register(model_name: str, document: str, manifest_path: str, features_path: str | None,
              as_json: bool) -> None:
     """Register DOCUMENT as the next version of MODEL."""
-    request = registration_request(model_name, document, manifest_path, features_path)
-    outcome = registration.register_version(_context().catalogue(), request, _actor())
+    remote = _context().remote()
+    if remote:
+        outcome = remote.register(model_name, document, manifest_path, features_path)
+    else:
+        request = registration_request(model_name, document, manifest_path, features_path)
+        outcome = registration.register_version(_context().catalogue(), request, _actor())
     emit(outcome, as_json, render_registration)
 
 
@@ -171,10 +180,14 @@ def audit() -> None:
 @json_option
 def audit_verify(as_json: bool) -> None:
     """Recompute the audit chain and every stored digest; name the first broken link."""
-    report = integrity.verify_catalogue(_context().catalogue())
-    document = {"ok": report.ok, "events": report.events, "blobs": report.blobs,
-                "versions": report.versions, "datasets": report.datasets,
-                "first_broken_link": report.first_broken_link, "findings": report.findings}
+    remote = _context().remote()
+    if remote:
+        document = remote.verify_audit()
+    else:
+        report = integrity.verify_catalogue(_context().catalogue())
+        document = {"ok": report.ok, "events": report.events, "blobs": report.blobs,
+                    "versions": report.versions, "datasets": report.datasets,
+                    "first_broken_link": report.first_broken_link, "findings": report.findings}
 
     def text(d):
         if d["ok"]:
@@ -184,7 +197,7 @@ def audit_verify(as_json: bool) -> None:
                          [f"  {f['place']}: {f['problem']}" for f in d["findings"]])
 
     emit(document, as_json, text)
-    if not report.ok:
+    if not document["ok"]:
         click.get_current_context().exit(1)
 
 
@@ -201,7 +214,9 @@ def user_grant(name: str, role: str, as_json: bool) -> None:
     """Give user NAME a ROLE (needs admin, except for a catalogue's first admin)."""
     from registry.service.roles import grant_role
 
-    outcome = grant_role(_context().catalogue(), name, role, _actor())
+    remote = _context().remote()
+    outcome = (remote.grant_role(name, role) if remote
+               else grant_role(_context().catalogue(), name, role, _actor()))
     emit(outcome, as_json, lambda o: f"{o['user']} is now {o['role']}" if o["granted"]
          else f"{o['user']} already was {o['role']}")
 
@@ -214,7 +229,10 @@ def user_revoke(name: str, role: str, as_json: bool) -> None:
     """Take a ROLE away from user NAME (needs admin)."""
     from registry.service.roles import revoke_role
 
-    emit(revoke_role(_context().catalogue(), name, role, _actor()), as_json,
+    remote = _context().remote()
+    outcome = (remote.revoke_role(name, role) if remote
+               else revoke_role(_context().catalogue(), name, role, _actor()))
+    emit(outcome, as_json,
          lambda o: f"{o['user']} is no longer {o['role']}")
 
 
@@ -224,8 +242,9 @@ def user_list(as_json: bool) -> None:
     """Every user with a role, and the roles."""
     from registry.service.roles import list_roles
 
-    users = list_roles(_context().catalogue())
-    emit({"users": users}, as_json, lambda d: "\n".join(
+    remote = _context().remote()
+    users = remote.list_users() if remote else {"users": list_roles(_context().catalogue())}
+    emit(users, as_json, lambda d: "\n".join(
         f"{name}: {', '.join(roles)}" for name, roles in d["users"].items()) or "no roles granted")
 
 
@@ -238,6 +257,7 @@ def demo() -> None:
     from registry import demo as story
 
     context = _context()
+    context.local_only("demo")
     url = context.db_url or "sqlite:///.lockkeeper/demo.db"
     story.fresh_sqlite_file(url)
     story.play(url, story.run_in_process, click.echo)

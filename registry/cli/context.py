@@ -11,6 +11,8 @@ from typing import Any
 class CommandContext:
     db_url: str | None = None
     acting_user: str | None = None
+    server: str | None = None
+    token: str | None = field(default=None, repr=False)
     _catalogue: Any = field(default=None, repr=False)
 
     @property
@@ -21,6 +23,21 @@ class CommandContext:
             return getpass.getuser()
         except Exception:  # no login name in some containers
             return "unknown"
+
+    def remote(self) -> Any:
+        """The HTTP client of the remote catalogue named by --server, or None to work locally."""
+        if not self.server:
+            return None
+        from registry.api.client import ApiClient
+
+        return ApiClient(self.server, self.token)
+
+    def local_only(self, command: str) -> None:
+        if self.server:
+            from registry.errors import UserError
+
+            raise UserError(f"`{command}` works on a local catalogue only; drop --server",
+                            place="--server")
 
     def catalogue(self) -> Any:
         """Open the catalogue on first use, so catalogue-free commands never touch a database."""

@@ -45,16 +45,28 @@ def dataset_add(name: str, file: str, schema_path: str | None, file_format: str 
 
     if not os.path.isfile(file):
         raise UserError("no such file", place=file)
+    remote = _context().remote()
+    if remote:  # fingerprint here, so only the fingerprint crosses the network
+        fingerprint = fingerprint_path(file, load_schema(schema_path), file_format, keys, exclude)
+        summary = remote.add_dataset_fingerprint(
+            name, fingerprint.to_dict(), role=role, derived_from=derived_from, feed_of=feed_of,
+            source_uri=source_uri or os.path.abspath(file))
+        emit(summary, as_json, _render_added)
+        return
     catalogue = _context().catalogue()  # fail on a bad catalogue before a long fingerprint
     fingerprint = fingerprint_path(file, load_schema(schema_path), file_format, keys, exclude)
     request = DatasetRequest(name=name, role=role, fingerprint=fingerprint,
                              source_uri=source_uri or os.path.abspath(file),
                              derived_from=derived_from, feed_of=feed_of)
     summary = add_dataset(catalogue, request, _actor())
-    emit(summary, as_json, lambda s: (
-        f"registered dataset {s['name']} ({s['role']}, {s['rows']} rows, "
-        f"{s['content_digest'][:12]})" if s["created"]
-        else f"dataset {s['name']} is already registered with this content; nothing changed"))
+    emit(summary, as_json, _render_added)
+
+
+def _render_added(s: dict) -> str:
+    if not s["created"]:
+        return f"dataset {s['name']} is already registered with this content; nothing changed"
+    return (f"registered dataset {s['name']} ({s['role']}, {s['rows']} rows, "
+            f"{s['content_digest'][:12]})")
 
 
 @dataset.command("show")
@@ -64,7 +76,8 @@ def dataset_show(name: str, as_json: bool) -> None:
     """Show a registered dataset: lineage, fingerprint and profile."""
     from registry.service.datasets import fingerprint_of, show_dataset
 
-    summary = show_dataset(_context().catalogue(), name)
+    remote = _context().remote()
+    summary = remote.show_dataset(name) if remote else show_dataset(_context().catalogue(), name)
 
     def text(s):
         recalled = f"  RECALLED: {s['recall_reason']}" if s["recalled"] else ""
@@ -72,6 +85,8 @@ def dataset_show(name: str, as_json: bool) -> None:
                 f"derived from        {', '.join(s['derived_from']) or '-'}",
                 f"source              {s['source_uri']}",
                 f"registered          {s['created_at']} by {s['created_by']}"]
+        if remote:
+            return "\n".join(head)
         return "\n".join(head) + "\n" + render_fingerprint(
             fingerprint_of(_context().catalogue(), name).to_dict())
 
@@ -84,8 +99,9 @@ def dataset_list(as_json: bool) -> None:
     """Every registered dataset."""
     from registry.service.datasets import list_datasets
 
-    found = list_datasets(_context().catalogue())
-    emit({"datasets": found}, as_json, lambda d: "\n".join(
+    remote = _context().remote()
+    found = remote.list_datasets() if remote else {"datasets": list_datasets(_context().catalogue())}
+    emit(found, as_json, lambda d: "\n".join(
         f"{s['name']:<32} {s['role']:<12} {s['rows']:>8} rows{'  RECALLED' if s['recalled'] else ''}"
         for s in d["datasets"]) or "no datasets yet")
 

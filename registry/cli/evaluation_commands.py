@@ -58,11 +58,16 @@ def evaluate(model_name: str, version: int, dataset_name: str, predictions_path:
     from registry.evaluation import read_predictions
     from registry.service.evaluations import EvaluationRequest, add_evaluation
 
-    predictions = read_predictions(predictions_path, task or infer_task(predictions_path))
-    request = EvaluationRequest(model=model_name, version=version, dataset=dataset_name,
-                                predictions=predictions, slice_columns=slice_columns,
-                                threshold=threshold)
-    summary = add_evaluation(_context().catalogue(), request, _actor())
+    remote = _context().remote()
+    if remote:
+        summary = remote.evaluate(model_name, version, dataset_name, predictions_path,
+                                  task=task, slices=slice_columns, threshold=threshold)
+    else:
+        predictions = read_predictions(predictions_path, task or infer_task(predictions_path))
+        request = EvaluationRequest(model=model_name, version=version, dataset=dataset_name,
+                                    predictions=predictions, slice_columns=slice_columns,
+                                    threshold=threshold)
+        summary = add_evaluation(_context().catalogue(), request, _actor())
 
     def text(s):
         shown = ", ".join(f"{name} {value:.4f}" for name, value in s["metrics"].items()

@@ -64,6 +64,16 @@ def lineage(node: str, direction: str | None, depth: int | None, output_format: 
         raise UserError("--json and --format prov-json ask for different documents; use one",
                         place="--format")
     output_format = output_format or ("json" if as_json else "text")
+    remote = _context().remote()
+    if remote:
+        document = remote.lineage(node, direction, depth=depth,
+                                  output_format="prov-json" if output_format == "prov-json"
+                                  else "json")
+        if output_format == "prov-json":
+            click.echo(json.dumps(document, indent=2, sort_keys=True))
+        else:
+            emit(document, output_format == "json", _render_graph)
+        return
     catalogue = _context().catalogue()
     if output_format == "prov-json":
         document = lineage_service.provenance_of(catalogue, node, direction, depth)
@@ -98,9 +108,10 @@ def _render_recall(outcome: dict) -> str:
 @json_option
 def recall_command(name: str, reason: str, as_json: bool) -> None:
     """Recall dataset NAME: flag everything downstream and block it from promotion."""
-    outcome = recall_service.recall_dataset(_context().catalogue(), name, reason, _actor())
+    remote = _context().remote()
+    outcome = (remote.recall(name, reason) if remote else
+               recall_service.recall_dataset(_context().catalogue(), name, reason, _actor()))
     emit(outcome, as_json, _render_recall)
-
 
 
 COMMANDS = [lineage]

@@ -7,7 +7,7 @@ import click
 
 from registry.cli.catalogue_commands import _actor, _context, read_text
 from registry.cli.catalogue_commands import model as model_group
-from registry.cli.output import emit, json_option
+from registry.cli.output import emit, json_option, to_plain
 from registry.errors import UserError
 from registry.gates import GateReport, render_report
 from registry.service import gatekeeping, stages
@@ -25,6 +25,13 @@ def _waivers(gates: tuple[str, ...], reasons: tuple[str, ...], actor) -> list:
     if len(reasons) != len(gates):
         raise UserError("give one --reason, or one per --waive", place="--reason")
     return gatekeeping.parse_waivers(list(zip(gates, reasons)), actor)
+
+
+def _remote_waivers(gates: tuple[str, ...], reasons: tuple[str, ...]) -> list[tuple[str, str]]:
+    """(gate, reason) pairs for the API; the server records the token's user as approver."""
+    if gates and not reasons:
+        raise UserError("a waiver needs a reason: add --reason TEXT", place="--waive")
+    return list(zip(gates, reasons * len(gates) if len(reasons) == 1 else reasons))
 
 
 def _render_outcome(outcome: dict, verb: str) -> str:
@@ -61,13 +68,18 @@ def with_waive_options(function):
 @json_option
 def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_json: bool) -> None:
     """Run the gates of a stage for a version, as a dry run: nothing changes."""
-    actor = _actor()
-    outcome = stages.check(_context().catalogue(), model_name, version, stage, actor,
-                           _waivers(waive_gates, reasons, actor))
-    passed = outcome.report["passed"]
-    emit({**outcome.report, "would_move": passed}, as_json,
-         lambda _: ("WOULD PASS" if passed else "WOULD BE REFUSED") + "\n" +
-         render_report(GateReport.from_dict(outcome.report)))
+    remote = _context().remote()
+    if remote:
+        report = remote.check(model_name, version, stage, _remote_waivers(waive_gates, reasons))
+        report = report.get("report", report)
+    else:
+        actor = _actor()
+        report = stages.check(_context().catalogue(), model_name, version, stage, actor,
+                              _waivers(waive_gates, reasons, actor)).report
+    passed = report["passed"]
+    emit({**report, "would_move": passed}, as_json,
+         lambda d: ("WOULD PASS" if passed else "WOULD BE REFUSED") + "\n" +
+         render_report(GateReport.from_dict(report)))
     if not passed:
         click.get_current_context().exit(1)
 
@@ -84,21 +96,30 @@ def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_js
 def promote(model_name: str, version: int, stage: str, expect_holder: str | None, waive_gates,
             reasons, as_json: bool) -> None:
     """Move a version into a stage if the stage's gates allow it."""
-    catalogue = _context().catalogue()
-    actor = _actor()
-    waivers = _waivers(waive_gates, reasons, actor)
-    if expect_holder is None:
-        expected = stages.snapshot(catalogue, model_name, stage)
-    elif expect_holder == "none":
-        expected = stages.HolderSnapshot(stage, ())
-    elif expect_holder.isdigit():
-        expected = stages.HolderSnapshot(stage, (int(expect_holder),))
-    else:
+    if expect_holder not in (None, "none") and not expect_holder.isdigit():
         raise UserError("--expect-holder takes a version number or `none`",
                         place="--expect-holder")
-    outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers, expected)
+    remote = _context().remote()
+    if remote:
+        holder = {None: None, "none": None}.get(expect_holder, expect_holder)
+        extra = {} if expect_holder is None else {"expect_holder": int(holder) if holder else None}
+        outcome = remote.promote(model_name, version, stage,
+                                 _remote_waivers(waive_gates, reasons), **extra)
+    else:
+        catalogue = _context().catalogue()
+        actor = _actor()
+        waivers = _waivers(waive_gates, reasons, actor)
+        if expect_holder is None:
+            expected = stages.snapshot(catalogue, model_name, stage)
+        elif expect_holder == "none":
+            expected = stages.HolderSnapshot(stage, ())
+        else:
+            expected = stages.HolderSnapshot(stage, (int(expect_holder),))
+        outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers,
+                                 expected)
+    outcome = to_plain(outcome)
     emit(outcome, as_json, lambda o: _render_outcome(o, "PROMOTED"))
-    if not outcome.moved:
+    if not outcome["moved"]:
         click.get_current_context().exit(1)
 
 
@@ -110,7 +131,9 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
 @json_option
 def approve(model_name: str, version: int, stage: str, note: str, as_json: bool) -> None:
     """Record your approval of a version for a stage (approvers; never your own version)."""
-    outcome = stages.approve(_context().catalogue(), model_name, version, stage, _actor(), note)
+    remote = _context().remote()
+    outcome = (remote.approve(model_name, version, stage, note) if remote else
+               stages.approve(_context().catalogue(), model_name, version, stage, _actor(), note))
     emit(outcome, as_json, lambda o: f"{o['approver']} approved {o['model']} v{o['version']} for "
                                      f"{o['stage']} ({o['approvals']} approval(s))")
 
@@ -122,11 +145,15 @@ def approve(model_name: str, version: int, stage: str, note: str, as_json: bool)
 @json_option
 def rollback(model_name: str, stage: str, waive_gates, reasons, as_json: bool) -> None:
     """Give a stage back to the version its holder displaced, after re-running the schema gates."""
-    actor = _actor()
-    outcome = stages.rollback(_context().catalogue(), model_name, stage, actor,
-                              _waivers(waive_gates, reasons, actor))
+    remote = _context().remote()
+    if remote:
+        outcome = remote.rollback(model_name, stage, _remote_waivers(waive_gates, reasons))
+    else:
+        actor = _actor()
+        outcome = to_plain(stages.rollback(_context().catalogue(), model_name, stage, actor,
+                                           _waivers(waive_gates, reasons, actor)))
     emit(outcome, as_json, lambda o: _render_outcome(o, "ROLLED BACK"))
-    if not outcome.moved:
+    if not outcome["moved"]:
         click.get_current_context().exit(1)
 
 
@@ -137,7 +164,9 @@ def rollback(model_name: str, stage: str, waive_gates, reasons, as_json: bool) -
 @json_option
 def retire(model_name: str, version: int, reason: str, as_json: bool) -> None:
     """Take a version out of service: it leaves every stage and enters `retired`."""
-    outcome = stages.retire(_context().catalogue(), model_name, version, _actor(), reason)
+    remote = _context().remote()
+    outcome = (remote.retire(model_name, version, reason) if remote else
+               stages.retire(_context().catalogue(), model_name, version, _actor(), reason))
     emit(outcome, as_json, lambda o: f"retired {o['model']} v{o['version']}" + (
         f" (left {', '.join(o['left_stages'])})" if o["left_stages"] else ""))
 
@@ -147,7 +176,9 @@ def retire(model_name: str, version: int, reason: str, as_json: bool) -> None:
 @json_option
 def status(model_name: str, as_json: bool) -> None:
     """Who holds each stage of MODEL."""
-    document = stages.status(_context().catalogue(), model_name)
+    remote = _context().remote()
+    document = (remote.status(model_name) if remote
+                else stages.status(_context().catalogue(), model_name))
 
     def text(d):
         lines = [f"{d['model']}:"]
@@ -164,7 +195,9 @@ def status(model_name: str, as_json: bool) -> None:
 @json_option
 def history(model_name: str, as_json: bool) -> None:
     """Every stage event of MODEL, oldest first, with the gate report of each attempt."""
-    document = stages.history(_context().catalogue(), model_name)
+    remote = _context().remote()
+    document = (remote.history(model_name) if remote
+                else stages.history(_context().catalogue(), model_name))
 
     def text(d):
         lines = [f"{d['model']}: {len(d['events'])} stage event(s)"]
@@ -192,7 +225,10 @@ def policy_show(model_name: str, as_json: bool) -> None:
     """Show the policy in force for MODEL (its own laid over the default)."""
     from registry.service.policies import show_policy
 
-    emit(show_policy(_context().catalogue(), model_name), as_json, lambda d: d["text"])
+    remote = _context().remote()
+    document = (remote.show_policy(model_name) if remote
+                else show_policy(_context().catalogue(), model_name))
+    emit(document, as_json, lambda d: d["text"])
 
 
 @policy_group.command("set")
@@ -204,7 +240,9 @@ def policy_set(model_name: str, policy_file: str, as_json: bool) -> None:
     from registry.service.policies import set_policy
 
     text = read_text(policy_file, what="POLICY")
-    outcome = set_policy(_context().catalogue(), model_name, text, _actor(), source=policy_file)
+    remote = _context().remote()
+    outcome = (remote.set_policy(model_name, text) if remote else
+               set_policy(_context().catalogue(), model_name, text, _actor(), source=policy_file))
     emit(outcome, as_json, lambda o: f"{o['model']} now follows {policy_file}")
 
 

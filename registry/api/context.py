@@ -1,0 +1,66 @@
+"""What every request shares: the catalogue the app serves, opened once per process."""
+
+from __future__ import annotations
+
+import threading
+
+from flask import Flask, current_app, g
+
+from registry.service.cached_reads import CachedReads
+from registry.store.catalogue import Catalogue, open_catalogue
+
+EXTENSION = "lockkeeper.catalogue"
+READS_EXTENSION = "lockkeeper.cached_reads"
+WEB_EXTENSION = "lockkeeper"  # registry.app's CatalogueHolder
+_opening = threading.Lock()
+
+
+def catalogue() -> Catalogue:
+    """Open on first use, so a server that forks its workers opens one engine per worker."""
+    app = current_app
+    opened = app.extensions.get(EXTENSION)
+    if opened is None:
+        with _opening:
+            opened = app.extensions.get(EXTENSION)
+            if opened is None:
+                opened = _shared_or_own(app)
+                app.extensions[EXTENSION] = opened
+    return opened
+
+
+def _shared_or_own(app: Flask) -> Catalogue:
+    """The web app's catalogue when the API shares its app and no URL of its own was given,
+    so one process keeps one engine; otherwise the catalogue LOCKKEEPER_DB names."""
+    holder = app.extensions.get(WEB_EXTENSION)
+    if "LOCKKEEPER_DB" not in app.config and holder is not None and hasattr(holder, "catalogue"):
+        return holder.catalogue()
+    return open_catalogue(app.config.get("LOCKKEEPER_DB"))
+
+
+def cached_reads() -> CachedReads:
+    app = current_app
+    reads = app.extensions.get(READS_EXTENSION)
+    if reads is None:
+        opened = catalogue()
+        with _opening:
+            reads = app.extensions.get(READS_EXTENSION)
+            if reads is None:
+                reads = CachedReads(opened)
+                app.extensions[READS_EXTENSION] = reads
+    return reads
+
+
+def generation() -> int:
+    """The catalogue's version, read once per request."""
+    if "catalogue_generation" not in g:
+        g.catalogue_generation = cached_reads().generation()
+    return g.catalogue_generation
+
+
+def close_catalogue(app: Flask) -> None:
+    reads = app.extensions.pop(READS_EXTENSION, None)
+    if reads is not None:
+        reads.close()
+    opened = app.extensions.pop(EXTENSION, None)
+    if opened is not None:
+        opened.close()

@@ -1,0 +1,18 @@
+"""`audit verify` over HTTP: recompute the audit chain and every stored digest."""
+
+from __future__ import annotations
+
+from registry.api.context import catalogue
+from registry.api.rendering import json_response
+from registry.api.routing import route
+from registry.service import integrity
+
+
+@route("/audit/verify", "GET", summary="Recompute the audit chain and every stored digest",
+       tag="audit")
+def verify_audit():
+    report = integrity.verify_catalogue(catalogue())
+    return json_response({"ok": report.ok, "events": report.events, "blobs": report.blobs,
+                          "versions": report.versions, "datasets": report.datasets,
+                          "first_broken_link": report.first_broken_link,
+                          "findings": report.findings})

@@ -1,0 +1,58 @@
+"""Model lines: create, list, show, the policy, who holds each stage, and the history."""
+
+from __future__ import annotations
+
+from flask import g
+
+from registry.api.bodies import NAME, TEXT, json_body, strict_object
+from registry.api.context import catalogue
+from registry.api.rendering import json_response, path_name
+from registry.api.routing import route
+from registry.service import models, policies, stages
+
+CREATE_MODEL_BODY = strict_object({"name": NAME, "description": TEXT}, ("name",))
+SET_POLICY_BODY = strict_object({"policy": TEXT}, ("policy",))
+
+
+@route("/models", "GET", summary="Every model, its number of versions and who holds each stage",
+       tag="models")
+def list_models():
+    return json_response({"models": models.list_models(catalogue())})
+
+
+@route("/models", "POST", role="admin", summary="Create a model line", tag="models",
+       body=CREATE_MODEL_BODY, responses={201: "Created"})
+def create_model():
+    body = json_body(CREATE_MODEL_BODY)
+    summary = models.create_model(catalogue(), body["name"], body.get("description", ""),
+                                  g.actor)
+    return json_response(summary, 201, {"Location": f"/api/v1/models/{summary.name}"})
+
+
+@route("/models/<model>", "GET", summary="A model line and its versions", tag="models")
+def show_model(model: str):
+    return json_response(models.show_model(catalogue(), path_name(model, "model")))
+
+
+@route("/models/<model>/policy", "GET", summary="The policy in force for a model", tag="models")
+def show_policy(model: str):
+    return json_response(policies.show_policy(catalogue(), path_name(model, "model")))
+
+
+@route("/models/<model>/policy", "PUT", role="admin", summary="Give a model its own policy "
+       "(TOML text, laid over the default)", tag="models", body=SET_POLICY_BODY)
+def set_policy(model: str):
+    body = json_body(SET_POLICY_BODY)
+    return json_response(policies.set_policy(catalogue(), path_name(model, "model"),
+                                             body["policy"], g.actor))
+
+
+@route("/models/<model>/status", "GET", summary="Who holds each stage of a model", tag="models")
+def model_status(model: str):
+    return json_response(stages.status(catalogue(), path_name(model, "model")))
+
+
+@route("/models/<model>/history", "GET", summary="Every stage event of a model, oldest first",
+       tag="models")
+def model_history(model: str):
+    return json_response(stages.history(catalogue(), path_name(model, "model")))

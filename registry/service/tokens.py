@@ -1,0 +1,213 @@
+"""Bearer tokens for the HTTP API: created, listed, revoked, and turned back into an actor.
+
+The catalogue keeps only the SHA-256 of a token's secret; the secret is shown once, at creation.
+A token carries one role, and acts with that role only while its user still holds it in the
+catalogue, so revoking a role (or the token) takes effect on the next request.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import hmac
+import re
+import secrets
+from dataclasses import dataclass
+from datetime import UTC, datetime, timedelta
+
+from sqlalchemy import select
+
+from registry.errors import Forbidden, LockkeeperError, NotFound, UserError
+from registry.names import check_name
+from registry.service.actors import ROLES, Actor
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork, utc_now
+
+# The prefix makes a leaked secret easy to recognise in logs and secret scanners.
+SECRET_PREFIX = "lkt_"
+DURATION = re.compile(r"^(\d{1,5})([dh])$")
+
+
+class Unauthenticated(LockkeeperError):
+    """No token, or one the catalogue does not accept (unknown, expired, revoked)."""
+
+    http_status = 401
+    kind = "unauthenticated"
+
+
+@dataclass(frozen=True)
+class TokenRecord:
+    id: int
+    user: str
+    role: str
+    label: str
+    created_at: str
+    created_by: str
+    expires_at: str | None
+    revoked_at: str | None
+
+
+@dataclass(frozen=True)
+class CreatedToken:
+    token: TokenRecord
+    secret: str  # shown once; the catalogue keeps only its hash
+
+
+def hash_secret(secret: str) -> str:
+    return hashlib.sha256(secret.encode("utf-8")).hexdigest()
+
+
+def parse_expiry(text: str | None, *, now: datetime | None = None) -> datetime | None:
+    """`30d`, `12h`, or an ISO 8601 date or time (UTC when no offset is given)."""
+    if text is None or text == "":
+        return None
+    now = now or utc_now()
+    match = DURATION.fullmatch(text.strip())
+    if match:
+        amount, unit = int(match.group(1)), match.group(2)
+        if amount == 0:
+            raise UserError("an expiry of zero makes a token that never works", place="--expires")
+        return now + (timedelta(days=amount) if unit == "d" else timedelta(hours=amount))
+    try:
+        moment = datetime.fromisoformat(text.strip())
+    except ValueError:
+        raise UserError(f"invalid expiry {text!r}: use a duration like 30d or 12h, or an ISO "
+                        "date like 2027-01-31", place="--expires") from None
+    if moment.tzinfo is None:
+        moment = moment.replace(tzinfo=UTC)
+    if moment <= now:
+        raise UserError(f"expiry {text!r} is already past", place="--expires")
+    return moment
+
+
+def _record(row: t.ApiToken) -> TokenRecord:
+    return TokenRecord(id=row.id, user=row.user, role=row.role, label=row.label,
+                       created_at=row.created_at.isoformat(), created_by=row.created_by,
+                       expires_at=row.expires_at.isoformat() if row.expires_at else None,
+                       revoked_at=row.revoked_at.isoformat() if row.revoked_at else None)
+
+
+def _catalogue_roles(uow: UnitOfWork, user: str) -> set[str]:
+    return set(uow.session.execute(
+        select(t.RoleGrant.role).where(t.RoleGrant.user == user)).scalars())
+
+
+def _has_any_admin(uow: UnitOfWork) -> bool:
+    return uow.session.execute(
+        select(t.RoleGrant).where(t.RoleGrant.role == "admin")).first() is not None
+
+
+def _is_admin(uow: UnitOfWork, actor: Actor) -> bool:
+    """Admin now, in the catalogue, and in the role the actor acts with (a token's role)."""
+    return "admin" in actor.roles and "admin" in _catalogue_roles(uow, actor.name)
+
+
+def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
+                 expires_at: datetime | None = None, label: str = "") -> CreatedToken:
+    """Make a token for `user` acting as `role`. Needs an admin, except that a catalogue with
+    no admin yet accepts one admin token, whose user becomes the first admin (as `user grant`)."""
+    check_name(user, what="user")
+    if role not in ROLES:
+        raise UserError(f"unknown role {role!r}; roles are {', '.join(ROLES)}", place="--role")
+    secret = SECRET_PREFIX + secrets.token_urlsafe(32)
+    with UnitOfWork(catalogue) as uow:
+        bootstrap = not _has_any_admin(uow)
+        if bootstrap and role != "admin":
+            raise Forbidden("this catalogue has no admin yet: create an admin token first",
+                            place="--role")
+        if not bootstrap and not _is_admin(uow, actor):
+            raise Forbidden(f"managing tokens needs the admin role; {actor.name} does not have "
+                            "it", place="token")
+        held = _catalogue_roles(uow, user)
+        if bootstrap:
+            uow.session.add(t.RoleGrant(user=user, role="admin", granted_at=utc_now(),
+                                        granted_by=actor.name))
+            uow.audit.append(actor.name, "role.grant", f"user/{user}",
+                             {"role": "admin", "bootstrap": True})
+        elif role != "reader" and role not in held:
+            # A token never carries more than its user holds: the approval gates count only
+            # approvers known to the catalogue.
+            raise UserError(f"{user} does not hold the {role} role; grant it first with "
+                            f"`lockkeeper user grant {user} {role}`", place="--role")
+        row = t.ApiToken(token_hash=hash_secret(secret), user=user, role=role, label=label,
+                         created_at=utc_now(), created_by=actor.name, expires_at=expires_at)
+        uow.session.add(row)
+        uow.session.flush()
+        uow.audit.append(actor.name, "token.create", f"token/{row.id}", {
+            "user": user, "role": role, "label": label,
+            "expires_at": expires_at.isoformat() if expires_at else None})
+        record = _record(row)
+        uow.commit()
+    return CreatedToken(token=record, secret=secret)
+
+
+def revoke_token(catalogue: Catalogue, token_id: int, actor: Actor) -> TokenRecord:
+    with UnitOfWork(catalogue) as uow:
+        if not _is_admin(uow, actor):
+            raise Forbidden(f"managing tokens needs the admin role; {actor.name} does not have "
+                            "it", place="token")
+        row = uow.session.get(t.ApiToken, token_id)
+        if row is None:
+            raise NotFound(f"no token {token_id}", place="token")
+        if row.revoked_at is None:
+            row.revoked_at = utc_now()
+            uow.session.flush()
+            uow.audit.append(actor.name, "token.revoke", f"token/{row.id}",
+                             {"user": row.user, "role": row.role})
+        record = _record(row)
+        uow.commit()
+    return record
+
+
+def list_tokens(catalogue: Catalogue, actor: Actor) -> list[TokenRecord]:
+    """Every token, never its secret (the catalogue does not have it)."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        if not _is_admin(uow, actor):
+            raise Forbidden(f"listing tokens needs the admin role; {actor.name} does not have "
+                            "it", place="token")
+        rows = uow.session.execute(select(t.ApiToken).order_by(t.ApiToken.id)).scalars().all()
+        return [_record(row) for row in rows]
+
+
+@dataclass(frozen=True)
+class TokenStanding:
+    """What a valid token stands for now, and until when (None: no expiry)."""
+
+    actor: Actor
+    expires_at: datetime | None
+
+    def check_expiry(self, now: datetime) -> Actor:
+        if self.expires_at is not None and self.expires_at <= now:
+            raise Unauthenticated(f"the token expired at {self.expires_at.isoformat()}",
+                                  place="Authorization")
+        return self.actor
+
+
+def authenticate(catalogue: Catalogue, secret: str, *, now: datetime | None = None) -> Actor:
+    """The actor a bearer secret stands for, or Unauthenticated."""
+    return token_standing(catalogue, secret).check_expiry(now or utc_now())
+
+
+def token_standing(catalogue: Catalogue, secret: str) -> TokenStanding:
+    """One indexed lookup by hash, then a constant-time comparison so timing says nothing
+    about how close a guess came; refuses unknown and revoked tokens."""
+    if not secret.startswith(SECRET_PREFIX) or len(secret) > 200:
+        raise Unauthenticated("the bearer token is not one this catalogue issued",
+                              place="Authorization")
+    wanted = hash_secret(secret)
+    with UnitOfWork(catalogue, write=False) as uow:
+        row = uow.session.execute(
+            select(t.ApiToken).where(t.ApiToken.token_hash == wanted)).scalar_one_or_none()
+        stored = row.token_hash if row is not None else hash_secret("")
+        if row is None or not hmac.compare_digest(stored, wanted):
+            raise Unauthenticated("unknown bearer token", place="Authorization")
+        if row.revoked_at is not None:
+            raise Unauthenticated(f"token {row.id} was revoked", place="Authorization")
+        expires_at = row.expires_at
+        if expires_at is not None and expires_at.tzinfo is None:
+            expires_at = expires_at.replace(tzinfo=UTC)  # SQLite hands back naive UTC
+        held = _catalogue_roles(uow, row.user)
+        user, role = row.user, row.role
+    if not (role == "reader" or role in held):
+        role = "reader"  # the user lost the role after the token was made: it may still read
+    return TokenStanding(Actor(name=user, roles=frozenset({role})), expires_at)

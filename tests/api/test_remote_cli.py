@@ -1,0 +1,65 @@
+"""The catalogue commands acting on a remote catalogue with --server URL --token T."""
+
+from __future__ import annotations
+
+import json
+import threading
+
+import pytest
+from click.testing import CliRunner
+from werkzeug.serving import make_server
+
+from registry.cli import main
+
+from tests.api.api_helpers import make_api
+from tests.catalogue.helpers import write_version_files
+from tests.catalogue.stage_helpers import policy_keeping
+
+
+@pytest.fixture
+def remote(cli):
+    api = make_api(cli)
+    server = make_server("127.0.0.1", 0, api.client.application, threaded=True)
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    url = f"http://127.0.0.1:{server.server_port}"
+
+    def run(role: str, *arguments: str, expect: int = 0):
+        result = CliRunner().invoke(main, ["--server", url, "--token", api.secrets[role],
+                                           *arguments, "--json"], catch_exceptions=False)
+        assert result.exit_code == expect, result.output
+        return json.loads(result.stdout) if result.stdout.strip() else None
+
+    try:
+        yield run
+    finally:
+        server.shutdown()
+        thread.join(5)
+
+
+def test_a_version_climbs_to_live_through_the_remote_commands(remote, cli, tmp_path):
+    assert remote("admin", "model", "create", "m", "--description", "remote")["name"] == "m"
+    policy = tmp_path / "policy.toml"
+    policy.write_text(policy_keeping({}, skippable=("shadow", "canary")))
+    remote("admin", "model", "policy", "set", "m", str(policy))
+    document, manifest = write_version_files(tmp_path / "v1")
+    registered = remote("publisher", "register", "m", str(document), "--manifest", str(manifest))
+    # The same version as a local registration of the same files would make.
+    local = cli.json("model", "show", "m")["versions"][0]
+    assert registered["document_digest"] == local["document_digest"]
+    assert remote("reader", "check", "m", "1", "--to", "live")["would_move"] is True
+    remote("approver", "approve", "m", "1", "--for", "live")
+    assert remote("approver", "promote", "m", "1", "--to", "live")["moved"] is True
+    assert remote("reader", "status", "m")["stages"]["live"] == [1]
+    assert remote("reader", "audit", "verify")["ok"] is True
+    assert [e["event"] for e in remote("reader", "history", "m")["events"]][-1] == "entered"
+
+
+def test_remote_errors_keep_their_exit_codes(remote):
+    remote("admin", "model", "create", "m")
+    remote("admin", "model", "create", "m", expect=2)  # already exists
+    remote("reader", "model", "create", "x", expect=2)  # a reader may not write
+
+
+def test_init_refuses_a_remote_catalogue(remote):
+    remote("admin", "init", expect=2)
