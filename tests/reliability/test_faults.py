@@ -85,10 +85,10 @@ def test_a_read_only_catalogue_file_gives_a_clear_error_and_still_answers_reads(
 
 # --- the PostgreSQL server stopped and started ----------------------------------------------
 
-def _cluster(action: str) -> None:
+def _cluster(action: str, *options: str) -> None:
     version = os.listdir("/etc/postgresql")[0]
-    subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", action],
-                   check=True, capture_output=True, timeout=120)
+    subprocess.run(["pg_ctlcluster", "--skip-systemctl-redirect", version, "main", action,
+                    *options], check=True, capture_output=True, timeout=120)
 
 
 def _wait_for_server(url: str, seconds: float = 60) -> None:
@@ -114,10 +114,16 @@ def test_the_postgresql_server_stopped_and_started_mid_run_loses_nothing(cli, tm
     arguments = large_registration(24 * 1024 * 1024)(cli, tmp_path, 1)
     from tests.reliability.harness import lockkeeper_command, process_env
 
-    in_flight = subprocess.Popen(lockkeeper_command(cli.url, *arguments), env=process_env(),
+    from tests.reliability.harness import write_transaction_open
+
+    in_flight = subprocess.Popen(lockkeeper_command(cli.url, *arguments),
+                                 env=process_env(PGAPPNAME="lockkeeper-in-flight"),
                                  stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
-    time.sleep(1.5)
-    _cluster("stop")
+    # Stop the server while the registration holds its write transaction open.
+    while in_flight.poll() is None and not write_transaction_open(cli.url,
+                                                                  "lockkeeper-in-flight"):
+        time.sleep(0.005)
+    _cluster("stop", "--", "-m", "fast")
     try:
         _, in_flight_error = in_flight.communicate(timeout=300)
         reads = [run_lockkeeper(cli.url, "status", "m"), run_lockkeeper(cli.url, "audit",
