@@ -32,8 +32,6 @@ BLOB_TABLE = t.Blob.__tablename__
 class BadExport(UserError):
     """The export folder is missing, incomplete or changed since it was written."""
 
-    kind = "bad-export"
-
 
 @dataclass(frozen=True)
 class BackupSummary:
