@@ -19,6 +19,16 @@ def load_actor(catalogue: Catalogue, name: str) -> Actor:
     return Actor(name=name, roles=frozenset(roles))
 
 
+def require_role(uow: UnitOfWork, actor: Actor, role: str, action: str) -> None:
+    """Refuse an action to an actor without the role it needs. A catalogue with no admin yet
+    has no roles at all, so anyone may act until the first admin is granted (the way a new
+    catalogue is set up); from then on every write checks the actor's roles."""
+    if actor.has_role(role) or not _has_any_admin(uow):
+        return
+    raise Forbidden(f"{action} needs the {role} role; {actor.name} does not have it",
+                    place="role")
+
+
 def _has_any_admin(uow: UnitOfWork) -> bool:
     return uow.session.execute(
         select(t.RoleGrant).where(t.RoleGrant.role == "admin")).first() is not None

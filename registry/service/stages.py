@@ -204,7 +204,7 @@ def approve(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
         if not actor.has_role("approver"):
             raise Forbidden(f"{actor.name} does not have the approver role", place="approve")
         if actor.name in (version.author, version.created_by):
-            raise UserError(f"{actor.name} wrote version {number} and cannot approve it "
+            raise Forbidden(f"{actor.name} wrote version {number} and cannot approve it "
                             "(four eyes: an approval must come from someone else)",
                             place="approve")
         existing = uow.session.execute(select(t.Approval).where(

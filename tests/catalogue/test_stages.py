@@ -169,3 +169,13 @@ def test_a_waiver_is_recorded_in_the_report_and_the_audit_log(line, tmp_path, ca
             "SELECT details_json FROM audit_events WHERE action = 'stage.promote' "
             "ORDER BY sequence DESC")).scalars().first()
     assert "feed is being migrated too" in details
+
+
+def test_once_an_admin_exists_writes_need_their_roles(line, tmp_path):
+    from tests.catalogue.helpers import write_version_files
+
+    document, manifest = write_version_files(tmp_path / "x")
+    assert "publisher" in _error(line("register", "m", str(document), "--manifest",
+                                      str(manifest), user="priya.raman"))
+    assert "admin" in _error(line("model", "create", "other", user="ines.okafor"))
+    assert line.json("model", "show", "m")["versions"] == []

@@ -165,12 +165,12 @@ def build_brackwater(catalogue: Catalogue, *, markup_model: bool = False) -> Non
     for spec in BRACKWATER_DATASETS + NIGHT_FLOW_DATASETS:
         add_dataset(catalogue, spec)
     models.create_model(catalogue, "main-burst-risk",
-                        "Water-main segments likely to burst within 90 days", INES)
+                        "Water-main segments likely to burst within 90 days", MARA)
     models.create_model(catalogue, "night-flow-leak",
-                        "Litres per hour of night flow lost per district meter area", INES)
+                        "Litres per hour of night flow lost per district meter area", MARA)
     if markup_model:
         models.create_model(catalogue, "markup-check",
-                            "<script>window.scriptRan = true;</script><b>bold?</b> & more", INES)
+                            "<script>window.scriptRan = true;</script><b>bold?</b> & more", MARA)
     for number, parent in ((1, None), (2, 1), (3, 2), (4, 2)):
         register(catalogue, "main-burst-risk", BRACKWATER, number, parent=parent)
     register(catalogue, "night-flow-leak", NIGHT_FLOW, 1)

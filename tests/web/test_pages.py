@@ -233,13 +233,14 @@ def test_stored_json_of_any_shape_renders_without_error(catalogue, catalogue_url
 
     from registry.store import tables as t
     from registry.store.unit_of_work import UnitOfWork
-    from tests.lineage.scenario import INES, MARA
+    from tests.lineage.scenario import MARA
     from registry.service import models
     from registry.service.roles import grant_role
     from tests.catalogue.helpers import write_version_files
 
     grant_role(catalogue, MARA.name, "admin", MARA)
-    models.create_model(catalogue, "odd", "", INES)
+    grant_role(catalogue, "ines.okafor", "publisher", MARA)  # run_cli acts as ines.okafor
+    models.create_model(catalogue, "odd", "", MARA)
     now = datetime(2026, 3, 2, tzinfo=UTC)
     with UnitOfWork(catalogue) as uow:
         for index, content in enumerate(ODD_FINGERPRINTS):
