@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import contextvars
 import os
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -17,6 +18,7 @@ from registry.errors import CatalogueUnavailable, UserError
 
 DEFAULT_URL = "sqlite:///.lockkeeper/catalogue.db"
 SQLITE_BUSY_TIMEOUT_MS = 30_000
+OPEN_RETRY_PAUSES = (0.2, 0.5, 1.0)  # seconds between tries to reach a PostgreSQL server
 
 # Set by a writing unit of work so SQLite takes its write lock at BEGIN (BEGIN IMMEDIATE):
 # a deferred transaction that later upgrades to writing can fail instead of waiting.
@@ -96,13 +98,18 @@ class Catalogue:
         return self.engine.dialect.name
 
     def check_reachable(self) -> None:
-        try:
-            with self.engine.connect():
-                pass
-        except DBAPIError as error:
-            raise CatalogueUnavailable(
-                f"cannot open the catalogue at {describe(self.url)}: "
-                f"{_first_line(error.orig)}") from None
+        """Connect, retrying a server that is briefly away (restarting, say): opening changes
+        nothing, so it is always safe to try again. Writes are never retried."""
+        for pause in (*OPEN_RETRY_PAUSES, None):
+            try:
+                with self.engine.connect():
+                    return
+            except DBAPIError as error:
+                if pause is None or self.dialect == "sqlite":
+                    raise CatalogueUnavailable(
+                        f"cannot open the catalogue at {describe(self.url)}: "
+                        f"{_first_line(error.orig)}") from None
+                time.sleep(pause)
 
     def is_initialised(self) -> bool:
         with self.engine.connect() as connection:
