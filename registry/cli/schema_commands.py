@@ -9,7 +9,7 @@ import click
 
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
-from registry.schema import Resolution, Schema, diff, fingerprint, load, resolve
+from registry.schema import Schema, diff, fingerprint, load, resolution_document, resolve
 from registry.schema.diff import SchemaDiff
 
 
@@ -21,17 +21,6 @@ def _read_schema(path: str) -> Schema:
     except (OSError, UnicodeDecodeError) as error:
         raise UserError(f"cannot read schema file: {error}", place=path) from None
     return load(text, source=path)
-
-
-def _resolution_document(resolution: Resolution) -> dict[str, Any]:
-    return {
-        "compatible": resolution.compatible,
-        "problems": [{"path": p.path, "rule": p.rule, "message": p.message,
-                      "writer_path": p.writer_path, "witness": p.witness}
-                     for p in resolution.problems],
-        "notes": [{"path": n.path, "rule": n.rule, "message": n.message, "severity": n.severity}
-                  for n in resolution.notes],
-    }
 
 
 def _render_resolution(document: dict[str, Any]) -> str:
@@ -63,7 +52,7 @@ def schema_group() -> None:
 def check_command(ctx: click.Context, reader: str, writer: str, as_json: bool) -> None:
     """Can data written with WRITER be read with READER? Exit 0 if so, 1 if not."""
     resolution = resolve(_read_schema(reader), _read_schema(writer))
-    emit(_resolution_document(resolution), as_json, _render_resolution)
+    emit(resolution_document(resolution), as_json, _render_resolution)
     if not resolution.compatible:
         ctx.exit(1)
 

@@ -36,6 +36,7 @@ from registry.schema.resolution import (
     check_both,
     check_forward,
     reads,
+    resolution_document,
     resolve,
 )
 from registry.schema.serialise import canonical_form, to_json
@@ -45,6 +46,6 @@ __all__ = [
     "IgnoredLogicalType", "LeafField", "LogicalType", "Map", "NamedSchema", "Names", "Note",
     "Primitive", "Problem", "Record", "Resolution", "Schema", "SchemaDiff", "SchemaError", "Union",
     "canonical_form", "check_against_all", "check_backward", "check_both", "check_forward",
-    "crc64_avro", "diff", "fingerprint", "leaf_fields", "load", "parse", "reads", "resolve",
+    "crc64_avro", "diff", "fingerprint", "leaf_fields", "load", "parse", "reads", "resolution_document", "resolve",
     "to_json",
 ]

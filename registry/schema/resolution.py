@@ -317,6 +317,18 @@ class _Resolver:
                   f"underlying type; values would be misread", "warning")
 
 
+def resolution_document(resolution: Resolution) -> dict:
+    """The JSON of `lockkeeper schema check --json` (DESIGN.md): the CLI's and the API's."""
+    return {
+        "compatible": resolution.compatible,
+        "problems": [{"path": p.path, "rule": p.rule, "message": p.message,
+                      "writer_path": p.writer_path, "witness": p.witness}
+                     for p in resolution.problems],
+        "notes": [{"path": n.path, "rule": n.rule, "message": n.message, "severity": n.severity}
+                  for n in resolution.notes],
+    }
+
+
 def resolve(reader: Schema, writer: Schema) -> Resolution:
     """Can every datum written with `writer` be read with `reader`? Every problem, with notes."""
     return _Resolver().run(reader, writer)

@@ -7,23 +7,11 @@ import json
 from registry.api.bodies import json_body, strict_object
 from registry.api.rendering import json_response
 from registry.api.routing import route
-from registry.schema import load, resolve
+from registry.schema import load, resolution_document, resolve
 
 # Each schema is the Avro schema itself as a JSON value: an object, an array (a union) or a
 # string (a primitive or named type), exactly what an .avsc file holds.
 SCHEMA_CHECK_BODY = strict_object({"reader": {}, "writer": {}}, ("reader", "writer"))
-
-
-def resolution_document(resolution) -> dict:
-    """The JSON of `lockkeeper schema check --json`."""
-    return {
-        "compatible": resolution.compatible,
-        "problems": [{"path": p.path, "rule": p.rule, "message": p.message,
-                      "writer_path": p.writer_path, "witness": p.witness}
-                     for p in resolution.problems],
-        "notes": [{"path": n.path, "rule": n.rule, "message": n.message, "severity": n.severity}
-                  for n in resolution.notes],
-    }
 
 
 @route("/schemas/check", "POST", summary="Can data written with `writer` be read with `reader` "
