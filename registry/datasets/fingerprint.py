@@ -25,10 +25,11 @@ from fastavro.schema import to_parsing_canonical_form
 from registry.datasets import hashing
 from registry.datasets.profile import (ColumnProfile, empty_profile, merge_profiles,
                                        profile_of)
+from registry.datasets.numeric_columns import is_plain_number_column
 from registry.datasets.readers import Part, Source, open_source, read_batches
 from registry.datasets.sketch import (DEFAULT_K, BottomKSketch, add_hashes, empty_sketch,
                                       merge_sketches)
-from registry.datasets.types import RecordType, ValueType, value_type_of
+from registry.datasets.types import NUMERIC, RecordType, ValueType, value_type_of
 from registry.errors import UserError
 
 DIGEST_MODULUS = 1 << 128
@@ -108,32 +109,32 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
               record: RecordType) -> DatasetFingerprint:
     """The fingerprint of the records seen so far plus this batch."""
     leave_out = set(fingerprint.keys) | set(fingerprint.excluded)
-
-    def column_work(name: str) -> tuple[np.ndarray, np.ndarray, ColumnProfile]:
-        array, value_type = batch.column(name), record.field(name)
-        if value_type.avro in ("string", "enum") and not pa.types.is_dictionary(array.type):
-            array = pc.dictionary_encode(array)  # hash and count each distinct value once
-        c0, c1 = hashing.contributions(array, value_type, name)
-        return c0, c1, merge_profiles(fingerprint.profile[name], profile_of(array, value_type))
-
-    results = {name: column_work(name) for name in record.names}
     rows = batch.num_rows
     feature_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
     rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
-    for name, (c0, c1, _) in results.items():
-        target = rest_sums if name in leave_out else feature_sums
-        target[0] += c0
-        target[1] += c1
+    profiles = {}
+    for name in record.names:
+        array, value_type = batch.column(name), record.field(name)
+        sums = rest_sums if name in leave_out else feature_sums
+        if value_type.avro in NUMERIC and is_plain_number_column(array):
+            # the kernels hash and profile a numeric column in the same passes
+            profile = profile_of(array, value_type, hashing.hash_target(value_type, name, *sums))
+        else:
+            if value_type.avro in ("string", "enum") and not pa.types.is_dictionary(array.type):
+                array = pc.dictionary_encode(array)  # hash and count each distinct value once
+            c0, c1 = hashing.contributions(array, value_type, name)
+            sums[0] += c0
+            sums[1] += c1
+            profile = profile_of(array, value_type)
+        profiles[name] = merge_profiles(fingerprint.profile[name], profile)
     if leave_out:
-        full = hashing.finish((feature_sums[0] + rest_sums[0], feature_sums[1] + rest_sums[1]),
-                              hashing.RECORD)
-        features = hashing.finish((feature_sums[0], feature_sums[1]), hashing.RECORD)
+        full = hashing.finish_records(feature_sums[0] + rest_sums[0],
+                                      feature_sums[1] + rest_sums[1])
+        features = hashing.finish_records(*feature_sums)
     else:
-        full = hashing.finish((feature_sums[0], feature_sums[1]), hashing.RECORD)
-        features = full
-    content = int(fingerprint.content_digest, 16) + hashing.digest_of_lanes(*full)
-    feature = (int(fingerprint.feature_digest, 16) + hashing.digest_of_lanes(*features)
-               if leave_out else content)
+        full = features = hashing.finish_records(*feature_sums)
+    content = int(fingerprint.content_digest, 16) + full[2]
+    feature = int(fingerprint.feature_digest, 16) + features[2] if leave_out else content
     key_digest = fingerprint.key_digest
     if fingerprint.keys:
         key_digest = digest_hex(int(key_digest, 16) + hashing.digest_of_lanes(
@@ -143,7 +144,7 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
     return replace(fingerprint, rows=fingerprint.rows + rows,
                    content_digest=digest_hex(content), feature_digest=digest_hex(feature),
                    key_digest=key_digest,
-                   profile={name: results[name][2] for name in record.names},
+                   profile=profiles,
                    sketch=sketch, feature_sketch=feature_sketch)
 
 

@@ -14,6 +14,8 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from registry.datasets import kernels
+from registry.datasets.numeric_columns import HashTarget
 from registry.datasets.types import RecordType, ValueType
 
 HASH_KEY = b"lockkeeper/canonical-values/v1"
@@ -108,12 +110,26 @@ def contributions(array: pa.Array, value_type: ValueType,
         return c0, c0 * (k1 | np.uint64(1))
     c0, c1 = mix64(np.bitwise_xor(w0, k0)), mix64(np.bitwise_xor(w1, k1))
     if valid is not None:  # a null is the one word 0 of kind null, whatever the column's type
-        n0, n1 = field_key(NULL, name)
-        null0 = mix64(np.array([n0], dtype=np.uint64))[0]
-        null1 = np.uint64((int(null0) * (int(n1) | 1)) % (1 << 64))
+        null0, null1 = null_contributions(name)
         c0 = np.where(valid, c0, null0).astype(np.uint64)
         c1 = np.where(valid, c1, null1).astype(np.uint64)
     return c0, c1
+
+
+@lru_cache(maxsize=4096)
+def null_contributions(name: str) -> tuple[np.uint64, np.uint64]:
+    """C(name, null) per lane: the one word 0 of kind null."""
+    n0, n1 = field_key(NULL, name)
+    null0 = mix64(np.array([n0], dtype=np.uint64))[0]
+    return null0, np.uint64((int(null0) * (int(n1) | 1)) % (1 << 64))
+
+
+def hash_target(value_type: ValueType, name: str, sums0: np.ndarray,
+                sums1: np.ndarray) -> HashTarget:
+    """Where the numeric kernel adds a one-word column's contributions, with its keys."""
+    k0, k1 = field_key(KIND_OF_AVRO[value_type.avro], name)
+    null0, null1 = null_contributions(name)
+    return HashTarget(sums0, sums1, k0, k1 | np.uint64(1), null0, null1)
 
 
 def _union_contributions(array: pa.UnionArray, value_type: ValueType,
@@ -264,6 +280,14 @@ def _zero_nulls(lanes: tuple[np.ndarray, np.ndarray],
         return np.where(valid, lanes[0], 0).astype(np.uint64), \
             np.where(valid, lanes[1], 0).astype(np.uint64)
     return lanes
+
+
+def finish_records(sums0: np.ndarray, sums1: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
+    """finish(sums, RECORD) and digest_of_lanes of the result, in one compiled pass."""
+    k0, k1 = field_key(RECORD, "")
+    lane0, lane1, low, high, upper = kernels.finish_records(sums0, sums1, k0, k1)
+    digest = ((int(upper) << 64) + int(low) + (int(high) << 32)) % (1 << 128)
+    return lane0, lane1, digest
 
 
 def digest_of_lanes(lane0: np.ndarray, lane1: np.ndarray) -> int:

@@ -15,6 +15,8 @@ from typing import Any
 
 import numpy as np
 
+from registry.datasets import kernels
+
 MANTISSA_BITS = 7  # relative bucket width 2^-7, so a quantile is within 0.4% of a value seen
 MAX_BUCKETS = 2048
 _SIGN = np.uint64(1 << 63)
@@ -127,8 +129,8 @@ _FLOOR_BITS = np.float64(_FLOOR_VALUE).view(np.uint64)
 def merge_histograms(a: LogHistogram, b: LogHistogram) -> LogHistogram:
     bits = min(a.mantissa_bits, b.mantissa_bits)
     a, b = coarsen(a, bits), coarsen(b, bits)
-    merged = _regroup(bits, np.concatenate([a.indices, b.indices]),
-                      np.concatenate([a.counts, b.counts]))
+    merged = LogHistogram(bits, *kernels.merge_sorted_counts(a.indices, a.counts, b.indices,
+                                                             b.counts))
     while len(merged.indices) > MAX_BUCKETS:
         merged = coarsen(merged, merged.mantissa_bits - 1)
     return merged
@@ -139,10 +141,15 @@ def coarsen(histogram: LogHistogram, mantissa_bits: int) -> LogHistogram:
     drop = histogram.mantissa_bits - mantissa_bits
     if drop <= 0:
         return histogram
+    if len(histogram.indices) == 0:
+        return LogHistogram(mantissa_bits, histogram.indices, histogram.counts)
     index = histogram.indices
     magnitude = (np.abs(index) - 1) >> drop
     coarse = np.where(index == 0, 0, np.sign(index) * (magnitude + 1))
-    return _regroup(mantissa_bits, coarse, histogram.counts)
+    # The coarse index grows with the fine one, so equal coarse indices are neighbours.
+    starts = np.flatnonzero(np.concatenate([[True], coarse[1:] != coarse[:-1]]))
+    return LogHistogram(mantissa_bits, coarse[starts].astype(np.int64),
+                        np.add.reduceat(histogram.counts, starts).astype(np.int64))
 
 
 def _regroup(bits: int, indices: np.ndarray, counts: np.ndarray) -> LogHistogram:

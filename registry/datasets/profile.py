@@ -12,12 +12,12 @@ from typing import Any
 
 import numpy as np
 import pyarrow as pa
-import pyarrow.compute as pc
 
 from registry.datasets.categories import (CATEGORY_CAP, CategoryCounts, counts_of, empty_counts,
                                           merge_counts)
-from registry.datasets.histogram import (LogHistogram, empty_histogram, histogram_of,
-                                         merge_histograms, quantiles)
+from registry.datasets.histogram import (LogHistogram, empty_histogram, merge_histograms,
+                                         quantiles)
+from registry.datasets.numeric_columns import HashTarget, summarise_numbers
 from registry.datasets.types import NUMERIC, ValueType
 
 QUANTILE_LEVELS = (0.01, 0.05, 0.25, 0.5, 0.75, 0.95, 0.99)
@@ -37,16 +37,6 @@ class Moments:
     def variance(self) -> float | None:
         """Population variance M2 / n (numpy's var with ddof=0)."""
         return self.m2 / self.count if self.count else None
-
-
-def moments_of(values: np.ndarray, exact_range: np.ndarray | None = None) -> Moments:
-    if len(values) == 0:
-        return Moments()
-    mean = float(values.mean())
-    deviations = values - mean
-    m2 = float(np.einsum("i,i->", deviations, deviations))  # no BLAS threads inside our pool
-    source = values if exact_range is None else exact_range
-    return Moments(len(values), mean, m2, source.min().item(), source.max().item())
 
 
 def merge_moments(a: Moments, b: Moments) -> Moments:
@@ -153,8 +143,10 @@ def empty_profile(value_type: ValueType) -> ColumnProfile:
         branch_tally=(0,) * len(value_type.branch_names) if value_type.avro == "union" else ())
 
 
-def profile_of(array: pa.Array, value_type: ValueType) -> ColumnProfile:
-    """The profile of one batch of one column."""
+def profile_of(array: pa.Array, value_type: ValueType,
+               hash_into: HashTarget | None = None) -> ColumnProfile:
+    """The profile of one batch of one column. A numeric column's hash contributions are
+    added to `hash_into` in the same passes, when given."""
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
     base = empty_profile(value_type)
@@ -165,19 +157,10 @@ def profile_of(array: pa.Array, value_type: ValueType) -> ColumnProfile:
     nulls = array.null_count
     profile = replace(base, count=len(array), nulls=nulls)
     if base.moments is not None:
-        present = pc.drop_null(array) if nulls else array
-        numbers = present.to_numpy(zero_copy_only=False)
-        floats = numbers.astype(np.float64, copy=False)
-        non_finite = 0
-        if len(floats) and not (np.isfinite(floats.min()) and np.isfinite(floats.max())):
-            finite = np.isfinite(floats)  # min and max are finite only when all values are
-            non_finite = int(len(floats) - finite.sum())
-            floats, numbers = floats[finite], numbers[finite]
-        exact_range = numbers if numbers.dtype.kind in "iu" else None
-        moments = moments_of(floats, exact_range)
-        histogram = histogram_of(floats, float(moments.maximum)) if moments.count \
-            else histogram_of(floats)
-        profile = replace(profile, moments=moments, non_finite=non_finite, histogram=histogram)
+        summary = summarise_numbers(array, hash_into)
+        profile = replace(profile, non_finite=summary.non_finite, histogram=summary.histogram,
+                          moments=Moments(summary.count, summary.mean, summary.m2,
+                                          summary.minimum, summary.maximum))
     if base.categories is not None:
         profile = replace(profile, categories=counts_of(array, base.categories.cap))
     return profile
