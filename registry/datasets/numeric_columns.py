@@ -1,8 +1,7 @@
 """One numeric column of one batch: its hash contributions and its summary.
 
-The shell between Arrow arrays and the compiled kernels (kernels.py): it finds the column's
-buffers without copying them, takes the moments from numpy's pairwise sums, and turns the
-kernels' bucket table into a LogHistogram equal to histogram.histogram_of's.
+The shell between Arrow arrays and the compiled kernel (kernels.summarise_column): it finds the
+column's buffers without copying them and wraps what the kernel returns.
 """
 
 from __future__ import annotations
@@ -14,13 +13,10 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from registry.datasets import kernels
-from registry.datasets.histogram import (MANTISSA_BITS, LogHistogram, bucket_indices,
-                                         empty_histogram)
+from registry.datasets.histogram import MANTISSA_BITS, LogHistogram, empty_histogram
 
 _SHIFT = np.uint64(52 - MANTISSA_BITS)
 FLOOR_VALUE = 2.0**-64  # magnitudes below this are bucketed one by one
-_FLOOR_KEY = int(np.float64(FLOOR_VALUE).view(np.uint64) >> _SHIFT)
-_NO_MASK = np.zeros(0, np.uint8)
 
 
 @dataclass(frozen=True)
@@ -50,6 +46,11 @@ class HashTarget:
     null1: np.uint64
 
 
+_NO_MASK = np.zeros(0, np.uint8)
+_NO_SUMS = np.zeros(0, np.uint64)
+_NO_TARGET = HashTarget(_NO_SUMS, _NO_SUMS, *(np.uint64(0),) * 4)
+
+
 def is_plain_number_column(array: pa.Array) -> bool:
     """Integer or floating-point arrays: one word a value, for the kernels."""
     return pa.types.is_integer(array.type) or pa.types.is_floating(array.type)
@@ -64,65 +65,30 @@ def summarise_numbers(array: pa.Array | pa.ChunkedArray,
     wanted = pa.float64() if floating else pa.int64()
     if array.type != wanted:
         array = array.cast(wanted)
-    if target is not None:
-        _add_contributions(array, floating, target)
-    present = pc.drop_null(array) if array.null_count else array
-    numbers = present.to_numpy(zero_copy_only=False)
-    floats = numbers.astype(np.float64, copy=False)
-    non_finite = 0
-    if floating and len(floats) and not (np.isfinite(floats.min())
-                                         and np.isfinite(floats.max())):
-        finite = np.isfinite(floats)  # min and max are finite only when every value is
-        non_finite = int(len(floats) - np.count_nonzero(finite))
-        floats = numbers = floats[finite]
-    if len(floats) == 0:
-        return NumericSummary(0, 0.0, 0.0, None, None, non_finite, empty_histogram())
-    low, high = numbers.min().item(), numbers.max().item()
-    mean = float(floats.mean())  # numpy's pairwise sum
-    m2, histogram = _squares_and_histogram(floats, mean, float(low), float(high))
-    return NumericSummary(len(floats), mean, m2, low, high, non_finite, histogram)
-
-
-def _add_contributions(array: pa.Array, floating: bool, target: HashTarget) -> None:
-    data = array.buffers()[1]
     dtype = np.float64 if floating else np.int64
-    values = (np.frombuffer(data, dtype=dtype)[array.offset:array.offset + len(array)]
-              if len(array) else np.zeros(0, dtype))
+    values = (np.frombuffer(array.buffers()[1], dtype=dtype)[array.offset:
+                                                             array.offset + len(array)]
+              if len(array) else np.zeros(0, dtype))  # a null's slot holds any value
     valid = (pc.is_valid(array).to_numpy(zero_copy_only=False).view(np.uint8)
              if array.null_count else _NO_MASK)
-    kernels.add_contributions(values.view(np.uint64), floating, valid, target.key0,
-                              target.multiplier, target.null0, target.null1, target.sums0,
-                              target.sums1)
+    target = target or _NO_TARGET
+    non_finite = kernels.add_contributions(
+        values.view(np.uint64), floating, valid, target.sums0, target.sums1, target.key0,
+        target.multiplier, target.null0, target.null1)
+    if array.null_count or non_finite:  # the summary is of the finite values alone
+        counted = valid.view(np.bool_) if array.null_count else np.ones(len(values), np.bool_)
+        if non_finite:
+            counted &= np.isfinite(values)
+        values = values[counted]
+    if len(values) == 0:
+        return NumericSummary(0, 0.0, 0.0, None, None, int(non_finite), empty_histogram())
+    floats = values if floating else values.astype(np.float64)
+    mean, m2, low, high, indices, counts = kernels.summarise_finite(values, floats, _SHIFT,
+                                                                    FLOOR_VALUE)
+    return NumericSummary(len(values), float(mean), float(m2), _plain(low, floating),
+                          _plain(high, floating), int(non_finite),
+                          LogHistogram(MANTISSA_BITS, indices, counts))
 
 
-def _top_key(magnitude: float) -> int:
-    """How many table slots a sign needs to reach this magnitude's bucket."""
-    if not magnitude >= FLOOR_VALUE:
-        return 0
-    return int(np.float64(magnitude).view(np.uint64) >> _SHIFT) - (_FLOOR_KEY - 1)
-
-
-def _squares_and_histogram(floats: np.ndarray, mean: float, low: float,
-                           high: float) -> tuple[float, LogHistogram]:
-    negative_slots, positive_slots = _top_key(-low), _top_key(high)
-    m2, zeros, table = kernels.bucket_counts(floats, mean, _SHIFT, _FLOOR_KEY, negative_slots,
-                                             positive_slots)
-    negative_counts = table[:negative_slots]
-    positive_counts = table[negative_slots + 1:]
-    # Slot k away from the middle holds magnitude key FLOOR_KEY - 1 + k, index +-(FLOOR_KEY + k).
-    negative_indices = -(_FLOOR_KEY + np.arange(negative_slots, 0, -1, dtype=np.int64))
-    positive_indices = _FLOOR_KEY + np.arange(1, positive_slots + 1, dtype=np.int64)
-    tiny_indices, tiny_counts = np.zeros(0, np.int64), np.zeros(0, np.int64)
-    if table[negative_slots] > zeros:  # values below the floor, bucketed one by one
-        tiny = floats[(np.abs(floats) < FLOOR_VALUE) & (floats != 0.0)]
-        tiny_indices, tiny_counts = np.unique(bucket_indices(tiny), return_counts=True)
-    zero_index = np.zeros(1 if zeros else 0, np.int64)
-    below = tiny_indices < 0
-    indices = np.concatenate([negative_indices, tiny_indices[below], zero_index,
-                              tiny_indices[~below], positive_indices])
-    counts = np.concatenate([negative_counts, tiny_counts[below],
-                             np.full(len(zero_index), zeros, np.int64), tiny_counts[~below],
-                             positive_counts])
-    kept = counts > 0
-    return float(m2), LogHistogram(MANTISSA_BITS, indices[kept].astype(np.int64),
-                                   counts[kept].astype(np.int64))
+def _plain(number: object, floating: bool) -> float | int:
+    return float(number) if floating else int(number)

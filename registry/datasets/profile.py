@@ -154,16 +154,15 @@ def profile_of(array: pa.Array, value_type: ValueType,
         tally = np.bincount(np.asarray(array.type_codes), minlength=len(base.branch_names))
         return replace(base, count=len(array), nulls=int(tally[0]),
                        branch_tally=tuple(int(c) for c in tally))
-    nulls = array.null_count
-    profile = replace(base, count=len(array), nulls=nulls)
+    parts: dict[str, Any] = {"count": len(array), "nulls": array.null_count}
     if base.moments is not None:
         summary = summarise_numbers(array, hash_into)
-        profile = replace(profile, non_finite=summary.non_finite, histogram=summary.histogram,
-                          moments=Moments(summary.count, summary.mean, summary.m2,
-                                          summary.minimum, summary.maximum))
+        parts.update(non_finite=summary.non_finite, histogram=summary.histogram,
+                     moments=Moments(summary.count, summary.mean, summary.m2, summary.minimum,
+                                     summary.maximum))
     if base.categories is not None:
-        profile = replace(profile, categories=counts_of(array, base.categories.cap))
-    return profile
+        parts["categories"] = counts_of(array, base.categories.cap)
+    return replace(base, **parts)
 
 
 def merge_profiles(a: ColumnProfile, b: ColumnProfile) -> ColumnProfile:

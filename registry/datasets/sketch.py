@@ -69,18 +69,26 @@ def add_hashes(sketch: BottomKSketch, hashes: np.ndarray) -> BottomKSketch:
         # range with overwhelming probability; when k distinct values do lie below, the k
         # smallest are exactly among them, and one comparison saves a partition of all n.
         bound = np.uint64(min(2**64 - 1, (4 * sketch.k * 2**64) // len(candidates)))
-        below = candidates[candidates < bound]
-        if len(np.unique(below)) >= sketch.k:
+        below = _distinct(candidates[candidates < bound])
+        if len(below) >= sketch.k:
             candidates = below
     if len(candidates) == 0:
         return sketch
     if len(candidates) > 4 * sketch.k:
         smallest = np.partition(candidates, sketch.k)[: sketch.k + 1]
-        distinct = np.unique(smallest)
+        distinct = _distinct(smallest)
         if len(distinct) < sketch.k:  # repeats among the smallest: look at them all
-            distinct = np.unique(candidates)
+            distinct = _distinct(candidates)
         candidates = distinct
-    return merge_sketches(sketch, BottomKSketch(sketch.k, np.unique(candidates)[: sketch.k]))
+    return merge_sketches(sketch, BottomKSketch(sketch.k, _distinct(candidates)[: sketch.k]))
+
+
+def _distinct(values: np.ndarray) -> np.ndarray:
+    """Sorted distinct values (np.unique, by one sort; its hashing path is slower here)."""
+    ordered = np.sort(values)
+    if len(ordered) < 2:
+        return ordered
+    return ordered[np.concatenate([[True], ordered[1:] != ordered[:-1]])]
 
 
 def sketch_of(hashes: np.ndarray, k: int = DEFAULT_K) -> BottomKSketch:
@@ -91,11 +99,7 @@ def merge_sketches(a: BottomKSketch, b: BottomKSketch) -> BottomKSketch:
     k = min(a.k, b.k)
     if len(a.values) == 0 or len(b.values) == 0:
         return BottomKSketch(k, (b.values if len(a.values) == 0 else a.values)[:k])
-    # Both hold sorted distinct values: a sort of the two (numpy's radix sort for integers)
-    # and one comparison drop the repeats, cheaper than np.union1d's general unique.
-    both = np.sort(np.concatenate([a.values, b.values]), kind="stable")
-    distinct = both[np.concatenate([[True], both[1:] != both[:-1]])]
-    return BottomKSketch(k, distinct[:k])
+    return BottomKSketch(k, _distinct(np.concatenate([a.values, b.values]))[:k])
 
 
 @dataclass(frozen=True)
