@@ -7,7 +7,8 @@ blocks of rows summed in float64 (on 1,000,000 rows the rounding is about 1e-9, 
 the resampling spread). The ranking metric (average precision) sorts each model once; each chunk
 of weights is then transposed to rows x resamples and walked in score order by a compiled pass
 (ranking_kernels), which sums the weights exactly and reads precision at the end of each group
-of tied scores.
+of tied scores. That pass releases the GIL and runs on a worker thread while the next chunk is
+drawn, so on two cores the two halves of the work overlap.
 
 Weights: multinomial counts (Efron's bootstrap, n draws with replacement) for up to
 MULTINOMIAL_ROWS rows; above that independent Poisson(1) counts, the Poisson bootstrap
@@ -21,6 +22,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -172,21 +174,30 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
     columns32 = columns.astype(np.float32)
 
     collected: dict[str, list[np.ndarray]] = {name: [] for name in names}
-    by_row = None  # the chunk's weights, rows x resamples, reused from chunk to chunk
-    for count, blocks in weight_chunks(len(candidate), resamples, seed):
-        sums = np.zeros((count, columns.shape[1]))
-        for first, block in blocks:
-            if linear:
-                sums += block.astype(np.float32) @ columns32[first:first + block.shape[1]]
+    # The compiled passes release the GIL: a worker walks one chunk in score order while this
+    # thread draws and transposes the next into the other buffer.
+    buffers: list[np.ndarray | None] = [None, None]
+    with ThreadPoolExecutor(max_workers=1) as worker:
+        walking: Future | None = None
+        for index, (count, blocks) in enumerate(weight_chunks(len(candidate), resamples, seed)):
+            sums = np.zeros((count, columns.shape[1]))
+            by_row = buffers[index % 2]
+            for first, block in blocks:
+                if linear:
+                    sums += block.astype(np.float32) @ columns32[first:first + block.shape[1]]
+                if ranked:
+                    if by_row is None or by_row.shape[1] != count or by_row.dtype != block.dtype:
+                        by_row = buffers[index % 2] = np.empty((len(candidate), count),
+                                                               dtype=block.dtype)
+                    kernels.transpose_into(block, by_row[first:first + block.shape[1]])
+            for name, st in linear.items():
+                collected[name].append(st.finish(sums[:, spans[name]], sums[:, -1]))
+            if walking is not None:
+                walking.result()
             if ranked:
-                if by_row is None or by_row.shape[1] != count or by_row.dtype != block.dtype:
-                    by_row = np.empty((len(candidate), count), dtype=block.dtype)
-                # Transposed while the block is still in cache.
-                kernels.transpose_into(block, by_row[first:first + block.shape[1]])
-        for name, st in linear.items():
-            collected[name].append(st.finish(sums[:, spans[name]], sums[:, -1]))
-        for name, st in ranked.items():
-            collected[name].append(st.resampled(by_row))
+                walking = worker.submit(_walk_ranked, ranked, by_row, collected)
+        if walking is not None:
+            walking.result()
 
     results = {}
     totals = columns.sum(axis=0, keepdims=True)
@@ -198,6 +209,12 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
             point = st.point
         results[name] = summarise(point, np.concatenate(collected[name]), confidence)
     return results
+
+
+def _walk_ranked(ranked: dict[str, RankedStatistic], by_row: np.ndarray,
+                 collected: dict[str, list[np.ndarray]]) -> None:
+    for name, st in ranked.items():
+        collected[name].append(st.resampled(by_row))
 
 
 def summarise(point: float, differences: np.ndarray, confidence: float) -> BootstrapResult:
