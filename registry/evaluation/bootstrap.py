@@ -4,8 +4,11 @@ Each resample gives every row a weight, the number of times the row is drawn, sh
 models (that is what makes it paired). Metrics are then weighted sums, so a chunk of resamples is
 one matrix product (W @ per-row values) instead of a Python loop over resamples, in float32
 blocks of rows summed in float64 (on 1,000,000 rows the rounding is about 1e-9, some 1e-5 of
-the resampling spread); the ranking metric (average precision) reuses one sort per model and
-integer prefix sums of the weights.
+the resampling spread). The ranking metric (average precision) sorts each model once; each chunk
+of weights is then transposed to rows x resamples and walked in score order by a compiled pass
+(ranking_kernels), which sums the weights exactly and reads precision at the end of each group
+of tied scores. That pass releases the GIL and runs on a worker thread while the next chunk is
+drawn, so on two cores the two halves of the work overlap.
 
 Weights: multinomial counts (Efron's bootstrap, n draws with replacement) for up to
 MULTINOMIAL_ROWS rows; above that independent Poisson(1) counts, the Poisson bootstrap
@@ -19,11 +22,13 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterator, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
 
 from registry.evaluation import metrics as m
+from registry.evaluation import ranking_kernels as kernels
 from registry.evaluation.predictions import Predictions
 
 MULTINOMIAL_ROWS = 50_000
@@ -169,20 +174,30 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
     columns32 = columns.astype(np.float32)
 
     collected: dict[str, list[np.ndarray]] = {name: [] for name in names}
-    for count, blocks in weight_chunks(len(candidate), resamples, seed):
-        sums = np.zeros((count, columns.shape[1]))
-        kept = []
-        for first, block in blocks:
-            if linear:
-                sums += block.astype(np.float32) @ columns32[first:first + block.shape[1]]
+    # The compiled passes release the GIL: a worker walks one chunk in score order while this
+    # thread draws and transposes the next into the other buffer.
+    buffers: list[np.ndarray | None] = [None, None]
+    with ThreadPoolExecutor(max_workers=1) as worker:
+        walking: Future | None = None
+        for index, (count, blocks) in enumerate(weight_chunks(len(candidate), resamples, seed)):
+            sums = np.zeros((count, columns.shape[1]))
+            by_row = buffers[index % 2]
+            for first, block in blocks:
+                if linear:
+                    sums += block.astype(np.float32) @ columns32[first:first + block.shape[1]]
+                if ranked:
+                    if by_row is None or by_row.shape[1] != count or by_row.dtype != block.dtype:
+                        by_row = buffers[index % 2] = np.empty((len(candidate), count),
+                                                               dtype=block.dtype)
+                    kernels.transpose_into(block, by_row[first:first + block.shape[1]])
+            for name, st in linear.items():
+                collected[name].append(st.finish(sums[:, spans[name]], sums[:, -1]))
+            if walking is not None:
+                walking.result()
             if ranked:
-                kept.append(block)
-        for name, st in linear.items():
-            collected[name].append(st.finish(sums[:, spans[name]], sums[:, -1]))
-        if ranked:
-            weights = np.hstack(kept)
-            for name, st in ranked.items():
-                collected[name].append(st(weights))
+                walking = worker.submit(_walk_ranked, ranked, by_row, collected)
+        if walking is not None:
+            walking.result()
 
     results = {}
     totals = columns.sum(axis=0, keepdims=True)
@@ -191,9 +206,15 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
         if isinstance(st, LinearStatistic):
             point = float(st.finish(totals[:, spans[name]], totals[:, -1])[0])
         else:
-            point = float(st(np.ones((1, len(candidate)), dtype=np.float64))[0])
+            point = st.point
         results[name] = summarise(point, np.concatenate(collected[name]), confidence)
     return results
+
+
+def _walk_ranked(ranked: dict[str, RankedStatistic], by_row: np.ndarray,
+                 collected: dict[str, list[np.ndarray]]) -> None:
+    for name, st in ranked.items():
+        collected[name].append(st.resampled(by_row))
 
 
 def summarise(point: float, differences: np.ndarray, confidence: float) -> BootstrapResult:
@@ -225,17 +246,31 @@ class LinearStatistic:
     finish: Callable[[np.ndarray, np.ndarray], np.ndarray]
 
 
-Statistic = Callable[[np.ndarray], np.ndarray]
+@dataclass(frozen=True)
+class RankedStatistic:
+    """A metric difference that needs each model's rows in score order (average precision).
+
+    resampled(weights) takes weights laid out rows x resamples (each row's resamples
+    contiguous, as the compiled pass reads them). point is the difference on all rows in
+    float64: the pass's float32 terms (relative error near 1e-7) are for resamples, whose
+    spread is far wider.
+    """
+
+    point: float
+    resampled: Callable[[np.ndarray], np.ndarray]
 
 
 def difference_statistic(name: str, candidate: Predictions, baseline: Predictions,
-               threshold: float) -> LinearStatistic | Statistic:
+                         threshold: float) -> LinearStatistic | RankedStatistic:
     """How to get the metric difference of each resample from its weights."""
     labels = candidate.labels
     if name == "average_precision":
         first = _weighted_average_precision(labels, candidate.scores)
         second = _weighted_average_precision(labels, baseline.scores)
-        return lambda weights: first(weights) - second(weights)
+        point = [m.average_precision(labels, p.scores) for p in (candidate, baseline)]
+        return RankedStatistic(
+            math.nan if None in point else point[0] - point[1],
+            lambda weights: first(weights) - second(weights))
     if name == "log_loss":
         if candidate.task == "binary":
             losses = m.binary_log_losses(labels, candidate.scores) - m.binary_log_losses(
@@ -319,41 +354,29 @@ def _weighted_macro_f1_difference(labels: np.ndarray, candidate: np.ndarray,
     return LinearStatistic(columns, finish)
 
 
-def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray) -> Statistic:
-    """Average precision with row weights: sorted once, then cumulative weighted counts.
+def _weighted_average_precision(labels: np.ndarray, scores: np.ndarray
+                                ) -> Callable[[np.ndarray], np.ndarray]:
+    """Average precision with row weights: one sort, then a compiled pass per chunk of resamples.
 
     With integer weights it equals scikit-learn's average_precision_score on the rows repeated
     that many times: precision is read at the end of each group of tied scores.
     """
-    descending = np.ascontiguousarray(np.argsort(scores)[::-1])
-    ordered = scores[descending]
-    group_end = np.flatnonzero(np.append(ordered[1:] != ordered[:-1], True))
-    group_of = np.repeat(np.arange(group_end.shape[0]), np.diff(group_end, prepend=-1))
-    positive_slots = np.flatnonzero(labels[descending] == 1)
-    positive_rows = descending[positive_slots]
-    # For each positive: the last slot of its tie group, and the last positive in that group.
-    end_slot = group_end[group_of[positive_slots]]
-    last_positive = np.searchsorted(positive_slots, end_slot, side="right") - 1
-    precise = np.float32 if labels.shape[0] < 2**23 else np.float64
-    def statistic(weights: np.ndarray) -> np.ndarray:
-        if positive_rows.shape[0] == 0:  # no positives: average precision is undefined
-            return np.full(weights.shape[0], np.nan)
-        # Weights are counts: integer prefix sums are exact, and in place they are fastest.
-        # Counts below 2**24 are exact in float32 too, and every term of the final sum is
-        # positive, so float32 terms summed in float64 keep the relative error near 1e-7.
-        dtype = np.float64 if weights.dtype == np.float64 else precise
-        predicted_positive = np.take(weights, descending, axis=1).astype(np.int32)
-        np.cumsum(predicted_positive, axis=1, out=predicted_positive)
-        predicted_positive = np.take(predicted_positive, end_slot, axis=1).astype(dtype)
-        positive_weights = np.take(weights, positive_rows, axis=1).astype(np.int32)
-        true_positive = np.cumsum(positive_weights, axis=1, out=positive_weights.copy())
-        total = true_positive[:, -1].astype(np.float64)
-        # A positive of weight 0 with nothing drawn above it contributes 0, not 0/0.
-        np.maximum(predicted_positive, 1, out=predicted_positive)
-        precision = np.take(true_positive, last_positive, axis=1).astype(dtype)
-        precision /= predicted_positive
-        precision *= positive_weights
-        with np.errstate(invalid="ignore", divide="ignore"):
-            return precision.sum(axis=1, dtype=np.float64) / total
+    order = np.ascontiguousarray(np.argsort(scores)[::-1], dtype=np.intp)
+    is_positive = labels[order] == 1
+    closes_group = _closes_positive_group(scores[order], is_positive)
+
+    def statistic(weights_by_row: np.ndarray) -> np.ndarray:
+        return kernels.weighted_average_precision(weights_by_row, order, is_positive,
+                                                  closes_group)
 
     return statistic
+
+
+def _closes_positive_group(ordered: np.ndarray, is_positive: np.ndarray) -> np.ndarray:
+    """Whether each place in score order ends a group of tied scores that holds a positive."""
+    if ordered.shape[0] == 0:
+        return np.zeros(0, dtype=np.bool_)
+    starts = np.append(True, ordered[1:] != ordered[:-1])
+    group = np.cumsum(starts) - 1
+    has_positive = np.bincount(group, weights=is_positive) > 0
+    return np.append(starts[1:], True) & has_positive[group]

@@ -76,11 +76,40 @@ def test_a_weighted_resample_equals_the_metric_on_the_rows_repeated(pair):
             values = statistic.finish(weights.astype(np.float64) @ statistic.columns,
                                       weights.sum(axis=1).astype(np.float64))
         else:
-            values = statistic(weights)
+            # The ranked statistic reads weights rows x resamples.
+            values = statistic.resampled(np.ascontiguousarray(weights.T))
         for row, counts in enumerate(weights):
             expected = (_reference(name, _repeated(candidate, counts))
                         - _reference(name, _repeated(baseline, counts)))
             assert values[row] == pytest.approx(expected, rel=1e-5, abs=1e-9), name
+
+
+def test_average_precision_with_ties_and_positives_drawn_zero_times_matches_scikit_learn():
+    # Scores rounded to one decimal make large tie groups; weight 0 leaves out positives, and in
+    # the first resample the whole top group. Reference: scikit-learn's average_precision_score
+    # on the rows repeated by their weights.
+    candidate, baseline = binary_pair(41, 300, decimals=1)
+    rng = np.random.default_rng(6)
+    weights = rng.integers(0, 3, size=(4, 300)).astype(np.uint8)
+    weights[0, candidate.scores == candidate.scores.max()] = 0
+    weights[1, (candidate.labels == 1) & (rng.random(300) < 0.5)] = 0
+    statistic = difference_statistic("average_precision", candidate, baseline, 0.5)
+    values = statistic.resampled(np.ascontiguousarray(weights.T))
+    for row, counts in enumerate(weights):
+        expected = (sk.average_precision_score(*_labels_and_scores(_repeated(candidate, counts)))
+                    - sk.average_precision_score(*_labels_and_scores(_repeated(baseline, counts))))
+        assert values[row] == pytest.approx(expected, rel=1e-5, abs=1e-9), row
+
+
+def test_a_resample_that_draws_no_positive_has_no_average_precision():
+    candidate, baseline = binary_pair(42, 200, decimals=2)
+    weights = np.where(candidate.labels == 1, 0, 1).astype(np.uint8)[:, None]
+    statistic = difference_statistic("average_precision", candidate, baseline, 0.5)
+    assert np.isnan(statistic.resampled(weights)).all()
+
+
+def _labels_and_scores(predictions: Predictions) -> tuple[np.ndarray, np.ndarray]:
+    return predictions.labels, predictions.scores
 
 
 def test_point_differences_are_the_full_sample_differences():
