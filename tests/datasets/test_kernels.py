@@ -53,26 +53,26 @@ def assert_summary_matches_numpy(summary, values: list, is_integer: bool):
         assert summary.m2 == pytest.approx(m2, rel=1e-9, abs=1e-300)
 
 
+def check_column_against_numpy(values: list, offset: int, avro: str, name: str) -> None:
+    arrow_type = pa.float64() if avro == "double" else pa.int64()
+    array = pa.array(values, type=arrow_type).slice(min(offset, len(values)))
+    value_type = ValueType(avro, nullable=True)
+    sums0, sums1, summary = kernel_contributions(array, value_type, name)
+    c0, c1 = hashing.contributions(array, value_type, name)
+    assert np.array_equal(sums0, c0) and np.array_equal(sums1, c1)
+    assert_summary_matches_numpy(summary, array.to_pylist(), is_integer=avro == "long")
+
+
 @settings(max_examples=150, deadline=None)
 @given(st.lists(st.one_of(st.none(), doubles), max_size=300), st.integers(0, 5))
 def test_double_columns_hash_and_summarise_as_the_numpy_definitions(values, offset):
-    array = pa.array(values, type=pa.float64()).slice(min(offset, len(values)))
-    value_type = ValueType("double", nullable=True)
-    sums0, sums1, summary = kernel_contributions(array, value_type, "pressure_kpa")
-    c0, c1 = hashing.contributions(array, value_type, "pressure_kpa")
-    assert np.array_equal(sums0, c0) and np.array_equal(sums1, c1)
-    assert_summary_matches_numpy(summary, array.to_pylist(), is_integer=False)
+    check_column_against_numpy(values, offset, "double", "pressure_kpa")
 
 
 @settings(max_examples=150, deadline=None)
 @given(st.lists(st.one_of(st.none(), longs), max_size=300), st.integers(0, 5))
 def test_long_columns_hash_and_summarise_as_the_numpy_definitions(values, offset):
-    array = pa.array(values, type=pa.int64()).slice(min(offset, len(values)))
-    value_type = ValueType("long", nullable=True)
-    sums0, sums1, summary = kernel_contributions(array, value_type, "repairs_5y")
-    c0, c1 = hashing.contributions(array, value_type, "repairs_5y")
-    assert np.array_equal(sums0, c0) and np.array_equal(sums1, c1)
-    assert_summary_matches_numpy(summary, array.to_pylist(), is_integer=True)
+    check_column_against_numpy(values, offset, "long", "repairs_5y")
 
 
 def test_moments_of_a_large_column_match_numpy():
