@@ -14,9 +14,11 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from registry.datasets import kernels
 from registry.datasets.numeric_columns import HashTarget
 from registry.datasets.types import RecordType, ValueType
+from registry.lazy_import import lazy_import
+
+kernels = lazy_import("registry.datasets.kernels")  # loads numba on first use
 
 HASH_KEY = b"lockkeeper/canonical-values/v1"
 GOLDEN = np.uint64(0x9E3779B97F4A7C15)  # 2^64 / golden ratio, as in splitmix64

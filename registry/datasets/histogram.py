@@ -15,7 +15,9 @@ from typing import Any
 
 import numpy as np
 
-from registry.datasets import kernels
+from registry.lazy_import import lazy_import
+
+kernels = lazy_import("registry.datasets.kernels")  # loads numba on first use
 
 MANTISSA_BITS = 7  # relative bucket width 2^-7, so a quantile is within 0.4% of a value seen
 MAX_BUCKETS = 2048

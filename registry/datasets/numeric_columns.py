@@ -12,8 +12,10 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from registry.datasets import kernels
 from registry.datasets.histogram import MANTISSA_BITS, LogHistogram, empty_histogram
+from registry.lazy_import import lazy_import
+
+kernels = lazy_import("registry.datasets.kernels")  # loads numba on first use
 
 _SHIFT = np.uint64(52 - MANTISSA_BITS)
 FLOOR_VALUE = 2.0**-64  # magnitudes below this are bucketed one by one

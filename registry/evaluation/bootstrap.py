@@ -28,8 +28,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from registry.evaluation import metrics as m
-from registry.evaluation import ranking_kernels as kernels
 from registry.evaluation.predictions import Predictions
+from registry.lazy_import import lazy_import
+
+kernels = lazy_import("registry.evaluation.ranking_kernels")  # loads numba on first use
 
 MULTINOMIAL_ROWS = 50_000
 CHUNK_CELLS = 16_000_000  # weights held at once (resamples x rows), one byte each

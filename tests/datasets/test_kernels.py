@@ -7,6 +7,10 @@ only do the same arithmetic in fewer passes.
 
 from __future__ import annotations
 
+import subprocess
+import sys
+from pathlib import Path
+
 import numpy as np
 import pyarrow as pa
 import pytest
@@ -19,6 +23,7 @@ from registry.datasets.numeric_columns import summarise_numbers
 from registry.datasets.sketch import DEFAULT_K, add_hashes, empty_sketch
 from registry.datasets.types import ValueType
 
+REPOSITORY = Path(__file__).parents[2]
 SPECIAL_DOUBLES = [0.0, -0.0, float("nan"), float("inf"), float("-inf"), 5e-324, -5e-324,
                    1e-300, -1e-300, 2.0**-64, -(2.0**-64), 1e308, -1e308, 1.0, -1.0]
 doubles = st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.sampled_from(SPECIAL_DOUBLES))
@@ -143,3 +148,14 @@ def test_merged_histograms_of_two_halves_equal_the_histogram_of_the_whole():
 def test_bottom_k_sketch_keeps_the_k_smallest_distinct_hashes(hashes):
     sketch = add_hashes(empty_sketch(), hashes)
     assert np.array_equal(sketch.values, np.unique(hashes)[:DEFAULT_K])
+
+
+def test_the_command_loads_the_compiler_only_when_a_kernel_runs():
+    """numba takes a third of a second to import; `lockkeeper schema check` never needs it."""
+    script = ("import sys, registry.cli; print('numba' in sys.modules)\n"
+              "from registry.datasets.numeric_columns import summarise_numbers\n"
+              "import pyarrow as pa; summarise_numbers(pa.array([1.0, 2.0]))\n"
+              "print('numba' in sys.modules)\n")
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
+                          check=True, cwd=REPOSITORY)
+    assert done.stdout.split() == ["False", "True"]
