@@ -111,7 +111,7 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
     leave_out = set(fingerprint.keys) | set(fingerprint.excluded)
     rows = batch.num_rows
     feature_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
-    rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
+    rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)] if leave_out else None
     profiles = {}
     for name in record.names:
         array, value_type = batch.column(name), record.field(name)
