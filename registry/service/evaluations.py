@@ -15,7 +15,7 @@ from registry.evaluation import Predictions, compute_metrics, slice_metrics
 from registry.service.actors import Actor
 from registry.service.datasets import find_dataset, load_fingerprint
 from registry.service.models import find_model, find_version
-from registry.service.roles import require_role
+from registry.service.authorisation import authorise
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -71,7 +71,7 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
     document = metrics_document(request.predictions, request.slice_columns, request.threshold)
     stored_predictions = request.predictions.to_bytes()
     with UnitOfWork(catalogue) as uow:
-        require_role(uow, actor, "publisher", "recording an evaluation")
+        authorise(uow, actor, "evaluation.add")
         line = find_model(uow, request.model)
         version = find_version(uow, line, request.version)
         dataset = find_dataset(uow, request.dataset)

@@ -105,7 +105,7 @@ def show_dataset(dataset: str):
     return json_response(datasets.show_dataset(catalogue(), path_name(dataset, "dataset")))
 
 
-@route("/datasets", "POST", role="publisher", summary="Register a dataset from an uploaded "
+@route("/datasets", "POST", action="dataset.add", summary="Register a dataset from an uploaded "
        "file or from a fingerprint computed by the producer", tag="datasets",
        body=DATASET_BODY, form=DATASET_FORM,
        responses={201: "Created", 200: "Already registered with this content; nothing changed"})

@@ -93,7 +93,7 @@ def registration_request(model: str, parts: dict[str, tuple[bytes, str | None]]
         features_text=features_text)
 
 
-@route("/models/<model>/versions", "POST", role="publisher", summary="Register the next "
+@route("/models/<model>/versions", "POST", action="version.register", summary="Register the next "
        "version of a model (multipart upload of document, manifest and the files it names)",
        tag="versions", form=REGISTER_FORM,
        responses={201: "Created", 200: "This registration already exists; nothing changed"})
