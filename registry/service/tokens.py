@@ -14,8 +14,6 @@ import secrets
 from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 
-from sqlalchemy import select
-
 from registry.errors import LockkeeperError, NotFound, UserError
 from registry.names import check_name
 from registry.service.actors import ROLES, Actor
@@ -113,8 +111,7 @@ def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
                             f"`lockkeeper user grant {user} {role}`", place="--role")
         row = t.ApiToken(token_hash=hash_secret(secret), user=user, role=role, label=label,
                          created_at=utc_now(), created_by=actor.name, expires_at=expires_at)
-        uow.session.add(row)
-        uow.session.flush()
+        uow.tokens.add(row)
         uow.audit.append(actor.name, "token.create", f"token/{row.id}", {
             "user": user, "role": role, "label": label,
             "expires_at": expires_at.isoformat() if expires_at else None})
@@ -126,12 +123,12 @@ def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
 def revoke_token(catalogue: Catalogue, token_id: int, actor: Actor) -> TokenRecord:
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "token.revoke", place="token")
-        row = uow.session.get(t.ApiToken, token_id)
+        row = uow.tokens.get(token_id)
         if row is None:
             raise NotFound(f"no token {token_id}", place="token")
         if row.revoked_at is None:
             row.revoked_at = utc_now()
-            uow.session.flush()
+            uow.tokens.save()
             uow.audit.append(actor.name, "token.revoke", f"token/{row.id}",
                              {"user": row.user, "role": row.role})
         record = _record(row)
@@ -143,8 +140,7 @@ def list_tokens(catalogue: Catalogue, actor: Actor) -> list[TokenRecord]:
     """Every token, never its secret (the catalogue does not have it)."""
     with UnitOfWork(catalogue, write=False) as uow:
         authorise(uow, actor, "token.list", place="token")
-        rows = uow.session.execute(select(t.ApiToken).order_by(t.ApiToken.id)).scalars().all()
-        return [_record(row) for row in rows]
+        return [_record(row) for row in uow.tokens.all()]
 
 
 @dataclass(frozen=True)
@@ -174,8 +170,7 @@ def token_standing(catalogue: Catalogue, secret: str) -> TokenStanding:
                               place="Authorization")
     wanted = hash_secret(secret)
     with UnitOfWork(catalogue, write=False) as uow:
-        row = uow.session.execute(
-            select(t.ApiToken).where(t.ApiToken.token_hash == wanted)).scalar_one_or_none()
+        row = uow.tokens.by_hash(wanted)
         stored = row.token_hash if row is not None else hash_secret("")
         if row is None or not hmac.compare_digest(stored, wanted):
             raise Unauthenticated("unknown bearer token", place="Authorization")

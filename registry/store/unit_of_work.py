@@ -20,7 +20,9 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.role_repository import RoleRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -89,6 +91,8 @@ class UnitOfWork:
         self.blobs: BlobStore
         self.audit: AuditLog
         self.roles: RoleRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -108,6 +112,8 @@ class UnitOfWork:
     def _attach_repositories(self) -> None:
         """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
         self.roles = RoleRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
