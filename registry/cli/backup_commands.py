@@ -48,6 +48,3 @@ def import_command(folder: str, as_json: bool) -> None:
     finally:
         catalogue.close()
     emit(summary, as_json, _render("imported"))
-
-
-COMMANDS = [export_command, import_command]

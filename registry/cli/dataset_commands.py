@@ -1,6 +1,6 @@
 """Commands on dataset files that need no catalogue: `dataset fingerprint` and `dataset compare`.
 
-The `dataset` group is exposed so the catalogue commands (add, show, recall) can join it.
+They and the catalogue's dataset commands form the `dataset` group of registry.cli's table.
 """
 
 from __future__ import annotations
@@ -17,11 +17,6 @@ from registry.cli.output import emit, json_option, stderr_is_terminal
 from registry.errors import UserError
 
 FORMAT_CHOICE = click.Choice(["avro", "parquet", "csv"])
-
-
-@click.group("dataset")
-def dataset() -> None:
-    """Fingerprint and compare datasets."""
 
 
 def load_schema(path: str | None) -> dict[str, Any] | None:
@@ -85,7 +80,7 @@ def file_or_catalogue_fingerprint(argument: str, schema_json: dict[str, Any] | N
     return fingerprint_of(click.get_current_context().obj.catalogue(), argument)
 
 
-@dataset.command("fingerprint")
+@click.command("fingerprint")
 @click.argument("file", type=click.Path(dir_okay=False))
 @click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
               help="Avro schema to read the records with (required for CSV).")
@@ -103,7 +98,7 @@ def fingerprint_command(file: str, schema_path: str | None, file_format: str | N
     emit(found.to_dict(), as_json, render_fingerprint)
 
 
-@dataset.command("compare")
+@click.command("compare")
 @click.argument("reference", type=click.Path(dir_okay=False), metavar="A")
 @click.argument("current", type=click.Path(dir_okay=False), metavar="B")
 @click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
@@ -170,5 +165,3 @@ def render_comparison(document: dict[str, Any]) -> str:
         lines.append(f"{name:<26} {drift['psi']:>8.4f}  {drift['level']:<5}  {detail}")
     return "\n".join(lines)
 
-
-COMMANDS = [dataset]

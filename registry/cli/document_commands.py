@@ -8,6 +8,7 @@ from typing import Any
 
 import click
 
+from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option
 from registry.documents import DocumentSummary, read_document
 from registry.documents.pfa import CellSummary
@@ -134,7 +135,7 @@ def _render_document(report: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-@click.group("document")
+@click.group("document", cls=LazyGroup)
 def document_group() -> None:
     """Model documents: PFA documents and other artifacts."""
 
@@ -199,7 +200,7 @@ def _render_diff(report: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-@click.group("features")
+@click.group("features", cls=LazyGroup)
 def features_group() -> None:
     """Feature definitions: units, domains and meaning of input fields."""
 
@@ -241,6 +242,3 @@ def diff_command(ctx: click.Context, old: str, new: str, old_schema: str | None,
     emit(_diff_report(diff), as_json, _render_diff)
     if diff.is_breaking:
         ctx.exit(1)
-
-
-COMMANDS = [document_group, features_group]

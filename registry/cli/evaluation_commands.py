@@ -8,6 +8,7 @@ from pathlib import Path
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
+from registry.cli.params import model_version_arguments
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
 
@@ -39,8 +40,7 @@ def infer_task(path: str) -> str:
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--dataset", "dataset_name", required=True, help="A registered evaluation dataset.")
 @click.option("--predictions", "predictions_path", required=True, type=click.Path(dir_okay=False),
               help="CSV or Parquet: row_id, label, and score | prediction | p_<class>.")
@@ -76,6 +76,3 @@ def evaluate(model_name: str, version: int, dataset_name: str, predictions_path:
         return f"{verb} {s['model']} v{s['version']} on {s['dataset']} ({s['n']} rows): {shown}"
 
     emit(summary, as_json, text)
-
-
-COMMANDS = [evaluate]

@@ -112,6 +112,3 @@ def recall_command(name: str, reason: str, as_json: bool) -> None:
     outcome = (remote.recall(name, reason) if remote else
                recall_service.recall_dataset(_context().catalogue(), name, reason, _actor()))
     emit(outcome, as_json, _render_recall)
-
-
-COMMANDS = [lineage]

@@ -82,6 +82,3 @@ def render_text(document: dict[str, Any]) -> str:
                              f"{b['count']:>8} rows  mean score {b['mean_score']:.4f}  "
                              f"observed {b['observed_rate']:.4f}")
     return "\n".join(lines)
-
-
-COMMANDS = [metrics_command]

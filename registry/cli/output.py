@@ -49,10 +49,34 @@ def emit(document: Any, as_json: bool, render_text: Callable[[Any], str] | None 
     click.echo(text.rstrip("\n"))
 
 
+JSON_REQUESTED = "lockkeeper.json_requested"
+
+
+def _remember_json(ctx: click.Context, _param: click.Parameter, value: bool) -> bool:
+    if value:
+        ctx.meta[JSON_REQUESTED] = True  # meta is shared by every context of one invocation
+    return value
+
+
 def json_option(function: Callable[..., Any]) -> Callable[..., Any]:
     """The --json flag every reporting command takes."""
-    return click.option("--json", "as_json", is_flag=True,
+    return click.option("--json", "as_json", is_flag=True, callback=_remember_json,
                         help="Print exactly one JSON document on stdout.")(function)
+
+
+def json_requested(ctx: click.Context) -> bool:
+    """Whether the command being run was given --json (so its errors are JSON too)."""
+    return bool(ctx.meta.get(JSON_REQUESTED))
+
+
+def emit_error(kind: str, message: str, place: str | None, exit_code: int, *,
+               as_json: bool) -> None:
+    """One line on stderr; under --json also `{"error": {...}}` as the one document on stdout."""
+    text = " ".join(str(message).split())
+    click.echo(f"lockkeeper: {place}: {text}" if place else f"lockkeeper: {text}", err=True)
+    if as_json:
+        click.echo(json.dumps({"error": {"kind": kind, "message": text, "place": place,
+                                         "exit_code": exit_code}}, indent=2))
 
 
 def warn(message: str) -> None:
@@ -62,3 +86,16 @@ def warn(message: str) -> None:
 
 def stderr_is_terminal() -> bool:
     return sys.stderr.isatty()
+
+
+def short_time(iso_time: str) -> str:
+    """A stored ISO time for a person: to the second, in UTC, with its offset written `Z`."""
+    from datetime import UTC, datetime
+
+    try:
+        moment = datetime.fromisoformat(iso_time)
+    except (TypeError, ValueError):
+        return str(iso_time)
+    if moment.tzinfo is None:
+        moment = moment.replace(tzinfo=UTC)
+    return moment.astimezone(UTC).strftime("%Y-%m-%d %H:%M:%SZ")

@@ -7,6 +7,7 @@ from typing import Any
 
 import click
 
+from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
 from registry.schema import Schema, diff, fingerprint, load, resolution_document, resolve
@@ -39,7 +40,7 @@ def _render_diff(document: dict[str, Any]) -> str:
                      for c in document["changes"])
 
 
-@click.group("schema")
+@click.group("schema", cls=LazyGroup)
 def schema_group() -> None:
     """Check, compare and fingerprint Avro schemas (no catalogue needed)."""
 
@@ -78,6 +79,3 @@ def fingerprint_command(schema: str, as_json: bool) -> None:
     document = {"canonical_form": result.canonical_form, "crc64_avro": result.crc64_avro,
                 "sha256": result.sha256}
     emit(document, as_json, lambda d: "\n".join(f"{k}: {v}" for k, v in d.items()))
-
-
-COMMANDS = [schema_group]

@@ -6,7 +6,8 @@ from __future__ import annotations
 import click
 
 from registry.cli.catalogue_commands import _actor, _context, read_text
-from registry.cli.catalogue_commands import model as model_group
+from registry.cli.lazy_group import LazyGroup
+from registry.cli.params import model_version_arguments
 from registry.cli.output import emit, json_option, to_plain
 from registry.errors import UserError
 from registry.gates import GateReport, render_report
@@ -61,8 +62,7 @@ def with_waive_options(function):
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--to", "stage", required=True, help="The stage to check entry into.")
 @with_waive_options
 @json_option
@@ -85,8 +85,7 @@ def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_js
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--to", "stage", required=True, help="The stage to move the version into.")
 @click.option("--expect-holder", default=None, metavar="VERSION|none",
               help="Only move if the stage is still held by this version (default: whoever "
@@ -124,8 +123,7 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--for", "stage", required=True, help="The stage the approval is for.")
 @click.option("--note", default="", help="What you checked.")
 @json_option
@@ -158,8 +156,7 @@ def rollback(model_name: str, stage: str, waive_gates, reasons, as_json: bool) -
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--reason", default="", help="Why the version leaves service.")
 @json_option
 def retire(model_name: str, version: int, reason: str, as_json: bool) -> None:
@@ -213,7 +210,7 @@ def history(model_name: str, as_json: bool) -> None:
     emit(document, as_json, text)
 
 
-@click.group("policy")
+@click.group("policy", cls=LazyGroup)
 def policy_group() -> None:
     """A model's promotion policy: the ladder, exclusive stages and the gates of each stage."""
 
@@ -245,7 +242,3 @@ def policy_set(model_name: str, policy_file: str, as_json: bool) -> None:
                set_policy(_context().catalogue(), model_name, text, _actor(), source=policy_file))
     emit(outcome, as_json, lambda o: f"{o['model']} now follows {policy_file}")
 
-
-model_group.add_command(policy_group)  # `lockkeeper model policy show|set`
-
-COMMANDS = [check, promote, approve, rollback, retire, status, history]

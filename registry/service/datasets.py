@@ -22,6 +22,7 @@ from registry.service.roles import require_role
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+from registry.suggest import did_you_mean
 
 if TYPE_CHECKING:
     from registry.datasets import DatasetFingerprint
@@ -60,7 +61,8 @@ class DatasetSummary:
 def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
     dataset = uow.session.execute(select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
     if dataset is None:
-        raise NotFound(f"unknown dataset {name!r}", place="dataset")
+        raise NotFound(f"unknown dataset {name!r}{did_you_mean(name, uow.names.datasets())}",
+                       place="dataset")
     return dataset
 
 

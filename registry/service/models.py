@@ -13,6 +13,7 @@ from registry.service.roles import require_role
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+from registry.suggest import did_you_mean
 
 
 @dataclass(frozen=True)
@@ -47,7 +48,8 @@ class ModelDetail:
 def find_model(uow: UnitOfWork, name: str) -> t.Model:
     model = uow.session.execute(select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
     if model is None:
-        raise NotFound(f"unknown model {name!r}", place="model")
+        raise NotFound(f"unknown model {name!r}{did_you_mean(name, uow.names.models())}",
+                       place="model")
     return model
 
 
@@ -56,7 +58,11 @@ def find_version(uow: UnitOfWork, model: t.Model, number: int) -> t.Version:
         select(t.Version).where(t.Version.model_id == model.id, t.Version.number == number)
     ).scalar_one_or_none()
     if version is None:
-        raise NotFound(f"model {model.name!r} has no version {number}", place="version")
+        numbers = uow.names.version_numbers(model.id)
+        existing = (f"its versions are {', '.join(f'v{n}' for n in numbers)}" if numbers
+                    else "it has no versions yet")
+        raise NotFound(f"model {model.name!r} has no version {number}; {existing}",
+                       place="version")
     return version
 
 

@@ -18,6 +18,7 @@ from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+from registry.suggest import did_you_mean
 
 RECALL_ROLES = ("publisher", "approver")  # an admin may do everything
 
@@ -103,7 +104,8 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
         dataset = uow.session.execute(
             select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
         if dataset is None:
-            raise NotFound(f"unknown dataset {name!r}", place="dataset")
+            raise NotFound(f"unknown dataset {name!r}{did_you_mean(name, uow.names.datasets())}",
+                           place="dataset")
         if dataset.recalled_at is not None:
             raise UserError(f"dataset {name!r} was already recalled on "
                             f"{walks.utc_iso(dataset.recalled_at)} by {dataset.recalled_by}: "

@@ -354,7 +354,7 @@ def find_report(catalogue: Catalogue, report_id: int) -> dict[str, Any]:
     with UnitOfWork(catalogue, write=False) as uow:
         row = uow.session.get(t.GateReportRow, report_id)
         if row is None:
-            raise NotFound(f"no gate report {report_id}")
+            raise NotFound(f"no gate report {report_id}", place="report")
         return json.loads(row.report_json)
 
 

@@ -19,6 +19,8 @@ from registry.canonical_json import canonical_json
 from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, NotFound
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
+from registry.store.audit_repository import AuditEventRepository
+from registry.store.name_repository import NameRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 
 
@@ -87,12 +89,16 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.audit_events: AuditEventRepository
+        self.names: NameRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
+        self.audit_events = AuditEventRepository(self.session)
+        self.names = NameRepository(self.session)
         try:
             self.session.begin()
             if self.write:

@@ -12,6 +12,7 @@ from click.testing import CliRunner
 
 from evaluation_data import binary_pair, multiclass_pair, write_csv, write_predictions_csv
 from registry.cli import main
+from tests.cli_errors import assert_one_line_error
 
 
 def run(*arguments: str):
@@ -73,15 +74,6 @@ def test_multiclass_from_parquet(tmp_path):
     result = run(str(tmp_path / "p.parquet"), "--task", "multiclass", "--json")
     assert result.exit_code == 0, result.stderr
     assert list(json.loads(result.stdout)["metrics"]) == ["accuracy", "macro_f1", "log_loss"]
-
-
-def assert_one_line_error(result, *fragments: str) -> None:
-    assert result.exit_code == 2, result.output
-    assert result.stdout == ""
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    for fragment in fragments:
-        assert fragment in lines[0], lines[0]
 
 
 BINARY_HEADER = ["row_id", "label", "score"]

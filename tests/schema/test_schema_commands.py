@@ -82,7 +82,11 @@ def test_fingerprint_json_matches_fastavro(files):
 
 def _assert_one_line_exit_2(result, place):
     assert result.exit_code == 2
-    assert result.stdout == ""
+    if result.stdout:  # under --json the error is also the one JSON document on stdout
+        error = json.loads(result.stdout)["error"]
+        assert place in error["place"] and error["exit_code"] == 2
+    else:
+        assert result.stdout == ""
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1, result.stderr
     assert place in lines[0]
