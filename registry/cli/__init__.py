@@ -13,7 +13,7 @@ from typing import Any
 import click
 
 from registry.cli.lazy_group import Lazy, LazyGroup, lazy_group
-from registry.cli.output import emit_error, json_requested
+from registry.cli.output import emit_error
 from registry.errors import LockkeeperError
 
 CATALOGUE = "registry.cli.catalogue_commands"
@@ -87,14 +87,6 @@ class LockkeeperGroup(LazyGroup):
     """The root group: every error, ours or click's, becomes one line on stderr and its exit
     code, and under --json also one JSON document on stdout."""
 
-    def invoke(self, ctx: click.Context) -> Any:
-        try:
-            return super().invoke(ctx)
-        except LockkeeperError as error:
-            emit_error(error.kind, error.message, error.where(), error.exit_code,
-                       as_json=json_requested(ctx))
-            ctx.exit(error.exit_code)
-
     def main(self, args: Sequence[str] | None = None, prog_name: str | None = None,
              complete_var: str | None = None, standalone_mode: bool = True,
              **extra: Any) -> Any:
@@ -102,6 +94,10 @@ class LockkeeperGroup(LazyGroup):
         try:
             result = super().main(arguments, prog_name, complete_var, standalone_mode=False,
                                   **extra)
+        except LockkeeperError as error:  # from a command, or from checking a parameter
+            emit_error(error.kind, error.message, error.where(), error.exit_code,
+                       as_json="--json" in _options_part(arguments))
+            result = error.exit_code
         except click.ClickException as error:
             emit_error("usage", _usage_message(error), _usage_place(error), error.exit_code,
                        as_json="--json" in _options_part(arguments))

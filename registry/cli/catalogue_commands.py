@@ -6,10 +6,10 @@ from pathlib import Path
 
 import click
 
+from registry.cli.files import read_file_bytes, read_file_text
 from registry.cli.lazy_group import LazyGroup
-from registry.cli.params import SuggestingChoice
-from registry.cli.output import emit, json_option
-from registry.errors import UserError
+from registry.cli.output import emit, json_option, short_time
+from registry.cli.params import FilePath, SuggestingChoice
 
 # The service modules are imported inside each command: importing them loads the database layer,
 # and the stage and dataset commands import the helpers here without needing all of it.
@@ -27,21 +27,11 @@ def _actor() -> "Actor":  # noqa: F821 - registry.service.actors.Actor
 
 
 def read_text(path: str, *, what: str) -> str:
-    try:
-        return Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise UserError(f"no such file: {path}", place=what) from None
-    except (IsADirectoryError, PermissionError, UnicodeDecodeError) as error:
-        raise UserError(f"cannot read {path}: {error}", place=what) from None
+    return read_file_text(path, what)
 
 
 def read_bytes(path: str, *, what: str) -> bytes:
-    try:
-        return Path(path).read_bytes()
-    except FileNotFoundError:
-        raise UserError(f"no such file: {path}", place=what) from None
-    except (IsADirectoryError, PermissionError) as error:
-        raise UserError(f"cannot read {path}: {error}", place=what) from None
+    return read_file_bytes(path, what)
 
 
 @click.command()
@@ -92,7 +82,7 @@ def model_list(as_json: bool) -> None:
             return "no models yet"
         lines = []
         for item in d["models"]:
-            held = ", ".join(f"{stage}: v{','.join(map(str, numbers))}"
+            held = "; ".join(f"{stage}: {', '.join(f'v{n}' for n in numbers)}"
                              for stage, numbers in item["stages"].items()) or "no stages held"
             lines.append(f"{item['name']}  {item['versions']} version(s)  {held}")
         return "\n".join(lines)
@@ -113,11 +103,13 @@ def model_show(name: str, as_json: bool) -> None:
     def text(d):
         model = d["model"]
         lines = [f"{model['name']}: {model['description']}".rstrip(": "),
-                 f"created {model['created_at']} by {model['created_by']}"]
+                 f"created {short_time(model['created_at'])} by {model['created_by']}"]
         for v in d["versions"]:
             stages = f"  [{', '.join(v['stages'])}]" if v["stages"] else ""
+            recalled = v.get("recalled_upstream") or []
+            flag = f"  FLAGGED: downstream of recalled {', '.join(recalled)}" if recalled else ""
             lines.append(f"  v{v['number']}  {v['document_kind']}  {v['document_digest'][:12]}  "
-                         f"{v['author']}  {v['description']}{stages}")
+                         f"{v['author']}  {v['description']}{stages}{flag}")
         return "\n".join(lines)
 
     emit(detail, as_json, text)
@@ -125,10 +117,10 @@ def model_show(name: str, as_json: bool) -> None:
 
 @click.command()
 @click.argument("model_name", metavar="MODEL")
-@click.argument("document", type=click.Path(dir_okay=False))
-@click.option("--manifest", "manifest_path", required=True, type=click.Path(dir_okay=False),
+@click.argument("document", type=FilePath("a model document"))
+@click.option("--manifest", "manifest_path", required=True, type=FilePath("a manifest"),
               help="TOML manifest: schemas, features, description, code revision, author.")
-@click.option("--features", "features_path", type=click.Path(dir_okay=False), default=None,
+@click.option("--features", "features_path", type=FilePath("feature definitions"), default=None,
               help="Feature definitions (TOML), instead of the manifest's `features`.")
 @json_option
 def register(model_name: str, document: str, manifest_path: str, features_path: str | None,

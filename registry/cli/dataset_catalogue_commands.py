@@ -12,14 +12,15 @@ import click
 from registry.cli.catalogue_commands import _actor, _context
 from registry.cli.dataset_commands import (FORMAT_CHOICE, fingerprint_path, load_schema,
                                            render_fingerprint)
-from registry.cli.output import emit, json_option
+from registry.cli.output import emit, json_option, short_time
+from registry.cli.params import FilePath
 from registry.errors import UserError
 
 
 @click.command("add")
 @click.argument("name")
-@click.argument("file", type=click.Path(dir_okay=False))
-@click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
+@click.argument("file", type=FilePath("a dataset file"))
+@click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema of the records (required for CSV).")
 @click.option("--format", "file_format", type=FORMAT_CHOICE, default=None)
 @click.option("--role", type=click.Choice(["source", "training", "evaluation", "live-sample"]),
@@ -83,7 +84,7 @@ def dataset_show(name: str, as_json: bool) -> None:
         head = [f"{s['name']}  ({s['role']}, {s['rows']} rows){recalled}",
                 f"derived from        {', '.join(s['derived_from']) or '-'}",
                 f"source              {s['source_uri']}",
-                f"registered          {s['created_at']} by {s['created_by']}"]
+                f"registered          {short_time(s['created_at'])} by {s['created_by']}"]
         if remote:
             return "\n".join(head)
         return "\n".join(head) + "\n" + render_fingerprint(

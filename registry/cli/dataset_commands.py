@@ -5,7 +5,6 @@ They and the catalogue's dataset commands form the `dataset` group of registry.c
 
 from __future__ import annotations
 
-import json
 import os
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -13,8 +12,11 @@ from typing import Any
 
 import click
 
+from registry.cli.files import read_file_text
 from registry.cli.output import emit, json_option, stderr_is_terminal
+from registry.cli.params import FilePath
 from registry.errors import UserError
+from registry.schema.errors import SchemaError
 
 FORMAT_CHOICE = click.Choice(["avro", "parquet", "csv"])
 
@@ -23,13 +25,22 @@ def load_schema(path: str | None) -> dict[str, Any] | None:
     """The Avro schema in an .avsc file, or None when no file was named."""
     if path is None:
         return None
+    from registry.schema import parse
+    from registry.schema.jsontext import decode
+
+    # Parsed as `schema check` parses, so a broken or pathologically deep schema is one line
+    # here too (the readers would otherwise meet it as a RecursionError).
+    document = decode(read_file_text(path, "a schema"), path)
     try:
-        with open(path, encoding="utf-8") as handle:
-            return json.load(handle)
-    except FileNotFoundError:
-        raise UserError("no such schema file", place=path) from None
-    except (json.JSONDecodeError, UnicodeDecodeError) as error:
-        raise UserError(f"the schema file is not JSON ({error})", place=path) from error
+        parse(document)
+    except SchemaError as error:
+        raise error.with_source(path) from None
+    from registry.datasets.types import MAX_NESTING, nesting_depth
+
+    if (depth := nesting_depth(document)) > MAX_NESTING:
+        raise UserError(f"the schema nests {depth} levels deep; a dataset schema may nest at "
+                        f"most {MAX_NESTING}", place=path)
+    return document
 
 
 @contextmanager
@@ -81,8 +92,8 @@ def file_or_catalogue_fingerprint(argument: str, schema_json: dict[str, Any] | N
 
 
 @click.command("fingerprint")
-@click.argument("file", type=click.Path(dir_okay=False))
-@click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
+@click.argument("file", type=FilePath("a dataset file"))
+@click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema to read the records with (required for CSV).")
 @click.option("--format", "file_format", type=FORMAT_CHOICE,
               help="File format (default: from the extension or the first bytes).")
@@ -99,9 +110,9 @@ def fingerprint_command(file: str, schema_path: str | None, file_format: str | N
 
 
 @click.command("compare")
-@click.argument("reference", type=click.Path(dir_okay=False), metavar="A")
-@click.argument("current", type=click.Path(dir_okay=False), metavar="B")
-@click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
+@click.argument("reference", metavar="A")
+@click.argument("current", metavar="B")
+@click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema to read both files with (required for CSV).")
 @json_option
 def compare_command(reference: str, current: str, schema_path: str | None,

@@ -8,8 +8,8 @@ from pathlib import Path
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.params import model_version_arguments
 from registry.cli.output import emit, json_option
+from registry.cli.params import FilePath, model_version_arguments
 from registry.errors import UserError
 
 
@@ -42,7 +42,7 @@ def infer_task(path: str) -> str:
 @click.command()
 @model_version_arguments
 @click.option("--dataset", "dataset_name", required=True, help="A registered evaluation dataset.")
-@click.option("--predictions", "predictions_path", required=True, type=click.Path(dir_okay=False),
+@click.option("--predictions", "predictions_path", required=True, type=FilePath("a predictions file"),
               help="CSV or Parquet: row_id, label, and score | prediction | p_<class>.")
 @click.option("--task", type=click.Choice(["binary", "regression", "multiclass"]), default=None,
               help="Default: told by the prediction columns.")

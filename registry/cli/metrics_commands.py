@@ -7,15 +7,16 @@ from typing import Any
 import click
 
 from registry.cli.output import emit, json_option
+from registry.cli.params import FilePath
 from registry.evaluation import evaluate_file
 from registry.evaluation.metrics import HIGHER_IS_BETTER
 
 
 @click.command("metrics")
-@click.argument("predictions", type=click.Path(dir_okay=False))
+@click.argument("predictions", type=FilePath("a predictions file"))
 @click.option("--task", required=True, type=click.Choice(["binary", "regression", "multiclass"]),
               help="What the predictions predict.")
-@click.option("--baseline", type=click.Path(dir_okay=False), default=None,
+@click.option("--baseline", type=FilePath("a predictions file"), default=None,
               help="Predictions of the version to compare against, on the same rows.")
 @click.option("--slice", "slice_column", default=None, metavar="COLUMN",
               help="Also report per value of this column (Holm-adjusted with --baseline).")

@@ -49,24 +49,10 @@ def emit(document: Any, as_json: bool, render_text: Callable[[Any], str] | None 
     click.echo(text.rstrip("\n"))
 
 
-JSON_REQUESTED = "lockkeeper.json_requested"
-
-
-def _remember_json(ctx: click.Context, _param: click.Parameter, value: bool) -> bool:
-    if value:
-        ctx.meta[JSON_REQUESTED] = True  # meta is shared by every context of one invocation
-    return value
-
-
 def json_option(function: Callable[..., Any]) -> Callable[..., Any]:
     """The --json flag every reporting command takes."""
-    return click.option("--json", "as_json", is_flag=True, callback=_remember_json,
+    return click.option("--json", "as_json", is_flag=True,
                         help="Print exactly one JSON document on stdout.")(function)
-
-
-def json_requested(ctx: click.Context) -> bool:
-    """Whether the command being run was given --json (so its errors are JSON too)."""
-    return bool(ctx.meta.get(JSON_REQUESTED))
 
 
 def emit_error(kind: str, message: str, place: str | None, exit_code: int, *,

@@ -61,3 +61,20 @@ class SuggestingChoice(click.Choice):
         allowed = ", ".join(map(str, self.choices))
         self.fail(f"{value!r} is not one of {allowed}{did_you_mean(str(value), self.choices)}",
                   param, ctx)
+
+
+class FilePath(click.ParamType):
+    """A path that must name a regular, non-empty file: a missing, empty or folder path is the
+    same one-line error as everywhere else (registry.cli.files), not click's own wording."""
+
+    name = "file"
+
+    def __init__(self, what: str) -> None:
+        self.what = what
+
+    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None
+                ) -> str:
+        from registry.cli.files import require_file
+
+        require_file(value, self.what)
+        return str(value)

@@ -7,8 +7,8 @@ import click
 
 from registry.cli.catalogue_commands import _actor, _context, read_text
 from registry.cli.lazy_group import LazyGroup
-from registry.cli.params import model_version_arguments
-from registry.cli.output import emit, json_option, to_plain
+from registry.cli.output import emit, json_option, short_time, to_plain
+from registry.cli.params import FilePath, model_version_arguments
 from registry.errors import UserError
 from registry.gates import GateReport, render_report
 from registry.service import gatekeeping, stages
@@ -182,6 +182,9 @@ def status(model_name: str, as_json: bool) -> None:
         for stage, numbers in d["stages"].items():
             held = ", ".join(f"v{n}" for n in numbers) or "-"
             lines.append(f"  {stage:<10} {held}")
+        for flagged in d.get("recalled_upstream", []):
+            lines.append(f"FLAGGED: v{flagged['version']} ({', '.join(flagged['stages'])}) is "
+                         f"downstream of recalled {', '.join(flagged['recalled'])}")
         return "\n".join(lines)
 
     emit(document, as_json, text)
@@ -199,12 +202,12 @@ def history(model_name: str, as_json: bool) -> None:
     def text(d):
         lines = [f"{d['model']}: {len(d['events'])} stage event(s)"]
         for e in d["events"]:
-            lines.append(f"  {e['at'][:19]}  v{e['version']:<3} {e['event']:<11} {e['stage']:<10} "
-                         f"by {e['by']}")
+            lines.append(f"  {short_time(e['at'])}  v{e['version']:<3} {e['event']:<11} "
+                         f"{e['stage']:<10} by {e['by']}")
         refused = [a for a in d["attempts"] if not a["passed"]]
         for attempt in refused:
             lines.append(f"  refused: v{attempt['version']} into {attempt['stage']} "
-                         f"(report {attempt['id']}) by {attempt['by']}")
+                         f"by {attempt['by']} (lockkeeper report show {attempt['id']})")
         return "\n".join(lines)
 
     emit(document, as_json, text)
@@ -230,7 +233,7 @@ def policy_show(model_name: str, as_json: bool) -> None:
 
 @policy_group.command("set")
 @click.argument("model_name", metavar="MODEL")
-@click.argument("policy_file", type=click.Path(dir_okay=False))
+@click.argument("policy_file", type=FilePath("a policy"))
 @json_option
 def policy_set(model_name: str, policy_file: str, as_json: bool) -> None:
     """Give MODEL its own policy (TOML, laid over the default; admins only)."""

@@ -6,8 +6,8 @@ import click
 
 from registry.cli.catalogue_commands import _actor, _context
 from registry.cli.lazy_group import LazyGroup
-from registry.cli.params import SuggestingChoice
 from registry.cli.output import emit, json_option, warn
+from registry.cli.params import SuggestingChoice
 from registry.service import tokens
 from registry.service.actors import ROLES
 

@@ -90,8 +90,29 @@ class RecordType:
         return pa.schema([pa.field(n, t.arrow_type(), nullable=True) for n, t in self.fields])
 
 
+MAX_NESTING = 200  # JSON levels; far deeper than any real record, well inside Python's recursion
+
+
+def nesting_depth(value: Any) -> int:
+    """How many JSON objects and arrays deep `value` goes, counted without recursion."""
+    deepest, stack = 0, [(value, 1)]
+    while stack:
+        current, depth = stack.pop()
+        children = (current.values() if isinstance(current, Mapping)
+                    else current if isinstance(current, list) else None)
+        if children is None:
+            continue
+        deepest = max(deepest, depth)
+        stack.extend((child, depth + 1) for child in children)
+    return deepest
+
+
 def record_type(schema_json: Mapping[str, Any]) -> RecordType:
     """Read the dataset's record type from its Avro schema (named types expanded in place)."""
+    depth = nesting_depth(schema_json)
+    if depth > MAX_NESTING:
+        raise Unprocessable(f"the schema nests {depth} levels deep; a dataset schema may nest "
+                            f"at most {MAX_NESTING}", place="/")
     try:
         expanded = expand_schema(dict(schema_json))
     except Exception as error:  # fastavro raises several kinds for a bad schema

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from sqlalchemy import func, select
 
@@ -37,6 +37,7 @@ class VersionSummary:
     created_at: str
     created_by: str
     stages: list[str]
+    recalled_upstream: list[str] = field(default_factory=list)
 
 
 @dataclass(frozen=True)
@@ -120,6 +121,8 @@ def list_models(catalogue: Catalogue) -> list[ModelSummary]:
 
 
 def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
+    from registry.service.recall import recalled_names_upstream
+
     with UnitOfWork(catalogue, write=False) as uow:
         model = find_model(uow, name)
         held = stages_by_version(uow, model)
@@ -132,4 +135,5 @@ def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
                 number=v.number, document_digest=v.document_digest, document_kind=v.document_kind,
                 description=v.description, author=v.author, code_revision=v.code_revision,
                 created_at=v.created_at.isoformat(), created_by=v.created_by,
-                stages=held.get(v.number, [])) for v in versions])
+                stages=held.get(v.number, []), recalled_upstream=recalled_names_upstream(uow, v))
+                for v in versions])

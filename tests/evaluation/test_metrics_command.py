@@ -127,7 +127,7 @@ def test_an_empty_file_is_one_line_and_exit_2(tmp_path):
 
 
 def test_a_missing_file_is_one_line_and_exit_2(tmp_path):
-    assert_one_line_error(run(str(tmp_path / "nowhere.csv"), "--task", "binary"), "cannot read")
+    assert_one_line_error(run(str(tmp_path / "nowhere.csv"), "--task", "binary"), "no such file")
 
 
 @pytest.mark.parametrize("table, fragments", [
