@@ -47,22 +47,23 @@ def _render_graph(graph: dict) -> str:
 
 @click.command()
 @click.argument("node")
-@click.option("--up", "direction", flag_value="up", help="What went into NODE.")
-@click.option("--down", "direction", flag_value="down", help="What came of NODE.")
+@click.option("--up", "walk_up", is_flag=True, help="What went into NODE.")
+@click.option("--down", "walk_down", is_flag=True, help="What came of NODE (both: the two ways).")
 @click.option("--depth", type=click.IntRange(0, lineage_service.MAX_DEPTH), default=None,
               help="Follow at most this many edges (default: all).")
 @click.option("--format", "output_format", type=click.Choice(["text", "json", "prov-json"]),
               default=None, help="text (default), json, or W3C PROV-JSON.")
 @json_option
-def lineage(node: str, direction: str | None, depth: int | None, output_format: str | None,
-            as_json: bool) -> None:
+def lineage(node: str, walk_up: bool, walk_down: bool, depth: int | None,
+            output_format: str | None, as_json: bool) -> None:
     """The lineage of NODE: dataset/NAME (or NAME), MODEL@N, model/M/version/N, model/M/stage/S."""
-    if direction is None:
-        raise UserError("say which way to walk: --up (what went in) or --down (what came of it)",
-                        place="--up/--down")
+    if not (walk_up or walk_down):
+        raise UserError("say which way to walk: --up (what went in), --down (what came of it) "
+                        "or both", place="--up/--down")
+    direction = "both" if walk_up and walk_down else "up" if walk_up else "down"
     if as_json and output_format not in (None, "json"):
-        raise UserError("--json and --format prov-json ask for different documents; use one",
-                        place="--format")
+        raise UserError(f"--json and --format {output_format} ask for different documents; "
+                        "give one of them", place="--format")
     output_format = output_format or ("json" if as_json else "text")
     remote = _context().remote()
     if remote:

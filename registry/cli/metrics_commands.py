@@ -14,8 +14,8 @@ from registry.evaluation.metrics import HIGHER_IS_BETTER
 
 @click.command("metrics")
 @click.argument("predictions", type=FilePath("a predictions file"))
-@click.option("--task", required=True, type=click.Choice(["binary", "regression", "multiclass"]),
-              help="What the predictions predict.")
+@click.option("--task", type=click.Choice(["binary", "regression", "multiclass"]), default=None,
+              help="What the predictions predict (default: told by the prediction columns).")
 @click.option("--baseline", type=FilePath("a predictions file"), default=None,
               help="Predictions of the version to compare against, on the same rows.")
 @click.option("--slice", "slice_column", default=None, metavar="COLUMN",
@@ -29,11 +29,13 @@ from registry.evaluation.metrics import HIGHER_IS_BETTER
 @click.option("--resamples", type=click.IntRange(min=100), default=1000, show_default=True,
               help="Bootstrap resamples.")
 @json_option
-def metrics_command(predictions: str, task: str, baseline: str | None, slice_column: str | None,
+def metrics_command(predictions: str, task: str | None, baseline: str | None, slice_column: str | None,
                     threshold: float, confidence: float, seed: int, resamples: int,
                     as_json: bool) -> None:
     """Metrics of PREDICTIONS (CSV or Parquet); with --baseline, candidate - baseline."""
-    report = evaluate_file(predictions, task, baseline, slice_column, threshold=threshold,
+    from registry.evaluation.predictions import infer_task
+
+    report = evaluate_file(predictions, task or infer_task(predictions), baseline, slice_column, threshold=threshold,
                            confidence=confidence, seed=seed, resamples=resamples)
     emit(report.to_dict(), as_json, render_text)
 
