@@ -1,8 +1,16 @@
 """The command-line shell: help, and the typed errors turned into one line and an exit code."""
 
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
 from click.testing import CliRunner
 
-from registry.cli import main
+from registry.cli import COMMANDS, main
+from registry.cli.lazy_group import Lazy, LazyGroup
+from tests.cli_errors import assert_one_line_error
 
 
 def test_help_lists_the_command():
@@ -18,15 +26,8 @@ def test_unknown_command_is_a_usage_error_with_exit_2():
 
 # --- lazy loading -------------------------------------------------------------------------
 
-import json  # noqa: E402
-import subprocess  # noqa: E402
-import sys  # noqa: E402
 
-import pytest  # noqa: E402
 
-from registry.cli import COMMANDS  # noqa: E402
-from registry.cli.lazy_group import Lazy, LazyGroup  # noqa: E402
-from tests.cli_errors import assert_one_line_error  # noqa: E402
 
 SEGMENT = {"type": "record", "name": "Segment", "fields": [{"name": "segment_id", "type": "string"}]}
 
@@ -119,3 +120,28 @@ def test_under_json_a_typed_error_is_one_json_document_with_its_kind_and_place(t
 ])
 def test_every_group_suggests_in_the_same_words(arguments, suggestion):
     assert_one_line_error(CliRunner().invoke(main, arguments), "no such command", suggestion)
+
+
+# --- progress bars ------------------------------------------------------------------------
+
+SEED = Path(__file__).resolve().parents[1] / "seed_data" / "brackwater" / "predictions"
+
+
+def _bootstrap(*extra: str):
+    return CliRunner().invoke(main, ["metrics", str(SEED / "main-burst-risk-v2.csv"),
+                                     "--baseline", str(SEED / "main-burst-risk-v1.csv"),
+                                     "--resamples", "2000", *extra])
+
+
+def test_long_work_draws_no_bar_when_stderr_is_not_a_terminal():
+    result = _bootstrap("--json")
+    assert result.exit_code == 0 and result.stderr == ""
+    json.loads(result.stdout)
+
+
+def test_long_work_draws_a_bar_on_stderr_when_it_is_a_terminal(monkeypatch):
+    monkeypatch.setattr("registry.cli.progress.stderr_is_terminal", lambda: True)
+    result = _bootstrap("--json")
+    assert result.exit_code == 0
+    assert "bootstrap" in result.stderr and "2,000 resamples" in result.stderr
+    json.loads(result.stdout)  # stdout holds the one JSON document, untouched by the bar

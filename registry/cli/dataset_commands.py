@@ -6,15 +6,14 @@ They and the catalogue's dataset commands form the `dataset` group of registry.c
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Iterator
-from contextlib import contextmanager
 from typing import Any
 
 import click
 
 from registry.cli.files import read_file_text
-from registry.cli.output import emit, json_option, stderr_is_terminal
+from registry.cli.output import emit, json_option
 from registry.cli.params import FilePath
+from registry.cli.progress import progress_bar
 from registry.errors import UserError
 from registry.schema.errors import SchemaError
 
@@ -43,28 +42,6 @@ def load_schema(path: str | None) -> dict[str, Any] | None:
     return document
 
 
-@contextmanager
-def progress_reporter(label: str, total: int | None) -> Iterator[Callable[[int], None] | None]:
-    """A progress bar on stderr, only when stderr is a terminal (never in pipes or CI logs)."""
-    if not stderr_is_terminal():
-        yield None
-        return
-    stderr = click.get_text_stream("stderr")
-    if total is None:  # Avro and CSV files do not say how many rows they hold: count them
-        done = 0
-
-        def count(rows: int) -> None:
-            nonlocal done
-            done += rows
-            click.echo(f"\r{label}  {done:,} rows", file=stderr, nl=False)
-
-        yield count
-        click.echo("", file=stderr)
-        return
-    with click.progressbar(length=total, label=label, file=stderr, show_pos=True) as bar:
-        yield bar.update
-
-
 def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format: str | None,
                      keys: tuple[str, ...] = (), exclude: tuple[str, ...] = ()):
     """A file's fingerprint; a .json file written by `dataset fingerprint --json` is loaded."""
@@ -74,7 +51,7 @@ def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format:
     if path.lower().endswith(".json") and os.path.isfile(path):
         return load_fingerprint(path)
     total = open_source(path, schema_json, file_format).total_rows
-    with progress_reporter(os.path.basename(path), total) as progress:
+    with progress_bar(f"fingerprinting {os.path.basename(path)}", total) as progress:
         return fingerprint_file(path, schema_json=schema_json, format=file_format, keys=keys,
                                 exclude=exclude, progress=progress)
 

@@ -8,6 +8,7 @@ import click
 
 from registry.cli.output import emit, json_option
 from registry.cli.params import FilePath
+from registry.cli.progress import progress_bar
 from registry.evaluation import evaluate_file
 from registry.evaluation.metrics import HIGHER_IS_BETTER
 
@@ -35,8 +36,10 @@ def metrics_command(predictions: str, task: str | None, baseline: str | None, sl
     """Metrics of PREDICTIONS (CSV or Parquet); with --baseline, candidate - baseline."""
     from registry.evaluation.predictions import infer_task
 
-    report = evaluate_file(predictions, task or infer_task(predictions), baseline, slice_column, threshold=threshold,
-                           confidence=confidence, seed=seed, resamples=resamples)
+    task = task or infer_task(predictions)
+    with progress_bar("bootstrap", unit="resamples"):
+        report = evaluate_file(predictions, task, baseline, slice_column, threshold=threshold,
+                               confidence=confidence, seed=seed, resamples=resamples)
     emit(report.to_dict(), as_json, render_text)
 
 

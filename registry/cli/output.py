@@ -5,7 +5,6 @@ from __future__ import annotations
 import dataclasses
 import enum
 import json
-import sys
 from collections.abc import Callable
 from typing import Any
 
@@ -68,10 +67,6 @@ def emit_error(kind: str, message: str, place: str | None, exit_code: int, *,
 def warn(message: str) -> None:
     """A note for the person at the terminal, on stderr so JSON on stdout stays clean."""
     click.echo(message, err=True)
-
-
-def stderr_is_terminal() -> bool:
-    return sys.stderr.isatty()
 
 
 def short_time(iso_time: str) -> str:

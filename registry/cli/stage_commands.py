@@ -9,6 +9,7 @@ from registry.cli.catalogue_commands import _actor, _context, read_text
 from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option, short_time, to_plain
 from registry.cli.params import FilePath, model_version_arguments
+from registry.cli.progress import progress_bar
 from registry.errors import UserError
 from registry.gates import GateReport, render_report
 from registry.service import gatekeeping, stages
@@ -74,8 +75,9 @@ def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_js
         report = report.get("report", report)
     else:
         actor = _actor()
-        report = stages.check(_context().catalogue(), model_name, version, stage, actor,
-                              _waivers(waive_gates, reasons, actor)).report
+        with progress_bar("gathering evidence", unit="resamples"):
+            report = stages.check(_context().catalogue(), model_name, version, stage, actor,
+                                  _waivers(waive_gates, reasons, actor)).report
     passed = report["passed"]
     emit({**report, "would_move": passed}, as_json,
          lambda d: ("WOULD PASS" if passed else "WOULD BE REFUSED") + "\n" +
@@ -114,8 +116,9 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
             expected = stages.HolderSnapshot(stage, ())
         else:
             expected = stages.HolderSnapshot(stage, (int(expect_holder),))
-        outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers,
-                                 expected)
+        with progress_bar("gathering evidence", unit="resamples"):
+            outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers,
+                                     expected)
     outcome = to_plain(outcome)
     emit(outcome, as_json, lambda o: _render_outcome(o, "PROMOTED"))
     if not outcome["moved"]:
