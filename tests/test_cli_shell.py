@@ -145,3 +145,14 @@ def test_long_work_draws_a_bar_on_stderr_when_it_is_a_terminal(monkeypatch):
     assert result.exit_code == 0
     assert "bootstrap" in result.stderr and "2,000 resamples" in result.stderr
     json.loads(result.stdout)  # stdout holds the one JSON document, untouched by the bar
+
+
+def test_options_that_cannot_apply_to_a_saved_fingerprint_are_refused_by_name(tmp_path):
+    data = Path(__file__).resolve().parents[1] / "seed_data" / "brackwater" / "datasets"
+    saved = tmp_path / "live.json"
+    made = CliRunner().invoke(main, ["dataset", "fingerprint",
+                                     str(data / "brackwater-live-sample.avro"), "--json"])
+    saved.write_text(made.stdout)
+    result = CliRunner().invoke(main, ["dataset", "fingerprint", str(saved), "--key",
+                                       "segment_id"])
+    assert_one_line_error(result, "--key: --key cannot apply to a saved fingerprint")

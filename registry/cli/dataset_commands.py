@@ -49,6 +49,11 @@ def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format:
     from registry.datasets.readers import open_source
 
     if path.lower().endswith(".json") and os.path.isfile(path):
+        given = [option for option, value in (("--schema", schema_json), ("--format", file_format),
+                                              ("--key", keys), ("--exclude", exclude)) if value]
+        if given:  # a saved fingerprint was made with its own; these would be silently ignored
+            raise UserError(f"{', '.join(given)} cannot apply to a saved fingerprint; give the "
+                            "data file instead", place=given[0])
         return load_fingerprint(path)
     total = open_source(path, schema_json, file_format).total_rows
     with progress_bar(f"fingerprinting {os.path.basename(path)}", total) as progress:

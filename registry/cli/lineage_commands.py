@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 
 import click
 
@@ -24,10 +25,19 @@ def _actor() -> Actor:
     return load_actor(context.catalogue(), context.user)
 
 
+_VERSION_NODE = re.compile(r"model/([^/]+)/version/([0-9]+)")
+
+
+def shown(node_id: str) -> str:
+    """A node as text prints it: versions as everywhere else (`main-burst-risk v2`)."""
+    match = _VERSION_NODE.fullmatch(node_id)
+    return f"{match.group(1)} v{match.group(2)}" if match else node_id
+
+
 def _render_graph(graph: dict) -> str:
     way = {"up": "upstream of", "down": "downstream of", "both": "around"}[graph["direction"]]
     depth_limit = graph.get("depth")
-    lines = [f"{way} {graph['root']}" + (f" (depth {depth_limit})" if depth_limit is not None
+    lines = [f"{way} {shown(graph['root'])}" + (f" (depth {depth_limit})" if depth_limit is not None
                                          else "")]
     for node in graph["nodes"]:
         if node["id"] == graph["root"]:
@@ -36,12 +46,13 @@ def _render_graph(graph: dict) -> str:
             ("RECALLED", node["recalled"]), ("flagged", node["flagged"] and not node["recalled"]),
             ("formerly", node["kind"] == "stage" and not node.get("current", True))) if on]
         depth = f"{node['depth']:>3}  " if node.get("depth") is not None else "  "
-        lines.append(f"  {depth}{node['id']}" + (f"  [{', '.join(marks)}]" if marks else ""))
+        lines.append(f"  {depth}{shown(node['id'])}" + (f"  [{', '.join(marks)}]" if marks else ""))
     if len(lines) == 1:
         lines.append("  nothing")
     if graph["edges"]:
         lines.append("edges:")
-        lines.extend(f"  {e['source']}  {e['relation']}  {e['target']}" for e in graph["edges"])
+        lines.extend(f"  {shown(e['source'])}  {e['relation']}  {shown(e['target'])}"
+                     for e in graph["edges"])
     return "\n".join(lines)
 
 

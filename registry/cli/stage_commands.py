@@ -8,7 +8,7 @@ import click
 from registry.cli.catalogue_commands import _actor, _context, read_text
 from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option, short_time, to_plain
-from registry.cli.params import FilePath, model_version_arguments
+from registry.cli.params import FilePath, model_version_arguments, parse_version_number
 from registry.cli.progress import progress_bar
 from registry.errors import UserError
 from registry.gates import GateReport, render_report
@@ -97,13 +97,11 @@ def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_js
 def promote(model_name: str, version: int, stage: str, expect_holder: str | None, waive_gates,
             reasons, as_json: bool) -> None:
     """Move a version into a stage if the stage's gates allow it."""
-    if expect_holder not in (None, "none") and not expect_holder.isdigit():
-        raise UserError("--expect-holder takes a version number or `none`",
-                        place="--expect-holder")
+    holder = (None if expect_holder in (None, "none")
+              else parse_version_number(expect_holder, place="--expect-holder"))
     remote = _context().remote()
     if remote:
-        holder = {None: None, "none": None}.get(expect_holder, expect_holder)
-        extra = {} if expect_holder is None else {"expect_holder": int(holder) if holder else None}
+        extra = {} if expect_holder is None else {"expect_holder": holder}
         outcome = remote.promote(model_name, version, stage,
                                  _remote_waivers(waive_gates, reasons), **extra)
     else:
@@ -115,7 +113,7 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
         elif expect_holder == "none":
             expected = stages.HolderSnapshot(stage, ())
         else:
-            expected = stages.HolderSnapshot(stage, (int(expect_holder),))
+            expected = stages.HolderSnapshot(stage, (holder,))
         with progress_bar("gathering evidence", unit="resamples"):
             outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers,
                                      expected)
