@@ -34,7 +34,8 @@ def load_schema(path: str | None) -> dict[str, Any] | None:
         parse(document)
     except SchemaError as error:
         raise error.with_source(path) from None
-    from registry.datasets.types import MAX_NESTING, nesting_depth
+    from registry.datasets.types import MAX_NESTING
+    from registry.nesting import nesting_depth
 
     if (depth := nesting_depth(document)) > MAX_NESTING:
         raise UserError(f"the schema nests {depth} levels deep; a dataset schema may nest at "

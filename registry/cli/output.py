@@ -80,3 +80,8 @@ def short_time(iso_time: str) -> str:
     if moment.tzinfo is None:
         moment = moment.replace(tzinfo=UTC)
     return moment.astimezone(UTC).strftime("%Y-%m-%d %H:%M:%SZ")
+
+
+def listing(items: list[Any], when_empty: str, line: Callable[[Any], str]) -> str:
+    """One line per item, or a sentence saying there are none."""
+    return "\n".join(line(item) for item in items) if items else when_empty

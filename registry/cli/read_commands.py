@@ -5,7 +5,7 @@ from __future__ import annotations
 import click
 
 from registry.cli.catalogue_commands import _context
-from registry.cli.output import emit, json_option, short_time
+from registry.cli.output import emit, json_option, listing, short_time
 
 
 @click.command("show")
@@ -51,10 +51,6 @@ def audit_log(model_name: str | None, dataset_name: str | None, actor: str | Non
                          since=parse_since(since), limit=limit)
     found = read_audit_log(_context().catalogue(), wanted)
 
-    def text(d):
-        if not d["events"]:
-            return "no events"
-        return "\n".join(f"{e['sequence']:>6}  {short_time(e['at'])}  {e['actor']:<18} "
-                         f"{e['action']:<17} {e['subject']}" for e in d["events"])
-
-    emit(found, as_json, text)
+    emit(found, as_json, lambda d: listing(
+        d["events"], "no events", lambda e: f"{e['sequence']:>6}  {short_time(e['at'])}  "
+                                            f"{e['actor']:<18} {e['action']:<17} {e['subject']}"))

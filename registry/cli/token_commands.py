@@ -6,7 +6,7 @@ import click
 
 from registry.cli.catalogue_commands import _actor, _context
 from registry.cli.lazy_group import LazyGroup
-from registry.cli.output import emit, json_option, warn
+from registry.cli.output import emit, json_option, listing, short_time, warn
 from registry.cli.params import SuggestingChoice
 from registry.service import tokens
 from registry.service.actors import ROLES
@@ -60,12 +60,9 @@ def token_list(as_json: bool) -> None:
     def standing(record) -> str:
         if record["revoked_at"]:
             return "revoked"
-        return f"expires {record['expires_at']}" if record["expires_at"] else "no expiry"
+        return (f"expires {short_time(record['expires_at'])}" if record["expires_at"]
+                else "no expiry")
 
-    def text(d):
-        if not d["tokens"]:
-            return "no tokens"
-        return "\n".join(f"{r['id']:>4}  {r['user']:<20} {r['role']:<10} {standing(r)}  "
-                         f"{r['label']}" for r in d["tokens"])
-
-    emit(found, as_json, text)
+    emit(found, as_json, lambda d: listing(
+        d["tokens"], "no tokens", lambda r: f"{r['id']:>4}  {r['user']:<20} {r['role']:<10} "
+                                            f"{standing(r)}  {r['label']}"))

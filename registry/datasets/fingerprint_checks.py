@@ -78,7 +78,8 @@ def _names(names: Any, place: str) -> None:
 
 def _check_schema(document: Mapping[str, Any], place: str) -> None:
     from registry.datasets.fingerprint import schema_fingerprint
-    from registry.datasets.types import MAX_NESTING, nesting_depth
+    from registry.datasets.types import MAX_NESTING
+    from registry.nesting import nesting_depth
 
     claimed = document.get("schema_fingerprint")
     if not isinstance(claimed, str) or not DIGEST_256.fullmatch(claimed):

@@ -14,6 +14,7 @@ import pyarrow as pa
 from fastavro.schema import expand_schema
 
 from registry.errors import Unprocessable
+from registry.nesting import nesting_depth
 
 NUMERIC = frozenset({"int", "long", "float", "double"})
 PRIMITIVES = frozenset({"null", "boolean", "int", "long", "float", "double", "bytes", "string"})
@@ -91,20 +92,6 @@ class RecordType:
 
 
 MAX_NESTING = 200  # JSON levels; far deeper than any real record, well inside Python's recursion
-
-
-def nesting_depth(value: Any) -> int:
-    """How many JSON objects and arrays deep `value` goes, counted without recursion."""
-    deepest, stack = 0, [(value, 1)]
-    while stack:
-        current, depth = stack.pop()
-        children = (current.values() if isinstance(current, Mapping)
-                    else current if isinstance(current, list) else None)
-        if children is None:
-            continue
-        deepest = max(deepest, depth)
-        stack.extend((child, depth + 1) for child in children)
-    return deepest
 
 
 def record_type(schema_json: Mapping[str, Any]) -> RecordType:

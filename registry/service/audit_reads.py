@@ -2,18 +2,17 @@
 
 from __future__ import annotations
 
-import re
-from datetime import UTC, datetime, timedelta
+from datetime import UTC, datetime
 from typing import Any
 
 from registry.errors import NotFound, UserError
+from registry.moments import parse_moment
 from registry.store.audit_repository import AuditFilter
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
 from registry.suggest import did_you_mean
 
 MAX_LIMIT = 10_000
-AGO = re.compile(r"(\d{1,5})([dhm])")
 
 
 def parse_since(text: str | None, *, now: datetime | None = None) -> str | None:
@@ -21,19 +20,7 @@ def parse_since(text: str | None, *, now: datetime | None = None) -> str | None:
     ISO form stored events compare with."""
     if text is None:
         return None
-    now = now or utc_now()
-    match = AGO.fullmatch(text.strip())
-    if match:
-        amount, unit = int(match.group(1)), match.group(2)
-        moment = now - timedelta(**{{"d": "days", "h": "hours", "m": "minutes"}[unit]: amount})
-    else:
-        try:
-            moment = datetime.fromisoformat(text.strip())
-        except ValueError:
-            raise UserError(f"invalid time {text!r}: use a span like 7d, 12h or 30m, or an ISO "
-                            "date like 2026-12-01", place="--since") from None
-        if moment.tzinfo is None:
-            moment = moment.replace(tzinfo=UTC)
+    moment = parse_moment(text, now=now or utc_now(), later=False, place="--since")
     return moment.astimezone(UTC).isoformat(timespec="microseconds")
 
 
