@@ -139,9 +139,9 @@ def register(model_name: str, document: str, manifest_path: str, features_path: 
 
 def render_registration(o: dict) -> str:
     if not o["created"]:
-        return (f"{o['model']} version {o['version']} already holds this registration; "
+        return (f"{o['model']} v{o['version']} already holds this registration; "
                 "nothing changed")
-    text = f"registered {o['model']} version {o['version']}"
+    text = f"registered {o['model']} v{o['version']}"
     if o.get("missing_features"):
         text += f"\nno feature definition yet for: {', '.join(o['missing_features'])}"
     return text

@@ -15,9 +15,9 @@ def check_approval(actor: Actor, *, author: str, model: str, version: int) -> No
     role, or from the version's own author (four eyes)."""
     if not actor.has_role(APPROVER):
         raise Forbidden(f"{actor.user} does not hold the {APPROVER} role and cannot approve "
-                        f"{model} version {version}", place="approved")
+                        f"{model} v{version}", place="approved")
     if actor.user == author:
-        raise Forbidden(f"{actor.user} is the author of {model} version {version}; four eyes: "
+        raise Forbidden(f"{actor.user} is the author of {model} v{version}; four eyes: "
                         "another approver must approve it", place="approved")
 
 

@@ -128,7 +128,7 @@ class GateReport:
         """The refusal to raise when the report did not pass: every failed gate and its place."""
         failed = self.failures
         lines = "; ".join(f"{result.gate}: {result.summary}" for result in failed)
-        return Refusal(f"{self.model} version {self.version} may not enter {self.stage}: {lines}",
+        return Refusal(f"{self.model} v{self.version} may not enter {self.stage}: {lines}",
                        place=failed[0].gate if failed else None)
 
 

@@ -64,8 +64,8 @@ def check_waivers(waivers: Sequence[Waiver], actor: Actor, policy: Policy, stage
             raise Forbidden(f"{actor.user} does not hold the {APPROVER} role and cannot waive "
                             "a gate", place=place)
         if actor.user == evidence.author:
-            raise Forbidden(f"{actor.user} is the author of {evidence.model} version "
-                            f"{evidence.version}; four eyes: another approver must waive its "
+            raise Forbidden(f"{actor.user} is the author of {evidence.model} "
+                            f"v{evidence.version}; four eyes: another approver must waive its "
                             "gates", place=place)
         if not waiver.reason.strip():
             raise UserError("a waiver needs a reason", place=place)
