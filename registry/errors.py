@@ -20,10 +20,15 @@ class LockkeeperError(Exception):
         self.message = message
         self.place = place
 
+    def where(self) -> str | None:
+        """The place as a person reads it (a schema error adds the file it came from)."""
+        return self.place
+
     def one_line(self) -> str:
         """The message as one line, prefixed by its place when it has one."""
         text = " ".join(self.message.split())
-        return f"{self.place}: {text}" if self.place else text
+        where = self.where()
+        return f"{where}: {text}" if where else text
 
 
 class UserError(LockkeeperError):

@@ -10,6 +10,8 @@ import json
 import os
 import uuid
 from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
 from urllib.parse import quote
 
 import pytest
@@ -31,9 +33,15 @@ def _assert_loopback(url: str) -> None:
 @pytest.fixture
 def empty_catalogue_url(request, tmp_path) -> Iterator[str]:
     """A URL for a catalogue that does not exist yet (SQLite) or an empty schema (PostgreSQL)."""
-    backend = getattr(request, "param", "sqlite")
+    with fresh_catalogue_url(getattr(request, "param", "sqlite"), tmp_path) as url:
+        yield url
+
+
+@contextmanager
+def fresh_catalogue_url(backend: str, folder: Path) -> Iterator[str]:
+    """A catalogue URL on `backend` with nothing in it yet; a PostgreSQL schema is dropped after."""
     if backend == "sqlite":
-        yield f"sqlite:///{tmp_path / 'catalogue.db'}"
+        yield f"sqlite:///{folder / 'catalogue.db'}"
         return
     import psycopg
     from sqlalchemy.engine import make_url

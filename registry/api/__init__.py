@@ -30,10 +30,16 @@ def register_api(app: Flask) -> None:
     from registry.api.problems import install_app_problem_handler
     from registry.api.routing import api
 
-    app.config.setdefault("MAX_CONTENT_LENGTH", DEFAULT_MAX_CONTENT_LENGTH)
+    from registry.api.complete_bodies import CompleteBodies
+
+    # Flask's own defaults hold MAX_CONTENT_LENGTH = None, so setdefault would never set it.
+    if app.config.get("MAX_CONTENT_LENGTH") is None:
+        app.config["MAX_CONTENT_LENGTH"] = DEFAULT_MAX_CONTENT_LENGTH
     app.config.setdefault("LOCKKEEPER_OPEN_READS", False)
     app.register_blueprint(api)
     install_app_problem_handler(app)
+    if not isinstance(app.wsgi_app, CompleteBodies):
+        app.wsgi_app = CompleteBodies(app.wsgi_app)  # type: ignore[method-assign]
 
 
 def create_api_app(catalogue_url: str | None = None, *, config: dict[str, Any] | None = None

@@ -14,6 +14,7 @@ from jsonschema import Draft202012Validator
 from jsonschema.exceptions import ValidationError
 
 from registry.api.problems import ApiError
+from registry.nesting import nesting_depth
 
 # Far deeper than any Avro schema or fingerprint needs, and far shallower than the recursion
 # limit of the parsers that read the body next.
@@ -58,18 +59,6 @@ def json_body(schema: dict[str, Any], *, required: bool = True) -> dict[str, Any
                            status=400, place="body")
     check_value(value, schema, "body")
     return value
-
-
-def nesting_depth(value: Any) -> int:
-    """How deep arrays and objects nest, counted without recursion."""
-    deepest, stack = 0, [(value, 1)]
-    while stack:
-        item, depth = stack.pop()
-        if isinstance(item, (list, dict)):
-            deepest = max(deepest, depth)
-            stack.extend((child, depth + 1)
-                         for child in (item.values() if isinstance(item, dict) else item))
-    return deepest
 
 
 def check_value(value: Any, schema: dict[str, Any], place: str) -> None:

@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 
 from registry.cli.output import emit, json_option
+from registry.cli.progress import progress_bar
 
 
 def _render(verb: str):
@@ -26,7 +27,9 @@ def export_command(folder: str, as_json: bool) -> None:
     from registry.store import migrate
 
     catalogue = click.get_current_context().obj.catalogue()
-    summary = export_catalogue(catalogue, Path(folder), migrate.current_revision(catalogue) or "")
+    with progress_bar("exporting", unit="rows and blobs"):
+        summary = export_catalogue(catalogue, Path(folder),
+                                   migrate.current_revision(catalogue) or "")
     emit(summary, as_json, _render("exported"))
 
 
@@ -44,10 +47,8 @@ def import_command(folder: str, as_json: bool) -> None:
     catalogue = open_catalogue(context.db_url, must_exist=False)
     try:
         migrate.upgrade(catalogue)  # an empty catalogue may not have been initialised yet
-        summary = import_catalogue(catalogue, export)
+        with progress_bar("importing", total=sum(map(len, export.rows.values()))):
+            summary = import_catalogue(catalogue, export)
     finally:
         catalogue.close()
     emit(summary, as_json, _render("imported"))
-
-
-COMMANDS = [export_command, import_command]

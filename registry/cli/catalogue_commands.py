@@ -6,18 +6,20 @@ from pathlib import Path
 
 import click
 
-from registry.cli.output import emit, json_option
-from registry.errors import UserError
-from registry.manifest import parse_manifest
-from registry.service import integrity, models, registration
-from registry.service.actors import Actor
+from registry.cli.files import read_file_bytes, read_file_text
+from registry.cli.lazy_group import LazyGroup
+from registry.cli.output import emit, json_option, short_time
+from registry.cli.params import FilePath, SuggestingChoice
+
+# The service modules are imported inside each command: importing them loads the database layer,
+# and the stage and dataset commands import the helpers here without needing all of it.
 
 
 def _context() -> "CommandContext":  # noqa: F821 - resolved at run time
     return click.get_current_context().obj
 
 
-def _actor() -> Actor:
+def _actor() -> "Actor":  # noqa: F821 - registry.service.actors.Actor
     from registry.service.roles import load_actor
 
     context = _context()
@@ -25,21 +27,11 @@ def _actor() -> Actor:
 
 
 def read_text(path: str, *, what: str) -> str:
-    try:
-        return Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise UserError(f"no such file: {path}", place=what) from None
-    except (IsADirectoryError, PermissionError, UnicodeDecodeError) as error:
-        raise UserError(f"cannot read {path}: {error}", place=what) from None
+    return read_file_text(path, what)
 
 
 def read_bytes(path: str, *, what: str) -> bytes:
-    try:
-        return Path(path).read_bytes()
-    except FileNotFoundError:
-        raise UserError(f"no such file: {path}", place=what) from None
-    except (IsADirectoryError, PermissionError) as error:
-        raise UserError(f"cannot read {path}: {error}", place=what) from None
+    return read_file_bytes(path, what)
 
 
 @click.command()
@@ -62,27 +54,26 @@ def init(as_json: bool) -> None:
          as_json, lambda d: f"catalogue {d['catalogue']} at revision {d['revision']}")
 
 
-@click.group()
-def model() -> None:
-    """Create and look at model lines."""
-
-
-@model.command("create")
+@click.command("create")
 @click.argument("name")
 @click.option("--description", default="", help="What the model is for.")
 @json_option
 def model_create(name: str, description: str, as_json: bool) -> None:
     """Create a model line NAME."""
+    from registry.service import models
+
     remote = _context().remote()
     summary = (remote.create_model(name, description) if remote
                else models.create_model(_context().catalogue(), name, description, _actor()))
     emit(summary, as_json, lambda s: f"created model {s['name']}")
 
 
-@model.command("list")
+@click.command("list")
 @json_option
 def model_list(as_json: bool) -> None:
     """List every model with its number of versions and who holds each stage."""
+    from registry.service import models
+
     remote = _context().remote()
     found = remote.list_models() if remote else {"models": models.list_models(_context().catalogue())}
 
@@ -91,7 +82,7 @@ def model_list(as_json: bool) -> None:
             return "no models yet"
         lines = []
         for item in d["models"]:
-            held = ", ".join(f"{stage}: v{','.join(map(str, numbers))}"
+            held = "; ".join(f"{stage}: {', '.join(f'v{n}' for n in numbers)}"
                              for stage, numbers in item["stages"].items()) or "no stages held"
             lines.append(f"{item['name']}  {item['versions']} version(s)  {held}")
         return "\n".join(lines)
@@ -99,22 +90,26 @@ def model_list(as_json: bool) -> None:
     emit(found, as_json, text)
 
 
-@model.command("show")
+@click.command("show")
 @click.argument("name")
 @json_option
 def model_show(name: str, as_json: bool) -> None:
     """Show a model line and its versions."""
+    from registry.service import models
+
     remote = _context().remote()
     detail = remote.show_model(name) if remote else models.show_model(_context().catalogue(), name)
 
     def text(d):
         model = d["model"]
         lines = [f"{model['name']}: {model['description']}".rstrip(": "),
-                 f"created {model['created_at']} by {model['created_by']}"]
+                 f"created {short_time(model['created_at'])} by {model['created_by']}"]
         for v in d["versions"]:
             stages = f"  [{', '.join(v['stages'])}]" if v["stages"] else ""
+            recalled = v.get("recalled_upstream") or []
+            flag = f"  FLAGGED: downstream of recalled {', '.join(recalled)}" if recalled else ""
             lines.append(f"  v{v['number']}  {v['document_kind']}  {v['document_digest'][:12]}  "
-                         f"{v['author']}  {v['description']}{stages}")
+                         f"{v['author']}  {v['description']}{stages}{flag}")
         return "\n".join(lines)
 
     emit(detail, as_json, text)
@@ -122,10 +117,10 @@ def model_show(name: str, as_json: bool) -> None:
 
 @click.command()
 @click.argument("model_name", metavar="MODEL")
-@click.argument("document", type=click.Path(dir_okay=False))
-@click.option("--manifest", "manifest_path", required=True, type=click.Path(dir_okay=False),
+@click.argument("document", type=FilePath("a model document"))
+@click.option("--manifest", "manifest_path", required=True, type=FilePath("a manifest"),
               help="TOML manifest: schemas, features, description, code revision, author.")
-@click.option("--features", "features_path", type=click.Path(dir_okay=False), default=None,
+@click.option("--features", "features_path", type=FilePath("feature definitions"), default=None,
               help="Feature definitions (TOML), instead of the manifest's `features`.")
 @json_option
 def register(model_name: str, document: str, manifest_path: str, features_path: str | None,
@@ -135,6 +130,8 @@ def register(model_name: str, document: str, manifest_path: str, features_path: 
     if remote:
         outcome = remote.register(model_name, document, manifest_path, features_path)
     else:
+        from registry.service import registration
+
         request = registration_request(model_name, document, manifest_path, features_path)
         outcome = registration.register_version(_context().catalogue(), request, _actor())
     emit(outcome, as_json, render_registration)
@@ -142,17 +139,20 @@ def register(model_name: str, document: str, manifest_path: str, features_path: 
 
 def render_registration(o: dict) -> str:
     if not o["created"]:
-        return (f"{o['model']} version {o['version']} already holds this registration; "
+        return (f"{o['model']} v{o['version']} already holds this registration; "
                 "nothing changed")
-    text = f"registered {o['model']} version {o['version']}"
+    text = f"registered {o['model']} v{o['version']}"
     if o.get("missing_features"):
         text += f"\nno feature definition yet for: {', '.join(o['missing_features'])}"
     return text
 
 
 def registration_request(model_name: str, document: str, manifest_path: str,
-                         features_path: str | None) -> registration.RegistrationRequest:
+                         features_path: str | None) -> "RegistrationRequest":  # noqa: F821
     """Read every file a registration names; paths in the manifest are relative to it."""
+    from registry.manifest import parse_manifest
+    from registry.service import registration
+
     manifest_text = read_text(manifest_path, what="--manifest")
     document_bytes = read_bytes(document, what="DOCUMENT")
     manifest = parse_manifest(manifest_text, source=manifest_path)
@@ -171,12 +171,7 @@ def registration_request(model_name: str, document: str, manifest_path: str,
         features_text=features_text)
 
 
-@click.group()
-def audit() -> None:
-    """The tamper-evident audit log."""
-
-
-@audit.command("verify")
+@click.command("verify")
 @json_option
 def audit_verify(as_json: bool) -> None:
     """Recompute the audit chain and every stored digest; name the first broken link."""
@@ -184,6 +179,8 @@ def audit_verify(as_json: bool) -> None:
     if remote:
         document = remote.verify_audit()
     else:
+        from registry.service import integrity
+
         report = integrity.verify_catalogue(_context().catalogue())
         document = {"ok": report.ok, "events": report.events, "blobs": report.blobs,
                     "versions": report.versions, "datasets": report.datasets,
@@ -201,14 +198,14 @@ def audit_verify(as_json: bool) -> None:
         click.get_current_context().exit(1)
 
 
-@click.group()
+@click.group(cls=LazyGroup)
 def user() -> None:
-    """Roles of the people who act on the catalogue: publisher, approver, admin."""
+    """Roles of the people who act on the catalogue: reader, publisher, approver, admin."""
 
 
 @user.command("grant")
 @click.argument("name")
-@click.argument("role", type=click.Choice(["reader", "publisher", "approver", "admin"]))
+@click.argument("role", metavar="ROLE", type=SuggestingChoice(["reader", "publisher", "approver", "admin"]))
 @json_option
 def user_grant(name: str, role: str, as_json: bool) -> None:
     """Give user NAME a ROLE (needs admin, except for a catalogue's first admin)."""
@@ -223,7 +220,7 @@ def user_grant(name: str, role: str, as_json: bool) -> None:
 
 @user.command("revoke")
 @click.argument("name")
-@click.argument("role", type=click.Choice(["reader", "publisher", "approver", "admin"]))
+@click.argument("role", metavar="ROLE", type=SuggestingChoice(["reader", "publisher", "approver", "admin"]))
 @json_option
 def user_revoke(name: str, role: str, as_json: bool) -> None:
     """Take a ROLE away from user NAME (needs admin)."""
@@ -248,9 +245,6 @@ def user_list(as_json: bool) -> None:
         f"{name}: {', '.join(roles)}" for name, roles in d["users"].items()) or "no roles granted")
 
 
-COMMANDS = [init, model, register, audit, user]
-
-
 @click.command()
 def demo() -> None:
     """Build a fresh demo catalogue from seed_data/ and play the Brackwater story."""
@@ -264,5 +258,3 @@ def demo() -> None:
     click.echo("")
     click.echo(f"demo catalogue ready: {url}")
 
-
-COMMANDS.append(demo)

@@ -1,6 +1,6 @@
 """Dataset commands on the catalogue: `dataset add`, `dataset show`, `dataset list`.
 
-They join the `dataset` group of dataset_commands, beside the catalogue-free commands.
+They join the `dataset` group of registry.cli's table, beside the catalogue-free commands.
 """
 
 from __future__ import annotations
@@ -10,17 +10,17 @@ import os
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.dataset_commands import (FORMAT_CHOICE, dataset, fingerprint_path, load_schema,
+from registry.cli.dataset_commands import (FORMAT_CHOICE, fingerprint_path, load_schema,
                                            render_fingerprint)
-from registry.cli.lineage_commands import recall_command
-from registry.cli.output import emit, json_option
+from registry.cli.output import emit, json_option, short_time
+from registry.cli.params import FilePath
 from registry.errors import UserError
 
 
-@dataset.command("add")
+@click.command("add")
 @click.argument("name")
-@click.argument("file", type=click.Path(dir_okay=False))
-@click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
+@click.argument("file", type=FilePath("a dataset file"))
+@click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema of the records (required for CSV).")
 @click.option("--format", "file_format", type=FORMAT_CHOICE, default=None)
 @click.option("--role", type=click.Choice(["source", "training", "evaluation", "live-sample"]),
@@ -69,7 +69,7 @@ def _render_added(s: dict) -> str:
             f"{s['content_digest'][:12]})")
 
 
-@dataset.command("show")
+@click.command("show")
 @click.argument("name")
 @json_option
 def dataset_show(name: str, as_json: bool) -> None:
@@ -84,7 +84,7 @@ def dataset_show(name: str, as_json: bool) -> None:
         head = [f"{s['name']}  ({s['role']}, {s['rows']} rows){recalled}",
                 f"derived from        {', '.join(s['derived_from']) or '-'}",
                 f"source              {s['source_uri']}",
-                f"registered          {s['created_at']} by {s['created_by']}"]
+                f"registered          {short_time(s['created_at'])} by {s['created_by']}"]
         if remote:
             return "\n".join(head)
         return "\n".join(head) + "\n" + render_fingerprint(
@@ -93,7 +93,7 @@ def dataset_show(name: str, as_json: bool) -> None:
     emit(summary, as_json, text)
 
 
-@dataset.command("list")
+@click.command("list")
 @json_option
 def dataset_list(as_json: bool) -> None:
     """Every registered dataset."""
@@ -105,7 +105,3 @@ def dataset_list(as_json: bool) -> None:
         f"{s['name']:<32} {s['role']:<12} {s['rows']:>8} rows{'  RECALLED' if s['recalled'] else ''}"
         for s in d["datasets"]) or "no datasets yet")
 
-
-dataset.add_command(recall_command, "recall")
-
-COMMANDS: list = []  # the commands above join the `dataset` group

@@ -1,62 +1,46 @@
 """Commands on dataset files that need no catalogue: `dataset fingerprint` and `dataset compare`.
 
-The `dataset` group is exposed so the catalogue commands (add, show, recall) can join it.
+They and the catalogue's dataset commands form the `dataset` group of registry.cli's table.
 """
 
 from __future__ import annotations
 
-import json
 import os
-from collections.abc import Callable, Iterator
-from contextlib import contextmanager
 from typing import Any
 
 import click
 
-from registry.cli.output import emit, json_option, stderr_is_terminal
+from registry.cli.files import read_file_text
+from registry.cli.output import emit, json_option
+from registry.cli.params import FilePath
+from registry.cli.progress import progress_bar
 from registry.errors import UserError
+from registry.schema.errors import SchemaError
 
 FORMAT_CHOICE = click.Choice(["avro", "parquet", "csv"])
-
-
-@click.group("dataset")
-def dataset() -> None:
-    """Fingerprint and compare datasets."""
 
 
 def load_schema(path: str | None) -> dict[str, Any] | None:
     """The Avro schema in an .avsc file, or None when no file was named."""
     if path is None:
         return None
+    from registry.schema import parse
+    from registry.schema.jsontext import decode
+
+    # Parsed as `schema check` parses, so a broken or pathologically deep schema is one line
+    # here too (the readers would otherwise meet it as a RecursionError).
+    document = decode(read_file_text(path, "a schema"), path)
     try:
-        with open(path, encoding="utf-8") as handle:
-            return json.load(handle)
-    except FileNotFoundError:
-        raise UserError("no such schema file", place=path) from None
-    except (json.JSONDecodeError, UnicodeDecodeError) as error:
-        raise UserError(f"the schema file is not JSON ({error})", place=path) from error
+        parse(document)
+    except SchemaError as error:
+        raise error.with_source(path) from None
+    from registry.datasets.types import MAX_NESTING
+    from registry.nesting import nesting_depth
 
-
-@contextmanager
-def progress_reporter(label: str, total: int | None) -> Iterator[Callable[[int], None] | None]:
-    """A progress bar on stderr, only when stderr is a terminal (never in pipes or CI logs)."""
-    if not stderr_is_terminal():
-        yield None
-        return
-    stderr = click.get_text_stream("stderr")
-    if total is None:  # Avro and CSV files do not say how many rows they hold: count them
-        done = 0
-
-        def count(rows: int) -> None:
-            nonlocal done
-            done += rows
-            click.echo(f"\r{label}  {done:,} rows", file=stderr, nl=False)
-
-        yield count
-        click.echo("", file=stderr)
-        return
-    with click.progressbar(length=total, label=label, file=stderr, show_pos=True) as bar:
-        yield bar.update
+    if (depth := nesting_depth(document)) > MAX_NESTING:
+        raise UserError(f"the schema nests {depth} levels deep; a dataset schema may nest at "
+                        f"most {MAX_NESTING}", place=path)
+    return document
 
 
 def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format: str | None,
@@ -66,9 +50,14 @@ def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format:
     from registry.datasets.readers import open_source
 
     if path.lower().endswith(".json") and os.path.isfile(path):
+        given = [option for option, value in (("--schema", schema_json), ("--format", file_format),
+                                              ("--key", keys), ("--exclude", exclude)) if value]
+        if given:  # a saved fingerprint was made with its own; these would be silently ignored
+            raise UserError(f"{', '.join(given)} cannot apply to a saved fingerprint; give the "
+                            "data file instead", place=given[0])
         return load_fingerprint(path)
     total = open_source(path, schema_json, file_format).total_rows
-    with progress_reporter(os.path.basename(path), total) as progress:
+    with progress_bar(f"fingerprinting {os.path.basename(path)}", total) as progress:
         return fingerprint_file(path, schema_json=schema_json, format=file_format, keys=keys,
                                 exclude=exclude, progress=progress)
 
@@ -85,9 +74,9 @@ def file_or_catalogue_fingerprint(argument: str, schema_json: dict[str, Any] | N
     return fingerprint_of(click.get_current_context().obj.catalogue(), argument)
 
 
-@dataset.command("fingerprint")
-@click.argument("file", type=click.Path(dir_okay=False))
-@click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
+@click.command("fingerprint")
+@click.argument("file", type=FilePath("a dataset file"))
+@click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema to read the records with (required for CSV).")
 @click.option("--format", "file_format", type=FORMAT_CHOICE,
               help="File format (default: from the extension or the first bytes).")
@@ -103,10 +92,10 @@ def fingerprint_command(file: str, schema_path: str | None, file_format: str | N
     emit(found.to_dict(), as_json, render_fingerprint)
 
 
-@dataset.command("compare")
-@click.argument("reference", type=click.Path(dir_okay=False), metavar="A")
-@click.argument("current", type=click.Path(dir_okay=False), metavar="B")
-@click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
+@click.command("compare")
+@click.argument("reference", metavar="A")
+@click.argument("current", metavar="B")
+@click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema to read both files with (required for CSV).")
 @json_option
 def compare_command(reference: str, current: str, schema_path: str | None,
@@ -170,5 +159,3 @@ def render_comparison(document: dict[str, Any]) -> str:
         lines.append(f"{name:<26} {drift['psi']:>8.4f}  {drift['level']:<5}  {detail}")
     return "\n".join(lines)
 
-
-COMMANDS = [dataset]

@@ -8,38 +8,22 @@ from typing import Any
 
 import click
 
+from registry.cli.files import read_file_bytes, read_file_text
+from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option
+from registry.cli.params import FilePath
+from registry.cli.schema_commands import read_schema
 from registry.documents import DocumentSummary, read_document
 from registry.documents.pfa import CellSummary
 from registry.errors import UserError
 from registry.features import (FeatureCheck, FeatureDefinitions, FeatureDiff, check_features,
                                diff_features, features_from_manifest, load_feature_definitions)
-from registry.schema import Schema, fingerprint, load, to_json
-
-
-def _read_bytes(path: str) -> bytes:
-    try:
-        return Path(path).read_bytes()
-    except FileNotFoundError:
-        raise UserError("no such file", place=path) from None
-    except OSError as error:
-        raise UserError(f"cannot read the file: {error.strerror}", place=path) from None
-
-
-def _read_schema(path: Path | str) -> Schema:
-    data = _read_bytes(str(path))
-    try:
-        text = data.decode("utf-8")
-    except UnicodeDecodeError:
-        raise UserError("a schema file must be UTF-8 text", place=str(path)) from None
-    return load(text, source=str(path))
+from registry.schema import Schema, fingerprint, to_json
 
 
 def _read_manifest(path: str) -> dict[str, Any]:
     try:
-        return tomllib.loads(_read_bytes(path).decode("utf-8"))
-    except UnicodeDecodeError:
-        raise UserError("a manifest must be UTF-8 text", place=path) from None
+        return tomllib.loads(read_file_text(path, "a manifest"))
     except tomllib.TOMLDecodeError as error:
         raise UserError(f"not valid TOML: {error}", place=path) from None
 
@@ -51,13 +35,11 @@ def _manifest_schema(manifest: dict[str, Any], key: str, manifest_path: str) -> 
     if not isinstance(value, str):
         raise UserError(f"{key} must be the path of a schema file",
                         place=f"{manifest_path} {key}")
-    return _read_schema(Path(manifest_path).parent / value)
+    return read_schema(Path(manifest_path).parent / value)
 
 
 def _load_definitions(path: str) -> FeatureDefinitions:
     """A definitions file, or a manifest that names one or holds a [features] table."""
-    if not Path(path).exists():
-        raise UserError("no such file", place=path)
     document = _read_manifest(path)
     if "input_schema" in document:  # a version manifest, not a definitions file
         definitions = features_from_manifest(document, manifest_path=path)
@@ -134,14 +116,14 @@ def _render_document(report: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-@click.group("document")
+@click.group("document", cls=LazyGroup)
 def document_group() -> None:
     """Model documents: PFA documents and other artifacts."""
 
 
 @document_group.command("inspect")
-@click.argument("file", type=click.Path(dir_okay=False))
-@click.option("--manifest", "manifest_path", type=click.Path(dir_okay=False), default=None,
+@click.argument("file", type=FilePath("a model document"))
+@click.option("--manifest", "manifest_path", type=FilePath("a manifest"), default=None,
               help="A version manifest whose input_schema and output_schema must agree.")
 @click.option("--kind", type=click.Choice(["pfa", "artifact"]), default=None,
               help="Read the file as this kind (default: PFA for .pfa, .pfa.json and .json).")
@@ -154,7 +136,7 @@ def inspect_command(file: str, manifest_path: str | None, kind: str | None,
         manifest = _read_manifest(manifest_path)
         manifest_input = _manifest_schema(manifest, "input_schema", manifest_path)
         manifest_output = _manifest_schema(manifest, "output_schema", manifest_path)
-    summary = read_document(_read_bytes(file), filename=Path(file).name,
+    summary = read_document(read_file_bytes(file, "a model document"), filename=Path(file).name,
                             manifest_input=manifest_input, manifest_output=manifest_output,
                             kind=kind)  # type: ignore[arg-type]
     emit(_document_report(summary), as_json, _render_document)
@@ -199,32 +181,32 @@ def _render_diff(report: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-@click.group("features")
+@click.group("features", cls=LazyGroup)
 def features_group() -> None:
     """Feature definitions: units, domains and meaning of input fields."""
 
 
 @features_group.command("check")
-@click.argument("features", type=click.Path(dir_okay=False))
-@click.option("--schema", "schema_path", required=True, type=click.Path(dir_okay=False),
+@click.argument("features", type=FilePath("feature definitions"))
+@click.option("--schema", "schema_path", required=True, type=FilePath("a schema"),
               help="The input schema (.avsc) the definitions describe.")
 @json_option
 @click.pass_context
 def check_command(ctx: click.Context, features: str, schema_path: str, as_json: bool) -> None:
     """Check coverage and consistency of definitions against an input schema (exit 1 if not)."""
     definitions = _load_definitions(features)
-    check = check_features(definitions, _read_schema(schema_path))
+    check = check_features(definitions, read_schema(schema_path))
     emit(_check_report(check), as_json, _render_check)
     if not check.passed:
         ctx.exit(1)
 
 
 @features_group.command("diff")
-@click.argument("old", type=click.Path(dir_okay=False))
-@click.argument("new", type=click.Path(dir_okay=False))
-@click.option("--old-schema", type=click.Path(dir_okay=False), default=None,
+@click.argument("old", type=FilePath("feature definitions"))
+@click.argument("new", type=FilePath("feature definitions"))
+@click.option("--old-schema", type=FilePath("a schema"), default=None,
               help="Input schema of the old version (for renames through aliases).")
-@click.option("--new-schema", type=click.Path(dir_okay=False), default=None,
+@click.option("--new-schema", type=FilePath("a schema"), default=None,
               help="Input schema of the new version.")
 @json_option
 @click.pass_context
@@ -235,12 +217,9 @@ def diff_command(ctx: click.Context, old: str, new: str, old_schema: str | None,
         raise UserError("give both --old-schema and --new-schema, or neither",
                         place="--old-schema" if old_schema is None else "--new-schema")
     diff = diff_features(_load_definitions(old),
-                         _read_schema(old_schema) if old_schema else None,
+                         read_schema(old_schema) if old_schema else None,
                          _load_definitions(new),
-                         _read_schema(new_schema) if new_schema else None)
+                         read_schema(new_schema) if new_schema else None)
     emit(_diff_report(diff), as_json, _render_diff)
     if diff.is_breaking:
         ctx.exit(1)
-
-
-COMMANDS = [document_group, features_group]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 
 import click
 
@@ -24,10 +25,19 @@ def _actor() -> Actor:
     return load_actor(context.catalogue(), context.user)
 
 
+_VERSION_NODE = re.compile(r"model/([^/]+)/version/([0-9]+)")
+
+
+def shown(node_id: str) -> str:
+    """A node as text prints it: versions as everywhere else (`main-burst-risk v2`)."""
+    match = _VERSION_NODE.fullmatch(node_id)
+    return f"{match.group(1)} v{match.group(2)}" if match else node_id
+
+
 def _render_graph(graph: dict) -> str:
     way = {"up": "upstream of", "down": "downstream of", "both": "around"}[graph["direction"]]
     depth_limit = graph.get("depth")
-    lines = [f"{way} {graph['root']}" + (f" (depth {depth_limit})" if depth_limit is not None
+    lines = [f"{way} {shown(graph['root'])}" + (f" (depth {depth_limit})" if depth_limit is not None
                                          else "")]
     for node in graph["nodes"]:
         if node["id"] == graph["root"]:
@@ -36,33 +46,35 @@ def _render_graph(graph: dict) -> str:
             ("RECALLED", node["recalled"]), ("flagged", node["flagged"] and not node["recalled"]),
             ("formerly", node["kind"] == "stage" and not node.get("current", True))) if on]
         depth = f"{node['depth']:>3}  " if node.get("depth") is not None else "  "
-        lines.append(f"  {depth}{node['id']}" + (f"  [{', '.join(marks)}]" if marks else ""))
+        lines.append(f"  {depth}{shown(node['id'])}" + (f"  [{', '.join(marks)}]" if marks else ""))
     if len(lines) == 1:
         lines.append("  nothing")
     if graph["edges"]:
         lines.append("edges:")
-        lines.extend(f"  {e['source']}  {e['relation']}  {e['target']}" for e in graph["edges"])
+        lines.extend(f"  {shown(e['source'])}  {e['relation']}  {shown(e['target'])}"
+                     for e in graph["edges"])
     return "\n".join(lines)
 
 
 @click.command()
 @click.argument("node")
-@click.option("--up", "direction", flag_value="up", help="What went into NODE.")
-@click.option("--down", "direction", flag_value="down", help="What came of NODE.")
+@click.option("--up", "walk_up", is_flag=True, help="What went into NODE.")
+@click.option("--down", "walk_down", is_flag=True, help="What came of NODE (both: the two ways).")
 @click.option("--depth", type=click.IntRange(0, lineage_service.MAX_DEPTH), default=None,
               help="Follow at most this many edges (default: all).")
 @click.option("--format", "output_format", type=click.Choice(["text", "json", "prov-json"]),
               default=None, help="text (default), json, or W3C PROV-JSON.")
 @json_option
-def lineage(node: str, direction: str | None, depth: int | None, output_format: str | None,
-            as_json: bool) -> None:
+def lineage(node: str, walk_up: bool, walk_down: bool, depth: int | None,
+            output_format: str | None, as_json: bool) -> None:
     """The lineage of NODE: dataset/NAME (or NAME), MODEL@N, model/M/version/N, model/M/stage/S."""
-    if direction is None:
-        raise UserError("say which way to walk: --up (what went in) or --down (what came of it)",
-                        place="--up/--down")
+    if not (walk_up or walk_down):
+        raise UserError("say which way to walk: --up (what went in), --down (what came of it) "
+                        "or both", place="--up/--down")
+    direction = "both" if walk_up and walk_down else "up" if walk_up else "down"
     if as_json and output_format not in (None, "json"):
-        raise UserError("--json and --format prov-json ask for different documents; use one",
-                        place="--format")
+        raise UserError(f"--json and --format {output_format} ask for different documents; "
+                        "give one of them", place="--format")
     output_format = output_format or ("json" if as_json else "text")
     remote = _context().remote()
     if remote:
@@ -112,6 +124,3 @@ def recall_command(name: str, reason: str, as_json: bool) -> None:
     outcome = (remote.recall(name, reason) if remote else
                recall_service.recall_dataset(_context().catalogue(), name, reason, _actor()))
     emit(outcome, as_json, _render_recall)
-
-
-COMMANDS = [lineage]

@@ -7,15 +7,17 @@ from typing import Any
 import click
 
 from registry.cli.output import emit, json_option
+from registry.cli.params import FilePath
+from registry.cli.progress import progress_bar
 from registry.evaluation import evaluate_file
 from registry.evaluation.metrics import HIGHER_IS_BETTER
 
 
 @click.command("metrics")
-@click.argument("predictions", type=click.Path(dir_okay=False))
-@click.option("--task", required=True, type=click.Choice(["binary", "regression", "multiclass"]),
-              help="What the predictions predict.")
-@click.option("--baseline", type=click.Path(dir_okay=False), default=None,
+@click.argument("predictions", type=FilePath("a predictions file"))
+@click.option("--task", type=click.Choice(["binary", "regression", "multiclass"]), default=None,
+              help="What the predictions predict (default: told by the prediction columns).")
+@click.option("--baseline", type=FilePath("a predictions file"), default=None,
               help="Predictions of the version to compare against, on the same rows.")
 @click.option("--slice", "slice_column", default=None, metavar="COLUMN",
               help="Also report per value of this column (Holm-adjusted with --baseline).")
@@ -28,12 +30,16 @@ from registry.evaluation.metrics import HIGHER_IS_BETTER
 @click.option("--resamples", type=click.IntRange(min=100), default=1000, show_default=True,
               help="Bootstrap resamples.")
 @json_option
-def metrics_command(predictions: str, task: str, baseline: str | None, slice_column: str | None,
+def metrics_command(predictions: str, task: str | None, baseline: str | None, slice_column: str | None,
                     threshold: float, confidence: float, seed: int, resamples: int,
                     as_json: bool) -> None:
     """Metrics of PREDICTIONS (CSV or Parquet); with --baseline, candidate - baseline."""
-    report = evaluate_file(predictions, task, baseline, slice_column, threshold=threshold,
-                           confidence=confidence, seed=seed, resamples=resamples)
+    from registry.evaluation.predictions import infer_task
+
+    task = task or infer_task(predictions)
+    with progress_bar("bootstrap", unit="resamples"):
+        report = evaluate_file(predictions, task, baseline, slice_column, threshold=threshold,
+                               confidence=confidence, seed=seed, resamples=resamples)
     emit(report.to_dict(), as_json, render_text)
 
 
@@ -82,6 +88,3 @@ def render_text(document: dict[str, Any]) -> str:
                              f"{b['count']:>8} rows  mean score {b['mean_score']:.4f}  "
                              f"observed {b['observed_rate']:.4f}")
     return "\n".join(lines)
-
-
-COMMANDS = [metrics_command]

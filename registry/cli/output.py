@@ -5,7 +5,6 @@ from __future__ import annotations
 import dataclasses
 import enum
 import json
-import sys
 from collections.abc import Callable
 from typing import Any
 
@@ -55,10 +54,34 @@ def json_option(function: Callable[..., Any]) -> Callable[..., Any]:
                         help="Print exactly one JSON document on stdout.")(function)
 
 
+def emit_error(kind: str, message: str, place: str | None, exit_code: int, *,
+               as_json: bool) -> None:
+    """One line on stderr; under --json also `{"error": {...}}` as the one document on stdout."""
+    text = " ".join(str(message).split())
+    click.echo(f"lockkeeper: {place}: {text}" if place else f"lockkeeper: {text}", err=True)
+    if as_json:
+        click.echo(json.dumps({"error": {"kind": kind, "message": text, "place": place,
+                                         "exit_code": exit_code}}, indent=2))
+
+
 def warn(message: str) -> None:
     """A note for the person at the terminal, on stderr so JSON on stdout stays clean."""
     click.echo(message, err=True)
 
 
-def stderr_is_terminal() -> bool:
-    return sys.stderr.isatty()
+def short_time(iso_time: str) -> str:
+    """A stored ISO time for a person: to the second, in UTC, with its offset written `Z`."""
+    from datetime import UTC, datetime
+
+    try:
+        moment = datetime.fromisoformat(iso_time)
+    except (TypeError, ValueError):
+        return str(iso_time)
+    if moment.tzinfo is None:
+        moment = moment.replace(tzinfo=UTC)
+    return moment.astimezone(UTC).strftime("%Y-%m-%d %H:%M:%SZ")
+
+
+def listing(items: list[Any], when_empty: str, line: Callable[[Any], str]) -> str:
+    """One line per item, or a sentence saying there are none."""
+    return "\n".join(line(item) for item in items) if items else when_empty

@@ -7,20 +7,16 @@ from typing import Any
 
 import click
 
+from registry.cli.files import read_file_text
+from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option
-from registry.errors import UserError
 from registry.schema import Schema, diff, fingerprint, load, resolution_document, resolve
 from registry.schema.diff import SchemaDiff
 
 
-def _read_schema(path: str) -> Schema:
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise UserError("no such schema file", place=path) from None
-    except (OSError, UnicodeDecodeError) as error:
-        raise UserError(f"cannot read schema file: {error}", place=path) from None
-    return load(text, source=path)
+def read_schema(path: str | Path) -> Schema:
+    """The schema in an .avsc file; every problem with the file or the schema is one line."""
+    return load(read_file_text(path, "a schema"), source=str(path))
 
 
 def _render_resolution(document: dict[str, Any]) -> str:
@@ -39,7 +35,7 @@ def _render_diff(document: dict[str, Any]) -> str:
                      for c in document["changes"])
 
 
-@click.group("schema")
+@click.group("schema", cls=LazyGroup)
 def schema_group() -> None:
     """Check, compare and fingerprint Avro schemas (no catalogue needed)."""
 
@@ -51,7 +47,7 @@ def schema_group() -> None:
 @click.pass_context
 def check_command(ctx: click.Context, reader: str, writer: str, as_json: bool) -> None:
     """Can data written with WRITER be read with READER? Exit 0 if so, 1 if not."""
-    resolution = resolve(_read_schema(reader), _read_schema(writer))
+    resolution = resolve(read_schema(reader), read_schema(writer))
     emit(resolution_document(resolution), as_json, _render_resolution)
     if not resolution.compatible:
         ctx.exit(1)
@@ -61,12 +57,16 @@ def check_command(ctx: click.Context, reader: str, writer: str, as_json: bool) -
 @click.argument("old", metavar="OLD")
 @click.argument("new", metavar="NEW")
 @json_option
-def diff_command(old: str, new: str, as_json: bool) -> None:
-    """Every change from OLD to NEW, each safe or breaking for readers or for writers."""
-    changes: SchemaDiff = diff(_read_schema(old), _read_schema(new))
+@click.pass_context
+def diff_command(ctx: click.Context, old: str, new: str, as_json: bool) -> None:
+    """Every change from OLD to NEW, each safe or breaking for readers or for writers.
+    Exit 1 if any change is breaking."""
+    changes: SchemaDiff = diff(read_schema(old), read_schema(new))
     document = {"changes": [{"path": c.path, "kind": c.kind, "message": c.message,
                              "classification": c.classification} for c in changes.changes]}
     emit(document, as_json, _render_diff)
+    if changes.breaks_readers or changes.breaks_writers:
+        ctx.exit(1)
 
 
 @schema_group.command("fingerprint")
@@ -74,10 +74,7 @@ def diff_command(old: str, new: str, as_json: bool) -> None:
 @json_option
 def fingerprint_command(schema: str, as_json: bool) -> None:
     """Parsing Canonical Form of SCHEMA with its CRC-64-AVRO and SHA-256 fingerprints."""
-    result = fingerprint(_read_schema(schema))
+    result = fingerprint(read_schema(schema))
     document = {"canonical_form": result.canonical_form, "crc64_avro": result.crc64_avro,
                 "sha256": result.sha256}
     emit(document, as_json, lambda d: "\n".join(f"{k}: {v}" for k, v in d.items()))
-
-
-COMMANDS = [schema_group]

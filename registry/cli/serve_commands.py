@@ -57,6 +57,3 @@ def serve(host: str, port: int, workers: int) -> None:
     gunicorn_application(app, {"bind": f"{host}:{port}", "workers": workers,
                                "accesslog": "-", "errorlog": "-", "loglevel": "warning",
                                "timeout": 60}).run()
-
-
-COMMANDS = [serve]

@@ -6,8 +6,10 @@ from __future__ import annotations
 import click
 
 from registry.cli.catalogue_commands import _actor, _context, read_text
-from registry.cli.catalogue_commands import model as model_group
-from registry.cli.output import emit, json_option, to_plain
+from registry.cli.lazy_group import LazyGroup
+from registry.cli.output import emit, json_option, short_time, to_plain
+from registry.cli.params import FilePath, model_version_arguments, parse_version_number
+from registry.cli.progress import progress_bar
 from registry.errors import UserError
 from registry.gates import GateReport, render_report
 from registry.service import gatekeeping, stages
@@ -61,8 +63,7 @@ def with_waive_options(function):
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--to", "stage", required=True, help="The stage to check entry into.")
 @with_waive_options
 @json_option
@@ -74,8 +75,9 @@ def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_js
         report = report.get("report", report)
     else:
         actor = _actor()
-        report = stages.check(_context().catalogue(), model_name, version, stage, actor,
-                              _waivers(waive_gates, reasons, actor)).report
+        with progress_bar("gathering evidence", unit="resamples"):
+            report = stages.check(_context().catalogue(), model_name, version, stage, actor,
+                                  _waivers(waive_gates, reasons, actor)).report
     passed = report["passed"]
     emit({**report, "would_move": passed}, as_json,
          lambda d: ("WOULD PASS" if passed else "WOULD BE REFUSED") + "\n" +
@@ -85,8 +87,7 @@ def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_js
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--to", "stage", required=True, help="The stage to move the version into.")
 @click.option("--expect-holder", default=None, metavar="VERSION|none",
               help="Only move if the stage is still held by this version (default: whoever "
@@ -96,13 +97,11 @@ def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_js
 def promote(model_name: str, version: int, stage: str, expect_holder: str | None, waive_gates,
             reasons, as_json: bool) -> None:
     """Move a version into a stage if the stage's gates allow it."""
-    if expect_holder not in (None, "none") and not expect_holder.isdigit():
-        raise UserError("--expect-holder takes a version number or `none`",
-                        place="--expect-holder")
+    holder = (None if expect_holder in (None, "none")
+              else parse_version_number(expect_holder, place="--expect-holder"))
     remote = _context().remote()
     if remote:
-        holder = {None: None, "none": None}.get(expect_holder, expect_holder)
-        extra = {} if expect_holder is None else {"expect_holder": int(holder) if holder else None}
+        extra = {} if expect_holder is None else {"expect_holder": holder}
         outcome = remote.promote(model_name, version, stage,
                                  _remote_waivers(waive_gates, reasons), **extra)
     else:
@@ -114,9 +113,10 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
         elif expect_holder == "none":
             expected = stages.HolderSnapshot(stage, ())
         else:
-            expected = stages.HolderSnapshot(stage, (int(expect_holder),))
-        outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers,
-                                 expected)
+            expected = stages.HolderSnapshot(stage, (holder,))
+        with progress_bar("gathering evidence", unit="resamples"):
+            outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers,
+                                     expected)
     outcome = to_plain(outcome)
     emit(outcome, as_json, lambda o: _render_outcome(o, "PROMOTED"))
     if not outcome["moved"]:
@@ -124,8 +124,7 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--for", "stage", required=True, help="The stage the approval is for.")
 @click.option("--note", default="", help="What you checked.")
 @json_option
@@ -158,8 +157,7 @@ def rollback(model_name: str, stage: str, waive_gates, reasons, as_json: bool) -
 
 
 @click.command()
-@click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@model_version_arguments
 @click.option("--reason", default="", help="Why the version leaves service.")
 @json_option
 def retire(model_name: str, version: int, reason: str, as_json: bool) -> None:
@@ -185,6 +183,9 @@ def status(model_name: str, as_json: bool) -> None:
         for stage, numbers in d["stages"].items():
             held = ", ".join(f"v{n}" for n in numbers) or "-"
             lines.append(f"  {stage:<10} {held}")
+        for flagged in d.get("recalled_upstream", []):
+            lines.append(f"FLAGGED: v{flagged['version']} ({', '.join(flagged['stages'])}) is "
+                         f"downstream of recalled {', '.join(flagged['recalled'])}")
         return "\n".join(lines)
 
     emit(document, as_json, text)
@@ -202,18 +203,18 @@ def history(model_name: str, as_json: bool) -> None:
     def text(d):
         lines = [f"{d['model']}: {len(d['events'])} stage event(s)"]
         for e in d["events"]:
-            lines.append(f"  {e['at'][:19]}  v{e['version']:<3} {e['event']:<11} {e['stage']:<10} "
-                         f"by {e['by']}")
+            lines.append(f"  {short_time(e['at'])}  v{e['version']:<3} {e['event']:<11} "
+                         f"{e['stage']:<10} by {e['by']}")
         refused = [a for a in d["attempts"] if not a["passed"]]
         for attempt in refused:
             lines.append(f"  refused: v{attempt['version']} into {attempt['stage']} "
-                         f"(report {attempt['id']}) by {attempt['by']}")
+                         f"by {attempt['by']} (lockkeeper report show {attempt['id']})")
         return "\n".join(lines)
 
     emit(document, as_json, text)
 
 
-@click.group("policy")
+@click.group("policy", cls=LazyGroup)
 def policy_group() -> None:
     """A model's promotion policy: the ladder, exclusive stages and the gates of each stage."""
 
@@ -233,7 +234,7 @@ def policy_show(model_name: str, as_json: bool) -> None:
 
 @policy_group.command("set")
 @click.argument("model_name", metavar="MODEL")
-@click.argument("policy_file", type=click.Path(dir_okay=False))
+@click.argument("policy_file", type=FilePath("a policy"))
 @json_option
 def policy_set(model_name: str, policy_file: str, as_json: bool) -> None:
     """Give MODEL its own policy (TOML, laid over the default; admins only)."""
@@ -245,7 +246,3 @@ def policy_set(model_name: str, policy_file: str, as_json: bool) -> None:
                set_policy(_context().catalogue(), model_name, text, _actor(), source=policy_file))
     emit(outcome, as_json, lambda o: f"{o['model']} now follows {policy_file}")
 
-
-model_group.add_command(policy_group)  # `lockkeeper model policy show|set`
-
-COMMANDS = [check, promote, approve, rollback, retire, status, history]

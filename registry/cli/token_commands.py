@@ -5,19 +5,21 @@ from __future__ import annotations
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.output import emit, json_option, warn
+from registry.cli.lazy_group import LazyGroup
+from registry.cli.output import emit, json_option, listing, short_time, warn
+from registry.cli.params import SuggestingChoice
 from registry.service import tokens
 from registry.service.actors import ROLES
 
 
-@click.group("token")
+@click.group("token", cls=LazyGroup)
 def token_group() -> None:
     """Bearer tokens for the HTTP API, kept in the catalogue only as hashes."""
 
 
 @token_group.command("create")
 @click.option("--user", "user", required=True, help="Whom the token acts for.")
-@click.option("--role", "role", required=True, type=click.Choice(list(ROLES)),
+@click.option("--role", "role", required=True, type=SuggestingChoice(list(ROLES)),
               help="The one role the token acts with (the user must hold it).")
 @click.option("--expires", default=None, metavar="30d|12h|ISO-DATE",
               help="When the token stops working (default: never).")
@@ -58,15 +60,9 @@ def token_list(as_json: bool) -> None:
     def standing(record) -> str:
         if record["revoked_at"]:
             return "revoked"
-        return f"expires {record['expires_at']}" if record["expires_at"] else "no expiry"
+        return (f"expires {short_time(record['expires_at'])}" if record["expires_at"]
+                else "no expiry")
 
-    def text(d):
-        if not d["tokens"]:
-            return "no tokens"
-        return "\n".join(f"{r['id']:>4}  {r['user']:<20} {r['role']:<10} {standing(r)}  "
-                         f"{r['label']}" for r in d["tokens"])
-
-    emit(found, as_json, text)
-
-
-COMMANDS = [token_group]
+    emit(found, as_json, lambda d: listing(
+        d["tokens"], "no tokens", lambda r: f"{r['id']:>4}  {r['user']:<20} {r['role']:<10} "
+                                            f"{standing(r)}  {r['label']}"))

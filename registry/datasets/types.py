@@ -14,6 +14,7 @@ import pyarrow as pa
 from fastavro.schema import expand_schema
 
 from registry.errors import Unprocessable
+from registry.nesting import nesting_depth
 
 NUMERIC = frozenset({"int", "long", "float", "double"})
 PRIMITIVES = frozenset({"null", "boolean", "int", "long", "float", "double", "bytes", "string"})
@@ -90,8 +91,15 @@ class RecordType:
         return pa.schema([pa.field(n, t.arrow_type(), nullable=True) for n, t in self.fields])
 
 
+MAX_NESTING = 200  # JSON levels; far deeper than any real record, well inside Python's recursion
+
+
 def record_type(schema_json: Mapping[str, Any]) -> RecordType:
     """Read the dataset's record type from its Avro schema (named types expanded in place)."""
+    depth = nesting_depth(schema_json)
+    if depth > MAX_NESTING:
+        raise Unprocessable(f"the schema nests {depth} levels deep; a dataset schema may nest "
+                            f"at most {MAX_NESTING}", place="/")
     try:
         expanded = expand_schema(dict(schema_json))
     except Exception as error:  # fastavro raises several kinds for a bad schema

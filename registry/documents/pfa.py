@@ -9,13 +9,16 @@ rollback and source.
 
 from __future__ import annotations
 
+import json
 import re
 from dataclasses import dataclass
 from typing import Any
 
-from registry.documents.canonical_json import CanonicalDigest, canonical_digest
+from registry.documents.canonical_json import CanonicalDigest, MeasuredValue, canonical_digest
 from registry.errors import Unprocessable, UserError
 from registry.schema import Names, Schema, SchemaError, parse
+from registry.schema.model import Array, Enum, Fixed, Primitive, Union
+from registry.schema.defaults import check_json_encoded
 
 
 class InvalidPfaDocument(Unprocessable):
@@ -35,6 +38,7 @@ NAME_PATTERN = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 
 # Values that may be large and are never needed as Python objects: measured, not decoded.
 _LARGE_VALUES = (("cells", "*", "init"), ("pools", "*", "init"))
+INIT_CHECKED_BYTES = 4 * 1024 * 1024  # inits up to this size are decoded and checked value by value
 
 
 @dataclass(frozen=True)
@@ -74,7 +78,7 @@ def read_pfa(data: bytes, *, source: str = "") -> PfaSummary:
     try:
         digest = canonical_digest(data, measure=_LARGE_VALUES)
         document = _decode_without_large_values(data, digest)
-        return _summarise(document, digest)
+        return _summarise(document, digest, data)
     except SchemaError as error:
         # A schema error keeps its pointer into the document and names the document apart.
         raise (error.with_source(source) if source else error) from None
@@ -117,7 +121,7 @@ def _pointer(*parts: str | int) -> str:
     return "/" + "/".join(escaped)
 
 
-def _summarise(document: Any, digest: CanonicalDigest) -> PfaSummary:
+def _summarise(document: Any, digest: CanonicalDigest, data: bytes) -> PfaSummary:
     if not isinstance(document, dict):
         raise _fail("a PFA document is a JSON object", "/")
     allowed = set(REQUIRED_FIELDS) | set(OPTIONAL_FIELDS) | {LOCATOR_MARK}
@@ -160,8 +164,8 @@ def _summarise(document: Any, digest: CanonicalDigest) -> PfaSummary:
     names = Names()
     input_schema = parse(document["input"], names=names, place="/input")
     output_schema = parse(document["output"], names=names, place="/output")
-    cells = _storage(document, "cells", names, digest)
-    pools = _storage(document, "pools", names, digest)
+    cells = _storage(document, "cells", names, digest, data)
+    pools = _storage(document, "pools", names, digest, data)
     function_count = _functions(document, names)
     for key in ("begin", "action", "end", "merge"):
         if key in document:
@@ -172,7 +176,7 @@ def _summarise(document: Any, digest: CanonicalDigest) -> PfaSummary:
 
 
 def _storage(document: dict[str, Any], section: str, names: Names,
-             digest: CanonicalDigest) -> tuple[CellSummary, ...]:
+             digest: CanonicalDigest, data: bytes) -> tuple[CellSummary, ...]:
     """Cells or pools (PFA specification, "Cell and pool structure")."""
     table = document.get(section, {})
     if not isinstance(table, dict):
@@ -220,12 +224,46 @@ def _storage(document: dict[str, Any], section: str, names: Names,
                         _pointer(section, cell_name, "init"))
         cell_type = parse(cell["type"], names=names,
                           place=_pointer(section, cell_name, "type"))
+        if source == "embedded" and measured is not None:
+            _check_init(cell_type, measured, data, is_pool, _pointer(section, cell_name, "init"))
         summaries.append(CellSummary(
             name=cell_name, type=cell_type,
             size=measured.size if measured is not None else 2,
             items=measured.items if measured is not None else 0,
             shared=flags["shared"], rollback=flags["rollback"], source=source))
     return tuple(summaries)
+
+
+def _check_init(cell_type: Schema, measured: MeasuredValue, data: bytes, is_pool: bool,
+                place: str) -> None:
+    """The initial value is the declared type in Avro's JSON encoding (PFA specification, "Cell
+    and pool structure"); a pool's init holds one such value per item. An init past
+    INIT_CHECKED_BYTES is held to the kind of JSON value its type needs, not decoded whole."""
+    if measured.size > INIT_CHECKED_BYTES:
+        if not is_pool and measured.kind not in _json_kinds(cell_type):
+            raise _fail(f"the initial value does not fit the declared type: a JSON "
+                        f"{measured.kind} cannot be a {cell_type.describe()}", place)
+        return
+    init = json.loads(data[measured.start:measured.end])
+    items = init.items() if is_pool else [(None, init)]
+    for item, value in items:
+        found = check_json_encoded(cell_type, value)
+        if found is not None:
+            within, message = found
+            where = place + ("" if item is None else _pointer(item)) + within
+            raise _fail(f"the initial value does not fit the declared type: {message}", where)
+
+
+def _json_kinds(schema: Schema) -> set[str]:
+    """The kinds of JSON value that can encode a datum of `schema` (Avro, JSON Encoding)."""
+    if isinstance(schema, Primitive):
+        return {"null": {"null"}, "boolean": {"true", "false"}, "string": {"string"},
+                "bytes": {"string"}}.get(schema.kind, {"number"})
+    if isinstance(schema, (Enum, Fixed)):
+        return {"string"}
+    if isinstance(schema, Array):
+        return {"array"}
+    return {"object", "null"} if isinstance(schema, Union) else {"object"}
 
 
 def _functions(document: dict[str, Any], names: Names) -> int:

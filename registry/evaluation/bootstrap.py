@@ -28,6 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from registry.evaluation import metrics as m
+from registry import progress
 from registry.evaluation.predictions import Predictions
 from registry.lazy_import import lazy_import
 
@@ -194,6 +195,7 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
                     kernels.transpose_into(block, by_row[first:first + block.shape[1]])
             for name, st in linear.items():
                 collected[name].append(st.finish(sums[:, spans[name]], sums[:, -1]))
+            progress.advance(count)
             if walking is not None:
                 walking.result()
             if ranked:

@@ -4,6 +4,7 @@ complete lineage with nothing upstream recalled."""
 from __future__ import annotations
 
 from collections.abc import Mapping
+from datetime import timezone
 from typing import Any
 
 from registry.gates.evidence import Evidence, parse_time, to_plain
@@ -92,7 +93,7 @@ def lineage_complete(evidence: Evidence, settings: Mapping[str, Any], stage: str
     for recall in evidence.recalled_upstream:
         chain = " -> ".join(recall.via) if recall.via else recall.name
         problems.append(f"dataset {recall.name} was recalled ({recall.reason}, "
-                        f"{recall.recalled_at}); it is upstream via {chain}")
+                        f"{_to_the_second(recall.recalled_at)}); it is upstream via {chain}")
     facts = {"code_revision": evidence.code_revision,
              "datasets": to_plain(evidence.datasets),
              "recalled_upstream": to_plain(evidence.recalled_upstream),
@@ -103,3 +104,9 @@ def lineage_complete(evidence: Evidence, settings: Mapping[str, Any], stage: str
     return GateResult(gate, True, False,
                       f"code revision {evidence.code_revision}; datasets {names} registered; "
                       "nothing upstream recalled", facts)
+
+
+def _to_the_second(iso_time: str) -> str:
+    """`2026-12-04 15:30:03Z`: a stored time as people read it, in UTC with its offset."""
+    moment = parse_time(iso_time, place="recalled_at").astimezone(timezone.utc)
+    return moment.strftime("%Y-%m-%d %H:%M:%SZ")

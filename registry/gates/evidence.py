@@ -294,6 +294,8 @@ class Evidence:
     datasets: the candidate's training and evaluation datasets.
     recalled_upstream: recalled datasets upstream of the candidate.
     approvals: recorded approvals of the candidate.
+    holds_top_stage: the top stage's name when the candidate holds it itself (so there is no
+      incumbent other than itself), else None.
     """
 
     model: str
@@ -315,6 +317,7 @@ class Evidence:
     datasets: tuple[DatasetRecord, ...] = ()
     recalled_upstream: tuple[RecalledDataset, ...] = ()
     approvals: tuple[Approval, ...] = ()
+    holds_top_stage: str | None = None
 
     @property
     def has_incumbent(self) -> bool:

@@ -7,7 +7,7 @@ from typing import Any
 
 from registry.gates.evidence import APPROVER, Evidence, to_plain
 from registry.gates.report import GateResult
-from registry.gates.schema_gates import NO_INCUMBENT, NOTHING_TO_COMPARE
+from registry.gates.schema_gates import no_incumbent
 
 
 def feature_meaning(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:
@@ -15,7 +15,7 @@ def feature_meaning(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     acknowledgement from an approver other than the author (when the policy asks for one)."""
     gate = "feature-meaning"
     if not evidence.has_incumbent:
-        return GateResult(gate, True, False, NO_INCUMBENT, notes=(NOTHING_TO_COMPARE,))
+        return no_incumbent(gate, evidence)
     notes = []
     acknowledged: dict[str, list[str]] = {}
     for ack in evidence.acknowledgements:

@@ -17,6 +17,7 @@ from typing import Any
 
 from registry.errors import NotFound, UserError
 from registry.gates.settings import GATE_SETTINGS, GATES, validate_setting
+from registry.suggest import did_you_mean
 
 RETIRED = "retired"  # outside the ladder: a version taken out of service
 STAGE_NAME = re.compile(r"^[a-z][a-z0-9]*(-[a-z0-9]+)*$")
@@ -84,7 +85,9 @@ class Policy:
             return self.stages[name]
         except KeyError:
             known = ", ".join((*self.ladder, RETIRED))
-            raise UnknownStage(f"unknown stage {name!r}; this model's stages are {known}",
+            raise UnknownStage(f"unknown stage {name!r}"
+                               f"{did_you_mean(name, (*self.ladder, RETIRED))} "
+                               f"(this model's stages are {known})",
                                place=f"stage {name}") from None
 
     def is_exclusive(self, stage: str) -> bool:
@@ -251,7 +254,8 @@ def _stage(name: str, table: Any, fail) -> StageRule:
     for gate, settings in gates.items():
         gate_place = f"{place}.gates.{gate}"
         if gate not in GATE_SETTINGS:
-            raise fail(f"unknown gate {gate!r}; the gates are {', '.join(GATES)}", gate_place)
+            raise fail(f"unknown gate {gate!r}{did_you_mean(gate, GATES)} "
+                       f"(the gates are {', '.join(GATES)})", gate_place)
         if settings is False:
             continue
         if settings is True:

@@ -8,7 +8,7 @@ from typing import Any
 
 from registry.gates.evidence import Evidence, PairedComparison, to_plain
 from registry.gates.report import GateResult
-from registry.gates.schema_gates import NO_INCUMBENT, NOTHING_TO_COMPARE
+from registry.gates.schema_gates import no_incumbent
 
 
 def holm_adjust(p_values: Sequence[float]) -> tuple[float, ...]:
@@ -52,7 +52,7 @@ def no_regression(evidence: Evidence, settings: Mapping[str, Any], stage: str) -
     gate = "no-regression"
     metric, margin, confidence = settings["metric"], settings["margin"], settings["confidence"]
     if not evidence.has_incumbent:
-        return GateResult(gate, True, False, NO_INCUMBENT, notes=(NOTHING_TO_COMPARE,))
+        return no_incumbent(gate, evidence)
     chosen = [c for c in evidence.comparisons if c.metric == metric]
     if not chosen:
         others = sorted({c.metric for c in evidence.comparisons})
@@ -107,7 +107,7 @@ def slice_guard(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> 
     metric, margin, alpha = settings["metric"], settings["margin"], settings["alpha"]
     margins = settings["slice_margins"]
     if not evidence.has_incumbent:
-        return GateResult(gate, True, False, NO_INCUMBENT, notes=(NOTHING_TO_COMPARE,))
+        return no_incumbent(gate, evidence)
     slices = [s for s in evidence.slices if s.metric == metric]
     if not slices:
         return GateResult(gate, False, False,

@@ -128,16 +128,24 @@ class GateReport:
         """The refusal to raise when the report did not pass: every failed gate and its place."""
         failed = self.failures
         lines = "; ".join(f"{result.gate}: {result.summary}" for result in failed)
-        return Refusal(f"{self.model} version {self.version} may not enter {self.stage}: {lines}",
+        return Refusal(f"{self.model} v{self.version} may not enter {self.stage}: {lines}",
                        place=failed[0].gate if failed else None)
+
+
+def count_line(report: GateReport) -> str:
+    """"8 passed, 1 waived, 1 failed of 10 gates": a waived gate is never counted as passed."""
+    counts = {status: sum(r.status == status for r in report.results)
+              for status in ("passed", "waived", "failed")}
+    shown = [f"{counts['passed']} passed"] + [f"{n} {status}" for status, n in counts.items()
+                                              if n and status != "passed"]
+    return f"{', '.join(shown)} of {len(report.results)} gate{'s' if len(report.results) != 1 else ''}"
 
 
 def render_report(report: GateReport) -> str:
     """The report as plain text for the command line, one gate a line, notes indented below."""
-    cleared = sum(result.cleared for result in report.results)
     verdict = "allowed" if report.passed else "refused"
-    lines = [f"{report.model} version {report.version} -> {report.stage}: {verdict} "
-             f"({cleared} of {len(report.results)} gates cleared)"]
+    lines = [f"{report.model} v{report.version} -> {report.stage}: {verdict} "
+             f"({count_line(report)})"]
     if not report.results:
         lines.append("  no gate guards this stage")
     width = max((len(result.gate) for result in report.results), default=0)

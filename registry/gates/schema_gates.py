@@ -28,7 +28,13 @@ def _missing(gate: str, what: str) -> GateResult:
                       f"no {what} was supplied; the gate cannot pass without it")
 
 
-def _no_incumbent(gate: str) -> GateResult:
+def no_incumbent(gate: str, evidence: Evidence) -> GateResult:
+    """The verdict of a comparing gate with no other version to compare against: none holds
+    the top of the ladder yet, or the candidate holds it itself."""
+    if evidence.holds_top_stage:
+        itself = (f"version {evidence.version} itself holds {evidence.holds_top_stage}: there is "
+                  "no other version to compare against")
+        return GateResult(gate, True, False, NO_INCUMBENT, notes=(itself,))
     return GateResult(gate, True, False, NO_INCUMBENT, notes=(NOTHING_TO_COMPARE,))
 
 
@@ -36,7 +42,7 @@ def reads_live_feed(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     """Candidate input schema as reader resolves the live version's input schema as writer."""
     gate = "reads-live-feed"
     if not evidence.has_incumbent:
-        return _no_incumbent(gate)
+        return no_incumbent(gate, evidence)
     if evidence.feed is None:
         return _missing(gate, "check of the candidate's input schema against the live feed")
     checks = [evidence.feed]
@@ -64,7 +70,7 @@ def rollback_safe(evidence: Evidence, settings: Mapping[str, Any], stage: str) -
     so the live version can come back and read whatever the candidate's feed wrote."""
     gate = "rollback-safe"
     if not evidence.has_incumbent:
-        return _no_incumbent(gate)
+        return no_incumbent(gate, evidence)
     check = evidence.rollback
     if check is None:
         return _missing(gate, "check of the live version's input schema against the candidate's")
@@ -83,7 +89,7 @@ def output_readable(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     """Live version's output schema, the consumers' reader, resolves the candidate's output."""
     gate = "output-readable"
     if not evidence.has_incumbent:
-        return _no_incumbent(gate)
+        return no_incumbent(gate, evidence)
     check = evidence.output
     if check is None:
         return _missing(gate, "check of the candidate's output schema against the live output")
@@ -132,7 +138,7 @@ def live_data_check(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     a break whose witness never occurs there is reported as unexercised, with the counts."""
     gate = "live-data-check"
     if not evidence.has_incumbent:
-        return _no_incumbent(gate)
+        return no_incumbent(gate, evidence)
     check = evidence.feed
     if check is None:
         return _missing(gate, "check of the candidate's input schema against the live feed")

@@ -17,6 +17,7 @@ from registry.gates.report import GateReport, GateResult
 from registry.gates.schema_gates import (live_data_check, output_readable, reads_live_feed,
                                          rollback_safe)
 from registry.gates.settings import GATES
+from registry.suggest import did_you_mean
 
 GateFunction = Callable[[Evidence, Mapping[str, Any], str], GateResult]
 
@@ -48,8 +49,8 @@ def check_waivers(waivers: Sequence[Waiver], actor: Actor, policy: Policy, stage
     for waiver in waivers:
         place = f"waiver of {waiver.gate}"
         if waiver.gate not in GATES:
-            raise UserError(f"unknown gate {waiver.gate!r}; the gates are {', '.join(GATES)}",
-                            place=place)
+            raise UserError(f"unknown gate {waiver.gate!r}{did_you_mean(waiver.gate, GATES)} "
+                            f"(the gates are {', '.join(GATES)})", place=place)
         if waiver.gate not in guarding:
             raise UserError(f"gate {waiver.gate} does not guard stage {stage} in this model's "
                             "policy; there is nothing to waive", place=place)

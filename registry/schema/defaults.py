@@ -1,7 +1,10 @@
-"""Does a JSON default value fit its schema? (Avro specification, Complex Types: field defaults.)
+"""Does a JSON value fit its schema? Field defaults (Avro specification, Complex Types: field
+defaults) and values in Avro's JSON encoding (Avro specification, Encodings: JSON Encoding), as
+a PFA cell's `init` is written.
 
-Default values for bytes and fixed are strings of code points 0-255; a union default may match
-any branch (Avro 1.12; 1.11 asked for the first branch, which still passes).
+Values for bytes and fixed are strings of code points 0-255 in both. A union default may match
+any branch (Avro 1.12; 1.11 asked for the first branch, which still passes); in the JSON
+encoding a union value is null or an object of one member naming its branch, `{"double": 1.5}`.
 """
 
 from __future__ import annotations
@@ -49,7 +52,24 @@ def _pointer_token(key: str) -> str:
 
 
 def check_default(schema: Schema, value: Any) -> tuple[str, str] | None:
-    """None when `value` fits `schema`, else (JSON pointer into the value, message)."""
+    """None when the default `value` fits `schema`, else (JSON pointer into the value, message)."""
+    return _check(schema, value, tagged_unions=False)
+
+
+def check_json_encoded(schema: Schema, value: Any) -> tuple[str, str] | None:
+    """None when `value` is `schema`'s JSON encoding of a datum, else (pointer, message)."""
+    return _check(schema, value, tagged_unions=True)
+
+
+def _branch_name(branch: Schema) -> str:
+    if isinstance(branch, Primitive):
+        return branch.kind
+    if isinstance(branch, (Record, Enum, Fixed)):
+        return branch.name
+    return "array" if isinstance(branch, Array) else "map"
+
+
+def _check(schema: Schema, value: Any, *, tagged_unions: bool) -> tuple[str, str] | None:
     stack: list[tuple[Schema, Any, str]] = [(schema, value, "")]
     while stack:
         current, datum, at = stack.pop()
@@ -80,7 +100,15 @@ def check_default(schema: Schema, value: Any) -> tuple[str, str] | None:
                     stack.append((field.type, datum[field.name], f"{at}/{field.name}"))
                 elif not field.has_default:
                     return at, f"field {field.name!r} of record {current.name} is missing"
+        elif isinstance(current, Union) and tagged_unions and datum is not None:
+            names = {_branch_name(branch): branch for branch in current.branches}
+            if not (isinstance(datum, dict) and len(datum) == 1 and next(iter(datum)) in names):
+                return at, (f"a union value is null or an object naming its branch, one of "
+                            f"{', '.join(names)}")
+            (name, inner), = datum.items()
+            stack.append((names[name], inner, f"{at}/{_pointer_token(name)}"))
         elif isinstance(current, Union):
-            if not any(check_default(branch, datum) is None for branch in current.branches):
+            if not any(_check(branch, datum, tagged_unions=tagged_unions) is None
+                       for branch in current.branches):
                 return at, f"{datum!r} fits no branch of the union"
     return None

@@ -28,7 +28,5 @@ class SchemaError(Unprocessable):
         return SchemaError(self.message, place=self.place, source=source, line=self.line,
                            column=self.column)
 
-    def one_line(self) -> str:
-        text = " ".join(self.message.split())
-        where = f"{self.source} {self.place}" if self.source else self.place
-        return f"{where}: {text}"
+    def where(self) -> str:
+        return f"{self.source} {self.place}" if self.source else self.place

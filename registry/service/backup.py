@@ -19,6 +19,7 @@ from typing import Any
 
 from sqlalchemy import Boolean, DateTime, Table, delete, func, select, text
 
+from registry import progress
 from registry.errors import UserError
 from registry.store import tables as t
 from registry.store.audit import AuditRecord, verify_chain
@@ -98,6 +99,7 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
                     digest.update(line)
                     out.write(line)
                     rows += 1
+                    progress.advance()
             counts[table.name] = rows
             files[f"tables/{table.name}.jsonl"] = {"rows": rows, "sha256": digest.hexdigest()}
         blob_count = 0
@@ -106,6 +108,7 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
                 .execution_options(yield_per=8)):
             (folder / "blobs" / digest_text).write_bytes(content)
             blob_count += 1
+            progress.advance()
     sequence, head_hash = (head.sequence, head.hash) if head else (0, "0" * 64)
     manifest = {"format": FORMAT, "revision": revision, "source": catalogue.dialect,
                 "exported_at": datetime.now(UTC).isoformat(timespec="seconds"),
@@ -289,6 +292,7 @@ def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSumma
         for table in _tables():
             if export.rows[table.name]:
                 uow.session.execute(table.insert(), export.rows[table.name])
+                progress.advance(len(export.rows[table.name]))
         _reset_sequences(uow)
         uow.commit()
     head = export.manifest["audit_head"]

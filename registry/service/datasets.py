@@ -22,6 +22,7 @@ from registry.service.authorisation import authorise
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+from registry.suggest import did_you_mean
 
 if TYPE_CHECKING:
     from registry.datasets import DatasetFingerprint
@@ -60,7 +61,8 @@ class DatasetSummary:
 def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
     dataset = uow.session.execute(select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
     if dataset is None:
-        raise NotFound(f"unknown dataset {name!r}", place="dataset")
+        raise NotFound(f"unknown dataset {name!r}{did_you_mean(name, uow.names.datasets())}",
+                       place="dataset")
     return dataset
 
 
@@ -99,6 +101,39 @@ def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
         created=created, profile=profile)
 
 
+def _differences(uow: UnitOfWork, existing: t.Dataset, request: DatasetRequest,
+                 parents: list[t.Dataset], feed_model: t.Model | None) -> list[str]:
+    """What a second registration under a taken name changes: each field, registered -> now."""
+    def change(what: str, registered: Any, now: Any) -> str:
+        return f"{what} ({registered or 'none'} registered, {now or 'none'} now)"
+
+    new = request.fingerprint.to_dict()
+    old = load_fingerprint(uow, existing).to_dict()
+    found = []
+    if existing.role != request.role:
+        found.append(change("role", existing.role, request.role))
+    if existing.content_digest != request.fingerprint.content_digest:
+        found.append(change("records (content digest)", existing.content_digest[:12],
+                            request.fingerprint.content_digest[:12]))
+    if existing.schema_fingerprint != request.fingerprint.schema_fingerprint:
+        found.append(change("schema", existing.schema_fingerprint[:12],
+                            request.fingerprint.schema_fingerprint[:12]))
+    for field_name, option in (("keys", "key columns"), ("excluded", "excluded columns")):
+        if sorted(old.get(field_name, [])) != sorted(new.get(field_name, [])):
+            found.append(change(option, ", ".join(old.get(field_name, [])),
+                                ", ".join(new.get(field_name, []))))
+    before, after = parents_of(uow, existing), sorted(p.name for p in parents)
+    if before != after:
+        found.append(change("derived from", ", ".join(before), ", ".join(after)))
+    feed_before = uow.session.get(t.Model, existing.feed_model_id) if existing.feed_model_id else None
+    if (feed_before and feed_before.name) != (feed_model and feed_model.name):
+        found.append(change("feed of", feed_before and feed_before.name,
+                            feed_model and feed_model.name))
+    if existing.source_uri != request.source_uri:
+        found.append(change("source", existing.source_uri, request.source_uri))
+    return found or ["its fingerprint"]
+
+
 def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> DatasetSummary:
     """Register a dataset; the same name with the same content again changes nothing."""
     check_name(request.name, what="dataset")
@@ -125,9 +160,10 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
         if existing is not None:
             if existing.registration_digest == digest:
                 return _summary(uow, existing, created=False)
-            raise AlreadyExists(f"a dataset named {request.name!r} is already registered with "
-                                "other content; datasets never change, so give this one a new "
-                                "name", place="dataset")
+            differing = "; ".join(_differences(uow, existing, request, parents, feed_model))
+            raise AlreadyExists(f"a dataset named {request.name!r} is already registered and "
+                                f"this one differs in {differing}; datasets never change, so "
+                                "give this one a new name", place="dataset")
         dataset = t.Dataset(
             name=request.name, role=request.role, source_uri=request.source_uri,
             rows=request.fingerprint.rows, content_digest=request.fingerprint.content_digest,

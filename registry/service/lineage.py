@@ -17,6 +17,7 @@ from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
+from registry.suggest import did_you_mean
 
 Direction = Literal["up", "down", "both"]
 DIRECTIONS = ("up", "down", "both")
@@ -93,7 +94,8 @@ def normalise_node(text: str) -> str:
 def _model_id(uow: UnitOfWork, name: str) -> int:
     found = uow.session.execute(select(t.Model.id).where(t.Model.name == name)).scalar_one_or_none()
     if found is None:
-        raise NotFound(f"unknown model {name!r}", place="NODE")
+        raise NotFound(f"unknown model {name!r}{did_you_mean(name, uow.names.models())}",
+                       place="NODE")
     return found
 
 
@@ -108,6 +110,7 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
             if uow.session.execute(select(t.Model.id).where(t.Model.name == m.group(1))).first():
                 hint = (f"; {m.group(1)!r} is a model: name one of its versions "
                         f"({m.group(1)}@N) or stages (model/{m.group(1)}/stage/STAGE)")
+            hint = hint or did_you_mean(m.group(1), uow.names.datasets())
             raise NotFound(f"unknown dataset {m.group(1)!r}{hint}", place="NODE")
         return node, walks.NodeKey("dataset", found)
     if m := _VERSION_ID.match(node):
@@ -116,7 +119,9 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
             select(t.Version.id).where(t.Version.model_id == model_id,
                                        t.Version.number == int(m.group(2)))).scalar_one_or_none()
         if found is None:
-            raise NotFound(f"model {m.group(1)!r} has no version {m.group(2)}", place="NODE")
+            numbers = ", ".join(f"v{n}" for n in uow.names.version_numbers(model_id)) or "none"
+            raise NotFound(f"model {m.group(1)!r} has no version {m.group(2)}; its versions "
+                           f"are {numbers}", place="NODE")
         return node, walks.NodeKey("version", found)
     m = _STAGE_ID.match(node)
     assert m is not None

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from sqlalchemy import func, select
 
@@ -13,6 +13,7 @@ from registry.service.authorisation import authorise
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+from registry.suggest import did_you_mean
 
 
 @dataclass(frozen=True)
@@ -36,6 +37,7 @@ class VersionSummary:
     created_at: str
     created_by: str
     stages: list[str]
+    recalled_upstream: list[str] = field(default_factory=list)
 
 
 @dataclass(frozen=True)
@@ -47,7 +49,8 @@ class ModelDetail:
 def find_model(uow: UnitOfWork, name: str) -> t.Model:
     model = uow.session.execute(select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
     if model is None:
-        raise NotFound(f"unknown model {name!r}", place="model")
+        raise NotFound(f"unknown model {name!r}{did_you_mean(name, uow.names.models())}",
+                       place="model")
     return model
 
 
@@ -56,7 +59,11 @@ def find_version(uow: UnitOfWork, model: t.Model, number: int) -> t.Version:
         select(t.Version).where(t.Version.model_id == model.id, t.Version.number == number)
     ).scalar_one_or_none()
     if version is None:
-        raise NotFound(f"model {model.name!r} has no version {number}", place="version")
+        numbers = uow.names.version_numbers(model.id)
+        existing = (f"its versions are {', '.join(f'v{n}' for n in numbers)}" if numbers
+                    else "it has no versions yet")
+        raise NotFound(f"model {model.name!r} has no version {number}; {existing}",
+                       place="version")
     return version
 
 
@@ -114,6 +121,8 @@ def list_models(catalogue: Catalogue) -> list[ModelSummary]:
 
 
 def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
+    from registry.service.recall import recalled_names_upstream
+
     with UnitOfWork(catalogue, write=False) as uow:
         model = find_model(uow, name)
         held = stages_by_version(uow, model)
@@ -126,4 +135,5 @@ def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
                 number=v.number, document_digest=v.document_digest, document_kind=v.document_kind,
                 description=v.description, author=v.author, code_revision=v.code_revision,
                 created_at=v.created_at.isoformat(), created_by=v.created_by,
-                stages=held.get(v.number, [])) for v in versions])
+                stages=held.get(v.number, []), recalled_upstream=recalled_names_upstream(uow, v))
+                for v in versions])

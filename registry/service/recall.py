@@ -19,6 +19,7 @@ from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+from registry.suggest import did_you_mean
 
 
 
@@ -101,7 +102,8 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
         dataset = uow.session.execute(
             select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
         if dataset is None:
-            raise NotFound(f"unknown dataset {name!r}", place="dataset")
+            raise NotFound(f"unknown dataset {name!r}{did_you_mean(name, uow.names.datasets())}",
+                           place="dataset")
         if dataset.recalled_at is not None:
             raise UserError(f"dataset {name!r} was already recalled on "
                             f"{walks.utc_iso(dataset.recalled_at)} by {dataset.recalled_by}: "
@@ -121,6 +123,14 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
                              recalled_by=actor.name, downstream_datasets=datasets,
                              downstream_versions=versions, holding_stages=to_act,
                              audit_sequence=sequence)
+
+
+def recalled_names_upstream(uow: UnitOfWork, version_row: t.Version) -> list[str]:
+    """The names of the recalled datasets upstream of a version (none: an empty list)."""
+    start = walks.NodeKey("version", version_row.id)
+    reached = {r.key for r in walks.walk(uow.session, walks.seeds_for(start), "up")}
+    facts = walks.facts_of(uow.session, reached)
+    return sorted(facts[k].name for k in reached if k.kind == "dataset" and facts[k].recalled)
 
 
 def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledSource]:

@@ -20,6 +20,7 @@ from registry.service import gatekeeping
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.models import find_model, find_version
+from registry.service.recall import recalled_names_upstream
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -349,17 +350,28 @@ def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
         line = find_model(uow, model)
         policy = gatekeeping.policy_of(line)
         stages = {}
+        flagged: dict[int, dict[str, Any]] = {}
         for stage in [*policy.ladder, "retired"]:
-            stages[stage] = list(_numbers(uow, holders(uow, line, stage)))
+            holdings = holders(uow, line, stage)
+            stages[stage] = list(_numbers(uow, holdings))
+            if stage == "retired":
+                continue  # out of service: nothing to act on
+            for holding in holdings:
+                version = uow.session.get(t.Version, holding.version_id)
+                if version.number not in flagged:
+                    flagged[version.number] = {"version": version.number, "stages": [],
+                                               "recalled": recalled_names_upstream(uow, version)}
+                flagged[version.number]["stages"].append(stage)
         return {"model": line.name, "stages": stages,
-                "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)]}
+                "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)],
+                "recalled_upstream": [f for _, f in sorted(flagged.items()) if f["recalled"]]}
 
 
 def find_report(catalogue: Catalogue, report_id: int) -> dict[str, Any]:
     with UnitOfWork(catalogue, write=False) as uow:
         row = uow.session.get(t.GateReportRow, report_id)
         if row is None:
-            raise NotFound(f"no gate report {report_id}")
+            raise NotFound(f"no gate report {report_id}", place="report")
         return json.loads(row.report_json)
 
 

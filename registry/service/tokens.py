@@ -9,12 +9,12 @@ from __future__ import annotations
 
 import hashlib
 import hmac
-import re
 import secrets
 from dataclasses import dataclass
-from datetime import UTC, datetime, timedelta
+from datetime import UTC, datetime
 
 from registry.errors import LockkeeperError, NotFound, UserError
+from registry.moments import parse_moment
 from registry.names import check_name
 from registry.service.actors import ROLES, Actor
 from registry.service.authorisation import authorise, is_bootstrap, require_first_admin
@@ -24,7 +24,6 @@ from registry.store.unit_of_work import UnitOfWork, utc_now
 
 # The prefix makes a leaked secret easy to recognise in logs and secret scanners.
 SECRET_PREFIX = "lkt_"
-DURATION = re.compile(r"^(\d{1,5})([dh])$")
 
 
 class Unauthenticated(LockkeeperError):
@@ -61,19 +60,9 @@ def parse_expiry(text: str | None, *, now: datetime | None = None) -> datetime |
     if text is None or text == "":
         return None
     now = now or utc_now()
-    match = DURATION.fullmatch(text.strip())
-    if match:
-        amount, unit = int(match.group(1)), match.group(2)
-        if amount == 0:
-            raise UserError("an expiry of zero makes a token that never works", place="--expires")
-        return now + (timedelta(days=amount) if unit == "d" else timedelta(hours=amount))
-    try:
-        moment = datetime.fromisoformat(text.strip())
-    except ValueError:
-        raise UserError(f"invalid expiry {text!r}: use a duration like 30d or 12h, or an ISO "
-                        "date like 2027-01-31", place="--expires") from None
-    if moment.tzinfo is None:
-        moment = moment.replace(tzinfo=UTC)
+    moment = parse_moment(text, now=now, later=True, place="--expires", units="dh")
+    if moment == now:
+        raise UserError("an expiry of zero makes a token that never works", place="--expires")
     if moment <= now:
         raise UserError(f"expiry {text!r} is already past", place="--expires")
     return moment

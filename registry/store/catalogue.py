@@ -62,12 +62,21 @@ def _configure_sqlite(engine: Engine) -> None:
         connection.exec_driver_sql("BEGIN IMMEDIATE" if sqlite_write_intent.get() else "BEGIN")
 
 
-def create_catalogue_engine(url: URL) -> Engine:
+def sqlite_file(url: URL) -> Path | None:
+    """The file of a SQLite catalogue, or None (another database, memory, a `file:` URI)."""
+    database = url.database or ""
+    if url.get_backend_name() != "sqlite" or not database or database == ":memory:" \
+            or database.startswith("file:"):
+        return None
+    return Path(database).expanduser()
+
+
+def create_catalogue_engine(url: URL, *, create_folder: bool = True) -> Engine:
     try:
         if url.get_backend_name() == "sqlite":
-            database = url.database or ""
-            if database and database != ":memory:" and not database.startswith("file:"):
-                Path(database).expanduser().parent.mkdir(parents=True, exist_ok=True)
+            file = sqlite_file(url)
+            if file is not None and create_folder:
+                file.parent.mkdir(parents=True, exist_ok=True)
             engine = create_engine(url, poolclass=NullPool)
             _configure_sqlite(engine)
         else:
@@ -133,7 +142,13 @@ def _first_line(error: object) -> str:
 def open_catalogue(raw_url: str | None, *, must_exist: bool = True) -> Catalogue:
     """Open the catalogue named by a URL; with must_exist, insist that `init` has run."""
     url = parse_catalogue_url(raw_url)
-    engine = create_catalogue_engine(url)
+    file = sqlite_file(url)
+    if must_exist and file is not None and not file.is_file():
+        # Say so before connecting: SQLite would create the file (and we the folder) first.
+        what = "is a folder, not a catalogue file" if file.is_dir() else "does not exist"
+        raise UserError(f"the catalogue at {describe(url)} {what}; run `lockkeeper init` to "
+                        "create it", place="--db")
+    engine = create_catalogue_engine(url, create_folder=not must_exist)
     catalogue = Catalogue(url=url, engine=engine,
                           sessions=sessionmaker(engine, expire_on_commit=False))
     if must_exist:

@@ -19,6 +19,8 @@ from registry.canonical_json import canonical_json
 from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, NotFound
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
+from registry.store.audit_repository import AuditEventRepository
+from registry.store.name_repository import NameRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.role_repository import RoleRepository
@@ -93,6 +95,8 @@ class UnitOfWork:
         self.roles: RoleRepository
         self.tokens: TokenRepository
         self.evaluations: EvaluationRepository
+        self.audit_events: AuditEventRepository
+        self.names: NameRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -114,6 +118,8 @@ class UnitOfWork:
         self.roles = RoleRepository(self.session)
         self.tokens = TokenRepository(self.session)
         self.evaluations = EvaluationRepository(self.session)
+        self.audit_events = AuditEventRepository(self.session)
+        self.names = NameRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

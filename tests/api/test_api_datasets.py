@@ -73,15 +73,56 @@ def test_a_fingerprint_computed_by_the_producer_registers_the_same_dataset(api):
     assert again.status_code == 200 and again.json["created"] is False
 
 
-@pytest.mark.parametrize("fingerprint", [{}, {"rows": "many"}, {"rows": 1, "profile": []},
-                                         {"rows": 1, "content_digest": "x", "profile": {},
-                                          "schema_fingerprint": "y", "sketch": 3}])
-def test_a_broken_fingerprint_is_a_400_problem_and_stores_nothing(api, fingerprint):
+@pytest.mark.parametrize("fingerprint, field", [
+    ({}, "rows"), ({"rows": "many"}, "rows"), ({"rows": 1, "content_digest": "x"},
+                                               "content_digest")])
+def test_a_broken_fingerprint_is_a_422_problem_naming_the_field(api, fingerprint, field):
     response = api.post("/datasets", {"name": "broken", "fingerprint": fingerprint},
                         role="publisher")
-    assert response.status_code == 400, response.data
-    assert problem(response)["place"] == "body/fingerprint"
+    assert response.status_code == 422, response.data
+    assert problem(response)["place"] == f"body/fingerprint/{field}"
     assert api.get("/datasets").json["datasets"] == []
+
+
+def _live_sample_with(**changes) -> dict:
+    document = fingerprint_file(str(DATA / "brackwater-live-sample.avro"),
+                                schema_json=None).to_dict()
+    for path, value in changes.items():
+        *parents, last = path.split("__")
+        target = document
+        for step in parents:
+            target = target[step]
+        target[last] = value
+    return document
+
+
+@pytest.mark.parametrize("changes, field", [
+    ({"rows": 10**30}, "rows"),
+    ({"rows": -5}, "rows"),
+    ({"rows": True}, "rows"),
+    ({"content_digest": "B91B3EC4E6E5AFE94108603B6B47A2AC"}, "content_digest"),
+    ({"key_digest": "12345"}, "key_digest"),
+    ({"schema_fingerprint": "0" * 64}, "schema_fingerprint"),
+    ({"schema__name": "renamed_without_a_new_fingerprint"}, "schema_fingerprint"),
+    ({"keys": ["x" * 300]}, "keys"),
+    ({"profile__segment_id__nulls": 401}, "profile/segment_id/nulls"),
+    ({"sketch__k": 0}, "sketch/k"),
+])
+def test_a_producer_fingerprint_is_checked_where_it_can_be(api, changes, field):
+    # The schema fingerprint is recomputed from the schema the fingerprint carries (SHA-256 of
+    # the Parsing Canonical Form, Avro specification, Schema Fingerprints); the rest is bounded.
+    response = api.post("/datasets", {"name": "live-sample",
+                                      "fingerprint": _live_sample_with(**changes)},
+                        role="publisher")
+    assert response.status_code == 422, response.data
+    assert problem(response)["place"] == f"body/fingerprint/{field}"
+    assert api.get("/datasets").json["datasets"] == []
+
+
+def test_a_source_uri_is_bounded(api):
+    response = api.post("/datasets", {"name": "live-sample", "fingerprint": _live_sample_with(),
+                                      "source_uri": "s3://" + "x" * 5000}, role="publisher")
+    assert response.status_code == 400 and problem(response)["place"] == "body/source_uri"
 
 
 def test_dataset_uploads_refuse_bad_parts_and_wrong_roles(api):

@@ -8,6 +8,7 @@ from click.testing import CliRunner
 
 from registry.cli import main
 from .pfa_examples import LOGISTIC_REGRESSION
+from tests.cli_errors import assert_one_line_error
 
 SEED = Path(__file__).resolve().parents[2] / "seed_data"
 
@@ -37,15 +38,6 @@ def write(path: Path, content) -> Path:
         content = json.dumps(content, indent=2)
     path.write_text(content, encoding="utf-8")
     return path
-
-
-def assert_one_line_error(result, *fragments):
-    assert result.exit_code == 2, result.output
-    assert result.stdout == ""
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    for fragment in fragments:
-        assert fragment in lines[0]
 
 
 @pytest.fixture

@@ -198,3 +198,59 @@ def test_a_50_mb_cells_document_is_read_holding_at_most_two_copies():
     assert cell.items == 50_000_000 // 20
     # The input is one copy (held by the caller); reading may add at most one more.
     assert peak - baseline <= 1.1 * len(data), f"peak {peak - baseline} for {len(data)} bytes"
+
+
+# --- cell and pool inits: the declared type in Avro's JSON encoding ------------------------
+
+
+def _document_with_init(cell_type, init, section="cells"):
+    return json.dumps({"input": "double", "output": "double", "action": ["input"],
+                       section: {"c": {"type": cell_type, "init": init}}}).encode()
+
+
+def _fastavro_reads(cell_type, init) -> bool:
+    """The oracle: fastavro's JSON decoder (Avro specification, JSON Encoding) turns `init`
+    into a datum that fastavro's validator accepts for the type."""
+    import io
+
+    import fastavro
+    from fastavro.validation import validate
+
+    try:
+        datum = next(fastavro.json_reader(io.StringIO(json.dumps(init)), cell_type))
+        return validate(datum, fastavro.parse_schema(cell_type), raise_errors=False)
+    except Exception:
+        return False
+
+
+INIT_CASES = [
+    ("int", 3, None),
+    ("int", "x", "/cells/c/init"),
+    ("int", 2**31, "/cells/c/init"),
+    (["null", "double"], {"double": 1.5}, None),
+    (["null", "double"], None, None),
+    (["null", "double"], 1.5, "/cells/c/init"),
+    ({"type": "array", "items": "int"}, [1, 2, "three"], "/cells/c/init/2"),
+    ({"type": "map", "values": "double"}, {"a": 1.0, "b": True}, "/cells/c/init/b"),
+    ({"type": "record", "name": "Limits", "fields": [{"name": "low", "type": "double"}]},
+     {"low": "cold"}, "/cells/c/init/low"),
+    ({"type": "enum", "name": "Level", "symbols": ["LOW", "HIGH"]}, "MODERATE", "/cells/c/init"),
+]
+
+
+@pytest.mark.parametrize("cell_type, init, place", INIT_CASES)
+def test_a_cell_init_must_fit_its_declared_type(cell_type, init, place):
+    assert _fastavro_reads(cell_type, init) is (place is None)
+    if place is None:
+        assert read_pfa(_document_with_init(cell_type, init)).cells[0].name == "c"
+        return
+    with pytest.raises(InvalidPfaDocument) as refused:
+        read_pfa(_document_with_init(cell_type, init))
+    assert refused.value.place == place
+    assert "does not fit the declared type" in refused.value.message
+
+
+def test_each_item_of_a_pool_init_must_fit_the_pool_type():
+    with pytest.raises(InvalidPfaDocument) as refused:
+        read_pfa(_document_with_init("int", {"a": 1, "b": "two"}, section="pools"))
+    assert refused.value.place == "/pools/c/init/b"

@@ -12,6 +12,7 @@ from click.testing import CliRunner
 
 from evaluation_data import binary_pair, multiclass_pair, write_csv, write_predictions_csv
 from registry.cli import main
+from tests.cli_errors import assert_one_line_error
 
 
 def run(*arguments: str):
@@ -75,15 +76,6 @@ def test_multiclass_from_parquet(tmp_path):
     assert list(json.loads(result.stdout)["metrics"]) == ["accuracy", "macro_f1", "log_loss"]
 
 
-def assert_one_line_error(result, *fragments: str) -> None:
-    assert result.exit_code == 2, result.output
-    assert result.stdout == ""
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    for fragment in fragments:
-        assert fragment in lines[0], lines[0]
-
-
 BINARY_HEADER = ["row_id", "label", "score"]
 
 
@@ -135,7 +127,7 @@ def test_an_empty_file_is_one_line_and_exit_2(tmp_path):
 
 
 def test_a_missing_file_is_one_line_and_exit_2(tmp_path):
-    assert_one_line_error(run(str(tmp_path / "nowhere.csv"), "--task", "binary"), "cannot read")
+    assert_one_line_error(run(str(tmp_path / "nowhere.csv"), "--task", "binary"), "no such file")
 
 
 @pytest.mark.parametrize("table, fragments", [

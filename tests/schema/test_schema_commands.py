@@ -61,12 +61,18 @@ def test_check_text_output(files):
 
 def test_diff_lists_classified_changes(files):
     result = run("diff", files("v1.avsc", V1), files("v4.avsc", V4), "--json")
-    assert result.exit_code == 0
+    assert result.exit_code == 1  # a breaking change, as `features diff` and `schema check` say
     changes = json.loads(result.stdout)["changes"]
     assert [(c["path"], c["classification"]) for c in changes] == [
         ("/fields/diameter_mm/type", "breaking-for-readers"),
         ("/fields/diameter_mm/type", "breaking-for-writers")]
     assert set(changes[0]) == {"path", "kind", "message", "classification"}
+
+
+def test_diff_with_only_safe_changes_exits_0(files):
+    result = run("diff", files("v1.avsc", V1), files("v2.avsc", V2), "--json")
+    assert result.exit_code == 0, result.output
+    assert {c["classification"] for c in json.loads(result.stdout)["changes"]} <= {"safe"}
 
 
 def test_fingerprint_json_matches_fastavro(files):
@@ -82,7 +88,11 @@ def test_fingerprint_json_matches_fastavro(files):
 
 def _assert_one_line_exit_2(result, place):
     assert result.exit_code == 2
-    assert result.stdout == ""
+    if result.stdout:  # under --json the error is also the one JSON document on stdout
+        error = json.loads(result.stdout)["error"]
+        assert place in error["place"] and error["exit_code"] == 2
+    else:
+        assert result.stdout == ""
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1, result.stderr
     assert place in lines[0]
@@ -100,12 +110,20 @@ def test_invalid_schema_exits_2_with_one_line_naming_the_place(files, case, sche
 @pytest.mark.parametrize("text, where", [
     ('{"type": "record", "name": "R" "fields": []}', "line 1, column 32"),
     ('{"type": "int"', "line 1, column 15"),
-    ("", "line 1, column 1"),
+    ("{", "line 1, column 2"),
     ('{"type": "map",\n "values": long}', "line 2, column 12"),
 ])
 def test_invalid_json_exits_2_naming_line_and_column(files, text, where):
     bad = files("bad.avsc", text)
     _assert_one_line_exit_2(run("check", files("v1.avsc", V1), bad, "--json"), where)
+
+
+@pytest.mark.parametrize("content, message", [("", "is empty"), (" \n", "only white space")])
+def test_an_empty_schema_file_is_refused_in_the_words_of_every_empty_file(files, content,
+                                                                         message):
+    result = run("fingerprint", files("empty.avsc", content))
+    _assert_one_line_exit_2(result, "empty.avsc")
+    assert message in result.stderr
 
 
 def test_missing_file_exits_2(tmp_path):

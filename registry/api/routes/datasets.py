@@ -25,8 +25,9 @@ from registry.errors import UserError
 from registry.service import datasets
 
 ROLE = {"type": "string", "enum": list(datasets.DATASET_ROLES)}
+URI = {"type": "string", "maxLength": 4096}
 DATASET_BODY = strict_object({
-    "name": NAME, "role": ROLE, "fingerprint": {"type": "object"}, "source_uri": TEXT,
+    "name": NAME, "role": ROLE, "fingerprint": {"type": "object"}, "source_uri": URI,
     "derived_from": {"type": "array", "items": NAME}, "feed_of": {"type": ["string", "null"],
                                                                  "maxLength": 100},
 }, ("name", "fingerprint"))
@@ -47,7 +48,9 @@ DATASET_FORM = {
 
 def _fingerprint_from_json(value: dict):
     from registry.datasets import DatasetFingerprint
+    from registry.datasets.fingerprint_checks import check_fingerprint_document
 
+    check_fingerprint_document(value, place="body/fingerprint")
     try:
         return DatasetFingerprint.from_dict(value)
     except UserError as error:
