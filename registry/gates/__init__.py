@@ -2,6 +2,7 @@
 
 from registry.gates.approval_gate import check_approval
 from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval, ColumnCounts,
+                                     ConsumerCheck, FeedSchemaCheck,
                                      ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
                                      FeatureChange, PairedComparison, RecalledDataset,
                                      SampleProfile, SchemaCheck, SchemaProblem, SliceComparison,
@@ -16,6 +17,7 @@ from registry.gates.verdict import check_waivers, evaluate
 
 __all__ = [
     "APPROVER", "GATES", "RETIRED", "Acknowledgement", "Actor", "Approval", "ColumnCounts",
+    "ConsumerCheck", "FeedSchemaCheck",
     "ContainmentEstimate", "DatasetRecord", "Evidence", "EvidenceError", "FeatureChange",
     "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
     "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "SliceComparison",

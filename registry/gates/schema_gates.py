@@ -6,6 +6,8 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
+from registry.gates.contract_gates import (consumers_read_output, reads_declared_feed,
+                                           rollback_reads_declared_feed)
 from registry.gates.evidence import Evidence, SampleProfile, SchemaCheck, SchemaProblem, to_plain
 from registry.gates.report import GateResult
 
@@ -35,6 +37,8 @@ def _no_incumbent(gate: str) -> GateResult:
 def reads_live_feed(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:
     """Candidate input schema as reader resolves the live version's input schema as writer."""
     gate = "reads-live-feed"
+    if evidence.feed_name is not None:
+        return reads_declared_feed(evidence)
     if not evidence.has_incumbent:
         return _no_incumbent(gate)
     if evidence.feed is None:
@@ -65,6 +69,8 @@ def rollback_safe(evidence: Evidence, settings: Mapping[str, Any], stage: str) -
     gate = "rollback-safe"
     if not evidence.has_incumbent:
         return _no_incumbent(gate)
+    if evidence.feed_name is not None:
+        return rollback_reads_declared_feed(evidence)
     check = evidence.rollback
     if check is None:
         return _missing(gate, "check of the live version's input schema against the candidate's")
@@ -82,6 +88,8 @@ def rollback_safe(evidence: Evidence, settings: Mapping[str, Any], stage: str) -
 def output_readable(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:
     """Live version's output schema, the consumers' reader, resolves the candidate's output."""
     gate = "output-readable"
+    if evidence.consumer_checks:
+        return consumers_read_output(evidence)
     if not evidence.has_incumbent:
         return _no_incumbent(gate)
     check = evidence.output
@@ -105,7 +113,7 @@ def _column(problem: SchemaProblem) -> str | None:
     return parts[2] if len(parts) > 2 and parts[1] == "fields" else None
 
 
-def _occurrences(problem: SchemaProblem, profile: SampleProfile) -> tuple[str, int | None, str]:
+def occurrences(problem: SchemaProblem, profile: SampleProfile) -> tuple[str, int | None, str]:
     """How often the live sample exercises a break: (what is counted, count or None, column)."""
     column = _column(problem) or "?"
     witness = problem.witness
@@ -152,7 +160,7 @@ def live_data_check(evidence: Evidence, settings: Mapping[str, Any], stage: str)
                           {"check": to_plain(check)})
     findings = []
     for problem in check.problems:
-        what, count, column = _occurrences(problem, profile)
+        what, count, column = occurrences(problem, profile)
         if count is None:
             status = "unknown"  # the column was not profiled
         elif count > 0:

@@ -90,7 +90,7 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
                 version.input_schema_json, version.output_schema_json, version.features_json,
                 version.description, version.code_revision, version.author,
                 linked.get("trained-on", []), linked.get("evaluated-on", []),
-                version.parent_number))
+                version.parent_number, feed=_declared_feed(uow, version)))
         except (json.JSONDecodeError, TypeError, ValueError):
             findings.append(Finding(place, "its stored schemas or features are not readable JSON"))
             continue
@@ -102,6 +102,11 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
         if not found:
             findings += _document_findings(uow, version, place)
     return count, findings
+
+
+def _declared_feed(uow: UnitOfWork, version: t.Version) -> str | None:
+    feed = uow.feeds.declared_by_version(version)
+    return feed.name if feed is not None else None
 
 
 def _registration_findings(place: str, recomputed: str, recorded: dict | None,

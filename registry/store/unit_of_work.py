@@ -20,6 +20,8 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.consumer_repository import ConsumerRepository
+from registry.store.feed_repository import FeedRepository
 from registry.store.role_repository import RoleRepository
 
 
@@ -89,6 +91,8 @@ class UnitOfWork:
         self.blobs: BlobStore
         self.audit: AuditLog
         self.roles: RoleRepository
+        self.feeds: FeedRepository
+        self.consumers: ConsumerRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -108,6 +112,8 @@ class UnitOfWork:
     def _attach_repositories(self) -> None:
         """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
         self.roles = RoleRepository(self.session)
+        self.feeds = FeedRepository(self.session)
+        self.consumers = ConsumerRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
