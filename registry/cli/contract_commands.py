@@ -92,8 +92,8 @@ def _live_text(live: dict) -> str:
             f"({live['status']})")
 
 
-def _render_verdict(d: dict) -> str:
-    lines = [("PASSES" if d["passed"] else "REFUSED") + f": {d['summary']}"]
+def _render_verdict(d: dict, refused: str = "REFUSED") -> str:
+    lines = [("PASSES" if d["passed"] else refused) + f": {d['summary']}"]
     for holder in d["holders"]:
         mark = "reads" if holder["reads"] else "CANNOT READ"
         kind = "exclusive" if holder["exclusive"] else "shared"
@@ -162,7 +162,7 @@ def feed_check(name: str, schema_path: str, as_json: bool) -> None:
         from registry.service.feeds import check_feed_schema
 
         verdict = check_feed_schema(_context().catalogue(), name, text, place=schema_path)
-    emit(verdict, as_json, _render_verdict)
+    emit(verdict, as_json, lambda d: _render_verdict(d, "WOULD BE REFUSED"))
     _fail_unless(verdict["passed"])
 
 

@@ -60,7 +60,7 @@ class ConsumerRepository:
         """Every consumer with the name of the model it reads."""
         return list(self._session.execute(
             select(t.Consumer, t.Model.name).join(t.Model, t.Model.id == t.Consumer.model_id)
-            .order_by(t.Consumer.name)).tuples())
+            .order_by(t.Consumer.name)).all())
 
     def of_models(self, model_ids) -> list[t.Consumer]:
         ids = sorted(set(model_ids))
@@ -81,7 +81,7 @@ class ConsumerRepository:
             .join(t.Version, t.Version.id == t.StageHolding.version_id)
             .where(t.StageHolding.model_id == model_id, t.StageHolding.stage != "retired")
             .order_by(t.StageHolding.is_exclusive.desc(), t.StageHolding.stage,
-                      t.Version.number)).tuples())
+                      t.Version.number)).all())
 
     def serving_versions(self, model_ids) -> list[tuple[int, int]]:
         """(model id, version id) of every version holding an exclusive stage: the output the
@@ -92,4 +92,4 @@ class ConsumerRepository:
         return list(self._session.execute(
             select(t.StageHolding.model_id, t.StageHolding.version_id)
             .where(t.StageHolding.model_id.in_(ids), t.StageHolding.is_exclusive)
-            .distinct()).tuples())
+            .distinct()).all())

@@ -86,7 +86,7 @@ class FeedRepository:
             return []
         return list(self._session.execute(
             select(t.FeedSource.feed_id, t.FeedSource.dataset_id)
-            .where(t.FeedSource.dataset_id.in_(ids))).tuples())
+            .where(t.FeedSource.dataset_id.in_(ids))).all())
 
     def sources_of(self, feed_ids: Iterable[int]) -> list[tuple[int, int]]:
         """(feed id, dataset id) for every source of the feeds."""
@@ -95,7 +95,7 @@ class FeedRepository:
             return []
         return list(self._session.execute(
             select(t.FeedSource.feed_id, t.FeedSource.dataset_id)
-            .where(t.FeedSource.feed_id.in_(ids))).tuples())
+            .where(t.FeedSource.feed_id.in_(ids))).all())
 
     # -- who reads a feed ------------------------------------------------------------------
 
