@@ -127,3 +127,9 @@ def impact_of(catalogue: Catalogue, model: str, number: int, stage: str) -> dict
     """What changes if version `number` of `model` enters `stage`; changes nothing."""
     with UnitOfWork(catalogue, write=False) as uow:
         return impact_in(uow, model, number, stage)
+
+
+def ladder_of(catalogue: Catalogue, model: str) -> list[str]:
+    """The stages a version of `model` may be asked about, bottom to top."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        return list(policy_of(find_model(uow, model)).ladder)

@@ -204,3 +204,15 @@ class FeedRepository:
             newest[dataset.feed_model_id] = dataset
         return newest
 
+
+    def stages_held(self, version_ids: Iterable[int]) -> dict[int, list[str]]:
+        """version id -> the stages it holds now, by name."""
+        held: dict[int, list[str]] = {}
+        ids = sorted(set(version_ids))
+        for start in range(0, len(ids), 500):
+            for version, stage in self._session.execute(
+                    select(t.StageHolding.version_id, t.StageHolding.stage)
+                    .where(t.StageHolding.version_id.in_(ids[start:start + 500]))
+                    .order_by(t.StageHolding.stage)):
+                held.setdefault(version, []).append(stage)
+        return held
