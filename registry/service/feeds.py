@@ -68,7 +68,7 @@ def _schema_entry(schema: t.FeedSchema, flying: set[int]) -> dict[str, Any]:
 def _describe(uow: UnitOfWork, feed: t.Feed, *, with_schemas: bool) -> dict[str, Any]:
     schemas = uow.feeds.schemas(feed)
     flying = {s.number for s in sources.in_flight(schemas, feed.retain_days, datetime.now(UTC))}
-    readers = sorted({(h.model, h.version.number, h.stage) for h in uow.feeds.reading_holders(feed)})
+    readers = sorted({(h.model, h.version, h.stage) for h in uow.feeds.reading_holders(feed)})
     document = {"feed": feed.name, "description": feed.description,
                 "retain_days": feed.retain_days, "created_at": _iso(feed.created_at),
                 "created_by": feed.created_by, "built_from": uow.feeds.source_names(feed),
@@ -124,11 +124,17 @@ def _readings(uow: UnitOfWork, feed: t.Feed, proposed: avro.Schema) -> list[Hold
     samples = uow.feeds.live_samples({h.model_id for h in holders})
     profiles = {model_id: sources.sample_profile(uow, sample)
                 for model_id, sample in samples.items()}
+    # One resolution per distinct reader schema; each parsed schema is dropped as soon as it is
+    # resolved, so a thousand of them never sit in memory together.
+    verdicts: dict[str, avro.Resolution] = {}
     readings = []
     for holder in holders:
-        resolution = avro.resolve(sources.input_schema(holder.version), proposed)
+        resolution = verdicts.get(holder.input_schema_json)
+        if resolution is None:
+            reader = avro.parse(json.loads(holder.input_schema_json))
+            resolution = verdicts[holder.input_schema_json] = avro.resolve(reader, proposed)
         readings.append(HolderReading(
-            model=holder.model, version=holder.version.number, stage=holder.stage,
+            model=holder.model, version=holder.version, stage=holder.stage,
             is_exclusive=holder.is_exclusive, compatible=resolution.compatible,
             problems=sources.problems_of(resolution), notes=sources.notes_of(resolution),
             live_sample=profiles.get(holder.model_id)))

@@ -13,11 +13,12 @@ from registry.store import tables as t
 
 @dataclass(frozen=True)
 class ReadingHolder:
-    """A version that reads a feed and holds a stage now."""
+    """A version that reads a feed and holds a stage now: only what the feed check needs."""
 
     model: str
     model_id: int
-    version: t.Version
+    version: int
+    input_schema_json: str
     stage: str
     is_exclusive: bool
 
@@ -169,8 +170,8 @@ class FeedRepository:
         declared = t.VersionFeed.__table__.alias("declared")
         on_model = t.ModelFeed.__table__.alias("on_model")
         rows = self._session.execute(
-            select(t.Model.name, t.Model.id, t.Version, t.StageHolding.stage,
-                   t.StageHolding.is_exclusive)
+            select(t.Model.name, t.Model.id, t.Version.number, t.Version.input_schema_json,
+                   t.StageHolding.stage, t.StageHolding.is_exclusive)
             .select_from(t.StageHolding)
             .join(t.Version, t.Version.id == t.StageHolding.version_id)
             .join(t.Model, t.Model.id == t.StageHolding.model_id)
@@ -180,9 +181,9 @@ class FeedRepository:
                    t.StageHolding.stage != "retired")
             .order_by(t.StageHolding.is_exclusive.desc(), t.Model.name, t.StageHolding.stage,
                       t.Version.number)).all()
-        return [ReadingHolder(model=name, model_id=model_id, version=version, stage=stage,
-                              is_exclusive=bool(exclusive))
-                for name, model_id, version, stage, exclusive in rows]
+        return [ReadingHolder(model=name, model_id=model_id, version=number,
+                              input_schema_json=schema, stage=stage, is_exclusive=bool(exclusive))
+                for name, model_id, number, schema, stage, exclusive in rows]
 
     def live_sample(self, model_id: int) -> t.Dataset | None:
         """The newest live sample registered as taken from the model's feed."""
