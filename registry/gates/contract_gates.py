@@ -9,11 +9,13 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from registry.gates.evidence import ConsumerCheck, Evidence, FeedSchemaCheck, to_plain
+from registry.gates.evidence import (ConsumerCheck, Evidence, FeedSchemaCheck, SchemaCheck,
+                                     to_plain)
 from registry.gates.report import GateResult
 
 
-def first_problem(check: FeedSchemaCheck | ConsumerCheck) -> str:
+def first_problem(check: SchemaCheck | FeedSchemaCheck | ConsumerCheck) -> str:
+    """The first problem of a check with its path, and how many more there are."""
     if not check.problems:
         return "incompatible (the schema check gave no detail)"
     first = check.problems[0]

@@ -6,23 +6,15 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from registry.gates.contract_gates import (consumers_read_output, reads_declared_feed,
-                                           rollback_reads_declared_feed)
+from registry.gates.contract_gates import consumers_read_output
+from registry.gates.contract_gates import first_problem as _first_problem
+from registry.gates.contract_gates import reads_declared_feed, rollback_reads_declared_feed
 from registry.gates.evidence import Evidence, SampleProfile, SchemaCheck, SchemaProblem, to_plain
 from registry.gates.report import GateResult
 
 NO_INCUMBENT = "no incumbent: nothing to compare against"
 NOTHING_TO_COMPARE = ("no version holds the top of the ladder yet (first version into it): "
                       "there was nothing to compare against")
-
-
-def _first_problem(check: SchemaCheck) -> str:
-    if not check.problems:
-        return "incompatible (the schema check gave no detail)"
-    first = check.problems[0]
-    more = len(check.problems) - 1
-    tail = f" (and {more} more problem{'s' if more > 1 else ''})" if more else ""
-    return f"{first.path}: {first.message}{tail}"
 
 
 def _missing(gate: str, what: str) -> GateResult:

@@ -62,17 +62,6 @@ class ConsumerRepository:
             select(t.Consumer, t.Model.name).join(t.Model, t.Model.id == t.Consumer.model_id)
             .order_by(t.Consumer.name)).all())
 
-    def of_models(self, model_ids) -> list[t.Consumer]:
-        ids = sorted(set(model_ids))
-        if not ids:
-            return []
-        return list(self._session.execute(
-            select(t.Consumer).where(t.Consumer.model_id.in_(ids))
-            .order_by(t.Consumer.name)).scalars())
-
-    def get(self, consumer_id: int) -> t.Consumer | None:
-        return self._session.get(t.Consumer, consumer_id)
-
     def holdings(self, model_id: int) -> list[tuple[t.Version, str, bool]]:
         """(version, stage, exclusive) for every stage a version of the model holds now,
         exclusive stages first; retired left out."""
@@ -82,14 +71,3 @@ class ConsumerRepository:
             .where(t.StageHolding.model_id == model_id, t.StageHolding.stage != "retired")
             .order_by(t.StageHolding.is_exclusive.desc(), t.StageHolding.stage,
                       t.Version.number)).all())
-
-    def serving_versions(self, model_ids) -> list[tuple[int, int]]:
-        """(model id, version id) of every version holding an exclusive stage: the output the
-        model's consumers read now."""
-        ids = sorted(set(model_ids))
-        if not ids:
-            return []
-        return list(self._session.execute(
-            select(t.StageHolding.model_id, t.StageHolding.version_id)
-            .where(t.StageHolding.model_id.in_(ids), t.StageHolding.is_exclusive)
-            .distinct()).all())

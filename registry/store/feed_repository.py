@@ -32,9 +32,6 @@ class FeedRepository:
     def named(self, name: str) -> t.Feed | None:
         return self._session.execute(select(t.Feed).where(t.Feed.name == name)).scalar_one_or_none()
 
-    def get(self, feed_id: int) -> t.Feed | None:
-        return self._session.get(t.Feed, feed_id)
-
     def every(self) -> list[t.Feed]:
         return list(self._session.execute(select(t.Feed).order_by(t.Feed.name)).scalars())
 
@@ -80,29 +77,11 @@ class FeedRepository:
         return self._session.execute(
             select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
 
-    def built_from(self, dataset_ids: Iterable[int]) -> list[tuple[int, int]]:
-        """(feed id, dataset id) for every feed built from one of the datasets."""
-        ids = sorted(set(dataset_ids))
-        if not ids:
-            return []
-        return list(self._session.execute(
-            select(t.FeedSource.feed_id, t.FeedSource.dataset_id)
-            .where(t.FeedSource.dataset_id.in_(ids))).all())
-
-    def sources_of(self, feed_ids: Iterable[int]) -> list[tuple[int, int]]:
-        """(feed id, dataset id) for every source of the feeds."""
-        ids = sorted(set(feed_ids))
-        if not ids:
-            return []
-        return list(self._session.execute(
-            select(t.FeedSource.feed_id, t.FeedSource.dataset_id)
-            .where(t.FeedSource.feed_id.in_(ids))).all())
-
     # -- who reads a feed ------------------------------------------------------------------
 
     def of_model(self, model: t.Model) -> t.Feed | None:
         row = self._session.get(t.ModelFeed, model.id)
-        return self.get(row.feed_id) if row else None
+        return self._session.get(t.Feed, row.feed_id) if row else None
 
     def set_for_model(self, model: t.Model, feed: t.Feed) -> None:
         row = self._session.get(t.ModelFeed, model.id)
@@ -116,53 +95,17 @@ class FeedRepository:
         """The feed a version reads: its manifest's, or else its model's."""
         row = self._session.get(t.VersionFeed, version.id)
         if row is not None:
-            return self.get(row.feed_id)
+            return self._session.get(t.Feed, row.feed_id)
         model_row = self._session.get(t.ModelFeed, version.model_id)
-        return self.get(model_row.feed_id) if model_row else None
+        return self._session.get(t.Feed, model_row.feed_id) if model_row else None
 
     def declared_by_version(self, version: t.Version) -> t.Feed | None:
         row = self._session.get(t.VersionFeed, version.id)
-        return self.get(row.feed_id) if row else None
+        return self._session.get(t.Feed, row.feed_id) if row else None
 
     def set_for_version(self, version: t.Version, feed: t.Feed) -> None:
         self._session.add(t.VersionFeed(version_id=version.id, feed_id=feed.id))
         self._session.flush()
-
-    def feeds_of_versions(self, version_ids: Iterable[int]) -> dict[int, int]:
-        """version id -> the id of the feed it reads (manifest first, then model)."""
-        ids = sorted(set(version_ids))
-        if not ids:
-            return {}
-        found: dict[int, int] = {}
-        for version_id, feed_id in self._session.execute(
-                select(t.Version.id, t.ModelFeed.feed_id)
-                .join(t.ModelFeed, t.ModelFeed.model_id == t.Version.model_id)
-                .where(t.Version.id.in_(ids))):
-            found[version_id] = feed_id
-        for version_id, feed_id in self._session.execute(
-                select(t.VersionFeed.version_id, t.VersionFeed.feed_id)
-                .where(t.VersionFeed.version_id.in_(ids))):
-            found[version_id] = feed_id
-        return found
-
-    def reading_versions(self, feed_ids: Iterable[int]) -> list[tuple[int, int]]:
-        """(feed id, version id) for every version reading one of the feeds."""
-        ids = sorted(set(feed_ids))
-        if not ids:
-            return []
-        declared = {version: feed for feed, version in self._session.execute(
-            select(t.VersionFeed.feed_id, t.VersionFeed.version_id))}
-        pairs = set()
-        for feed_id, version_id in self._session.execute(
-                select(t.ModelFeed.feed_id, t.Version.id)
-                .join(t.Version, t.Version.model_id == t.ModelFeed.model_id)
-                .where(t.ModelFeed.feed_id.in_(ids))):
-            if declared.get(version_id, feed_id) == feed_id:
-                pairs.add((feed_id, version_id))
-        for version_id, feed_id in declared.items():
-            if feed_id in ids:
-                pairs.add((feed_id, version_id))
-        return sorted(pairs)
 
     def reading_holders(self, feed: t.Feed) -> list[ReadingHolder]:
         """Every version reading the feed that holds a stage other than retired, in one query
@@ -184,13 +127,6 @@ class FeedRepository:
         return [ReadingHolder(model=name, model_id=model_id, version=number,
                               input_schema_json=schema, stage=stage, is_exclusive=bool(exclusive))
                 for name, model_id, number, schema, stage, exclusive in rows]
-
-    def live_sample(self, model_id: int) -> t.Dataset | None:
-        """The newest live sample registered as taken from the model's feed."""
-        return self._session.execute(
-            select(t.Dataset).where(t.Dataset.feed_model_id == model_id,
-                                    t.Dataset.role == "live-sample")
-            .order_by(t.Dataset.created_at.desc(), t.Dataset.id.desc())).scalars().first()
 
     def live_samples(self, model_ids: Iterable[int]) -> dict[int, t.Dataset]:
         """model id -> its newest live sample, for many models in one query."""
