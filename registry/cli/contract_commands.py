@@ -203,7 +203,8 @@ def model_set_feed(model_name: str, feed_name: str, as_json: bool) -> None:
     """Declare that MODEL reads FEED (a version's manifest may name its own `feed`)."""
     remote = _remote()
     if remote:
-        outcome = remote._post(_path("models", model_name, "feed"), {"feed": feed_name})
+        outcome = remote.request("PUT", _path("models", model_name, "feed"),
+                                 body={"feed": feed_name})[2]
     else:
         from registry.service.feeds import set_model_feed
 
