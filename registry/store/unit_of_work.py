@@ -21,8 +21,10 @@ from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.consumer_repository import ConsumerRepository
+from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.feed_repository import FeedRepository
 from registry.store.role_repository import RoleRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -93,6 +95,8 @@ class UnitOfWork:
         self.roles: RoleRepository
         self.feeds: FeedRepository
         self.consumers: ConsumerRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -114,6 +118,8 @@ class UnitOfWork:
         self.roles = RoleRepository(self.session)
         self.feeds = FeedRepository(self.session)
         self.consumers = ConsumerRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

@@ -18,7 +18,6 @@ from registry.api.routing import route
 from registry.service import consumers, feeds
 from registry.service.impact import impact_of
 
-WRITERS = ("publisher", "approver")
 RETAIN_DAYS = {"type": "integer", "minimum": 1, "maximum": feeds.LONGEST_RETAIN_DAYS}
 CREATE_FEED_BODY = strict_object({"name": NAME, "description": TEXT, "retain_days": RETAIN_DAYS,
                                   "built_from": {"type": "array", "items": NAME}}, ("name",))
@@ -41,7 +40,7 @@ def list_feeds():
     return json_response(feeds.list_feeds(catalogue()))
 
 
-@route("/feeds", "POST", role=WRITERS, summary="Create a feed (publisher)", tag="contracts",
+@route("/feeds", "POST", action="feed.create", summary="Create a feed (publisher)", tag="contracts",
        body=CREATE_FEED_BODY, responses={201: "Created"})
 def create_feed():
     body = json_body(CREATE_FEED_BODY)
@@ -58,7 +57,7 @@ def show_feed(feed: str):
     return json_response(feeds.show_feed(catalogue(), path_name(feed, "feed")))
 
 
-@route("/feeds/<feed>/schemas", "POST", role=WRITERS, summary="Publish the feed's next writer "
+@route("/feeds/<feed>/schemas", "POST", action="feed.publish", summary="Publish the feed's next writer "
        "schema; refused (`refused`: true, nothing published) when a holder of an exclusive "
        "stage cannot read it, unless an approver gives `waiver_reason`", tag="contracts",
        body=PUBLISH_BODY)
@@ -77,7 +76,7 @@ def check_feed_schema(feed: str):
                                                  _schema_text(body), place="schema"))
 
 
-@route("/models/<model>/feed", "PUT", role=WRITERS, summary="Declare the feed a model reads",
+@route("/models/<model>/feed", "PUT", action="model.set-feed", summary="Declare the feed a model reads",
        tag="contracts", body=SET_FEED_BODY)
 def set_model_feed(model: str):
     body = json_body(SET_FEED_BODY)
@@ -91,7 +90,7 @@ def list_consumers():
     return json_response(consumers.list_consumers(catalogue()))
 
 
-@route("/consumers", "POST", role=WRITERS, summary="Declare a consumer of a model's output "
+@route("/consumers", "POST", action="consumer.add", summary="Declare a consumer of a model's output "
        "(publisher)", tag="contracts", body=ADD_CONSUMER_BODY, responses={201: "Created"})
 def add_consumer():
     body = json_body(ADD_CONSUMER_BODY)
@@ -106,14 +105,14 @@ def show_consumer(consumer: str):
     return json_response(consumers.show_consumer(catalogue(), path_name(consumer, "consumer")))
 
 
-@route("/consumers/<consumer>", "DELETE", role=WRITERS, summary="Remove a declared consumer",
+@route("/consumers/<consumer>", "DELETE", action="consumer.remove", summary="Remove a declared consumer",
        tag="contracts")
 def remove_consumer(consumer: str):
     return json_response(consumers.remove_consumer(catalogue(), path_name(consumer, "consumer"),
                                                    g.actor))
 
 
-@route("/consumers/<consumer>/schemas", "POST", role=WRITERS, summary="Record a consumer's "
+@route("/consumers/<consumer>/schemas", "POST", action="consumer.update", summary="Record a consumer's "
        "next reader schema", tag="contracts", body=UPDATE_CONSUMER_BODY)
 def update_consumer(consumer: str):
     body = json_body(UPDATE_CONSUMER_BODY)
