@@ -361,14 +361,28 @@ def render_impact(d: dict) -> str:
     return "\n".join(lines)
 
 
+def model_and_version(model_name: str, version: str | None) -> tuple[str, int]:
+    """MODEL N, MODEL vN or MODEL@N (DESIGN.md: how a version is named)."""
+    if "@" in model_name:
+        if version is not None:
+            raise UserError("name the version once: MODEL@N or MODEL N", place="VERSION")
+        model_name, version = model_name.split("@", 1)
+    text = (version or "").removeprefix("v")
+    if not text.isdigit() or not 1 <= int(text) < 2**31:
+        raise UserError(f"not a version number: {version!r}; use N, vN or MODEL@N",
+                        place="VERSION")
+    return model_name, int(text)
+
+
 @click.command()
 @click.argument("model_name", metavar="MODEL")
-@click.argument("version", type=int)
+@click.argument("version", required=False)
 @click.option("--to", "stage", required=True, help="The stage the version would enter.")
 @json_option
-def impact(model_name: str, version: int, stage: str, as_json: bool) -> None:
+def impact(model_name: str, version: str | None, stage: str, as_json: bool) -> None:
     """What changes if VERSION enters STAGE: feeds, consumers, features, metrics, slices and
-    datasets. Changes nothing."""
+    datasets. Changes nothing. VERSION is N or vN; MODEL@N names both."""
+    model_name, version = model_and_version(model_name, version)
     remote = _remote()
     if remote:
         found = remote._get(_path("models", model_name, "versions", str(version), "impact")

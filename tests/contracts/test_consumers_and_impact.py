@@ -75,6 +75,11 @@ def test_impact_has_exactly_the_keys_of_the_issue_and_changes_nothing(cli, tmp_p
     assert audit_count(cli) == before
     text = cli("impact", "m", str(second), "--to", "live")
     assert text.exit_code == 0 and "what changes if m v2 goes to live" in text.output
+    # A version is named N, vN or MODEL@N (DESIGN.md).
+    assert cli.json("impact", f"m@{second}", "--to", "live") == found
+    assert cli.json("impact", "m", f"v{second}", "--to", "live") == found
+    for wrong in (("m", "two"), ("m@2", "2"), ("m",), ("m", "0")):
+        assert cli("impact", *wrong, "--to", "live").exit_code == 2, wrong
 
 
 def test_impact_on_the_demo_shows_metrics_and_slices_that_move(catalogue_url, cli):
