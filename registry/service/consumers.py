@@ -48,7 +48,7 @@ def _describe(uow: UnitOfWork, consumer: t.Consumer, model: str) -> dict[str, An
 
 
 def _model_name(uow: UnitOfWork, consumer: t.Consumer) -> str:
-    return uow.session.get(t.Model, consumer.model_id).name
+    return uow.consumers.model_name(consumer)
 
 
 def add_consumer(catalogue: Catalogue, name: str, model: str, schema_text: str, actor: Actor, *,

@@ -14,8 +14,7 @@ from registry import gates
 from registry.names import check_name
 from registry.service import evidence_sources as sources
 from registry.service.gatekeeping import gather_evidence, policy_of, top_holder
-from registry.service.models import find_model, find_version
-from registry.service.stages import holders
+from registry.service.models import find_model, find_version, holders_by_stage
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
@@ -105,8 +104,8 @@ def impact_in(uow: UnitOfWork, model: str, number: int, stage: str) -> dict[str,
     policy.stage(stage)  # an unknown stage is a user error
     incumbent = None
     if policy.is_exclusive(stage):
-        held = holders(uow, line, stage)
-        incumbent = uow.session.get(t.Version, held[0].version_id) if held else None
+        held = holders_by_stage(uow, line).get(stage)
+        incumbent = find_version(uow, line, held[0]) if held else None
     if incumbent is None:
         incumbent = top_holder(uow, line, policy)
     # Metrics are compared as the quality gates of the stage would, or else as the top stage's.

@@ -30,6 +30,10 @@ class ConsumerRepository:
         self._session.delete(consumer)
         self._session.flush()
 
+    def model_name(self, consumer: t.Consumer) -> str:
+        """The name of the model whose output the consumer reads."""
+        return self._session.get(t.Model, consumer.model_id).name
+
     def schemas(self, consumer: t.Consumer) -> list[t.ConsumerSchema]:
         return list(self._session.execute(
             select(t.ConsumerSchema).where(t.ConsumerSchema.consumer_id == consumer.id)
