@@ -69,6 +69,19 @@ def rollback_reads_declared_feed(evidence: Evidence) -> GateResult:
                        "restores,", "reads")
 
 
+def declared_feed_check(evidence: Evidence) -> SchemaCheck | None:
+    """For live-data-check: the break of reads-live-feed to weigh against the live sample when
+    the model declares its feed (the first feed schema in flight the candidate cannot read, else
+    the current one), as a plain schema check; None without a declared, published feed."""
+    if evidence.feed_name is None or not evidence.feed_checks:
+        return None
+    failing = [check for check in evidence.feed_checks if not check.compatible]
+    chosen = failing[0] if failing else evidence.feed_checks[0]
+    return SchemaCheck(reader_version=evidence.version, writer_version=chosen.feed_version,
+                       compatible=chosen.compatible, problems=chosen.problems,
+                       notes=chosen.notes)
+
+
 def consumers_read_output(evidence: Evidence) -> GateResult:
     """output-readable for a model with declared consumers: each consumer's current reader
     schema resolves the candidate's output schema as writer."""

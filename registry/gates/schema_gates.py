@@ -8,7 +8,8 @@ from typing import Any
 
 from registry.gates.contract_gates import consumers_read_output
 from registry.gates.contract_gates import first_problem as _first_problem
-from registry.gates.contract_gates import reads_declared_feed, rollback_reads_declared_feed
+from registry.gates.contract_gates import (declared_feed_check, reads_declared_feed,
+                                           rollback_reads_declared_feed)
 from registry.gates.evidence import Evidence, SampleProfile, SchemaCheck, SchemaProblem, to_plain
 from registry.gates.report import GateResult
 
@@ -131,9 +132,11 @@ def live_data_check(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     """Weigh each static break of reads-live-feed against the registered live sample's profile:
     a break whose witness never occurs there is reported as unexercised, with the counts."""
     gate = "live-data-check"
-    if not evidence.has_incumbent:
-        return _no_incumbent(gate)
-    check = evidence.feed
+    check = declared_feed_check(evidence)
+    if check is None:
+        if not evidence.has_incumbent:
+            return _no_incumbent(gate)
+        check = evidence.feed
     if check is None:
         return _missing(gate, "check of the candidate's input schema against the live feed")
     if check.compatible:

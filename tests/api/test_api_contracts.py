@@ -50,6 +50,15 @@ def test_every_contract_route_is_in_the_openapi_document():
         assert method in paths[path], (path, method)
 
 
+def test_publishing_the_current_schema_again_is_idempotent_and_says_so(ready):
+    api = ready
+    before = _events(api)
+    again = api.post("/feeds/segment-features/schemas", {"schema": INPUT_SCHEMA},
+                     role="publisher")
+    assert again.status_code == 200 and again.json["published"] is False
+    assert "identical" in again.json["summary"] and _events(api) == before
+
+
 def test_a_refused_schema_is_published_only_with_an_approvers_waiver(ready):
     api = ready
     check = api.post("/feeds/segment-features/check", {"schema": DROPPED}, role="reader")

@@ -127,3 +127,21 @@ def test_the_consumer_gate_reports_every_failing_consumer():
     # The evidence round-trips as plain JSON like every other gate evidence.
     plain = gates.to_plain(_evidence(consumer_checks=checks))
     assert gates.from_plain(gates.Evidence, plain).consumer_checks == checks
+
+
+def test_live_data_check_weighs_the_break_of_the_declared_feed():
+    from registry.gates.schema_gates import live_data_check
+
+    problem = gates.SchemaProblem(path="/fields/district", rule="missing-field",
+                                  message="no default")
+    checks = (gates.FeedSchemaCheck(feed="segment-features", feed_version=2,
+                                    published_at="2026-12-04T12:00:00+00:00", is_current=True,
+                                    version=2, compatible=True),
+              gates.FeedSchemaCheck(feed="segment-features", feed_version=1,
+                                    published_at="2026-12-01T12:00:00+00:00", is_current=False,
+                                    version=2, compatible=False, problems=(problem,)))
+    evidence = gates.Evidence(model="m", version=2, author="ines.okafor",
+                              evaluated_at="2026-12-04T12:00:00+00:00",
+                              feed_name="segment-features", feed_checks=checks)
+    result = live_data_check(evidence, {"min_rows": 100, "unexercised_blocks": False}, "live")
+    assert not result.passed and "/fields/district" in result.summary
