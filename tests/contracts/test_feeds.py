@@ -6,6 +6,7 @@ Resolution's (Avro specification, Schema Resolution); fastavro is the oracle whe
 from __future__ import annotations
 
 import io
+import json
 from datetime import UTC, datetime, timedelta
 from types import SimpleNamespace
 
@@ -129,3 +130,28 @@ def test_a_schema_stays_in_flight_until_its_successor_is_older_than_the_window()
     assert [r.number for r in in_flight(rows, 30, now)] == [1, 2, 3]
     assert [r.number for r in in_flight(rows, 1, now)] == [3]
     assert in_flight([], 7, now) == []
+
+
+def test_audit_verify_finds_a_feed_or_reader_schema_changed_behind_its_back(cli, catalogue_url,
+                                                                            tmp_path):
+    from sqlalchemy import create_engine, text
+
+    from tests.catalogue.helpers import OUTPUT_SCHEMA
+
+    set_up_contracts(cli, tmp_path)
+    cli.json("consumer", "add", "work-order-planner", "--reads", "m", "--schema",
+             write_schema(tmp_path, "reader", OUTPUT_SCHEMA))
+    assert cli.json("audit", "verify")["ok"] is True
+    engine = create_engine(catalogue_url)
+    try:
+        with engine.begin() as connection:
+            connection.execute(text("UPDATE feed_schemas SET schema_json = :changed"),
+                               {"changed": json.dumps(without_field(INPUT_SCHEMA,
+                                                                    "diameter_mm"))})
+            connection.execute(text("UPDATE consumer_schemas SET fingerprint = :forged"),
+                               {"forged": "0" * 64})
+    finally:
+        engine.dispose()
+    report = cli.json("audit", "verify", expect=1)
+    places = {finding["place"] for finding in report["findings"]}
+    assert {"feed/segment-features/version/1", "consumer/work-order-planner/version/1"} <= places
