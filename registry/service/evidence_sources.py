@@ -259,7 +259,8 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
 def problems_of(resolution: avro.Resolution) -> tuple[gates.SchemaProblem, ...]:
     return tuple(
         gates.SchemaProblem(path=p.path, rule=p.rule, message=p.message,
-                            witness={k: v for k, v in (p.witness or {}).items() if k in WITNESS_KEYS})
+                            witness={k: v for k, v in (p.witness or {}).items()
+                                     if k in WITNESS_KEYS})
         for p in resolution.problems)
 
 

@@ -31,7 +31,8 @@ LONGEST_RETAIN_DAYS = 3650
 
 def check_retain_days(value: Any) -> int:
     """A retention window is a positive whole number of days."""
-    if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= LONGEST_RETAIN_DAYS:
+    whole = isinstance(value, int) and not isinstance(value, bool)
+    if not whole or not 1 <= value <= LONGEST_RETAIN_DAYS:
         raise UserError(f"the retention must be a whole number of days from 1 to "
                         f"{LONGEST_RETAIN_DAYS}, not {value!r}", place="--retain-days")
     return value

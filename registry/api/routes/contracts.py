@@ -40,7 +40,8 @@ def list_feeds():
     return json_response(feeds.list_feeds(catalogue()))
 
 
-@route("/feeds", "POST", action="feed.create", summary="Create a feed (publisher)", tag="contracts",
+@route("/feeds", "POST", action="feed.create",
+       summary="Create a feed (publisher)", tag="contracts",
        body=CREATE_FEED_BODY, responses={201: "Created"})
 def create_feed():
     body = json_body(CREATE_FEED_BODY)
@@ -57,7 +58,8 @@ def show_feed(feed: str):
     return json_response(feeds.show_feed(catalogue(), path_name(feed, "feed")))
 
 
-@route("/feeds/<feed>/schemas", "POST", action="feed.publish", summary="Publish the feed's next writer "
+@route("/feeds/<feed>/schemas", "POST", action="feed.publish",
+       summary="Publish the feed's next writer "
        "schema; refused (`refused`: true, nothing published) when a holder of an exclusive "
        "stage cannot read it, unless an approver gives `waiver_reason`", tag="contracts",
        body=PUBLISH_BODY)
@@ -76,7 +78,8 @@ def check_feed_schema(feed: str):
                                                  _schema_text(body), place="schema"))
 
 
-@route("/models/<model>/feed", "PUT", action="model.set-feed", summary="Declare the feed a model reads",
+@route("/models/<model>/feed", "PUT", action="model.set-feed",
+       summary="Declare the feed a model reads",
        tag="contracts", body=SET_FEED_BODY)
 def set_model_feed(model: str):
     body = json_body(SET_FEED_BODY)
@@ -90,7 +93,8 @@ def list_consumers():
     return json_response(consumers.list_consumers(catalogue()))
 
 
-@route("/consumers", "POST", action="consumer.add", summary="Declare a consumer of a model's output "
+@route("/consumers", "POST", action="consumer.add",
+       summary="Declare a consumer of a model's output "
        "(publisher)", tag="contracts", body=ADD_CONSUMER_BODY, responses={201: "Created"})
 def add_consumer():
     body = json_body(ADD_CONSUMER_BODY)
@@ -105,14 +109,16 @@ def show_consumer(consumer: str):
     return json_response(consumers.show_consumer(catalogue(), path_name(consumer, "consumer")))
 
 
-@route("/consumers/<consumer>", "DELETE", action="consumer.remove", summary="Remove a declared consumer",
+@route("/consumers/<consumer>", "DELETE", action="consumer.remove",
+       summary="Remove a declared consumer",
        tag="contracts")
 def remove_consumer(consumer: str):
     return json_response(consumers.remove_consumer(catalogue(), path_name(consumer, "consumer"),
                                                    g.actor))
 
 
-@route("/consumers/<consumer>/schemas", "POST", action="consumer.update", summary="Record a consumer's "
+@route("/consumers/<consumer>/schemas", "POST", action="consumer.update",
+       summary="Record a consumer's "
        "next reader schema", tag="contracts", body=UPDATE_CONSUMER_BODY)
 def update_consumer(consumer: str):
     body = json_body(UPDATE_CONSUMER_BODY)
