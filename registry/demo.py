@@ -122,6 +122,46 @@ def brackwater_story() -> list[Step]:
     ]
 
 
+TELEMETRY = "efua.mensah"  # the telemetry team's engineer, who owns the feed
+
+
+def contracts_story() -> list[Step]:
+    """The feed and the consumer as contracts: the telemetry team publishes `segment-features`,
+    its proposed v3 is refused because live reads the field it drops, and a proposed reader of
+    `work-order-planner` is shown breaking the live version."""
+    c = BRACKWATER / "contracts"
+    return [
+        Step(ADMIN, ("user", "grant", TELEMETRY, "publisher"),
+             caption="The telemetry team owns the feed main-burst-risk reads; it becomes a "
+                     "contract with numbered writer schemas."),
+        Step(TELEMETRY, ("feed", "create", "segment-features", "--description",
+                         "Segment features the telemetry team writes for scoring",
+                         "--retain-days", "14", "--built-from", "brackwater-telemetry-extract")),
+        Step(TELEMETRY, ("feed", "publish", "segment-features",
+                         str(c / "segment-features-v1.avsc"), "--note", "today's records")),
+        Step(AUTHOR, ("model", "set-feed", "main-burst-risk", "segment-features")),
+        Step(TELEMETRY, ("feed", "publish", "segment-features",
+                         str(c / "segment-features-v2.avsc"), "--note", "adds repairs_5y"),
+             caption="v2 adds repairs_5y: live v1 reads it, ignoring the new field."),
+        Step(TELEMETRY, ("feed", "check", "segment-features",
+                         str(c / "segment-features-v3-proposed.avsc")), expect=1,
+             caption="A proposed v3 drops soil_corrosivity: live reads it, so the check "
+                     "names who breaks."),
+        Step(TELEMETRY, ("feed", "publish", "segment-features",
+                         str(c / "segment-features-v3-proposed.avsc")), expect=1),
+        Step(AUTHOR, ("consumer", "add", "work-order-planner", "--reads", "main-burst-risk",
+                      "--schema", str(c / "work-order-planner-v1.avsc"), "--owner",
+                      "asset planning team"),
+             caption="The work-order planner declares how it reads burst risk."),
+        Step(AUTHOR, ("consumer", "check", "work-order-planner",
+                      str(c / "work-order-planner-v2-proposed.avsc")), expect=1,
+             caption="Its proposed reader needs a field no version writes: live would break."),
+        Step(AUTHOR, ("impact", "main-burst-risk", "2", "--to", "live"),
+             caption="What changes if v2 goes live again: feed versions, consumers, features, "
+                     "metrics, slices and datasets."),
+    ]
+
+
 def night_flow_story() -> list[Step]:
     d = NIGHT_FLOW / "datasets"
     return [
@@ -171,8 +211,8 @@ def story() -> list[Step]:
         Step(AUTHOR, ("status", "night-flow-leak")),
         Step(AUTHOR, ("audit", "verify")),
     ]
-    return [*people, *models, *brackwater_datasets(), *brackwater_story(), *night_flow_story(),
-            *closing]
+    return [*people, *models, *brackwater_datasets(), *brackwater_story(), *contracts_story(),
+            *night_flow_story(), *closing]
 
 
 def play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None]) -> None:

@@ -12,7 +12,7 @@ from registry.errors import UserError
 
 KNOWN_KEYS = {
     "description", "code_revision", "author", "input_schema", "output_schema", "features",
-    "trained_on", "evaluated_on", "parent_version",
+    "trained_on", "evaluated_on", "parent_version", "feed",
 }
 
 
@@ -31,6 +31,7 @@ class Manifest:
     trained_on: tuple[str, ...] = ()
     evaluated_on: tuple[str, ...] = ()
     parent_version: int | None = None
+    feed: str | None = None  # the feed the version reads, when not its model's
     inline_features: dict | None = field(default=None, compare=False)
 
 
@@ -76,5 +77,6 @@ def parse_manifest(text: str, *, source: str = "manifest") -> Manifest:
         trained_on=_names(table, "trained_on", source),
         evaluated_on=_names(table, "evaluated_on", source),
         parent_version=parent,
+        feed=_string(table, "feed", source) or None,
         inline_features=inline_features,
     )

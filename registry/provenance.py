@@ -17,8 +17,8 @@ PREFIX = "lk"
 
 @dataclass(frozen=True)
 class ProvEntity:
-    id: str  # a lineage node id: dataset/NAME or model/M/version/N
-    kind: str  # dataset | version
+    id: str  # a lineage node id: dataset/NAME, model/M/version/N, feed/NAME or consumer/NAME
+    kind: str  # dataset | version | feed | consumer
     label: str
     created_at: str
     created_by: str
@@ -30,14 +30,14 @@ class ProvEntity:
 class ProvUse:
     version: str  # node id of the version whose registration used the dataset
     dataset: str
-    relation: str  # trained-on | evaluated-on
+    relation: str  # trained-on | evaluated-on | reads-feed (then `dataset` names the feed)
 
 
 @dataclass(frozen=True)
 class ProvDerivation:
     derived: str
     source: str
-    relation: str  # derived-from | parent-version
+    relation: str  # derived-from | parent-version | built-from | reads-output-of
 
 
 @dataclass(frozen=True)

@@ -623,6 +623,26 @@ def generate_night_flow(root: Path) -> None:
                in zip(evaluation["dma_id"], evaluation["leak_l_h"], prediction)])
 
 
+def generate_contracts(root: Path) -> None:
+    """The contracts chapter: the telemetry team's feed `segment-features` (v1 as main-burst-risk
+    v1 reads, v2 adding repairs_5y, a proposed v3 dropping soil_corrosivity) and the reader
+    schemas of the consumer `work-order-planner` (its v2 requires a field no version writes)."""
+    folder = root / "brackwater" / "contracts"
+    folder.mkdir(parents=True, exist_ok=True)
+    proposed = segment_schema(2)
+    proposed["fields"] = [f for f in proposed["fields"] if f["name"] != "soil_corrosivity"]
+    planner = burst_risk_schema()
+    planner["doc"] = "Burst risk as the work-order planner reads it."
+    wanting_cost = json.loads(json.dumps(planner))
+    wanting_cost["fields"].append({"name": "expected_repair_cost_gbp", "type": "double"})
+    for name, schema in {"segment-features-v1": segment_schema(1),
+                         "segment-features-v2": segment_schema(2),
+                         "segment-features-v3-proposed": proposed,
+                         "work-order-planner-v1": planner,
+                         "work-order-planner-v2-proposed": wanting_cost}.items():
+        write_json(folder / f"{name}.avsc", schema)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--out", type=Path, default=Path(__file__).resolve().parent,
@@ -630,6 +650,7 @@ def main() -> None:
     arguments = parser.parse_args()
     generate_brackwater(arguments.out)
     generate_night_flow(arguments.out)
+    generate_contracts(arguments.out)
 
 
 if __name__ == "__main__":

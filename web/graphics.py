@@ -71,7 +71,7 @@ def _levels(graph: LineageGraph) -> dict[str, int]:
     for node in depends:
         settle(node, frozenset())
     offset, columns = 0, {}
-    for kind in ("dataset", "version", "stage"):
+    for kind in ("dataset", "feed", "version", "stage", "consumer"):
         members = [n for n in level if kind_of[n] == kind]
         if not members:
             continue
@@ -134,7 +134,8 @@ def layout(graph: LineageGraph) -> GraphDrawing:
                                 f"{edge.source} {edge.relation} {edge.target}"))
     column_count = max(columns.values(), default=0) + 1
     width = 2 * MARGIN + column_count * (NODE_WIDTH + COLUMN_GAP) - COLUMN_GAP
-    heading_names = {"dataset": "datasets", "version": "versions", "stage": "stages"}
+    heading_names = {"dataset": "datasets", "feed": "feeds", "version": "versions",
+                     "stage": "stages", "consumer": "consumers"}
     return GraphDrawing(width, height, tuple(placed.values()), tuple(edges),
                         tuple((x, heading_names[k]) for k, x in headings.items()))
 

@@ -96,6 +96,21 @@ def version(name: str, number: int):
                            features=schemas.feature_rows(page.features))
 
 
+@blueprint.route("/models/<name>/versions/<int:number>/impact")
+def version_impact(name: str, number: int):
+    from registry.service.impact import impact_of, ladder_of
+    from web.impact import interval_chart
+
+    name = _name(name, "model")
+    ladder = ladder_of(_catalogue(), name)
+    stage = _query_text("stage", pattern=NAME_PATTERN, default=ladder[-1])
+    if stage not in ladder:
+        abort(404, description=f"{name} has no stage {stage!r}")
+    found = impact_of(_catalogue(), name, number, stage)
+    return render_template("impact.html", impact=found, ladder=ladder,
+                           chart=interval_chart(found["metrics"], found["slices"]))
+
+
 @blueprint.route("/models/<name>/compare")
 def compare(name: str):
     name = _name(name, "model")

@@ -22,6 +22,7 @@ DATASETS = "registry.cli.dataset_commands"
 DATASETS_IN_CATALOGUE = "registry.cli.dataset_catalogue_commands"
 DOCUMENTS = "registry.cli.document_commands"
 READS = "registry.cli.read_commands"
+CONTRACTS = "registry.cli.contract_commands"
 
 # name -> where the command lives and the line `--help` shows for it. Add a command here.
 COMMANDS: dict[str, Lazy | LazyGroup] = {
@@ -33,6 +34,7 @@ COMMANDS: dict[str, Lazy | LazyGroup] = {
         "list": Lazy(f"{CATALOGUE}:model_list", "List every model and who holds each stage."),
         "show": Lazy(f"{CATALOGUE}:model_show", "Show a model line and its versions."),
         "policy": Lazy(f"{STAGES}:policy_group", "A model's promotion policy: show or set it."),
+        "set-feed": Lazy(f"{CONTRACTS}:model_set_feed", "Declare the feed MODEL reads."),
     }),
     "register": Lazy(f"{CATALOGUE}:register", "Register DOCUMENT as the next version of MODEL."),
     "evaluate": Lazy("registry.cli.evaluation_commands:evaluate",
@@ -74,6 +76,11 @@ COMMANDS: dict[str, Lazy | LazyGroup] = {
                        "Recompute the audit chain and every stored digest."),
         "log": Lazy(f"{READS}:audit_log", "Read the audit log, newest first, with filters."),
     }),
+    "feed": Lazy(f"{CONTRACTS}:feed", "Feeds a model reads: numbered writer schemas, checked."),
+    "consumer": Lazy(f"{CONTRACTS}:consumer",
+                     "Declared readers of a model's output, with their reader schemas."),
+    "impact": Lazy(f"{CONTRACTS}:impact",
+                   "What changes if a version enters a stage; changes nothing."),
     "user": Lazy(f"{CATALOGUE}:user", "Roles of the people who act on the catalogue."),
     "token": Lazy("registry.cli.token_commands:token_group", "Bearer tokens for the HTTP API."),
     "export": Lazy("registry.cli.backup_commands:export_command",

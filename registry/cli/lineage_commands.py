@@ -105,6 +105,13 @@ def _render_recall(outcome: dict) -> str:
         for v in outcome["downstream_versions"]:
             held = f"  [{', '.join(v['stages'])}]" if v["stages"] else ""
             lines.append(f"  {v['model']} v{v['version']}{held}")
+    if outcome.get("flagged_feeds"):
+        lines.append("feeds built from it, flagged: " + ", ".join(outcome["flagged_feeds"]))
+        for v in outcome.get("feed_readers", []):
+            held = f"  [{', '.join(v['stages'])}]" if v["stages"] else ""
+            lines.append(f"  read by {v['model']} v{v['version']}{held}")
+    if outcome.get("flagged_consumers"):
+        lines.append("consumers downstream, flagged: " + ", ".join(outcome["flagged_consumers"]))
     if outcome["holding_stages"]:
         lines.append("act on these now (they hold a stage):")
         lines.extend(f"  {s['model']} v{s['version']} in {s['stage']}"

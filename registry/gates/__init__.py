@@ -1,6 +1,7 @@
 """Promotion gates: policy loading and pure functions from evidence to a gate report."""
 
 from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval, ColumnCounts,
+                                     ConsumerCheck, FeedSchemaCheck,
                                      ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
                                      FeatureChange, PairedComparison, RecalledDataset,
                                      SampleProfile, SchemaCheck, SchemaProblem, SliceComparison,
@@ -15,6 +16,7 @@ from registry.gates.verdict import check_waivers, evaluate
 
 __all__ = [
     "APPROVER", "GATES", "RETIRED", "Acknowledgement", "Actor", "Approval", "ColumnCounts",
+    "ConsumerCheck", "FeedSchemaCheck",
     "ContainmentEstimate", "DatasetRecord", "Evidence", "EvidenceError", "FeatureChange",
     "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
     "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "SliceComparison",

@@ -96,6 +96,43 @@ class SchemaCheck:
 
 
 @dataclasses.dataclass(frozen=True)
+class FeedSchemaCheck:
+    """A version's input schema (reader) against one writer schema of its declared feed.
+
+    feed: the feed's name; feed_version: the number of the feed's writer schema; published_at:
+    when it was published; is_current: the newest published schema (older ones are still in
+    flight within the feed's retention window); version: the model version reading;
+    compatible, problems, notes: as in SchemaCheck.
+    """
+
+    feed: str
+    feed_version: int
+    published_at: str
+    is_current: bool
+    version: int
+    compatible: bool
+    problems: tuple[SchemaProblem, ...] = ()
+    notes: tuple[str, ...] = ()
+
+
+@dataclasses.dataclass(frozen=True)
+class ConsumerCheck:
+    """A declared consumer's current reader schema against a version's output schema (writer).
+
+    consumer: its name; schema_version: the number of its reader schema; owner: who runs it;
+    version: the model version writing; compatible, problems, notes: as in SchemaCheck.
+    """
+
+    consumer: str
+    schema_version: int
+    owner: str
+    version: int
+    compatible: bool
+    problems: tuple[SchemaProblem, ...] = ()
+    notes: tuple[str, ...] = ()
+
+
+@dataclasses.dataclass(frozen=True)
 class ColumnCounts:
     """Occurrence counts of one top-level column of the live sample.
 
@@ -296,6 +333,12 @@ class Evidence:
     approvals: recorded approvals of the candidate.
     holds_top_stage: the top stage's name when the candidate holds it itself (so there is no
       incumbent other than itself), else None.
+    feed_name: the feed the candidate declares it reads (on its model or in its manifest), None
+      when it declares none; then the gates compare against the incumbent as before.
+    feed_checks: the candidate reading every schema of that feed still in flight.
+    rollback_feed_checks: the incumbent (the version a rollback restores) reading the same.
+    consumer_checks: every declared consumer of the model reading the candidate's output; empty
+      when no consumer is declared (the consumers are then taken to read the incumbent's output).
     """
 
     model: str
@@ -318,6 +361,10 @@ class Evidence:
     recalled_upstream: tuple[RecalledDataset, ...] = ()
     approvals: tuple[Approval, ...] = ()
     holds_top_stage: str | None = None
+    feed_name: str | None = None
+    feed_checks: tuple[FeedSchemaCheck, ...] = ()
+    rollback_feed_checks: tuple[FeedSchemaCheck, ...] = ()
+    consumer_checks: tuple[ConsumerCheck, ...] = ()
 
     @property
     def has_incumbent(self) -> bool:

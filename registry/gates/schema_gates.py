@@ -6,21 +6,16 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
+from registry.gates.contract_gates import consumers_read_output
+from registry.gates.contract_gates import first_problem as _first_problem
+from registry.gates.contract_gates import (declared_feed_check, reads_declared_feed,
+                                           rollback_reads_declared_feed)
 from registry.gates.evidence import Evidence, SampleProfile, SchemaCheck, SchemaProblem, to_plain
 from registry.gates.report import GateResult
 
 NO_INCUMBENT = "no incumbent: nothing to compare against"
 NOTHING_TO_COMPARE = ("no version holds the top of the ladder yet (first version into it): "
                       "there was nothing to compare against")
-
-
-def _first_problem(check: SchemaCheck) -> str:
-    if not check.problems:
-        return "incompatible (the schema check gave no detail)"
-    first = check.problems[0]
-    more = len(check.problems) - 1
-    tail = f" (and {more} more problem{'s' if more > 1 else ''})" if more else ""
-    return f"{first.path}: {first.message}{tail}"
 
 
 def _missing(gate: str, what: str) -> GateResult:
@@ -41,6 +36,8 @@ def no_incumbent(gate: str, evidence: Evidence) -> GateResult:
 def reads_live_feed(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:
     """Candidate input schema as reader resolves the live version's input schema as writer."""
     gate = "reads-live-feed"
+    if evidence.feed_name is not None:
+        return reads_declared_feed(evidence)
     if not evidence.has_incumbent:
         return no_incumbent(gate, evidence)
     if evidence.feed is None:
@@ -71,6 +68,8 @@ def rollback_safe(evidence: Evidence, settings: Mapping[str, Any], stage: str) -
     gate = "rollback-safe"
     if not evidence.has_incumbent:
         return no_incumbent(gate, evidence)
+    if evidence.feed_name is not None:
+        return rollback_reads_declared_feed(evidence)
     check = evidence.rollback
     if check is None:
         return _missing(gate, "check of the live version's input schema against the candidate's")
@@ -88,6 +87,8 @@ def rollback_safe(evidence: Evidence, settings: Mapping[str, Any], stage: str) -
 def output_readable(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:
     """Live version's output schema, the consumers' reader, resolves the candidate's output."""
     gate = "output-readable"
+    if evidence.consumer_checks:
+        return consumers_read_output(evidence)
     if not evidence.has_incumbent:
         return no_incumbent(gate, evidence)
     check = evidence.output
@@ -111,7 +112,7 @@ def _column(problem: SchemaProblem) -> str | None:
     return parts[2] if len(parts) > 2 and parts[1] == "fields" else None
 
 
-def _occurrences(problem: SchemaProblem, profile: SampleProfile) -> tuple[str, int | None, str]:
+def occurrences(problem: SchemaProblem, profile: SampleProfile) -> tuple[str, int | None, str]:
     """How often the live sample exercises a break: (what is counted, count or None, column)."""
     column = _column(problem) or "?"
     witness = problem.witness
@@ -137,9 +138,11 @@ def live_data_check(evidence: Evidence, settings: Mapping[str, Any], stage: str)
     """Weigh each static break of reads-live-feed against the registered live sample's profile:
     a break whose witness never occurs there is reported as unexercised, with the counts."""
     gate = "live-data-check"
-    if not evidence.has_incumbent:
-        return no_incumbent(gate, evidence)
-    check = evidence.feed
+    check = declared_feed_check(evidence)
+    if check is None:
+        if not evidence.has_incumbent:
+            return no_incumbent(gate, evidence)
+        check = evidence.feed
     if check is None:
         return _missing(gate, "check of the candidate's input schema against the live feed")
     if check.compatible:
@@ -158,7 +161,7 @@ def live_data_check(evidence: Evidence, settings: Mapping[str, Any], stage: str)
                           {"check": to_plain(check)})
     findings = []
     for problem in check.problems:
-        what, count, column = _occurrences(problem, profile)
+        what, count, column = occurrences(problem, profile)
         if count is None:
             status = "unknown"  # the column was not profiled
         elif count > 0:

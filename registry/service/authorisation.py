@@ -62,6 +62,15 @@ ACTIONS: dict[str, Permission] = {
                                   open_before_first_admin=False, excludes_author=True),
     "gate.waive": Permission((APPROVER,), "waiving a gate", open_before_first_admin=False,
                              excludes_author=True),
+    # Feeds and consumers as contracts (the feed's producer team and the consumers' owners).
+    "feed.create": Permission((PUBLISHER,), "creating a feed"),
+    "feed.publish": Permission((PUBLISHER,), "publishing a feed schema"),
+    "feed.waive": Permission((APPROVER,), "publishing a feed schema that a stage holder cannot "
+                             "read", open_before_first_admin=False),
+    "model.set-feed": Permission((PUBLISHER,), "declaring the feed a model reads"),
+    "consumer.add": Permission((PUBLISHER,), "declaring a consumer"),
+    "consumer.update": Permission((PUBLISHER,), "updating a consumer's reader schema"),
+    "consumer.remove": Permission((PUBLISHER,), "removing a consumer"),
     "role.grant": Permission((ADMIN,), "granting roles"),
     "role.revoke": Permission((ADMIN,), "revoking roles"),
     "token.create": Permission((ADMIN,), "managing tokens"),

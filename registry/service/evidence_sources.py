@@ -4,6 +4,7 @@ return `registry.gates` evidence records."""
 from __future__ import annotations
 
 import json
+from datetime import UTC, datetime, timedelta
 from functools import lru_cache
 
 from sqlalchemy import select
@@ -26,14 +27,18 @@ def _schema_of(version: t.Version, which: str) -> avro.Schema | None:
     return _parsed(text) if text else None
 
 
+def input_schema(version: t.Version) -> avro.Schema:
+    return _schema_of(version, "input")
+
+
+def output_schema(version: t.Version) -> avro.Schema | None:
+    return _schema_of(version, "output")
+
+
 def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version) -> gates.SchemaCheck:
-    problems = tuple(
-        gates.SchemaProblem(path=p.path, rule=p.rule, message=p.message,
-                            witness={k: v for k, v in (p.witness or {}).items() if k in WITNESS_KEYS})
-        for p in resolution.problems)
-    notes = tuple(f"{n.path}: {n.message}" for n in resolution.notes)
     return gates.SchemaCheck(reader_version=reader.number, writer_version=writer.number,
-                             compatible=resolution.compatible, problems=problems, notes=notes)
+                             compatible=resolution.compatible, problems=problems_of(resolution),
+                             notes=notes_of(resolution))
 
 
 def schema_check(reader: t.Version, writer: t.Version, which: str) -> gates.SchemaCheck:
@@ -49,7 +54,7 @@ def output_check(incumbent: t.Version, candidate: t.Version) -> gates.SchemaChec
     return schema_check(incumbent, candidate, "output")
 
 
-def _linked(uow: UnitOfWork, version: t.Version) -> list[tuple[str, t.Dataset]]:
+def linked_datasets(uow: UnitOfWork, version: t.Version) -> list[tuple[str, t.Dataset]]:
     return list(uow.session.execute(
         select(t.VersionDataset.relation, t.Dataset)
         .join(t.Dataset, t.Dataset.id == t.VersionDataset.dataset_id)
@@ -59,7 +64,7 @@ def _linked(uow: UnitOfWork, version: t.Version) -> list[tuple[str, t.Dataset]]:
 
 def dataset_records(uow: UnitOfWork, version: t.Version) -> tuple[gates.DatasetRecord, ...]:
     records = []
-    for relation, dataset in _linked(uow, version):
+    for relation, dataset in linked_datasets(uow, version):
         records.append(gates.DatasetRecord(
             name=dataset.name, role="training" if relation == "trained-on" else "evaluation",
             registered=True, registered_at=dataset.created_at.isoformat(),
@@ -141,7 +146,7 @@ def containment(uow: UnitOfWork, version: t.Version) -> tuple[gates.ContainmentE
     from registry.datasets import overlap
     from registry.service.datasets import load_fingerprint
 
-    linked = _linked(uow, version)
+    linked = linked_datasets(uow, version)
     training = [d for relation, d in linked if relation == "trained-on"]
     evaluation = [d for relation, d in linked if relation == "evaluated-on"]
     estimates = []
@@ -165,8 +170,13 @@ def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
         select(t.Dataset).where(t.Dataset.feed_model_id == model.id,
                                 t.Dataset.role == "live-sample")
         .order_by(t.Dataset.created_at.desc(), t.Dataset.id.desc())).scalars().first()
-    if sample is None:
-        return None
+    return sample_profile(uow, sample) if sample is not None else None
+
+
+def sample_profile(uow: UnitOfWork, sample: t.Dataset) -> gates.SampleProfile:
+    """A registered live sample's profile as the counts the data-aware checks weigh."""
+    from registry.service.datasets import load_fingerprint
+
     profile = load_fingerprint(uow, sample).to_dict().get("profile", {})
     columns = {
         name: gates.ColumnCounts(enum_symbols=dict(column.get("symbols") or {}),
@@ -244,3 +254,75 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
                 candidate_dataset=evaluation.dataset_content_digest,
                 incumbent_dataset=other.dataset_content_digest, confidence=confidence))
     return tuple(comparisons), tuple(slices)
+
+
+def problems_of(resolution: avro.Resolution) -> tuple[gates.SchemaProblem, ...]:
+    return tuple(
+        gates.SchemaProblem(path=p.path, rule=p.rule, message=p.message,
+                            witness={k: v for k, v in (p.witness or {}).items()
+                                     if k in WITNESS_KEYS})
+        for p in resolution.problems)
+
+
+def notes_of(resolution: avro.Resolution) -> tuple[str, ...]:
+    return tuple(f"{n.path}: {n.message}" for n in resolution.notes)
+
+
+def _aware(moment: datetime) -> datetime:
+    return moment if moment.tzinfo else moment.replace(tzinfo=UTC)  # SQLite hands back naive
+
+
+def in_flight(schemas: list[t.FeedSchema], retain_days: int, now: datetime
+              ) -> list[t.FeedSchema]:
+    """The feed's current writer schema and every older one whose records may still sit in
+    queues: a schema stays in flight until its successor has been current for the whole
+    retention window (so every schema published within the window is in flight too)."""
+    if not schemas:
+        return []
+    oldest = now - timedelta(days=retain_days)
+    kept = [schema for schema, successor in zip(schemas, schemas[1:])
+            if _aware(successor.published_at) > oldest]
+    return kept + [schemas[-1]]
+
+
+def feed_checks(uow: UnitOfWork, feed: t.Feed, reader: t.Version, now: datetime
+                ) -> tuple[gates.FeedSchemaCheck, ...]:
+    """`reader`'s input schema against every writer schema of the feed in flight, newest first."""
+    schemas = uow.feeds.schemas(feed)
+    flying = in_flight(schemas, feed.retain_days, now)
+    current = schemas[-1].number if schemas else None
+    reader_schema = _schema_of(reader, "input")
+    checks = []
+    for schema in reversed(flying):
+        resolution = avro.resolve(reader_schema, _parsed(schema.schema_json))
+        checks.append(gates.FeedSchemaCheck(
+            feed=feed.name, feed_version=schema.number,
+            published_at=_aware(schema.published_at).isoformat(),
+            is_current=schema.number == current, version=reader.number,
+            compatible=resolution.compatible, problems=problems_of(resolution),
+            notes=notes_of(resolution)))
+    return tuple(checks)
+
+
+def consumer_checks(uow: UnitOfWork, model: t.Model, writer: t.Version
+                    ) -> tuple[gates.ConsumerCheck, ...]:
+    """Every declared consumer's current reader schema against `writer`'s output schema."""
+    checks = []
+    for consumer in uow.consumers.of_model(model.id):
+        schema = uow.consumers.current_schema(consumer)
+        output = _schema_of(writer, "output")
+        if output is None:
+            problem = gates.SchemaProblem(
+                path="/", rule="no-output-schema",
+                message=f"version {writer.number} declares no output schema, so no consumer "
+                        "can be shown to read its output")
+            checks.append(gates.ConsumerCheck(consumer=consumer.name, schema_version=schema.number,
+                                              owner=consumer.owner, version=writer.number,
+                                              compatible=False, problems=(problem,)))
+            continue
+        resolution = avro.resolve(_parsed(schema.schema_json), output)
+        checks.append(gates.ConsumerCheck(
+            consumer=consumer.name, schema_version=schema.number, owner=consumer.owner,
+            version=writer.number, compatible=resolution.compatible,
+            problems=problems_of(resolution), notes=notes_of(resolution)))
+    return tuple(checks)

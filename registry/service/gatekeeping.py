@@ -75,7 +75,17 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
         approvals=sources.approvals(uow, candidate),
         containment=sources.containment(uow, candidate),
         live_sample=sources.live_sample(uow, model),
+        consumer_checks=sources.consumer_checks(uow, model, candidate),
     )
+    feed = uow.feeds.of_version(candidate)
+    if feed is not None:
+        moment = datetime.fromisoformat(now)
+        evidence = dataclasses.replace(
+            evidence, feed_name=feed.name,
+            feed_checks=sources.feed_checks(uow, feed, candidate, moment),
+            rollback_feed_checks=(sources.feed_checks(uow, feed, incumbent, moment)
+                                  if incumbent is not None and incumbent.id != candidate.id
+                                  else ()))
     if incumbent is None or incumbent.id == candidate.id:
         return dataclasses.replace(evidence, incumbent_version=None,
                                    holds_top_stage=policy.top_stage if incumbent else None)

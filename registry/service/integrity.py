@@ -9,6 +9,7 @@ from dataclasses import dataclass, field
 
 from sqlalchemy import select
 
+from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.canonical_json import digest_of
 from registry.store import tables as t
@@ -53,6 +54,8 @@ def _audit_findings(uow: UnitOfWork) -> tuple[int, list[Finding], dict[str, dict
                                    row.subject, details, row.previous_hash, row.hash))
         if row.action in ("version.register", "dataset.add", "evaluation.add"):
             registered[row.subject] = details
+        elif (key := contract_record_key(row.subject, row.action, details)) is not None:
+            registered[key] = details
     head = uow.session.get(t.AuditHead, 1)
     breaks = verify_chain(records, (head.sequence, head.hash) if head else None)
     findings += [Finding(f"audit event {b.sequence}", b.problem) for b in breaks]
@@ -90,7 +93,7 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
                 version.input_schema_json, version.output_schema_json, version.features_json,
                 version.description, version.code_revision, version.author,
                 linked.get("trained-on", []), linked.get("evaluated-on", []),
-                version.parent_number))
+                version.parent_number, feed=_declared_feed(uow, version)))
         except (json.JSONDecodeError, TypeError, ValueError):
             findings.append(Finding(place, "its stored schemas or features are not readable JSON"))
             continue
@@ -102,6 +105,11 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
         if not found:
             findings += _document_findings(uow, version, place)
     return count, findings
+
+
+def _declared_feed(uow: UnitOfWork, version: t.Version) -> str | None:
+    feed = uow.feeds.declared_by_version(version)
+    return feed.name if feed is not None else None
 
 
 def _registration_findings(place: str, recomputed: str, recorded: dict | None,
@@ -239,7 +247,9 @@ def verify_catalogue(catalogue: Catalogue) -> VerificationReport:
         versions, version_findings = _version_findings(uow, registered)
         datasets, dataset_findings = _dataset_findings(uow, registered)
         evaluations, evaluation_findings = _evaluation_findings(uow, registered)
+        contract = [Finding(place, problem)
+                    for place, problem in contract_findings(uow, registered)]
     everything = (findings + blob_findings + version_findings + dataset_findings
-                  + evaluation_findings)
+                  + evaluation_findings + contract)
     return VerificationReport(ok=not everything, events=events, blobs=blobs, versions=versions,
                               datasets=datasets, evaluations=evaluations, findings=everything)

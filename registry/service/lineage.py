@@ -1,7 +1,8 @@
 """Lineage use cases: the graph around a node, upstream or downstream, as plain data.
 
-Node ids are strings a person can type: `dataset/<name>`, `model/<model>/version/<n>` and
-`model/<model>/stage/<stage>`; a bare dataset name and `MODEL@N` are accepted as input too.
+Node ids are strings a person can type: `dataset/<name>`, `model/<model>/version/<n>`,
+`model/<model>/stage/<stage>`, `feed/<name>` and `consumer/<name>`; a bare dataset name and
+`MODEL@N` are accepted as input too.
 """
 
 from __future__ import annotations
@@ -13,6 +14,7 @@ from typing import Literal
 from sqlalchemy import select
 
 from registry.errors import NotFound, UserError
+from registry.store import contract_lineage as contracts
 from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
@@ -26,6 +28,7 @@ MAX_DEPTH = 1000
 _VERSION_ID = re.compile(r"^model/([^/]+)/version/([0-9]{1,9})$")
 _STAGE_ID = re.compile(r"^model/([^/]+)/stage/([^/]+)$")
 _DATASET_ID = re.compile(r"^dataset/([^/]+)$")
+_CONTRACT_ID = re.compile(r"^(feed|consumer)/([^/]+)$")
 _AT_VERSION = re.compile(r"^([^/@]+)@([0-9]{1,9})$")
 _BARE = re.compile(r"^[a-z0-9][a-z0-9._-]{0,99}$")
 
@@ -33,7 +36,7 @@ _BARE = re.compile(r"^[a-z0-9][a-z0-9._-]{0,99}$")
 @dataclass(frozen=True)
 class LineageNode:
     id: str
-    kind: str  # dataset | version | stage
+    kind: str  # dataset | feed | version | stage | consumer
     label: str
     recalled: bool  # a dataset marked bad by a recall
     flagged: bool  # downstream of a recalled dataset (computed from lineage, never stored)
@@ -48,7 +51,9 @@ class LineageEdge:
 
     source: str
     target: str
-    # derived-from | trained-on | evaluated-on | parent-version | held-by | was-held-by
+    # derived-from | trained-on | evaluated-on | parent-version | held-by | was-held-by |
+    # built-from (feed -> dataset) | reads-feed (version -> feed) |
+    # reads-output-of (consumer -> version)
     relation: str
 
 
@@ -81,14 +86,16 @@ def normalise_node(text: str) -> str:
     text = (text or "").strip()
     if m := _AT_VERSION.match(text):
         return version_id(m.group(1), int(m.group(2)))
-    if _VERSION_ID.match(text) or _STAGE_ID.match(text) or _DATASET_ID.match(text):
+    if (_VERSION_ID.match(text) or _STAGE_ID.match(text) or _DATASET_ID.match(text)
+            or _CONTRACT_ID.match(text)):
         if m := _VERSION_ID.match(text):
             return version_id(m.group(1), int(m.group(2)))
         return text
     if _BARE.match(text):
         return dataset_id(text)
     raise UserError(f"not a lineage node: {text!r}; use dataset/NAME, NAME, MODEL@N, "
-                    "model/MODEL/version/N or model/MODEL/stage/STAGE", place="NODE")
+                    "model/MODEL/version/N, model/MODEL/stage/STAGE, feed/NAME or "
+                    "consumer/NAME", place="NODE")
 
 
 def _model_id(uow: UnitOfWork, name: str) -> int:
@@ -123,6 +130,13 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
             raise NotFound(f"model {m.group(1)!r} has no version {m.group(2)}; its versions "
                            f"are {numbers}", place="NODE")
         return node, walks.NodeKey("version", found)
+    if m := _CONTRACT_ID.match(node):
+        kind, name = m.group(1), m.group(2)
+        found = (contracts.feed_key if kind == "feed" else contracts.consumer_key)(uow.session,
+                                                                                 name)
+        if found is None:
+            raise NotFound(f"unknown {kind} {name!r}", place="NODE")
+        return node, found
     m = _STAGE_ID.match(node)
     assert m is not None
     model_id = _model_id(uow, m.group(1))
@@ -135,6 +149,8 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
 def node_name(facts: walks.NodeFacts) -> str:
     if facts.key.kind == "dataset":
         return dataset_id(facts.name)
+    if facts.key.kind in contracts.CONTRACT_KINDS:
+        return f"{facts.key.kind}/{facts.name}"
     if facts.key.kind == "version":
         return version_id(facts.model, facts.number or 0)
     return stage_id(facts.model, facts.name)
@@ -143,6 +159,8 @@ def node_name(facts: walks.NodeFacts) -> str:
 def node_label(facts: walks.NodeFacts) -> str:
     if facts.key.kind == "dataset":
         return facts.name
+    if facts.key.kind in contracts.CONTRACT_KINDS:
+        return f"{facts.key.kind} {facts.name}"
     if facts.key.kind == "version":
         return f"{facts.model} v{facts.number}"
     return f"{facts.model} {facts.name}"
@@ -158,7 +176,32 @@ def check_depth(depth: int | None) -> int | None:
 
 def flagged_keys(uow: UnitOfWork) -> set[walks.NodeKey]:
     """Every node downstream of a recalled dataset, the recalled datasets included."""
-    return {r.key for r in walks.walk(uow.session, walks.recalled_seeds(), "down")}
+    walked = {r.key: None for r in walks.walk(uow.session, walks.recalled_seeds(), "down")}
+    if not walked:
+        return set()
+    # A feed built from a recalled dataset flags its readers and their consumers too.
+    return set(contracts.expand(uow.session, walked, "down"))
+
+
+def reach(uow: UnitOfWork, key: walks.NodeKey, direction: str, depth: int | None
+          ) -> dict[walks.NodeKey, int | None]:
+    """Every node reached from `key` each way, at its smallest depth, contract edges included."""
+    reached: dict[walks.NodeKey, int | None] = {}
+    for way in (("up", "down") if direction == "both" else (direction,)):
+        start = {key: 0 if depth is not None else None}
+        if key.kind not in contracts.CONTRACT_KINDS:
+            start = {item.key: item.depth
+                     for item in walks.walk(uow.session, walks.seeds_for(key), way, depth)}
+        for found, found_depth in contracts.expand(uow.session, start, way, depth).items():
+            known = reached.get(found)
+            reached[found] = (found_depth if known is None or found_depth is None
+                              else min(known, found_depth))
+    return reached
+
+
+def facts_of(uow: UnitOfWork, keys) -> dict[walks.NodeKey, walks.NodeFacts]:
+    keys = set(keys)
+    return {**walks.facts_of(uow.session, keys), **contracts.contract_facts(uow.session, keys)}
 
 
 def graph_in(uow: UnitOfWork, node: str, direction: str, depth: int | None = None) -> LineageGraph:
@@ -167,14 +210,10 @@ def graph_in(uow: UnitOfWork, node: str, direction: str, depth: int | None = Non
         raise UserError(f"direction must be one of {', '.join(DIRECTIONS)}", place="direction")
     depth = check_depth(depth)
     root, key = resolve_node(uow, node)
-    reached: dict[walks.NodeKey, int | None] = {}
-    for way in (("up", "down") if direction == "both" else (direction,)):
-        for item in walks.walk(uow.session, walks.seeds_for(key), way, depth):
-            known = reached.get(item.key)
-            reached[item.key] = (item.depth if known is None or item.depth is None
-                                 else min(known, item.depth))
-    links = walks.links_among(uow.session, reached)
-    facts = walks.facts_of(uow.session, reached)
+    reached = reach(uow, key, direction, depth)
+    links = (walks.links_among(uow.session, reached)
+             + contracts.contract_links(uow.session, reached))
+    facts = facts_of(uow, reached)
     flagged = flagged_keys(uow)
     nodes = sorted(
         (LineageNode(id=node_name(facts[k]), kind=k.kind, label=node_label(facts[k]),
@@ -206,14 +245,12 @@ def provenance_of(catalogue: Catalogue, node: str, direction: str,
     with UnitOfWork(catalogue, write=False) as uow:
         graph = graph_in(uow, node, direction, depth)
         root, key = resolve_node(uow, node)
-        reached: set[walks.NodeKey] = {key}
-        for way in (("up", "down") if direction == "both" else (direction,)):
-            reached |= {r.key for r in walks.walk(uow.session, walks.seeds_for(key), way, depth)}
-        facts = walks.facts_of(uow.session, reached)
+        reached = {key} | set(reach(uow, key, direction, depth))
+        facts = facts_of(uow, reached)
         entities = [prov.ProvEntity(id=node_name(f), kind=f.key.kind, label=node_label(f),
                                     created_at=f.created_at, created_by=f.created_by,
                                     recalled=f.recalled, recall_reason=f.recall_reason)
-                    for f in facts.values() if f.key.kind in ("dataset", "version")]
+                    for f in facts.values() if f.key.kind != "stage"]
         staged = {(f.key.ref, f.name) for f in facts.values() if f.key.kind == "stage"}
         version_ids = {k.ref: node_name(facts[k]) for k in facts if k.kind == "version"}
         events = []
@@ -226,7 +263,10 @@ def provenance_of(catalogue: Catalogue, node: str, direction: str,
                         id=row.id, version=version_ids[row.version_id], stage=row.stage,
                         event=row.event, at=walks.utc_iso(row.created_at), by=row.created_by))
     uses = [prov.ProvUse(version=e.source, dataset=e.target, relation=e.relation)
-            for e in graph.edges if e.relation in ("trained-on", "evaluated-on")]
+            for e in graph.edges if e.relation in ("trained-on", "evaluated-on", "reads-feed")]
+    # A feed is derived from the datasets it is built from; what a consumer makes, from the
+    # output of the version it reads.
     derivations = [prov.ProvDerivation(derived=e.source, source=e.target, relation=e.relation)
-                   for e in graph.edges if e.relation in ("derived-from", "parent-version")]
+                   for e in graph.edges if e.relation in ("derived-from", "parent-version",
+                                                          "built-from", "reads-output-of")]
     return prov.prov_document(entities, uses, derivations, events)

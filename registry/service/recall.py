@@ -47,6 +47,11 @@ class RecallOutcome:
     downstream_versions: tuple[FlaggedVersion, ...]
     holding_stages: tuple[StageToActOn, ...]  # versions in a stage now: someone must act on these
     audit_sequence: int
+    # Feeds built from the recalled data, and what reads them (flagged, not blocked: their own
+    # training data is not in question).
+    flagged_feeds: tuple[str, ...] = ()
+    feed_readers: tuple[FlaggedVersion, ...] = ()
+    flagged_consumers: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -84,6 +89,30 @@ def _downstream_of_dataset(uow: UnitOfWork, dataset: t.Dataset):
     return datasets, versions, to_act
 
 
+def _flagged_through_feeds(uow: UnitOfWork, dataset: t.Dataset,
+                           lineage_versions: tuple[FlaggedVersion, ...]):
+    """Feeds built from the dataset or from what was derived from it, the versions reading
+    them (beyond those its lineage already names, with the stages they hold) and the consumers
+    downstream of either."""
+    from registry.store import contract_lineage as contracts
+
+    start = {r.key: None for r in walks.walk(
+        uow.session, walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")}
+    reached = contracts.expand(uow.session, start, "down")
+    extra = [k for k in reached if k not in start]
+    facts = {**walks.facts_of(uow.session, extra), **contracts.contract_facts(uow.session, extra)}
+    named = {(v.model, v.version) for v in lineage_versions}
+    feeds = tuple(sorted(facts[k].name for k in extra if k.kind == "feed"))
+    consumers = tuple(sorted(facts[k].name for k in extra if k.kind == "consumer"))
+    reader_keys = [k for k in extra if k.kind == "version"
+                   and (facts[k].model, facts[k].number) not in named]
+    held = uow.feeds.stages_held([k.ref for k in reader_keys])
+    readers = sorted((FlaggedVersion(facts[k].model, facts[k].number or 0,
+                                     tuple(held.get(k.ref, ()))) for k in reader_keys),
+                     key=lambda v: (v.model, v.version))
+    return feeds, tuple(readers), consumers
+
+
 def _resting_stages(uow: UnitOfWork, model: str) -> tuple[str, ...]:
     """Stages from which nothing is served: the first rung of the ladder, and retired."""
     from registry.service.gatekeeping import policy_of
@@ -112,17 +141,22 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
         dataset.recalled_at, dataset.recall_reason, dataset.recalled_by = now, reason, actor.name
         uow.session.flush()
         datasets, versions, to_act = _downstream_of_dataset(uow, dataset)
+        feeds, readers, consumers = _flagged_through_feeds(uow, dataset, versions)
         sequence = uow.audit.append(actor.name, "dataset.recall", dataset_id(name), {
             "reason": reason,
             "downstream_datasets": list(datasets),
             "downstream_versions": [version_id(v.model, v.version) for v in versions],
             "holding_stages": [f"{version_id(s.model, s.version)}:{s.stage}" for s in to_act],
+            **({"flagged_feeds": list(feeds),
+                "feed_readers": [version_id(v.model, v.version) for v in readers],
+                "flagged_consumers": list(consumers)} if feeds or consumers else {}),
         })
         uow.commit()
         return RecallOutcome(dataset=name, reason=reason, recalled_at=now.isoformat(),
                              recalled_by=actor.name, downstream_datasets=datasets,
                              downstream_versions=versions, holding_stages=to_act,
-                             audit_sequence=sequence)
+                             audit_sequence=sequence, flagged_feeds=feeds,
+                             feed_readers=readers, flagged_consumers=consumers)
 
 
 def recalled_names_upstream(uow: UnitOfWork, version_row: t.Version) -> list[str]:

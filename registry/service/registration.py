@@ -51,14 +51,15 @@ def registration_digest(model: str, contents: VersionContents, manifest: Manifes
                                          contents.features_json, manifest.description,
                                          manifest.code_revision, manifest.author,
                                          manifest.trained_on, manifest.evaluated_on,
-                                         manifest.parent_version))
+                                         manifest.parent_version, feed=manifest.feed))
 
 
 def registration_record(model: str, document_digest: str, document_kind: str,
                         input_schema_json: str, output_schema_json: str | None,
                         features_json: str | None, description: str, code_revision: str,
-                        author: str, trained_on, evaluated_on, parent_version) -> dict:
-    return {
+                        author: str, trained_on, evaluated_on, parent_version,
+                        feed: str | None = None) -> dict:
+    record = {
         "model": model, "document_digest": document_digest, "document_kind": document_kind,
         "input_schema": json.loads(input_schema_json),
         "output_schema": json.loads(output_schema_json) if output_schema_json else None,
@@ -67,6 +68,9 @@ def registration_record(model: str, document_digest: str, document_kind: str,
         "trained_on": sorted(trained_on), "evaluated_on": sorted(evaluated_on),
         "parent_version": parent_version,
     }
+    if feed is not None:  # only when declared, so digests of versions without one stay as they were
+        record["feed"] = feed
+    return record
 
 
 def _lineage_datasets(uow: UnitOfWork, names: tuple[str, ...], relation: str) -> list[t.Dataset]:
@@ -98,6 +102,11 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
             return RegistrationOutcome(model.name, existing.number, False,
                                        existing.document_digest, digest,
                                        contents.missing_features)
+        feed = None
+        if request.manifest.feed is not None:
+            from registry.service.feeds import find_feed
+
+            feed = find_feed(uow, request.manifest.feed, place="manifest: feed")
         trained = _lineage_datasets(uow, request.manifest.trained_on, "trained-on")
         evaluated = _lineage_datasets(uow, request.manifest.evaluated_on, "evaluated-on")
         last = uow.session.execute(
@@ -127,11 +136,14 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
                 uow.session.add(t.VersionDataset(version_id=version.id, dataset_id=dataset.id,
                                                  relation=relation))
         uow.session.flush()
+        if feed is not None:
+            uow.feeds.set_for_version(version, feed)
         enter_first_stage(uow, model, version, actor)
         uow.audit.append(actor.name, "version.register", f"model/{model.name}/version/{number}", {
             "document_digest": document_digest, "registration_digest": digest,
             "stored_blob_digest": stored_blob_digest,
             "document_kind": contents.document_kind,
+            **({"feed": feed.name} if feed is not None else {}),
         })
         uow.commit()
         return RegistrationOutcome(model.name, number, True, document_digest, digest,

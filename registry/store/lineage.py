@@ -23,7 +23,7 @@ from registry.store import tables as t
 
 Direction = Literal["up", "down"]
 # Node kinds, in layer order from the left (upstream) to the right (downstream) of a drawing.
-KINDS = ("dataset", "version", "stage")
+KINDS = ("dataset", "feed", "version", "stage", "consumer")  # feeds, consumers: contract_lineage
 CHUNK = 500  # ids per IN list: well below SQLite's and PostgreSQL's bound-parameter limits
 
 

@@ -235,3 +235,84 @@ class AuditEvent(Base):
     details_json: Mapped[str] = mapped_column(Text)
     previous_hash: Mapped[str] = mapped_column(String(64))
     hash: Mapped[str] = mapped_column(String(64))
+
+
+class Feed(Base):
+    """A feed as a contract: the stream of input records a producer team writes, with numbered
+    writer-schema versions and a retention window (how long old records stay in flight)."""
+
+    __tablename__ = "feeds"
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(NAME_LENGTH), unique=True)
+    description: Mapped[str] = mapped_column(Text, default="")
+    retain_days: Mapped[int] = mapped_column(Integer)
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
+
+
+class FeedSchema(Base):
+    """One published writer schema of a feed: numbered 1, 2, 3 and never changed."""
+
+    __tablename__ = "feed_schemas"
+    __table_args__ = (UniqueConstraint("feed_id", "number", name="uq_feed_schemas_number"),)
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    feed_id: Mapped[int] = mapped_column(ForeignKey("feeds.id"))
+    number: Mapped[int] = mapped_column(Integer)
+    schema_json: Mapped[str] = mapped_column(Text)
+    # SHA-256 of the Parsing Canonical Form: publishing the same schema twice is a no-op.
+    fingerprint: Mapped[str] = mapped_column(String(64))
+    note: Mapped[str] = mapped_column(Text, default="")
+    published_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    published_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
+
+
+class FeedSource(Base):
+    """A built-from edge: the feed's records are made from this dataset's source."""
+
+    __tablename__ = "feed_sources"
+    feed_id: Mapped[int] = mapped_column(ForeignKey("feeds.id"), primary_key=True)
+    dataset_id: Mapped[int] = mapped_column(ForeignKey("datasets.id"), primary_key=True,
+                                            index=True)
+
+
+class ModelFeed(Base):
+    """The feed a model reads, declared on the model (a version's manifest may name its own)."""
+
+    __tablename__ = "model_feeds"
+    model_id: Mapped[int] = mapped_column(ForeignKey("models.id"), primary_key=True)
+    feed_id: Mapped[int] = mapped_column(ForeignKey("feeds.id"), index=True)
+
+
+class VersionFeed(Base):
+    """The feed a version's manifest declares; written at registration, never changed."""
+
+    __tablename__ = "version_feeds"
+    version_id: Mapped[int] = mapped_column(ForeignKey("versions.id"), primary_key=True)
+    feed_id: Mapped[int] = mapped_column(ForeignKey("feeds.id"), index=True)
+
+
+class Consumer(Base):
+    """A declared reader of a model's output."""
+
+    __tablename__ = "consumers"
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(NAME_LENGTH), unique=True)
+    model_id: Mapped[int] = mapped_column(ForeignKey("models.id"), index=True)
+    owner: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
+
+
+class ConsumerSchema(Base):
+    """One reader schema of a consumer: numbered 1, 2, 3; the newest is the one it reads with."""
+
+    __tablename__ = "consumer_schemas"
+    __table_args__ = (UniqueConstraint("consumer_id", "number", name="uq_consumer_schemas_number"),)
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    consumer_id: Mapped[int] = mapped_column(ForeignKey("consumers.id"))
+    number: Mapped[int] = mapped_column(Integer)
+    schema_json: Mapped[str] = mapped_column(Text)
+    fingerprint: Mapped[str] = mapped_column(String(64))
+    note: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))

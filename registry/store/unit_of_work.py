@@ -22,7 +22,9 @@ from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.audit_repository import AuditEventRepository
 from registry.store.name_repository import NameRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.consumer_repository import ConsumerRepository
 from registry.store.evaluation_repository import EvaluationRepository
+from registry.store.feed_repository import FeedRepository
 from registry.store.role_repository import RoleRepository
 from registry.store.token_repository import TokenRepository
 
@@ -93,6 +95,8 @@ class UnitOfWork:
         self.blobs: BlobStore
         self.audit: AuditLog
         self.roles: RoleRepository
+        self.feeds: FeedRepository
+        self.consumers: ConsumerRepository
         self.tokens: TokenRepository
         self.evaluations: EvaluationRepository
         self.audit_events: AuditEventRepository
@@ -116,6 +120,8 @@ class UnitOfWork:
     def _attach_repositories(self) -> None:
         """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
         self.roles = RoleRepository(self.session)
+        self.feeds = FeedRepository(self.session)
+        self.consumers = ConsumerRepository(self.session)
         self.tokens = TokenRepository(self.session)
         self.evaluations = EvaluationRepository(self.session)
         self.audit_events = AuditEventRepository(self.session)

@@ -79,6 +79,55 @@ def _evaluation_upload(files: Path) -> dict:
             "content_type": "multipart/form-data"}
 
 
+def _schema_body(files: Path, name: str, **extra) -> dict:
+    return _json({"schema": json.loads((files / name).read_text()), **extra})
+
+
+# Feeds and consumers (issue 19): the feed `f` and the consumer `c` exist from the start.
+CONTRACT_CASES = [
+    Case("create a feed", "feed.create", lambda d, f: ["feed", "create", f"feed-{d}"],
+         lambda d, f, ids: ("POST", "/feeds", _json({"name": "feed-api"}))),
+    Case("publish a feed schema", "feed.publish",
+         lambda d, f: ["feed", "publish", "f", str(f / "feed-v2.avsc")],
+         lambda d, f, ids: ("POST", "/feeds/f/schemas", _schema_body(f, "feed-v2.avsc"))),
+    Case("publish over a refusal", "feed.waive",
+         lambda d, f: ["feed", "publish", "f", str(f / "feed-v3.avsc"), "--waive", "--reason",
+                       "the producer moves the field"],
+         lambda d, f, ids: ("POST", "/feeds/f/schemas", _schema_body(
+             f, "feed-v3.avsc", waiver_reason="the producer moves the field"))),
+    Case("declare a model's feed", "model.set-feed", lambda d, f: ["model", "set-feed", "m", "f"],
+         lambda d, f, ids: ("PUT", "/models/m/feed", _json({"feed": "f"}))),
+    Case("declare a consumer", "consumer.add",
+         lambda d, f: ["consumer", "add", f"reader-{d}", "--reads", "m", "--schema",
+                       str(f / "reader.avsc")],
+         lambda d, f, ids: ("POST", "/consumers", _json({
+             "name": "reader-api", "model": "m",
+             "schema": json.loads((f / "reader.avsc").read_text())}))),
+    Case("update a consumer", "consumer.update",
+         lambda d, f: ["consumer", "update", "c", "--schema", str(f / "reader-v2.avsc")],
+         lambda d, f, ids: ("POST", "/consumers/c/schemas", _schema_body(f, "reader-v2.avsc"))),
+    Case("remove a consumer", "consumer.remove", lambda d, f: ["consumer", "remove", "c-gone"],
+         lambda d, f, ids: ("DELETE", "/consumers/c-gone", {})),
+]
+
+
+def _prepare_contracts(cli: Cli, files: Path) -> None:
+    from tests.catalogue.helpers import INPUT_SCHEMA, OUTPUT_SCHEMA
+
+    grown = {**INPUT_SCHEMA, "fields": [*INPUT_SCHEMA["fields"],
+                                        {"name": "extra", "type": "int", "default": 0}]}
+    for name, schema in (("feed-v1.avsc", INPUT_SCHEMA), ("feed-v2.avsc", grown),
+                         ("feed-v3.avsc", {**INPUT_SCHEMA, "fields": INPUT_SCHEMA["fields"][:1]}),
+                         ("reader.avsc", OUTPUT_SCHEMA),
+                         ("reader-v2.avsc", {**OUTPUT_SCHEMA, "doc": "second reader"})):
+        (files / name).write_text(json.dumps(schema))
+    cli.json("feed", "create", "f", user=AUTHOR)
+    cli.json("feed", "publish", "f", str(files / "feed-v1.avsc"), user=AUTHOR)
+    for consumer in ("c", "c-gone"):
+        cli.json("consumer", "add", consumer, "--reads", "m", "--schema",
+                 str(files / "reader.avsc"), user=AUTHOR)
+
+
 CASES = [
     Case("list tokens", "token.list", lambda d, f: ["token", "list"],
          lambda d, f, ids: ("GET", "/tokens", {})),
@@ -135,6 +184,7 @@ CASES = [
     Case("promote into a guarded stage", "stage.guarded-move",
          lambda d, f: ["promote", "m", "5", "--to", "live"],
          lambda d, f, ids: ("POST", "/models/m/versions/5/promote", _json({"stage": "live"}))),
+    *CONTRACT_CASES,
 ]
 
 
@@ -181,6 +231,7 @@ def _prepare(url: str, files: Path) -> dict:
     cli.json("dataset", "add", "scoring-set", str(files / "scoring.csv"), "--schema",
              str(files / "scoring.avsc"), "--role", "evaluation", "--key", "segment_id",
              "--exclude", "label", user=AUTHOR)
+    _prepare_contracts(cli, files)
     catalogue = open_catalogue(url)
     try:
         admin = Actor(ADMIN, frozenset({"admin"}))
