@@ -15,6 +15,7 @@ from sqlalchemy import select
 
 from registry.canonical_json import canonical_json, digest_of
 from registry.errors import AlreadyExists, NotFound, UserError
+from registry.moments import utc_iso
 from registry.names import check_name
 from registry.service.actors import Actor
 from registry.service.models import find_model
@@ -96,7 +97,7 @@ def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
         name=dataset.name, role=dataset.role, rows=dataset.rows,
         content_digest=dataset.content_digest, schema_fingerprint=dataset.schema_fingerprint,
         source_uri=dataset.source_uri, derived_from=parents_of(uow, dataset), feed_of=feed_of,
-        created_at=dataset.created_at.isoformat(), created_by=dataset.created_by,
+        created_at=utc_iso(dataset.created_at), created_by=dataset.created_by,
         recalled=dataset.recalled_at is not None, recall_reason=dataset.recall_reason,
         created=created, profile=profile)
 

@@ -15,6 +15,7 @@ from typing import Any
 from sqlalchemy import delete, select
 
 from registry.errors import Conflict, Forbidden, NotFound, Refusal, UserError
+from registry.moments import utc_iso
 from registry.names import check_name
 from registry.service import gatekeeping
 from registry.service.actors import Actor
@@ -324,12 +325,12 @@ def history(catalogue: Catalogue, model: str) -> dict[str, Any]:
             if event.report_id is not None:
                 row = uow.session.get(t.GateReportRow, event.report_id)
                 report = json.loads(row.report_json)
-            events.append({"at": event.created_at.isoformat(), "version": number,
+            events.append({"at": utc_iso(event.created_at), "version": number,
                            "stage": event.stage, "event": event.event, "by": event.created_by,
                            "details": json.loads(event.details_json or "{}"),
                            "report_id": event.report_id, "report": report})
         attempts = [{"id": row.id, "version": number, "stage": row.stage, "attempt": row.attempt,
-                     "passed": row.passed, "at": row.created_at.isoformat(),
+                     "passed": row.passed, "at": utc_iso(row.created_at),
                      "by": row.created_by}
                     for row, number in uow.session.execute(
                         select(t.GateReportRow, t.Version.number)
