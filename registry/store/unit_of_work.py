@@ -20,8 +20,11 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.audit_repository import AuditEventRepository
-from registry.store.name_repository import NameRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.evaluation_repository import EvaluationRepository
+from registry.store.name_repository import NameRepository
+from registry.store.role_repository import RoleRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -89,6 +92,9 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.roles: RoleRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
         self.audit_events: AuditEventRepository
         self.names: NameRepository
 
@@ -97,8 +103,7 @@ class UnitOfWork:
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
-        self.audit_events = AuditEventRepository(self.session)
-        self.names = NameRepository(self.session)
+        self._attach_repositories()
         try:
             self.session.begin()
             if self.write:
@@ -107,6 +112,14 @@ class UnitOfWork:
             self._close()
             raise _translate(error, self.catalogue) from None
         return self
+
+    def _attach_repositories(self) -> None:
+        """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
+        self.roles = RoleRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
+        self.audit_events = AuditEventRepository(self.session)
+        self.names = NameRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
