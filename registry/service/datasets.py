@@ -126,10 +126,9 @@ def _differences(uow: UnitOfWork, existing: t.Dataset, request: DatasetRequest,
     before, after = parents_of(uow, existing), sorted(p.name for p in parents)
     if before != after:
         found.append(change("derived from", ", ".join(before), ", ".join(after)))
-    feed_before = uow.session.get(t.Model, existing.feed_model_id) if existing.feed_model_id else None
-    if (feed_before and feed_before.name) != (feed_model and feed_model.name):
-        found.append(change("feed of", feed_before and feed_before.name,
-                            feed_model and feed_model.name))
+    feed_before = uow.names.model_name(existing.feed_model_id) if existing.feed_model_id else None
+    if feed_before != (feed_model and feed_model.name):
+        found.append(change("feed of", feed_before, feed_model and feed_model.name))
     if existing.source_uri != request.source_uri:
         found.append(change("source", existing.source_uri, request.source_uri))
     return found or ["its fingerprint"]

@@ -136,5 +136,6 @@ def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
                 number=v.number, document_digest=v.document_digest, document_kind=v.document_kind,
                 description=v.description, author=v.author, code_revision=v.code_revision,
                 created_at=utc_iso(v.created_at), created_by=v.created_by,
-                stages=held.get(v.number, []), recalled_upstream=recalled_names_upstream(uow, v))
+                stages=held.get(v.number, []),
+                recalled_upstream=recalled_names_upstream(uow, v.id))
                 for v in versions])

@@ -358,11 +358,12 @@ def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
             if stage == "retired":
                 continue  # out of service: nothing to act on
             for holding in holdings:
-                version = uow.session.get(t.Version, holding.version_id)
-                if version.number not in flagged:
-                    flagged[version.number] = {"version": version.number, "stages": [],
-                                               "recalled": recalled_names_upstream(uow, version)}
-                flagged[version.number]["stages"].append(stage)
+                number = uow.names.version_number(holding.version_id)
+                if number not in flagged:
+                    flagged[number] = {"version": number, "stages": [],
+                                       "recalled": recalled_names_upstream(uow,
+                                                                           holding.version_id)}
+                flagged[number]["stages"].append(stage)
         return {"model": line.name, "stages": stages,
                 "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)],
                 "recalled_upstream": [f for _, f in sorted(flagged.items()) if f["recalled"]]}
