@@ -26,3 +26,8 @@ def parse_moment(text: str, *, now: datetime, later: bool, place: str,
         raise UserError(f"invalid time {text!r}: use a span like {spans}, or an ISO date like "
                         "2027-01-31", place=place) from None
     return moment if moment.tzinfo else moment.replace(tzinfo=UTC)
+
+
+def utc_iso(moment: datetime) -> str:
+    """ISO 8601 with its offset: SQLite hands timestamps back without one, and they are UTC."""
+    return (moment if moment.tzinfo else moment.replace(tzinfo=UTC)).isoformat()

@@ -15,6 +15,7 @@ from sqlalchemy import select
 
 from registry.canonical_json import canonical_json, digest_of
 from registry.errors import AlreadyExists, NotFound, UserError
+from registry.moments import utc_iso
 from registry.names import check_name
 from registry.service.actors import Actor
 from registry.service.models import find_model
@@ -96,7 +97,7 @@ def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
         name=dataset.name, role=dataset.role, rows=dataset.rows,
         content_digest=dataset.content_digest, schema_fingerprint=dataset.schema_fingerprint,
         source_uri=dataset.source_uri, derived_from=parents_of(uow, dataset), feed_of=feed_of,
-        created_at=dataset.created_at.isoformat(), created_by=dataset.created_by,
+        created_at=utc_iso(dataset.created_at), created_by=dataset.created_by,
         recalled=dataset.recalled_at is not None, recall_reason=dataset.recall_reason,
         created=created, profile=profile)
 
@@ -125,10 +126,9 @@ def _differences(uow: UnitOfWork, existing: t.Dataset, request: DatasetRequest,
     before, after = parents_of(uow, existing), sorted(p.name for p in parents)
     if before != after:
         found.append(change("derived from", ", ".join(before), ", ".join(after)))
-    feed_before = uow.session.get(t.Model, existing.feed_model_id) if existing.feed_model_id else None
-    if (feed_before and feed_before.name) != (feed_model and feed_model.name):
-        found.append(change("feed of", feed_before and feed_before.name,
-                            feed_model and feed_model.name))
+    feed_before = uow.names.model_name(existing.feed_model_id) if existing.feed_model_id else None
+    if feed_before != (feed_model and feed_model.name):
+        found.append(change("feed of", feed_before, feed_model and feed_model.name))
     if existing.source_uri != request.source_uri:
         found.append(change("source", existing.source_uri, request.source_uri))
     return found or ["its fingerprint"]

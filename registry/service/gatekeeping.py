@@ -110,21 +110,16 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
 
 def run_gates(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str, actor: Actor,
               waivers: Sequence[Waiver] = (), *, policy: Policy) -> GateReport:
-    check_waivers_first(model, candidate, stage, actor, waivers, policy)
+    check_waivers_first(stage, actor, waivers, policy)
     incumbent = top_holder(uow, model, policy)
     evidence = gather_evidence(uow, model, candidate, stage, policy, incumbent=incumbent)
     return gates.evaluate(policy, stage, evidence, waivers, gates_actor(actor))
 
 
-def check_waivers_first(model: t.Model, candidate: t.Version, stage: str, actor: Actor,
-                        waivers: Sequence[Waiver], policy: Policy) -> None:
-    """Refuse a misspelt or unrecordable waiver before seconds of gathering evidence: the
-    checks need only who the candidate is and who acts."""
-    if not waivers:
-        return
-    identity = gates.Evidence(model=model.name, version=candidate.number,
-                              author=candidate.author or candidate.created_by, evaluated_at="")
-    gates.check_waivers(waivers, gates_actor(actor), policy, stage, identity)
+def check_waivers_first(stage: str, actor: Actor, waivers: Sequence[Waiver],
+                        policy: Policy) -> None:
+    """Refuse a misspelt or unrecordable waiver before seconds of gathering evidence."""
+    gates.check_waivers(waivers, gates_actor(actor), policy, stage)
 
 
 def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, holder: t.Version,
@@ -136,7 +131,7 @@ def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, hol
     schema_only = dataclasses.replace(
         rule, gates=tuple(spec for spec in rule.gates if spec.gate in SCHEMA_GATES))
     restricted = dataclasses.replace(policy, stages={**policy.stages, stage: schema_only})
-    check_waivers_first(model, restored, stage, actor, waivers, restricted)
+    check_waivers_first(stage, actor, waivers, restricted)
     evidence = gather_evidence(uow, model, restored, stage, restricted, incumbent=holder,
                                include_quality=False)
     return gates.evaluate(restricted, stage, evidence, waivers, gates_actor(actor))

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from sqlalchemy import func, select
 
 from registry.errors import AlreadyExists, NotFound
+from registry.moments import utc_iso
 from registry.names import check_name
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
@@ -93,7 +94,7 @@ def _summary(uow: UnitOfWork, model: t.Model) -> ModelSummary:
         select(func.count()).select_from(t.Version).where(t.Version.model_id == model.id)
     ).scalar_one()
     return ModelSummary(name=model.name, description=model.description,
-                        created_at=model.created_at.isoformat(), created_by=model.created_by,
+                        created_at=utc_iso(model.created_at), created_by=model.created_by,
                         versions=count, stages=holders_by_stage(uow, model))
 
 
@@ -134,6 +135,7 @@ def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
             versions=[VersionSummary(
                 number=v.number, document_digest=v.document_digest, document_kind=v.document_kind,
                 description=v.description, author=v.author, code_revision=v.code_revision,
-                created_at=v.created_at.isoformat(), created_by=v.created_by,
-                stages=held.get(v.number, []), recalled_upstream=recalled_names_upstream(uow, v))
+                created_at=utc_iso(v.created_at), created_by=v.created_by,
+                stages=held.get(v.number, []),
+                recalled_upstream=recalled_names_upstream(uow, v.id))
                 for v in versions])

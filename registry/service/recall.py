@@ -159,12 +159,9 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
                              feed_readers=readers, flagged_consumers=consumers)
 
 
-def recalled_names_upstream(uow: UnitOfWork, version_row: t.Version) -> list[str]:
+def recalled_names_upstream(uow: UnitOfWork, version_id: int) -> list[str]:
     """The names of the recalled datasets upstream of a version (none: an empty list)."""
-    start = walks.NodeKey("version", version_row.id)
-    reached = {r.key for r in walks.walk(uow.session, walks.seeds_for(start), "up")}
-    facts = walks.facts_of(uow.session, reached)
-    return sorted(facts[k].name for k in reached if k.kind == "dataset" and facts[k].recalled)
+    return uow.names.recalled_upstream_of_version(version_id)
 
 
 def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledSource]:

@@ -15,6 +15,7 @@ from typing import Any
 from sqlalchemy import delete, select
 
 from registry.errors import Conflict, NotFound, Refusal, UserError
+from registry.moments import utc_iso
 from registry.names import check_name
 from registry.service import gatekeeping
 from registry.service.actors import Actor
@@ -329,12 +330,12 @@ def history(catalogue: Catalogue, model: str) -> dict[str, Any]:
             if event.report_id is not None:
                 row = uow.session.get(t.GateReportRow, event.report_id)
                 report = json.loads(row.report_json)
-            events.append({"at": event.created_at.isoformat(), "version": number,
+            events.append({"at": utc_iso(event.created_at), "version": number,
                            "stage": event.stage, "event": event.event, "by": event.created_by,
                            "details": json.loads(event.details_json or "{}"),
                            "report_id": event.report_id, "report": report})
         attempts = [{"id": row.id, "version": number, "stage": row.stage, "attempt": row.attempt,
-                     "passed": row.passed, "at": row.created_at.isoformat(),
+                     "passed": row.passed, "at": utc_iso(row.created_at),
                      "by": row.created_by}
                     for row, number in uow.session.execute(
                         select(t.GateReportRow, t.Version.number)
@@ -357,11 +358,12 @@ def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
             if stage == "retired":
                 continue  # out of service: nothing to act on
             for holding in holdings:
-                version = uow.session.get(t.Version, holding.version_id)
-                if version.number not in flagged:
-                    flagged[version.number] = {"version": version.number, "stages": [],
-                                               "recalled": recalled_names_upstream(uow, version)}
-                flagged[version.number]["stages"].append(stage)
+                number = uow.names.version_number(holding.version_id)
+                if number not in flagged:
+                    flagged[number] = {"version": number, "stages": [],
+                                       "recalled": recalled_names_upstream(uow,
+                                                                           holding.version_id)}
+                flagged[number]["stages"].append(stage)
         return {"model": line.name, "stages": stages,
                 "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)],
                 "recalled_upstream": [f for _, f in sorted(flagged.items()) if f["recalled"]]}

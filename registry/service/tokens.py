@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 
 from registry.errors import LockkeeperError, NotFound, UserError
-from registry.moments import parse_moment
+from registry.moments import parse_moment, utc_iso
 from registry.names import check_name
 from registry.service.actors import ROLES, Actor
 from registry.service.authorisation import authorise, is_bootstrap, require_first_admin
@@ -70,9 +70,9 @@ def parse_expiry(text: str | None, *, now: datetime | None = None) -> datetime |
 
 def _record(row: t.ApiToken) -> TokenRecord:
     return TokenRecord(id=row.id, user=row.user, role=row.role, label=row.label,
-                       created_at=row.created_at.isoformat(), created_by=row.created_by,
-                       expires_at=row.expires_at.isoformat() if row.expires_at else None,
-                       revoked_at=row.revoked_at.isoformat() if row.revoked_at else None)
+                       created_at=utc_iso(row.created_at), created_by=row.created_by,
+                       expires_at=utc_iso(row.expires_at) if row.expires_at else None,
+                       revoked_at=utc_iso(row.revoked_at) if row.revoked_at else None)
 
 
 

@@ -11,7 +11,6 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
-from datetime import UTC, datetime
 from typing import Literal
 
 from sqlalchemy import (
@@ -19,6 +18,7 @@ from sqlalchemy import (
 )
 from sqlalchemy.orm import Session
 
+from registry.moments import utc_iso
 from registry.store import tables as t
 
 Direction = Literal["up", "down"]
@@ -317,11 +317,6 @@ class NodeFacts:
     created_at: str = ""
     created_by: str = ""
     recall_reason: str = ""
-
-
-def utc_iso(moment: datetime) -> str:
-    """ISO 8601 with the offset: SQLite hands timestamps back without one, and they are UTC."""
-    return (moment if moment.tzinfo else moment.replace(tzinfo=UTC)).isoformat()
 
 
 def facts_of(session: Session, keys: Iterable[NodeKey]) -> dict[NodeKey, NodeFacts]:

@@ -20,11 +20,11 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.audit_repository import AuditEventRepository
-from registry.store.name_repository import NameRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.consumer_repository import ConsumerRepository
 from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.feed_repository import FeedRepository
+from registry.store.name_repository import NameRepository
 from registry.store.role_repository import RoleRepository
 from registry.store.token_repository import TokenRepository
 
