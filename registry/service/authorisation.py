@@ -16,6 +16,8 @@ from registry.store.unit_of_work import UnitOfWork
 ACTIONS: dict[str, tuple[str, ...]] = {
     "key.create": ("admin",),
     "key.rotate": ("admin",),
+    # Signs the chain as it stands; changes no deciding row, so anyone who may read may ask.
+    "audit.checkpoint": ("reader",),
 }
 
 

@@ -21,6 +21,7 @@ from sqlalchemy import Boolean, DateTime, Table, delete, func, select, text
 
 from registry.errors import UserError
 from registry.store import tables as t
+from registry.service.row_coverage import parse_rows
 from registry.store.audit import AuditRecord, verify_chain
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
@@ -209,7 +210,7 @@ def _check_chain(rows: dict[str, list[dict[str, Any]]], manifest: dict[str, Any]
     try:
         records = [AuditRecord(e["sequence"], e["occurred_at"], e["actor"], e["action"],
                                e["subject"], json.loads(e["details_json"]), e["previous_hash"],
-                               e["hash"]) for e in events]
+                               e["hash"], parse_rows(e.get("rows_json"))) for e in events]
     except (KeyError, TypeError, json.JSONDecodeError):
         raise BadExport("an audit event is incomplete",
                         place="tables/audit_events.jsonl") from None
@@ -282,6 +283,7 @@ def read_export(folder: Path, revision: str) -> CheckedExport:
 def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSummary:
     """Insert a checked export into an empty catalogue, in one transaction, keeping every id."""
     with UnitOfWork(catalogue) as uow:
+        uow.capture.allow_bulk = True  # the imported chain itself backs every imported row
         _require_empty(uow)
         for table in _tables():
             if export.rows[table.name]:

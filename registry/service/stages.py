@@ -12,7 +12,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlalchemy import delete, select
+from sqlalchemy import select
 
 from registry.errors import Conflict, Forbidden, NotFound, Refusal, UserError
 from registry.names import check_name
@@ -298,7 +298,12 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
         if guarded and not actor.has_role("approver"):
             raise Forbidden(f"v{number} holds {', '.join(guarded)}; retiring it needs the "
                             "approver role", place="retire")
-        uow.session.execute(delete(t.StageHolding).where(t.StageHolding.version_id == version.id))
+        # Row by row, not a bulk DELETE, so the unit of work sees each deleted holding.
+        for holding in uow.session.execute(
+                select(t.StageHolding).where(t.StageHolding.version_id == version.id)
+        ).scalars().all():
+            uow.session.delete(holding)
+        uow.session.flush()
         for stage in held:
             _event(uow, line, version, stage, "retired", actor, reason=reason)
         uow.session.add(t.StageHolding(model_id=line.id, version_id=version.id, stage="retired",
