@@ -19,7 +19,7 @@ from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
 from registry.canonical_json import digest_of
 from registry.signing.checkpoints import SignedCheckpoint, from_document, is_signed_by
 from registry.store import tables as t
-from registry.store.audit import AuditRecord, verify_chain
+from registry.store.audit import GENESIS_HASH, AuditRecord, verify_chain
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 
@@ -95,7 +95,8 @@ def _walk_chain(uow: UnitOfWork, wanted: set[int]) -> _ChainWalk:
             yield AuditRecord(row.sequence, row.occurred_at, row.actor, row.action,
                               row.subject, details, row.previous_hash, row.hash, rows)
 
-    breaks = verify_chain(records(), uow.audit.head())
+    # A missing head row reads as an empty chain, which the stored events then contradict.
+    breaks = verify_chain(records(), uow.audit.head() or (0, GENESIS_HASH))
     walk.findings += [Finding(f"audit event {b.sequence}", b.problem) for b in breaks]
     walk.findings += [Finding(f"audit event {sequence}", problem)
                       for sequence, problem in walk.replayed.problems]
@@ -334,7 +335,7 @@ def verify_catalogue(catalogue: Catalogue,
     kept outside, when given), the signed checkpoints, every deciding row against the chain's
     row digests, the blobs, then each registration against its recorded digests."""
     with UnitOfWork(catalogue, write=False) as uow:
-        checkpoints = uow.checkpoints.all()
+        checkpoints = _guarded(uow, "checkpoints", [], uow.checkpoints.all)
         wanted = {checkpoint.sequence for _, checkpoint in checkpoints}
         if against is not None:
             wanted.add(against.checkpoint.sequence)
@@ -342,14 +343,20 @@ def verify_catalogue(catalogue: Catalogue,
         head = uow.audit.head()
         outside = [] if against is None else _extends(
             against.place, against.checkpoint, head[0] if head else 0, walk.hashes)
-        checkpoint_findings = _checkpoint_findings(uow, checkpoints, walk)
+        checkpoint_findings = _guarded(uow, "checkpoints", [],
+                                       lambda: _checkpoint_findings(uow, checkpoints, walk))
         rows, row_findings = _row_findings(uow, walk)
         blobs, blob_findings = _blob_findings(uow)
-        versions, version_findings = _version_findings(uow, walk.registered)
-        datasets, dataset_findings = _dataset_findings(uow, walk.registered)
-        evaluations, evaluation_findings = _evaluation_findings(uow, walk.registered)
-        has_key = uow.keys.current() is not None
-    everything = (outside + walk.findings + checkpoint_findings + row_findings + blob_findings
+        versions, version_findings = _guarded(
+            uow, "versions", (0, []), lambda: _version_findings(uow, walk.registered))
+        datasets, dataset_findings = _guarded(
+            uow, "datasets", (0, []), lambda: _dataset_findings(uow, walk.registered))
+        evaluations, evaluation_findings = _guarded(
+            uow, "evaluations", (0, []), lambda: _evaluation_findings(uow, walk.registered))
+        has_key = _guarded(uow, "signing_keys", False, lambda: uow.keys.current() is not None)
+    # The chain first, then a checkpoint kept outside, then the deciding rows (which include
+    # the signing keys the stored checkpoints are checked with), then everything else.
+    everything = (walk.findings + outside + row_findings + checkpoint_findings + blob_findings
                   + version_findings + dataset_findings + evaluation_findings)
     newest = checkpoints[-1][1] if checkpoints else None
     return VerificationReport(
@@ -359,6 +366,21 @@ def verify_catalogue(catalogue: Catalogue,
         newest_checkpoint=None if newest is None else {
             "sequence": newest.sequence, "head_hash": newest.head_hash,
             "signed_at": newest.signed_at, "key_id": newest.key_id})
+
+
+def _guarded(uow: UnitOfWork, what: str, empty: Any, check: Any) -> Any:
+    """Run one of the checks that read rows through their mapped types. Tampered rows can make
+    those reads fail (a timestamp that no longer parses, a reference to a row that is gone);
+    the row digests name such a change first, so the check then just reports it could not run."""
+    try:
+        with uow.session.begin_nested():
+            return check()
+    except Exception as error:  # any failure to read tampered rows is the finding itself
+        finding = Finding(what, f"could not be checked: the stored rows no longer read back "
+                                f"({type(error).__name__})")
+        if isinstance(empty, tuple):
+            return empty[0], [finding]
+        return [finding] if isinstance(empty, list) else empty
 
 
 @dataclass(frozen=True)
