@@ -10,6 +10,7 @@ still differs from what was written.
 
 from __future__ import annotations
 
+import functools
 import hashlib
 from collections.abc import Iterator, Mapping
 from datetime import datetime
@@ -45,12 +46,28 @@ def key_columns(table: Table) -> list[str]:
     return [column.name for column in table.primary_key.columns]
 
 
+_DATETIME, _BOOLEAN, _OTHER = "datetime", "boolean", "other"
+
+
+@functools.lru_cache(maxsize=None)
+def _kinds(table: Table) -> dict[str, str]:
+    kinds = {}
+    for column in table.columns:
+        if isinstance(column.type, DateTime):
+            kinds[column.name] = _DATETIME
+        elif isinstance(column.type, Boolean):
+            kinds[column.name] = _BOOLEAN
+        else:
+            kinds[column.name] = _OTHER
+    return kinds
+
+
 def plain_value(table: Table, column: str, value: Any) -> Any:
     """A stored value in one form whatever the database or the export it came from."""
     if value is None:
         return None
-    column_type = table.c[column].type
-    if isinstance(column_type, DateTime):
+    kind = _kinds(table)[column]
+    if kind is _DATETIME:
         if isinstance(value, datetime):
             return utc_iso(value)
         if isinstance(value, str):  # SQLite keeps timestamps as text
@@ -59,7 +76,7 @@ def plain_value(table: Table, column: str, value: Any) -> Any:
             except ValueError:
                 return {"unreadable": value}
         return {"unreadable": repr(value)}
-    if isinstance(column_type, Boolean):
+    if kind is _BOOLEAN:
         if isinstance(value, bool):
             return value
         if isinstance(value, int) and value in (0, 1):  # SQLite keeps booleans as 0 and 1
@@ -72,26 +89,44 @@ def plain_value(table: Table, column: str, value: Any) -> Any:
     return value
 
 
+def encoded_value(value: Any) -> bytes:
+    """A plain value as bytes, tagged with its kind so that 1, "1" and true all differ."""
+    if isinstance(value, str):
+        return b"s:" + value.encode("utf-8", "surrogatepass")
+    if isinstance(value, bool):
+        return b"b:1" if value else b"b:0"
+    if isinstance(value, int):
+        return b"i:" + str(value).encode("ascii")
+    return b"j:" + canonical_json(value)
+
+
+@functools.lru_cache(maxsize=4096)
+def _prefix(table: str, column: str) -> bytes:
+    return f"{table}\x1f{column}\x1f".encode("utf-8")
+
+
 def column_digest(table: str, column: str, value: Any) -> str:
-    """128 bits of SHA-256 over the column's name and plain value: enough to name the column
-    that changed; the row as a whole is bound by row_digest over all of them."""
-    return hashlib.sha256(canonical_json({"table": table, "column": column, "value": value})
-                          ).hexdigest()[:32]
+    """128 bits of SHA-256 over table, column and tagged value: enough to name the column that
+    changed; the row as a whole is bound by row_digest over all of them."""
+    return hashlib.sha256(_prefix(table, column) + encoded_value(value)).hexdigest()[:32]
 
 
 def column_digests(table: Table, row: Mapping[str, Any]) -> ColumnDigests:
     """The digest of every column that is not NULL. Leaving NULLs out means a nullable column
     added by a later revision leaves the rows written before it as they were recorded."""
     digests = {}
-    for column in table.columns:
-        value = plain_value(table, column.name, row[column.name])
+    name = table.name
+    for column in _kinds(table):
+        value = row[column]
         if value is not None:
-            digests[column.name] = column_digest(table.name, column.name, value)
+            digests[column] = column_digest(name, column, plain_value(table, column, value))
     return digests
 
 
 def row_digest(digests: Mapping[str, str]) -> str:
-    return hashlib.sha256(canonical_json(dict(digests))).hexdigest()
+    """SHA-256 over `column=digest` lines in column-name order."""
+    lines = "\n".join(f"{column}={digests[column]}" for column in sorted(digests))
+    return hashlib.sha256(lines.encode("utf-8")).hexdigest()
 
 
 def key_of(table: Table, row: Mapping[str, Any]) -> RowKey:
