@@ -25,6 +25,9 @@ from registry.store.checkpoint_repository import CheckpointRepository
 from registry.store.keys_repository import KeyRepository
 from registry.store.row_capture import RowCapture
 from registry.store.row_digests import RowReader
+from registry.store.evaluation_repository import EvaluationRepository
+from registry.store.role_repository import RoleRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -127,6 +130,9 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.roles: RoleRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
         self.keys: KeyRepository
         self.checkpoints: CheckpointRepository
         self.capture: RowCapture | None = None
@@ -137,11 +143,7 @@ class UnitOfWork:
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
-        self.keys = KeyRepository(self.session)
-        self.checkpoints = CheckpointRepository(self.session)
-        self.rows = RowReader(self.session)
-        if self.write:
-            self.capture = RowCapture(self.session)
+        self._attach_repositories()
         try:
             self.session.begin()
             if self.write:
@@ -150,6 +152,17 @@ class UnitOfWork:
             self._close()
             raise _translate(error, self.catalogue) from None
         return self
+
+    def _attach_repositories(self) -> None:
+        """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
+        self.roles = RoleRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
+        self.keys = KeyRepository(self.session)
+        self.checkpoints = CheckpointRepository(self.session)
+        self.rows = RowReader(self.session)
+        if self.write:
+            self.capture = RowCapture(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
