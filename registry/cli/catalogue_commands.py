@@ -51,15 +51,21 @@ def init(as_json: bool) -> None:
 
     context = _context()
     context.local_only("init")
+    from registry.service.coverage_upgrade import cover_rows_written_before_coverage
+
     catalogue = open_catalogue(context.db_url, must_exist=False)
     try:
         before = migrate.current_revision(catalogue)
         migrate.upgrade(catalogue)
         after = migrate.current_revision(catalogue)
+        covered = cover_rows_written_before_coverage(catalogue, context.user)
     finally:
         catalogue.close()
-    emit({"catalogue": describe(catalogue.url), "revision_before": before, "revision": after},
-         as_json, lambda d: f"catalogue {d['catalogue']} at revision {d['revision']}")
+    emit({"catalogue": describe(catalogue.url), "revision_before": before, "revision": after,
+          "rows_brought_under_the_chain": covered}, as_json,
+         lambda d: f"catalogue {d['catalogue']} at revision {d['revision']}"
+         + (f"; {d['rows_brought_under_the_chain']} earlier rows now covered by the audit chain"
+            if d["rows_brought_under_the_chain"] else ""))
 
 
 @click.group()

@@ -110,6 +110,11 @@ class AuditLog:
         head = self._session.get(t.AuditHead, 1)
         return (head.sequence, head.hash) if head is not None else None
 
+    def records_rows(self) -> bool:
+        """Whether any stored event carries row digests (none did before revision 0003)."""
+        return self._session.execute(select(t.AuditEvent.sequence).where(
+            t.AuditEvent.rows_json.is_not(None)).limit(1)).first() is not None
+
     def rows_json_of(self, sequence: int) -> str | None:
         return self._session.execute(select(t.AuditEvent.rows_json).where(
             t.AuditEvent.sequence == sequence)).scalar_one_or_none()
