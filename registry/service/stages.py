@@ -12,7 +12,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlalchemy import delete, select
+from sqlalchemy import select
 
 from registry.errors import Conflict, NotFound, Refusal, UserError
 from registry.moments import utc_iso
@@ -305,7 +305,12 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
                   place="retire")
         if "retired" in held:
             raise UserError(f"version {number} is already retired", place="retire")
-        uow.session.execute(delete(t.StageHolding).where(t.StageHolding.version_id == version.id))
+        # Row by row, not a bulk DELETE, so the unit of work sees each deleted holding.
+        for holding in uow.session.execute(
+                select(t.StageHolding).where(t.StageHolding.version_id == version.id)
+        ).scalars().all():
+            uow.session.delete(holding)
+        uow.session.flush()
         for stage in held:
             _event(uow, line, version, stage, "retired", actor, reason=reason)
         uow.session.add(t.StageHolding(model_id=line.id, version_id=version.id, stage="retired",
