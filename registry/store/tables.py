@@ -235,6 +235,9 @@ class AuditEvent(Base):
     details_json: Mapped[str] = mapped_column(Text)
     previous_hash: Mapped[str] = mapped_column(String(64))
     hash: Mapped[str] = mapped_column(String(64))
+    # Digests of every deciding row the event's transaction wrote (docs/row-coverage.md);
+    # hashed with the event. Empty on events that wrote no covered row.
+    rows_json: Mapped[str | None] = mapped_column(Text, nullable=True)
 
 
 class Feed(Base):
@@ -316,9 +319,6 @@ class ConsumerSchema(Base):
     note: Mapped[str] = mapped_column(Text, default="")
     created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
     created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
-    # Digests of every deciding row the event's transaction wrote (docs/row-coverage.md);
-    # hashed with the event. Empty on events that wrote no covered row.
-    rows_json: Mapped[str | None] = mapped_column(Text, nullable=True)
 
 
 class SigningKeyRow(Base):
