@@ -156,3 +156,10 @@ def test_options_that_cannot_apply_to_a_saved_fingerprint_are_refused_by_name(tm
     result = CliRunner().invoke(main, ["dataset", "fingerprint", str(saved), "--key",
                                        "segment_id"])
     assert_one_line_error(result, "--key: --key cannot apply to a saved fingerprint")
+
+
+@pytest.mark.parametrize("arguments", [[], ["dataset"]])
+def test_a_group_given_no_command_shows_its_help_not_a_one_line_error(arguments):
+    result = CliRunner().invoke(main, arguments)
+    assert result.stderr.startswith("Usage: ")
+    assert "Commands:" in result.stderr and result.stdout == ""

@@ -93,6 +93,10 @@ COMMANDS: dict[str, Lazy | LazyGroup] = {
 }
 
 
+# click 8.2 raises this for a group given no command; it carries the help, not an error.
+NO_ARGUMENTS_IS_HELP = getattr(click.exceptions, "NoArgsIsHelpError", ())
+
+
 class LockkeeperGroup(LazyGroup):
     """The root group: every error, ours or click's, becomes one line on stderr and its exit
     code, and under --json also one JSON document on stdout."""
@@ -107,6 +111,9 @@ class LockkeeperGroup(LazyGroup):
         except LockkeeperError as error:  # from a command, or from checking a parameter
             emit_error(error.kind, error.message, error.where(), error.exit_code,
                        as_json="--json" in _options_part(arguments))
+            result = error.exit_code
+        except NO_ARGUMENTS_IS_HELP as error:  # `lockkeeper` or `lockkeeper dataset` alone
+            click.echo(error.ctx.get_help(), err=True)
             result = error.exit_code
         except click.ClickException as error:
             emit_error("usage", _usage_message(error), _usage_place(error), error.exit_code,
