@@ -58,6 +58,7 @@ COMMAND_MODULES = [
     "registry.cli.serve_commands",
     "registry.cli.token_commands",
     "registry.cli.backup_commands",
+    "registry.cli.serving_commands",
 ]
 
 

@@ -4,8 +4,8 @@ from registry.gates.approval_gate import check_approval
 from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval, ColumnCounts,
                                      ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
                                      FeatureChange, PairedComparison, RecalledDataset,
-                                     SampleProfile, SchemaCheck, SchemaProblem, SliceComparison,
-                                     Waiver, from_plain, to_plain)
+                                     SampleProfile, SchemaCheck, SchemaProblem, ShadowAgreement,
+                                     SliceComparison, Waiver, from_plain, to_plain)
 from registry.gates.policy import (RETIRED, GateSpec, Policy, PolicyError, StageRule,
                                    TransitionError, UnknownStage, default_policy,
                                    default_policy_text, load_policy)
@@ -18,7 +18,7 @@ __all__ = [
     "APPROVER", "GATES", "RETIRED", "Acknowledgement", "Actor", "Approval", "ColumnCounts",
     "ContainmentEstimate", "DatasetRecord", "Evidence", "EvidenceError", "FeatureChange",
     "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
-    "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "SliceComparison",
+    "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "ShadowAgreement", "SliceComparison",
     "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_approval", "check_waivers",
     "default_policy", "default_policy_text", "evaluate", "from_plain", "holm_adjust",
     "load_policy", "render_report", "to_plain",

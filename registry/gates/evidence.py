@@ -275,6 +275,24 @@ class Approval:
 
 
 @dataclasses.dataclass(frozen=True)
+class ShadowAgreement:
+    """How the candidate agreed with the incumbent on live rows both scored.
+
+    against: the incumbent's version number; task: `binary`, `regression` or `multiclass`;
+    rows: row ids both scored within the retention; share_agreeing: binary, the share on the
+    same side of the decision threshold; multiclass, the share with the same top class; None
+    for regression. mean_absolute_difference, spearman: as the serving report shows them.
+    """
+
+    against: int
+    task: str
+    rows: int
+    share_agreeing: float | None = None
+    mean_absolute_difference: float | None = None
+    spearman: float | None = None
+
+
+@dataclasses.dataclass(frozen=True)
 class Evidence:
     """Everything the gates may look at for one attempt to move one version into one stage.
 
@@ -294,6 +312,8 @@ class Evidence:
     datasets: the candidate's training and evaluation datasets.
     recalled_upstream: recalled datasets upstream of the candidate.
     approvals: recorded approvals of the candidate.
+    agreement: the candidate's agreement with the incumbent on shared live rows, None when they
+      scored none in common.
     """
 
     model: str
@@ -315,6 +335,7 @@ class Evidence:
     datasets: tuple[DatasetRecord, ...] = ()
     recalled_upstream: tuple[RecalledDataset, ...] = ()
     approvals: tuple[Approval, ...] = ()
+    agreement: ShadowAgreement | None = None
 
     @property
     def has_incumbent(self) -> bool:

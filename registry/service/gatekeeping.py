@@ -94,6 +94,11 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
         comparisons, slices = sources.quality_comparisons(uow, candidate, incumbent,
                                                           policy.gates_for(stage))
         evidence = dataclasses.replace(evidence, comparisons=comparisons, slices=slices)
+    if any(spec.gate == "shadow-agreement" for spec in policy.gates_for(stage)):
+        from registry.service.serving_evidence import shadow_agreement
+
+        evidence = dataclasses.replace(
+            evidence, agreement=shadow_agreement(uow, model, candidate, incumbent))
     return evidence
 
 

@@ -43,13 +43,13 @@ def test_summary_for_the_audit_log_lists_failed_gates_and_waivers(report):
     assert summary["failed"]["feature-meaning"].startswith("mean_pressure_psi: ")
     assert summary["waived"] == [{"gate": "no-leakage", "approver": "tomas.lindqvist",
                                   "reason": "disjoint by construction"}]
-    assert len(summary["gates"]) == 11
+    assert len(summary["gates"]) == 12
 
 
 def test_plain_text_shows_the_verdict_every_gate_and_the_waiver(report):
     text = render_report(report)
     first, *lines = text.splitlines()
-    assert first == "main-burst-risk version 3 -> live: refused (9 of 11 gates cleared)"
+    assert first == "main-burst-risk version 3 -> live: refused (10 of 12 gates cleared)"
     assert any(line.split()[:2] == ["failed", "feature-meaning"] and "mean_pressure_psi" in line
                for line in lines)
     assert any(line.split()[:2] == ["waived", "no-leakage"] for line in lines)
