@@ -8,13 +8,14 @@ audit chain never forks. Database errors leave as the typed errors of registry.e
 from __future__ import annotations
 
 import hashlib
-from datetime import UTC, datetime
+from datetime import datetime
 from typing import Any
 
 from sqlalchemy import select
 from sqlalchemy.exc import DBAPIError, IntegrityError, OperationalError
 from sqlalchemy.orm import Session
 
+from registry import clock
 from registry.canonical_json import canonical_json
 from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, NotFound
 from registry.store import tables as t
@@ -24,7 +25,7 @@ from registry.store.serving_repository import ServingRepository
 
 
 def utc_now() -> datetime:
-    return datetime.now(UTC)
+    return clock.now()
 
 
 class BlobStore:
