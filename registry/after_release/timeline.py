@@ -55,8 +55,22 @@ def serving_spells(events: Iterable[tuple[int, str, str, datetime]],
                 spells.setdefault(number, []).append(Spell(start, moment, tuple(names)))
     for number, (start, names) in opened.items():
         spells.setdefault(number, []).append(Spell(start, None, tuple(names)))
-    return {number: tuple(sorted(found, key=lambda s: s.start))
+    return {number: _joined(sorted(found, key=lambda s: s.start))
             for number, found in spells.items()}
+
+
+def _joined(spells: list[Spell]) -> tuple[Spell, ...]:
+    """Spells that touch become one: moving up the ladder leaves a stage and enters the next
+    at the same moment."""
+    joined: list[Spell] = []
+    for spell in spells:
+        if joined and joined[-1].end is not None and joined[-1].end >= spell.start:
+            last = joined[-1]
+            end = None if spell.end is None else max(last.end, spell.end)
+            joined[-1] = Spell(last.start, end, last.stages + spell.stages)
+        else:
+            joined.append(spell)
+    return tuple(joined)
 
 
 def holder_at(spells: dict[int, tuple[Spell, ...]], micros: int) -> list[int]:
