@@ -38,12 +38,12 @@ def record(model_name: str, file: str, schema_path: str | None, file_format: str
     """Record a batch of served rows: row_id, served_at, version, the prediction, inputs."""
     from registry.service.serving import record_served
 
-    schema_json = load_schema(schema_path)
     remote = _context().remote()
     if remote:
-        outcome = remote.record_served(model_name, file, schema_json=schema_json,
+        outcome = remote.record_served(model_name, file, schema=schema_path,
                                        file_format=file_format)
     else:
+        schema_json = load_schema(schema_path)
         with progress_reporter(os.path.basename(file), _total_rows(file)) as progress:
             outcome = record_served(_context().catalogue(), model_name, file, _actor(),
                                     format=file_format, schema_json=schema_json,
@@ -70,9 +70,12 @@ def outcomes(model_name: str, file: str, file_format: str | None, as_json: bool)
     """Record outcomes (row_id, label, optionally observed_at) of rows served earlier."""
     from registry.service.serving import record_outcomes
 
-    _context().local_only("serving outcomes")
-    outcome = record_outcomes(_context().catalogue(), model_name, file, _actor(),
-                              format=file_format)
+    remote = _context().remote()
+    if remote:
+        outcome = remote.record_outcomes(model_name, file, file_format=file_format)
+    else:
+        outcome = record_outcomes(_context().catalogue(), model_name, file, _actor(),
+                                  format=file_format)
 
     def text(o: dict[str, Any]) -> str:
         if not o["recorded"]:
@@ -96,10 +99,14 @@ def report(model_name: str, version: str | None, since: str | None, window: str 
     """Per window and version: rows, drift, shadow agreement, live quality and the state."""
     from registry.service.serving_evidence import serving_report
 
-    _context().local_only("serving report")
     number = _version_number(version) if version is not None else None
-    document = serving_report(_context().catalogue(), model_name, version=number, since=since,
-                              window=window)
+    remote = _context().remote()
+    if remote:
+        document = remote.serving_report(model_name, version=number, since=since,
+                                         window=window)
+    else:
+        document = serving_report(_context().catalogue(), model_name, version=number,
+                                  since=since, window=window)
     emit(document, as_json, render_report)
 
 
