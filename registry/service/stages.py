@@ -346,8 +346,12 @@ def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
         stages = {}
         for stage in [*policy.ladder, "retired"]:
             stages[stage] = list(_numbers(uow, holders(uow, line, stage)))
+        from registry.service.serving_evidence import states_in
+
         return {"model": line.name, "stages": stages,
-                "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)]}
+                "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)],
+                # steady, drifting or degrading, per version that served (evidence after release)
+                "after_release": states_in(uow, line)}
 
 
 def find_report(catalogue: Catalogue, report_id: int) -> dict[str, Any]:
