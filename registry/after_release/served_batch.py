@@ -19,7 +19,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
-from registry.after_release.row_ids import hash_row_ids
+from registry.after_release.row_ids import hash_row_ids, kernels
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import Spell
 from registry.after_release.windows import MICROS, iso, window_starts
@@ -230,9 +230,17 @@ def _first(mask: np.ndarray) -> int:
     return int(np.argmax(mask))
 
 
+def distinct(values: np.ndarray) -> list[int]:
+    """The distinct values, sorted; a batch mostly holds one version and one window."""
+    if len(values) == 0:
+        return []
+    low, high = int(values.min()), int(values.max())
+    return [low] if low == high else np.unique(values).tolist()
+
+
 def _check_versions(versions: np.ndarray, micros: np.ndarray, first_row: int,
                     context: ServingContext) -> None:
-    for number in np.unique(versions).tolist():
+    for number in distinct(versions):
         rows = versions == number
         facts = context.versions.get(number)
         if facts is None:
@@ -308,11 +316,11 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     groups: dict[tuple[int, int], WindowRows] = {}
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}
     rows = 0
-    for first_row, batch in read_batches(source):
+    for first_row, batch in _read_ahead(read_batches(source)):
         micros = _micros_of(batch.column("served_at"), record.field("served_at"), first_row)
         versions = batch.column("version").to_numpy(zero_copy_only=False)
         _check_versions(versions, micros, first_row, context)
-        numbers = np.unique(versions).tolist()
+        numbers = distinct(versions)
         _check_task(task, predicted, numbers, context)
         scores = _check_predictions(batch, task, predicted, first_row)
         hashes = hash_row_ids(batch.column("row_id"))
@@ -332,9 +340,17 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups)
 
 
+def _read_ahead(batches):
+    """The next batch is decoded on a thread of its own while this one is checked (at most
+    two wait, so memory stays bounded by a few batches)."""
+    from registry.datasets.fingerprint import read_ahead
+
+    return read_ahead(batches)
+
+
 def _add_groups(groups, batch, record, task, inputs, context, versions, starts, micros, hashes,
                 scores, numbers) -> None:
-    window_list = np.unique(starts).tolist()
+    window_list = distinct(starts)
     for number in numbers:
         facts = context.versions[number]
         own_inputs = [n for n in inputs if n in facts.input_record.names]
@@ -371,11 +387,8 @@ def _refuse_duplicates(seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | 
     """A row id may be scored once per version in a batch (two versions may score it)."""
     for number, parts in seen.items():
         hashes = np.concatenate([h for h, _, _ in parts])
-        order = np.argsort(hashes, kind="stable")
-        ordered = hashes[order]
-        repeats = np.flatnonzero(ordered[1:] == ordered[:-1])
-        if len(repeats):
-            second = int(order[repeats + 1].min())  # the earliest row repeating an id
+        second = int(kernels.first_repeat(hashes))  # the earliest row repeating an id
+        if second >= 0:
             raise UserError(f"the row id of this row already appears in the batch for "
                             f"v{number}; a version scores a row once",
                             place=cell(_row_number(parts, second), "row_id"))
