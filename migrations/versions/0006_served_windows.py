@@ -38,6 +38,7 @@ def upgrade() -> None:
     sa.Column('window_seconds', sa.Integer(), nullable=False),
     sa.Column('rows', sa.BigInteger(), nullable=False),
     sa.Column('summary_json', sa.Text(), nullable=False),
+    sa.Column('figures_json', sa.Text(), nullable=True),
     sa.Column('updated_at', sa.DateTime(timezone=True), nullable=False),
     sa.ForeignKeyConstraint(['model_id'], ['models.id'], ),
     sa.ForeignKeyConstraint(['version_id'], ['versions.id'], ),

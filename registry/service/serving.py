@@ -25,7 +25,8 @@ from registry.service import gatekeeping
 from registry.service.actors import Actor
 from registry.service.models import find_model
 from registry.service.roles import require_role
-from registry.service.serving_evidence import classes_of_columns, serving_context
+from registry.service.serving_evidence import (classes_of_columns, refresh_figures,
+                                               serving_context)
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -81,6 +82,7 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
             uow.serving.add_rows(t.ServedRows(
                 model_id=line.id, batch_id=batch.id, kind="predictions", version_id=version.id,
                 window_start=start, rows=rows.summary.rows, content=compact.encode(rows.columns())))
+        refresh_figures(uow, line, {start for _, start in checked.groups})
         dropped = _apply_retention(uow, line)
         uow.audit.append(actor.name, "serving.record", f"model/{line.name}",
                          {"digest": digest, "rows": checked.rows, "task": checked.task,
@@ -161,6 +163,7 @@ def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *
                 model_id=line.id, batch_id=batch.id, kind="outcomes", version_id=None,
                 window_start=int(start), rows=int(mine.sum()), content=compact.encode(columns)))
             per_window.append({"window": iso(int(start)), "rows": int(mine.sum())})
+        refresh_figures(uow, line, {int(s) for s in np.unique(windows[joined]).tolist()})
         uow.audit.append(actor.name, "serving.outcomes", f"model/{line.name}",
                          {"digest": digest, "rows": len(outcomes.hashes),
                           "joined": int(joined.sum()), "unknown_rows": unknown,

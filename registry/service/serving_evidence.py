@@ -14,7 +14,8 @@ from registry.after_release import compact
 from registry.after_release.agreement import agreement, shared_rows
 from registry.after_release.quality import DEFAULT_METRIC
 from registry.after_release.report import (Reference, ReportSettings, WindowRowsOf,
-                                           build_report, merge_windows, predictions_matrix)
+                                           build_report, merge_windows, predictions_matrix,
+                                           window_figures)
 from registry.after_release.served_batch import CLASS_PREFIX, ServingContext, VersionFacts
 from registry.after_release.summaries import WindowSummary
 from registry.after_release.timeline import Spell, serving_spells
@@ -104,10 +105,11 @@ def _columns_of(table) -> list[str]:
 
 
 def prediction_rows(uow: UnitOfWork, model: t.Model, window: int, *, since: int | None = None,
-                    versions: set[int] | None = None) -> dict[tuple[int, int], Any]:
+                    until: int | None = None, versions: set[int] | None = None
+                    ) -> dict[tuple[int, int], Any]:
     """(version, report window start) -> the concatenated compact predictions."""
     parts: dict[tuple[int, int], list[bytes]] = {}
-    for rows, number in uow.serving.rows(model.id, "predictions", since=since):
+    for rows, number in uow.serving.rows(model.id, "predictions", since=since, until=until):
         if versions is not None and number not in versions:
             continue
         parts.setdefault((number, rows.window_start - rows.window_start % window),
@@ -115,12 +117,12 @@ def prediction_rows(uow: UnitOfWork, model: t.Model, window: int, *, since: int 
     return {key: compact.concatenated(contents) for key, contents in parts.items()}
 
 
-def outcome_labels(uow: UnitOfWork, model: t.Model, window: int, *, since: int | None = None
-                   ) -> dict[int, tuple[np.ndarray, np.ndarray]]:
+def outcome_labels(uow: UnitOfWork, model: t.Model, window: int, *, since: int | None = None,
+                   until: int | None = None) -> dict[int, tuple[np.ndarray, np.ndarray]]:
     """Report window start -> (row hashes, labels) of the outcomes that joined its rows; a
     later outcome for the same row replaces an earlier one."""
     parts: dict[int, list[bytes]] = {}
-    for rows, _ in uow.serving.rows(model.id, "outcomes", since=since):
+    for rows, _ in uow.serving.rows(model.id, "outcomes", since=since, until=until):
         parts.setdefault(rows.window_start - rows.window_start % window, []).append(rows.content)
     joined = {}
     for start, contents in parts.items():
@@ -167,6 +169,69 @@ def _incumbents(spells: dict[int, tuple[Spell, ...]], starts: set[int],
     return found
 
 
+def _settings(model: t.Model, task: str | None, seconds: int) -> ReportSettings:
+    policy = gatekeeping.policy_of(model)
+    metric = policy.serving.quality_metric or DEFAULT_METRIC.get(task or "binary", "roc_auc")
+    return ReportSettings(seconds, metric, policy.serving.quality_margin,
+                          policy.serving.confidence)
+
+
+def _task_of(summaries) -> str | None:
+    tasks = {s.task for s in summaries}
+    return sorted(tasks)[0] if tasks else None
+
+
+def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
+                    summaries: dict[tuple[int, int], WindowSummary], *,
+                    since: int | None = None) -> dict[tuple[int, int], dict[str, Any]]:
+    """The figures of each (version, window start) from the summaries, the compact rows and the
+    outcomes: the slow way, used when rows arrive and for windows longer than the policy's."""
+    if not summaries:
+        return {}
+    policy = gatekeeping.policy_of(model)
+    task = _task_of(summaries.values())
+    settings = _settings(model, task, seconds)
+    numbers = {number for number, _ in summaries}
+    by_number = {v.number: v for v in uow.serving.versions(model.id)}
+    references = {n: reference_of(uow, by_number[n]) for n in numbers}
+    starts = {start for _, start in summaries}
+    top = spells_of(uow, model, (policy.top_stage,))
+    incumbents = _incumbents(top, starts, seconds)
+    wanted = numbers | {n for n in incumbents.values() if n is not None}
+    low = min(starts) if since is None else since
+    predictions = prediction_rows(uow, model, seconds, since=low, versions=wanted,
+                                  until=max(starts) + seconds)
+    outcomes = outcome_labels(uow, model, seconds, since=low, until=max(starts) + seconds)
+    rows = {key: _with_labels(table, outcomes.get(key[1])) for key, table in predictions.items()}
+    figures = {}
+    for (number, start), summary in summaries.items():
+        incumbent = incumbents.get(start)
+        found = window_figures(number, summary, references[number], task or "unknown",
+                               settings, rows.get((number, start)),
+                               rows.get((incumbent, start)) if incumbent else None, incumbent)
+        found["incumbent"] = incumbent
+        found["task"] = task
+        found["metric"] = settings.quality_metric
+        found["confidence"] = settings.confidence
+        figures[(number, start)] = found
+    return figures
+
+
+def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int]) -> None:
+    """Recompute and keep the figures of every version's window at these starts (after a batch
+    or an outcome touched them), so that reports only read them."""
+    if not starts:
+        return
+    seconds = gatekeeping.policy_of(model).serving.window_seconds
+    found = uow.serving.windows_at(model.id, seconds, sorted(starts))
+    summaries = {(number, w.window_start): WindowSummary.from_dict(json.loads(w.summary_json))
+                 for w, number in found}
+    figures = compute_figures(uow, model, seconds, summaries)
+    for window, number in found:
+        window.figures_json = json.dumps(figures[(number, window.window_start)],
+                                         allow_nan=False)
+
+
 def report_in(uow: UnitOfWork, model: t.Model, *, version: int | None = None,
               since: str | None = None, window: str | None = None) -> dict[str, Any]:
     policy = gatekeeping.policy_of(model)
@@ -179,32 +244,56 @@ def report_in(uow: UnitOfWork, model: t.Model, *, version: int | None = None,
     start = parse_since(since) if since else None
     if start is not None:
         start -= start % seconds
-    versions = {find_version(uow, model, version).id: version} if version is not None else None
-    stored_windows = uow.serving.windows(model.id, stored, since=start,
-                                         version_ids=list(versions) if versions else None)
-    summaries = merge_windows([(number, w.window_start, WindowSummary.from_dict(
-        json.loads(w.summary_json))) for w, number in stored_windows], seconds)
-    numbers = {number for number, _ in summaries}
-    by_number = {v.number: v for v in uow.serving.versions(model.id)}
-    references = {n: reference_of(uow, by_number[n]) for n in numbers}
-    tasks = {s.task for s in summaries.values()}
-    task = tasks.pop() if len(tasks) == 1 else (next(iter(tasks)) if tasks else None)
-    metric = policy.serving.quality_metric or DEFAULT_METRIC.get(task or "binary", "roc_auc")
-    settings = ReportSettings(seconds, metric, policy.serving.quality_margin,
-                              policy.serving.confidence)
-    top = spells_of(uow, model, (policy.top_stage,))
-    incumbents = _incumbents(top, {s for _, s in summaries}, seconds)
-    wanted = numbers | {n for n in incumbents.values() if n is not None}
-    predictions = prediction_rows(uow, model, seconds, since=start, versions=wanted)
-    outcomes = outcome_labels(uow, model, seconds, since=start)
-    rows = {key: _with_labels(table, outcomes.get(key[1])) for key, table in predictions.items()}
-    report = build_report(model.name, task or "unknown", settings, summaries, references, rows,
-                          incumbents, _outcome_counts(uow, model))
+    version_ids = [find_version(uow, model, version).id] if version is not None else None
+    if seconds == stored:
+        figures, task = _kept_figures(uow, model, stored, start, version_ids)
+    else:
+        stored_windows = uow.serving.windows(model.id, stored, since=start,
+                                             version_ids=version_ids)
+        summaries = merge_windows([(number, w.window_start, WindowSummary.from_dict(
+            json.loads(w.summary_json))) for w, number in stored_windows], seconds)
+        task = _task_of(summaries.values())
+        figures = compute_figures(uow, model, seconds, summaries, since=start)
+    settings = _settings(model, task, seconds)
+    incumbents = {s: f.get("incumbent") for (_, s), f in figures.items()}
+    report = build_report(model.name, task or "unknown", settings, figures, incumbents,
+                          _outcome_counts(uow, model))
     report["window"] = window or policy.serving.window
     report["retention_days"] = policy.serving.retention_days
     if version is not None:
         report["version_filter"] = version
     return report
+
+
+def _kept_figures(uow: UnitOfWork, model: t.Model, seconds: int, since: int | None,
+                  version_ids: list[int] | None) -> tuple[dict, str | None]:
+    """The figures kept with each window; any missing or computed under other settings (a
+    changed policy) are computed again from the summaries."""
+    figures: dict[tuple[int, int], dict[str, Any]] = {}
+    stale: set[int] = set()
+    tasks = set()
+    for start, number, _rows, text in uow.serving.window_figures(
+            model.id, seconds, since=since, version_ids=version_ids):
+        found = json.loads(text) if text else None
+        if found is None:
+            stale.add(start)
+            continue
+        tasks.add(found.get("task"))
+        figures[(number, start)] = found
+    task = sorted(t for t in tasks if t)[0] if any(tasks) else None
+    settings = _settings(model, task, seconds)
+    stale |= {s for (_, s), f in figures.items()
+              if (f.get("metric"), f.get("confidence")) != (settings.quality_metric,
+                                                            settings.confidence)}
+    if stale:
+        found = uow.serving.windows_at(model.id, seconds, sorted(stale))
+        wanted = set(version_ids) if version_ids is not None else None
+        summaries = {(number, w.window_start): WindowSummary.from_dict(
+            json.loads(w.summary_json)) for w, number in found
+            if wanted is None or w.version_id in wanted}
+        figures.update(compute_figures(uow, model, seconds, summaries))
+        task = task or _task_of(summaries.values())
+    return figures, task
 
 
 def _outcome_counts(uow: UnitOfWork, model: t.Model) -> dict[str, int]:

@@ -272,6 +272,9 @@ class ServedWindow(Base):
     window_seconds: Mapped[int] = mapped_column(Integer)
     rows: Mapped[int] = mapped_column(BigInteger)
     summary_json: Mapped[str] = mapped_column(Text)
+    # The report's figures of this window (drift, agreement, live quality), recomputed whenever
+    # a batch or an outcome touches the window; they outlive the compact rows.
+    figures_json: Mapped[str | None] = mapped_column(Text, nullable=True)
     updated_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
 
 

@@ -14,7 +14,7 @@ from sklearn.metrics import accuracy_score, brier_score_loss, log_loss, roc_auc_
 
 from registry.after_release.agreement import agreement, spearman
 from registry.after_release.quality import is_below, live_quality, wilson
-from registry.after_release.report import Reference, ReportSettings, judge, merge_windows
+from registry.after_release.report import ReportSettings, judge, merge_windows
 from registry.after_release.row_ids import hash_row_ids, hash_row_ids_reference
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import serving_spells
@@ -102,13 +102,13 @@ def test_degrading_needs_the_whole_interval_below_the_evaluation_by_more_than_th
     labels = (rng.random(3000) < 0.5).astype(np.int64)  # scores carry no signal: AUC near 0.5
     quality = live_quality("binary", labels, scores, (), "roc_auc")
     assert is_below(quality, 0.78, 0.02) and not is_below(quality, 0.5, 0.02)
-    reference = Reference(1, "t", {}, evaluation_metrics={"roc_auc": 0.78})
     settings = ReportSettings(86400, "roc_auc", 0.02)
-    state, reasons = judge({"mean_pressure_kpa": {"psi": 0.3, "level": "alarm"}}, quality,
-                           reference, settings)
+    figures = {**quality.to_dict(), "evaluation_value": 0.78}
+    state, reasons = judge({"mean_pressure_kpa": {"psi": 0.3, "level": "alarm"}}, figures,
+                           settings)
     assert state == "degrading" and len(reasons) == 2
-    assert judge({"x": {"psi": 0.12, "level": "warn"}}, None, reference, settings) == (
-        "steady", [])
+    assert judge({"x": {"psi": 0.12, "level": "warn"}}, None, settings) == ("steady", [])
+    assert judge({}, {**figures, "evaluation_value": 0.5}, settings) == ("steady", [])
 
 
 def test_a_week_is_the_merge_of_its_days():
