@@ -24,7 +24,7 @@ from registry.errors import UserError
 from registry.service import gatekeeping
 from registry.service.actors import Actor
 from registry.service.models import find_model
-from registry.service.roles import require_role
+from registry.service.authorisation import authorise
 from registry.service.serving_evidence import (classes_of_columns, refresh_figures,
                                                serving_context)
 from registry.store import tables as t
@@ -46,11 +46,6 @@ def file_digest(path: str) -> str:
     return digest.hexdigest()
 
 
-def authorise_serving(uow: UnitOfWork, actor: Actor, action: str) -> None:
-    """The one authorisation rule for the actions after release (publisher role)."""
-    require_role(uow, actor, "publisher", action)
-
-
 def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                   format: str | None = None, schema_json: Mapping[str, Any] | None = None,
                   progress: Callable[[int], None] | None = None) -> dict[str, Any]:
@@ -64,7 +59,7 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
     checked = read_served_batch(path, context, format=format, schema_json=schema_json,
                                 progress=progress)
     with UnitOfWork(catalogue) as uow:
-        authorise_serving(uow, actor, "serving.record")
+        authorise(uow, actor, "serving.record")
         line = find_model(uow, model)
         existing = uow.serving.batch(line.id, "served", digest)
         if existing is not None:  # a concurrent sender of the same batch got there first
@@ -137,7 +132,7 @@ def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *
     digest = file_digest(path)
     outcomes = read_outcomes(path, format)
     with UnitOfWork(catalogue) as uow:
-        authorise_serving(uow, actor, "serving.outcomes")
+        authorise(uow, actor, "serving.outcomes")
         line = find_model(uow, model)
         existing = uow.serving.batch(line.id, "outcomes", digest)
         if existing is not None:

@@ -21,7 +21,10 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.evaluation_repository import EvaluationRepository
+from registry.store.role_repository import RoleRepository
 from registry.store.serving_repository import ServingRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -89,6 +92,9 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.roles: RoleRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
         self.serving: ServingRepository
 
     def __enter__(self) -> UnitOfWork:
@@ -96,7 +102,7 @@ class UnitOfWork:
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
-        self.serving = ServingRepository(self.session)
+        self._attach_repositories()
         try:
             self.session.begin()
             if self.write:
@@ -105,6 +111,13 @@ class UnitOfWork:
             self._close()
             raise _translate(error, self.catalogue) from None
         return self
+
+    def _attach_repositories(self) -> None:
+        """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
+        self.roles = RoleRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
+        self.serving = ServingRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

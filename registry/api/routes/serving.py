@@ -12,11 +12,11 @@ import json
 
 from flask import g, request
 
-from registry.api.bodies import require_media_type
+from registry.api.bodies import check_form, require_media_type
 from registry.api.context import catalogue
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
-from registry.api.uploads import file_part, form_value, refuse_unknown_parts, saved_upload
+from registry.api.uploads import file_part, form_value, saved_upload
 from registry.errors import UserError
 from registry.service import serving, serving_evidence
 
@@ -63,13 +63,14 @@ def _schema_part() -> dict | None:
     return schema
 
 
-@route("/models/<model>/served", "POST", role="publisher", summary="Record a batch of served "
-       "rows: row_id, served_at, version, the prediction and the inputs", tag="serving",
+@route("/models/<model>/served", "POST", action="serving.record",
+       summary="Record a batch of served rows: row_id, served_at, version, the prediction and "
+       "the inputs", tag="serving",
        form=SERVED_FORM, responses={201: "Recorded", 200: "This batch was recorded before; "
                                     "nothing changed"})
 def record_served(model: str):
     require_media_type("multipart/form-data")
-    refuse_unknown_parts(set(SERVED_FORM["properties"]))
+    check_form(SERVED_FORM)
     name = path_name(model, "model")
     file_format, schema = _format(), _schema_part()
     with saved_upload(file_part("file"), "served.parquet") as path:
@@ -78,12 +79,13 @@ def record_served(model: str):
     return json_response(outcome, 201 if outcome["recorded"] else 200)
 
 
-@route("/models/<model>/outcomes", "POST", role="publisher", summary="Record outcomes of rows "
-       "served earlier: row_id, label, observed_at", tag="serving", form=OUTCOMES_FORM,
+@route("/models/<model>/outcomes", "POST", action="serving.outcomes",
+       summary="Record outcomes of rows served earlier: row_id, label, observed_at",
+       tag="serving", form=OUTCOMES_FORM,
        responses={201: "Recorded", 200: "This batch was recorded before; nothing changed"})
 def record_outcomes(model: str):
     require_media_type("multipart/form-data")
-    refuse_unknown_parts(set(OUTCOMES_FORM["properties"]))
+    check_form(OUTCOMES_FORM)
     name = path_name(model, "model")
     file_format = _format()
     with saved_upload(file_part("file"), "outcomes.csv") as path:
