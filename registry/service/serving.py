@@ -52,6 +52,7 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
     """Check and keep one served batch; the answer says what it added, per version and window."""
     digest = file_digest(path)
     with UnitOfWork(catalogue, write=False) as uow:
+        authorise(uow, actor, "serving.record")  # before reading a row of the batch
         line = find_model(uow, model)
         if uow.serving.batch(line.id, "served", digest) is not None:
             return _already(line.name, digest, uow.serving.batch(line.id, "served", digest))
@@ -130,6 +131,9 @@ def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *
                     format: str | None = None) -> dict[str, Any]:
     """Join outcomes to the rows they belong to, whenever they arrive; unknown rows are counted."""
     digest = file_digest(path)
+    with UnitOfWork(catalogue, write=False) as uow:
+        authorise(uow, actor, "serving.outcomes")  # before reading a row of the batch
+        find_model(uow, model)
     outcomes = read_outcomes(path, format)
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "serving.outcomes")
