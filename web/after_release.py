@@ -119,8 +119,8 @@ def _x_axis(dates: list[str]) -> tuple[Any, tuple[tuple[float, str], ...]]:
 def _y_axis(low: float, high: float, steps: int = 5, digits: int = 2):
     plot = HEIGHT - TOP - BOTTOM
     y = _scale(low, high, plot, flip=True)
-    ticks = tuple((y(low + (high - low) * k / steps), f"{low + (high - low) * k / steps:.{digits}f}")
-                  for k in range(steps + 1))
+    values = [low + (high - low) * k / steps for k in range(steps + 1)]
+    ticks = tuple((y(value), f"{value:.{digits}f}") for value in values)
     return y, ticks
 
 

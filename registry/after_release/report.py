@@ -5,9 +5,10 @@ Input drift is judged against the version's training dataset and prediction drif
 evaluation predictions, with the datasets package's measures (PSI on the reference's deciles
 with the 0.1 / 0.25 levels, two-sample KS for numbers, Jensen-Shannon for categories: Breck et
 al., Data Validation for Machine Learning, MLSys 2019). The KS p-values come from the limit law
-(Stephens' correction), which many windows can afford; the statistic itself is exact to a bucket. The states follow Breck et al., The ML
-Test Score (2017), Monitoring tests 1-7: inputs that drift are an alarm; live quality whose
-interval falls below the evaluation value by more than the policy's margin is degrading.
+(Stephens' correction), which many windows can afford; the statistic itself is exact to a
+bucket. The states follow Breck et al., The ML Test Score (2017), Monitoring tests 1-7: inputs
+that drift are an alarm; live quality whose interval falls below the evaluation value by more
+than the policy's margin is degrading.
 """
 
 from __future__ import annotations

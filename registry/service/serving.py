@@ -11,6 +11,7 @@ from __future__ import annotations
 import hashlib
 import json
 from collections.abc import Callable, Mapping
+from concurrent.futures import ThreadPoolExecutor
 from typing import Any
 
 import numpy as np
@@ -46,19 +47,32 @@ def file_digest(path: str) -> str:
     return digest.hexdigest()
 
 
+_DIGESTS: ThreadPoolExecutor | None = None
+
+
+def _digests() -> ThreadPoolExecutor:
+    global _DIGESTS
+    if _DIGESTS is None:
+        _DIGESTS = ThreadPoolExecutor(max_workers=1, thread_name_prefix="batch-digest")
+    return _DIGESTS
+
+
 def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                   format: str | None = None, schema_json: Mapping[str, Any] | None = None,
                   progress: Callable[[int], None] | None = None) -> dict[str, Any]:
     """Check and keep one served batch; the answer says what it added, per version and window."""
-    digest = file_digest(path)
     with UnitOfWork(catalogue, write=False) as uow:
         authorise(uow, actor, "serving.record")  # before reading a row of the batch
         line = find_model(uow, model)
-        if uow.serving.batch(line.id, "served", digest) is not None:
-            return _already(line.name, digest, uow.serving.batch(line.id, "served", digest))
         context = serving_context(uow, line)
-    checked = read_served_batch(path, context, format=format, schema_json=schema_json,
-                                progress=progress)
+    # The digest is taken on a thread of its own while the rows are read and checked; a batch
+    # sent again is found by it in the writing transaction below and changes nothing.
+    digesting = _digests().submit(file_digest, path)
+    try:
+        checked = read_served_batch(path, context, format=format, schema_json=schema_json,
+                                    progress=progress)
+    finally:
+        digest = digesting.result()
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "serving.record")
         line = find_model(uow, model)

@@ -197,12 +197,23 @@ def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
     starts = {start for _, start in summaries}
     top = spells_of(uow, model, (policy.top_stage,))
     incumbents = _incumbents(top, starts, seconds)
-    wanted = numbers | {n for n in incumbents.values() if n is not None}
     low = min(starts) if since is None else since
-    predictions = prediction_rows(uow, model, seconds, since=low, versions=wanted,
-                                  until=max(starts) + seconds)
     outcomes = outcome_labels(uow, model, seconds, since=low, until=max(starts) + seconds)
-    rows = {key: _with_labels(table, outcomes.get(key[1])) for key, table in predictions.items()}
+    # rows are read only where they tell something: outcomes to join, or a shadow beside the
+    # incumbent to compare with
+    versions_at: dict[int, set[int]] = {}
+    for number, start in summaries:
+        versions_at.setdefault(start, set()).add(number)
+    needed = {start for start, held in versions_at.items()
+              if start in outcomes or (incumbents.get(start) is not None
+                                       and held - {incumbents[start]})}
+    rows = {}
+    if needed:
+        wanted = numbers | {n for n in incumbents.values() if n is not None}
+        predictions = prediction_rows(uow, model, seconds, since=min(needed), versions=wanted,
+                                      until=max(needed) + seconds)
+        rows = {key: _with_labels(table, outcomes.get(key[1]))
+                for key, table in predictions.items() if key[1] in needed}
     figures = {}
     for (number, start), summary in summaries.items():
         incumbent = incumbents.get(start)

@@ -148,3 +148,18 @@ def test_spells_open_and_close_with_the_stage_events():
     (first,) = spells[1]
     assert first.start == int(t[1].timestamp() * 1e6) and first.end == int(t[3].timestamp() * 1e6)
     assert spells[2][0].end is None
+
+
+def test_the_policys_serving_table_is_checked_and_named_at_fault():
+    from registry.gates import PolicyError, default_policy, load_policy
+
+    policy = load_policy('[serving]\nwindow = "6h"\nretention_days = 30\n', source="test",
+                         base=default_policy())
+    assert policy.serving.window_seconds == 21600 and policy.serving.retention_days == 30
+    assert default_policy().serving.quality_margin == 0.02
+    for text, place in (('window = "5x"', "serving.window"),
+                        ("retention_days = 0", "serving.retention_days"),
+                        ("colour = 1", "serving.colour")):
+        with pytest.raises(PolicyError) as refused:
+            load_policy(f"[serving]\n{text}\n", source="test", base=default_policy())
+        assert refused.value.place == place

@@ -202,3 +202,34 @@ def test_a_report_window_must_merge_whole_policy_windows(cli, tmp_path, live_and
     error = error_of(cli, "serving", "report", "m", "--window", "6h")
     assert "--window: " in error["place"]
     assert cli.json("serving", "report", "m", "--window", "7d")["window_seconds"] == 7 * 86400
+
+
+def test_compact_rows_are_dropped_after_the_retention_and_the_summaries_stay(cli, tmp_path,
+                                                                            live_and_shadow):
+    policy = tmp_path / "retention.toml"
+    policy.write_text((tmp_path / "policy.toml").read_text() + "\n[serving]\nretention_days = 1\n")
+    cli.json("model", "policy", "set", "m", str(policy), user="mara.kowalczyk")
+    first, _ = shadow_day(tmp_path / "d0.parquet", live_and_shadow, 50, prefix="a")
+    cli.json("serving", "record", "m", str(first))
+    later, _ = shadow_day(tmp_path / "d3.parquet", live_and_shadow + timedelta(days=3), 50,
+                          prefix="b")
+    assert cli.json("serving", "record", "m", str(later))["dropped_row_sets"] == 2
+    report = cli.json("serving", "report", "m")
+    assert [sum(e["rows"] for e in w["versions"]) for w in report["windows"]] == [100, 100]
+    # the figures of the first day were kept with its window; its rows are gone
+    assert report["windows"][0]["versions"][1]["agreement"]["rows"] == 50
+    outcomes = write_outcomes(tmp_path / "o.csv", ["a000001", "b000001"], [1, 0])
+    assert cli.json("serving", "outcomes", "m", str(outcomes))["unknown_rows"] == 1
+
+
+def test_a_report_for_one_version_since_a_date(cli, tmp_path, live_and_shadow):
+    first, _ = shadow_day(tmp_path / "d0.parquet", live_and_shadow, 20, prefix="a")
+    later, _ = shadow_day(tmp_path / "d2.parquet", live_and_shadow + timedelta(days=2), 20,
+                          prefix="b")
+    cli.json("serving", "record", "m", str(first))
+    cli.json("serving", "record", "m", str(later))
+    since = (live_and_shadow + timedelta(days=1)).strftime("%Y-%m-%d")
+    report = cli.json("serving", "report", "m", "--version", "v2", "--since", since)
+    assert len(report["windows"]) == 1
+    assert [e["version"] for e in report["windows"][0]["versions"]] == [2]
+    assert "v2:" in cli("serving", "report", "m").stdout

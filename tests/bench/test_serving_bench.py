@@ -13,7 +13,6 @@ Run with: .venv/bin/python -m pytest tests/bench/test_serving_bench.py -s
 from __future__ import annotations
 
 import json
-import os
 import subprocess
 import sys
 import time
