@@ -8,26 +8,12 @@ the share of rows with the same top class.
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
-from typing import Any
-
 import numpy as np
 
 from registry.evaluation.ranking import midranks
+from registry.gates.evidence import ShadowAgreement
 
-
-@dataclass(frozen=True)
-class Agreement:
-    version: int
-    against: int
-    task: str
-    rows: int
-    share_agreeing: float | None = None
-    mean_absolute_difference: float | None = None
-    spearman: float | None = None
-
-    def to_dict(self) -> dict[str, Any]:
-        return asdict(self)
+Agreement = ShadowAgreement  # the gates judge exactly what the report shows
 
 
 def spearman(a: np.ndarray, b: np.ndarray) -> float | None:
@@ -46,18 +32,18 @@ def shared_rows(a_hashes: np.ndarray, b_hashes: np.ndarray) -> tuple[np.ndarray,
     return in_a, in_b
 
 
-def agreement(version: int, against: int, task: str, a: np.ndarray, b: np.ndarray,
+def agreement(against: int, task: str, a: np.ndarray, b: np.ndarray,
               threshold: float = 0.5) -> Agreement:
-    """a, b: the two versions' predictions on the same rows, in the same order (a vector, or an
-    (n, classes) matrix for multiclass)."""
+    """a, b: a version's and the incumbent's predictions on the same rows, in the same order (a
+    vector, or an (n, classes) matrix for multiclass)."""
     rows = int(a.shape[0])
     if rows == 0:
-        return Agreement(version, against, task, 0)
+        return Agreement(against, task, 0)
     if task == "multiclass":
         same = np.argmax(a, axis=1) == np.argmax(b, axis=1)
-        return Agreement(version, against, task, rows, share_agreeing=float(same.mean()),
+        return Agreement(against, task, rows, share_agreeing=float(same.mean()),
                          mean_absolute_difference=float(np.abs(a - b).sum(axis=1).mean() / 2))
     difference = float(np.abs(a - b).mean())
     share = float(((a >= threshold) == (b >= threshold)).mean()) if task == "binary" else None
-    return Agreement(version, against, task, rows, share_agreeing=share,
+    return Agreement(against, task, rows, share_agreeing=share,
                      mean_absolute_difference=difference, spearman=spearman(a, b))

@@ -26,6 +26,7 @@ from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.windows import iso
 from registry.datasets.drift import column_drift
 from registry.datasets.profile import ColumnProfile
+from registry.gates.evidence import to_plain
 
 STEADY, DRIFTING, DEGRADING = "steady", "drifting", "degrading"
 # what the kept figures of a window hold besides what a report shows of it
@@ -139,9 +140,9 @@ def window_figures(version: int, summary: WindowSummary, reference: Reference, t
     if incumbent is not None and incumbent != version and mine is not None \
             and theirs is not None:
         in_mine, in_theirs = shared_rows(mine.hashes, theirs.hashes)
-        figures["agreement"] = agreement(
-            version, incumbent, task, mine.predictions[in_mine], theirs.predictions[in_theirs],
-            reference.threshold).to_dict()
+        figures["agreement"] = to_plain(agreement(
+            incumbent, task, mine.predictions[in_mine], theirs.predictions[in_theirs],
+            reference.threshold))
     if mine is not None and mine.labels is not None:
         known = ~np.isnan(mine.labels)
         if known.any():

@@ -356,13 +356,8 @@ def shadow_agreement(uow: UnitOfWork, model: t.Model, candidate: t.Version,
     evaluated = _evaluation(uow, candidate)
     threshold = float(json.loads(evaluated[0].metrics_json).get("threshold") or 0.5) \
         if evaluated else 0.5
-    found = agreement(candidate.number, incumbent.number, task,
-                      predictions_matrix(a, columns)[in_a],
-                      predictions_matrix(b, _columns_of(b))[in_b], threshold)
-    return gates.ShadowAgreement(against=incumbent.number, task=task, rows=found.rows,
-                                 share_agreeing=found.share_agreeing,
-                                 mean_absolute_difference=found.mean_absolute_difference,
-                                 spearman=found.spearman)
+    return agreement(incumbent.number, task, predictions_matrix(a, columns)[in_a],
+                     predictions_matrix(b, _columns_of(b))[in_b], threshold)
 
 
 def classes_of_columns(columns: list[str]) -> tuple[str, ...]:

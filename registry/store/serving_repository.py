@@ -67,15 +67,8 @@ class ServingRepository:
     def windows(self, model_id: int, window_seconds: int, *, since: int | None = None,
                 version_ids: Sequence[int] | None = None) -> list[tuple[t.ServedWindow, int]]:
         """(window, version number) of a model, oldest window first."""
-        query = (select(t.ServedWindow, t.Version.number)
-                 .join(t.Version, t.Version.id == t.ServedWindow.version_id)
-                 .where(t.ServedWindow.model_id == model_id,
-                        t.ServedWindow.window_seconds == window_seconds))
-        if since is not None:
-            query = query.where(t.ServedWindow.window_start >= since)
-        if version_ids is not None:
-            query = query.where(t.ServedWindow.version_id.in_(list(version_ids)))
-        query = query.order_by(t.ServedWindow.window_start, t.Version.number)
+        query = self._windows_query((t.ServedWindow, t.Version.number), model_id,
+                                    window_seconds, since, version_ids)
         return [(window, number) for window, number in self._session.execute(query)]
 
     def window_figures(self, model_id: int, window_seconds: int, *, since: int | None = None,
@@ -83,17 +76,22 @@ class ServingRepository:
                        ) -> list[tuple[int, int, int, str | None]]:
         """(window start, version number, rows, figures JSON) without the summaries: what a
         report at the stored window reads."""
-        query = (select(t.ServedWindow.window_start, t.Version.number, t.ServedWindow.rows,
-                        t.ServedWindow.figures_json)
-                 .join(t.Version, t.Version.id == t.ServedWindow.version_id)
+        query = self._windows_query(
+            (t.ServedWindow.window_start, t.Version.number, t.ServedWindow.rows,
+             t.ServedWindow.figures_json), model_id, window_seconds, since, version_ids)
+        return [tuple(row) for row in self._session.execute(query)]
+
+    @staticmethod
+    def _windows_query(columns, model_id: int, window_seconds: int, since: int | None,
+                       version_ids: Sequence[int] | None):
+        query = (select(*columns).join(t.Version, t.Version.id == t.ServedWindow.version_id)
                  .where(t.ServedWindow.model_id == model_id,
                         t.ServedWindow.window_seconds == window_seconds))
         if since is not None:
             query = query.where(t.ServedWindow.window_start >= since)
         if version_ids is not None:
             query = query.where(t.ServedWindow.version_id.in_(list(version_ids)))
-        query = query.order_by(t.ServedWindow.window_start, t.Version.number)
-        return [tuple(row) for row in self._session.execute(query)]
+        return query.order_by(t.ServedWindow.window_start, t.Version.number)
 
     def windows_at(self, model_id: int, window_seconds: int,
                    starts: Sequence[int]) -> list[tuple[t.ServedWindow, int]]:

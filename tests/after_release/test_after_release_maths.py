@@ -37,7 +37,7 @@ def test_spearman_matches_scipy_with_ties():
 def test_binary_agreement_is_the_share_on_the_same_side_of_the_threshold():
     a = np.array([0.1, 0.6, 0.5, 0.49, 0.9])
     b = np.array([0.2, 0.4, 0.51, 0.5, 0.95])
-    found = agreement(2, 1, "binary", a, b, threshold=0.5)
+    found = agreement(1, "binary", a, b, threshold=0.5)
     # by hand: same side at 0.5 for rows 1, 3 and 5 (0.5 counts as positive): 3 of 5
     assert found.share_agreeing == pytest.approx(3 / 5)
     assert found.mean_absolute_difference == pytest.approx(np.mean(np.abs(a - b)))
@@ -46,7 +46,7 @@ def test_binary_agreement_is_the_share_on_the_same_side_of_the_threshold():
 def test_multiclass_agreement_compares_top_classes():
     a = np.array([[0.7, 0.2, 0.1], [0.1, 0.3, 0.6], [0.4, 0.5, 0.1]])
     b = np.array([[0.5, 0.4, 0.1], [0.5, 0.3, 0.2], [0.2, 0.7, 0.1]])
-    assert agreement(2, 1, "multiclass", a, b).share_agreeing == pytest.approx(2 / 3)
+    assert agreement(1, "multiclass", a, b).share_agreeing == pytest.approx(2 / 3)
 
 
 def test_psi_worked_by_hand():
