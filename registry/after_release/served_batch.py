@@ -200,8 +200,11 @@ def served_schema(path: str, format: str, schema_json: Mapping[str, Any] | None,
         *({"name": n, "type": "double"} for n in predicted),
         *({"name": n, "type": input_types[n]} for n in inputs),
     ]
-    return ({"type": "record", "name": "ServedRow", "fields": fields}, task, predicted,
-            tuple(inputs))
+    schema: dict[str, Any] = {"type": "record", "name": "ServedRow", "fields": fields}
+    if format == "avro":  # Avro resolution matches records by name: take the writer's
+        writer = schema_json if schema_json is not None else _avro_writer_schema(path)
+        schema.update({k: writer[k] for k in ("name", "namespace") if k in writer})
+    return schema, task, predicted, tuple(inputs)
 
 
 # --- the row checks --------------------------------------------------------------------------

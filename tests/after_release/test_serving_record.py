@@ -233,3 +233,22 @@ def test_a_report_for_one_version_since_a_date(cli, tmp_path, live_and_shadow):
     assert len(report["windows"]) == 1
     assert [e["version"] for e in report["windows"][0]["versions"]] == [2]
     assert "v2:" in cli("serving", "report", "m").stdout
+
+
+def test_an_avro_batch_with_millisecond_timestamps(cli, tmp_path, live_and_shadow):
+    import fastavro
+
+    schema = {"type": "record", "name": "Served", "namespace": "scoring.out", "fields": [
+        {"name": "row_id", "type": "string"},
+        {"name": "served_at", "type": {"type": "long", "logicalType": "timestamp-millis"}},
+        {"name": "version", "type": "int"}, {"name": "score", "type": "double"},
+        {"name": "diameter_mm", "type": "int"}]}
+    moment = live_and_shadow + timedelta(seconds=1)
+    path = tmp_path / "batch.avro"
+    with path.open("wb") as out:
+        fastavro.writer(out, fastavro.parse_schema(schema), [
+            {"row_id": f"r{i}", "served_at": moment + timedelta(seconds=i), "version": 1,
+             "score": 0.25 * (i % 4), "diameter_mm": 100 + i} for i in range(8)])
+    recorded = cli.json("serving", "record", "m", str(path))
+    assert recorded["rows"] == 8
+    assert recorded["windows"][0]["window"] == moment.strftime("%Y-%m-%dT00:00:00Z")
