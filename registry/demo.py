@@ -9,6 +9,7 @@ from __future__ import annotations
 import shlex
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from datetime import datetime
 from pathlib import Path
 
 import click
@@ -31,6 +32,7 @@ class Step:
     arguments: tuple[str, ...]
     expect: int = 0
     caption: str = ""
+    at: datetime | None = None  # the story's date of the step, when it has one
 
 
 def _shown(arguments: Sequence[str]) -> str:
@@ -92,6 +94,12 @@ SALTMARSH_WAIVER = ("Saltmarsh repair records are being re-keyed; the asset team
                     "slice weekly until the fix lands")
 
 
+def _after_release() -> list[Step]:
+    from registry.demo_after_release import after_release_steps
+
+    return after_release_steps()
+
+
 def brackwater_story() -> list[Step]:
     return [
         *_register_and_evaluate(1),
@@ -103,6 +111,7 @@ def brackwater_story() -> list[Step]:
         _promote(1, "live"),
         *_register_and_evaluate(2),
         _promote(2, "shadow", caption="v2 adds repairs_5y with a default: it reads the v1 feed."),
+        *_after_release(),
         _promote(2, "canary", expect=1,
                  caption="v2 beats v1 overall, but the slice gate finds SALTMARSH worse."),
         _promote(2, "canary", waive=["slice-guard"], reason=SALTMARSH_WAIVER,
@@ -220,8 +229,25 @@ def story() -> list[Step]:
 
 
 def play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None]) -> None:
-    """Run every step against the catalogue at db_url; stop at the first unexpected outcome."""
+    """Run every step against the catalogue at db_url; stop at the first unexpected outcome.
+    The story keeps a calendar of its own: the catalogue's clock starts at its first day and
+    travels to each dated step."""
+    from registry import clock
+    from registry.demo_after_release import STORY_START
+
+    clock.start_story(STORY_START)
+    try:
+        _play(db_url, run, echo)
+    finally:
+        clock.back_to_the_wall_clock()
+
+
+def _play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None]) -> None:
+    from registry import clock
+
     for step in [Step(ADMIN, ("init",)), *story()]:
+        if step.at is not None:
+            clock.travel_to(step.at)
         if step.caption:
             echo("")
             echo(f"# {step.caption}")

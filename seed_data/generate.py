@@ -19,6 +19,8 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from served_traffic import generate_served_traffic  # seed_data/served_traffic.py
+
 # One seed per story element, so tuning one part never reshuffles another.
 NETWORK_SEED = 20_267_301
 SPLIT_SEED = 20_267_302
@@ -574,6 +576,9 @@ def generate_brackwater(root: Path) -> None:
             description, revision, f"../schemas/segment-v{version}.avsc", "../schemas/burst-risk.avsc",
             f"../features/main-burst-risk-v{version}.toml", "brackwater-training-set",
             "brackwater-evaluation-set"), encoding="utf-8")
+
+    generate_served_traffic(root, network, models, burst_risk_features, logistic,
+                            linear_predictor)
 
     for version in (1, 2, 3):
         scores = logistic(linear_predictor(models[version], burst_risk_features(evaluation, version)))

@@ -17,7 +17,8 @@ import pytest
 from sklearn.metrics import r2_score, roc_auc_score
 
 SEED_DATA = Path(__file__).resolve().parents[1] / "seed_data"
-GENERATED_FOLDERS = ("schemas", "documents", "manifests", "datasets", "predictions")
+GENERATED_FOLDERS = ("schemas", "documents", "manifests", "datasets", "predictions", "served",
+                     "outcomes")
 SCENARIOS = ("brackwater", "night_flow")
 KPA_PER_PSI = 6.894757293168361
 

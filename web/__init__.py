@@ -10,3 +10,4 @@ blueprint = Blueprint("web", __name__, template_folder="templates", static_folde
                       static_url_path="/static")
 
 from web import views  # noqa: E402,F401 - the routes attach themselves to the blueprint
+from web import after_release  # noqa: E402,F401 - the "after release" page and its states

@@ -268,6 +268,34 @@ class ApiClient:
         return self.request("POST", f"/models/{_quote(model)}/versions/{int(version)}/evaluations",
                             data=data, content_type=content_type)[2]
 
+    def record_served(self, model: str, file: str | Path, *, schema: str | Path | None = None,
+                      file_format: str | None = None) -> dict:
+        """Send a served batch back to the catalogue."""
+        files = [("file", Path(file).name, _read(file, "FILE"))]
+        if schema is not None:
+            files.append(("schema", Path(schema).name, _read(schema, "--schema")))
+        fields = [("format", file_format)] if file_format else []
+        data, content_type = encode_multipart(files, fields)
+        return self.request("POST", f"/models/{_quote(model)}/served", data=data,
+                            content_type=content_type)[2]
+
+    def record_outcomes(self, model: str, file: str | Path, *,
+                        file_format: str | None = None) -> dict:
+        fields = [("format", file_format)] if file_format else []
+        data, content_type = encode_multipart([("file", Path(file).name, _read(file, "FILE"))],
+                                              fields)
+        return self.request("POST", f"/models/{_quote(model)}/outcomes", data=data,
+                            content_type=content_type)[2]
+
+    def serving_report(self, model: str, *, version: int | None = None,
+                       since: str | None = None, window: str | None = None) -> dict:
+        from urllib.parse import urlencode
+
+        query = {k: v for k, v in (("version", version), ("since", since), ("window", window))
+                 if v is not None}
+        suffix = f"?{urlencode(query)}" if query else ""
+        return self._get(f"/models/{_quote(model)}/serving-report{suffix}")
+
     def list_evaluations(self, model: str, version: int) -> dict:
         return self._get(f"/models/{_quote(model)}/versions/{int(version)}/evaluations")
 

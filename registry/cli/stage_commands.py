@@ -180,15 +180,25 @@ def status(model_name: str, as_json: bool) -> None:
 
     def text(d):
         lines = [f"{d['model']}:"]
+        after = d.get("after_release", {})
         for stage, numbers in d["stages"].items():
-            held = ", ".join(f"v{n}" for n in numbers) or "-"
+            held = ", ".join(f"v{n}" + _after_release_mark(after.get(str(n)))
+                             for n in numbers) or "-"
             lines.append(f"  {stage:<10} {held}")
         for flagged in d.get("recalled_upstream", []):
             lines.append(f"FLAGGED: v{flagged['version']} ({', '.join(flagged['stages'])}) is "
                          f"downstream of recalled {', '.join(flagged['recalled'])}")
+        for number, found in after.items():
+            if found["state"] != "steady":
+                lines += [f"  v{number} {found['state']}: {reason}" for reason in found["reasons"]]
         return "\n".join(lines)
 
     emit(document, as_json, text)
+
+
+def _after_release_mark(found: dict | None) -> str:
+    """` (drifting)` beside a version whose evidence after release is not steady."""
+    return f" ({found['state']})" if found and found["state"] != "steady" else ""
 
 
 @click.command()

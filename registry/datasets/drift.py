@@ -79,11 +79,12 @@ def ks_two_sample(a: np.ndarray, b: np.ndarray) -> tuple[float, float]:
     return statistic, ks_p_value(statistic, len(a), len(b))
 
 
-def ks_p_value(statistic: float, n: int, m: int) -> float:
-    """Exact by lattice-path counting when n*m is small enough, Kolmogorov's limit otherwise."""
+def ks_p_value(statistic: float, n: int, m: int, exact_cells: int = EXACT_KS_CELLS) -> float:
+    """Exact by lattice-path counting when n*m is at most exact_cells, Kolmogorov's limit
+    otherwise."""
     if n == 0 or m == 0:
         return 1.0
-    if n * m <= EXACT_KS_CELLS:
+    if n * m <= exact_cells:
         return _ks_exact_p(statistic, n, m)
     return _ks_asymptotic_p(statistic, n, m)
 
@@ -151,9 +152,12 @@ class ColumnDrift:
         return document
 
 
-def column_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDrift | None:
+def column_drift(reference: ColumnProfile, current: ColumnProfile, *,
+                 exact_ks_cells: int = EXACT_KS_CELLS) -> ColumnDrift | None:
+    """Drift of one column; `exact_ks_cells=0` takes the KS p-value from the limit law alone,
+    for reports that judge many windows at once."""
     if reference.histogram is not None and current.histogram is not None:
-        return _numeric_drift(reference, current)
+        return _numeric_drift(reference, current, exact_ks_cells)
     if reference.categories is not None and current.categories is not None:
         return _categorical_drift(reference, current)
     if reference.branch_names and current.branch_names:
@@ -161,7 +165,8 @@ def column_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDrif
     return None
 
 
-def _numeric_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDrift:
+def _numeric_drift(reference: ColumnProfile, current: ColumnProfile,
+                   exact_ks_cells: int = EXACT_KS_CELLS) -> ColumnDrift:
     """PSI on deciles of the reference and KS, both read from the shared histogram edges, which
     puts KS within one bucket (2^-m relative width) of its value on the raw records."""
     _, ref_counts, cur_counts = aligned_masses(reference.histogram, current.histogram)
@@ -180,7 +185,7 @@ def _numeric_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDr
         cur_bins = np.append(cur_bins, current.nulls)
     value = psi(ref_bins, cur_bins)
     statistic = float(np.max(np.abs(ref_cdf - cur_cdf)))
-    p_value = ks_p_value(statistic, int(ref_counts.sum()), int(cur_counts.sum()))
+    p_value = ks_p_value(statistic, int(ref_counts.sum()), int(cur_counts.sum()), exact_ks_cells)
     return ColumnDrift(psi=value, level=psi_level(value), ks_statistic=statistic,
                        ks_p_value=p_value)
 

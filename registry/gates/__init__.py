@@ -4,8 +4,8 @@ from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval,
                                      ConsumerCheck, FeedSchemaCheck,
                                      ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
                                      FeatureChange, PairedComparison, RecalledDataset,
-                                     SampleProfile, SchemaCheck, SchemaProblem, SliceComparison,
-                                     Waiver, from_plain, to_plain)
+                                     SampleProfile, SchemaCheck, SchemaProblem, ShadowAgreement,
+                                     SliceComparison, Waiver, from_plain, to_plain)
 from registry.gates.policy import (RETIRED, GateSpec, Policy, PolicyError, StageRule,
                                    TransitionError, UnknownStage, default_policy,
                                    default_policy_text, load_policy)
@@ -19,8 +19,8 @@ __all__ = [
     "ConsumerCheck", "FeedSchemaCheck",
     "ContainmentEstimate", "DatasetRecord", "Evidence", "EvidenceError", "FeatureChange",
     "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
-    "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "SliceComparison",
-    "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_waivers",
+    "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "ShadowAgreement",
+    "SliceComparison", "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_waivers",
     "default_policy", "default_policy_text", "evaluate", "from_plain", "holm_adjust",
     "load_policy", "render_report", "to_plain",
 ]

@@ -312,6 +312,24 @@ class Approval:
 
 
 @dataclasses.dataclass(frozen=True)
+class ShadowAgreement:
+    """How the candidate agreed with the incumbent on live rows both scored.
+
+    against: the incumbent's version number; task: `binary`, `regression` or `multiclass`;
+    rows: row ids both scored within the retention; share_agreeing: binary, the share on the
+    same side of the decision threshold; multiclass, the share with the same top class; None
+    for regression. mean_absolute_difference, spearman: as the serving report shows them.
+    """
+
+    against: int
+    task: str
+    rows: int
+    share_agreeing: float | None = None
+    mean_absolute_difference: float | None = None
+    spearman: float | None = None
+
+
+@dataclasses.dataclass(frozen=True)
 class Evidence:
     """Everything the gates may look at for one attempt to move one version into one stage.
 
@@ -339,6 +357,8 @@ class Evidence:
     rollback_feed_checks: the incumbent (the version a rollback restores) reading the same.
     consumer_checks: every declared consumer of the model reading the candidate's output; empty
       when no consumer is declared (the consumers are then taken to read the incumbent's output).
+    agreement: the candidate's agreement with the incumbent on shared live rows, None when they
+      scored none in common.
     """
 
     model: str
@@ -365,6 +385,7 @@ class Evidence:
     feed_checks: tuple[FeedSchemaCheck, ...] = ()
     rollback_feed_checks: tuple[FeedSchemaCheck, ...] = ()
     consumer_checks: tuple[ConsumerCheck, ...] = ()
+    agreement: ShadowAgreement | None = None
 
     @property
     def has_incumbent(self) -> bool:

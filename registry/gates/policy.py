@@ -16,12 +16,13 @@ from importlib import resources
 from typing import Any
 
 from registry.errors import NotFound, UserError
+from registry.gates.serving_settings import ServingSettings, serving_settings
 from registry.gates.settings import GATE_SETTINGS, GATES, validate_setting
 from registry.suggest import did_you_mean
 
 RETIRED = "retired"  # outside the ladder: a version taken out of service
 STAGE_NAME = re.compile(r"^[a-z][a-z0-9]*(-[a-z0-9]+)*$")
-TOP_LEVEL_KEYS = ("description", "ladder", "stages")
+TOP_LEVEL_KEYS = ("description", "ladder", "stages", "serving")
 STAGE_KEYS = ("exclusive", "skippable", "gates")
 
 
@@ -69,6 +70,7 @@ class Policy:
     description: str
     ladder: tuple[str, ...]
     stages: Mapping[str, StageRule]
+    serving: ServingSettings = ServingSettings()  # evidence after release ([serving])
 
     @property
     def exclusive_stages(self) -> tuple[str, ...]:
@@ -139,11 +141,17 @@ class Policy:
                 position = max(position, self.ladder.index(name))
         return position
 
+    @property
+    def serving_stages(self) -> tuple[str, ...]:
+        """The stages whose holders serve: every rung above the first."""
+        return self.ladder[1:]
+
     def to_dict(self) -> dict[str, Any]:
         """The policy as a document of the same shape as its TOML, every setting spelled out."""
         return {
             "description": self.description,
             "ladder": list(self.ladder),
+            "serving": self.serving.to_dict(),
             "stages": {
                 name: {
                     **({} if name == RETIRED else {"exclusive": rule.is_exclusive,
@@ -230,7 +238,9 @@ def _validate(document: Mapping[str, Any], source: str) -> Policy:
                        f"(plus {RETIRED})", f"stages.{name}")
 
     stages = {name: _stage(name, tables.get(name, {}), fail) for name in (*ladder, RETIRED)}
-    return Policy(source=source, description=description, ladder=tuple(ladder), stages=stages)
+    serving = serving_settings(document.get("serving", {}), fail)
+    return Policy(source=source, description=description, ladder=tuple(ladder), stages=stages,
+                  serving=serving)
 
 
 def _stage(name: str, table: Any, fail) -> StageRule:

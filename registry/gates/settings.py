@@ -82,6 +82,12 @@ GATE_SETTINGS: Mapping[str, Mapping[str, Setting]] = {
         "count": Setting("int", 1, "approvals needed from approvers other than the author",
                          _at_least(1)),
     },
+    "shadow-agreement": {
+        "min_rows": Setting("int", 1000, "fewest live rows both versions scored",
+                            _at_least(1)),
+        "min_agreement": Setting("number", 0.9, "smallest share of those rows on which they "
+                                 "agree", _share),
+    },
 }
 
 GATES = tuple(GATE_SETTINGS)

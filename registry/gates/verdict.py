@@ -7,6 +7,7 @@ from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 from registry.errors import UserError
+from registry.gates.agreement_gate import shadow_agreement
 from registry.gates.approval_gate import approved
 from registry.gates.data_gates import fresh_data, lineage_complete, no_leakage
 from registry.gates.evidence import Actor, Evidence, Waiver
@@ -33,6 +34,7 @@ GATE_FUNCTIONS: Mapping[str, GateFunction] = {
     "fresh-data": fresh_data,
     "lineage-complete": lineage_complete,
     "approved": approved,
+    "shadow-agreement": shadow_agreement,
 }
 assert tuple(GATE_FUNCTIONS) == GATES, "every gate in the settings table has a function"
 

@@ -51,6 +51,8 @@ ACTIONS: dict[str, Permission] = {
     "version.register": Permission((PUBLISHER,), "registering a version"),
     "evaluation.add": Permission((PUBLISHER,), "recording an evaluation"),
     "dataset.add": Permission((PUBLISHER,), "registering a dataset"),
+    "serving.record": Permission((PUBLISHER,), "recording served batches"),
+    "serving.outcomes": Permission((PUBLISHER,), "recording outcomes"),
     "dataset.recall": Permission(MOVERS, "recalling a dataset"),
     "stage.promote": Permission(MOVERS, "promoting a version"),
     "stage.rollback": Permission(MOVERS, "rolling back a stage"),

@@ -10,7 +10,6 @@ from __future__ import annotations
 import dataclasses
 import json
 from collections.abc import Sequence
-from datetime import UTC, datetime
 
 from sqlalchemy import select
 
@@ -19,7 +18,7 @@ from registry.gates import GateReport, Policy, Waiver
 from registry.service import evidence_sources as sources
 from registry.service.actors import Actor
 from registry.store import tables as t
-from registry.store.unit_of_work import UnitOfWork
+from registry.store.unit_of_work import UnitOfWork, utc_now
 
 __all__ = ["GateReport", "Policy", "Waiver", "is_guarded", "policy_of", "run_gates",
            "run_rollback_gates", "SCHEMA_GATES"]
@@ -65,7 +64,7 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
                     policy: Policy, *, incumbent: t.Version | None,
                     include_quality: bool = True) -> gates.Evidence:
     """Everything the gates of `stage` may look at for `candidate` against `incumbent`."""
-    now = datetime.now(UTC).isoformat(timespec="microseconds")
+    now = utc_now().isoformat(timespec="microseconds")
     evidence = gates.Evidence(
         model=model.name, version=candidate.number, author=candidate.author or candidate.created_by,
         evaluated_at=now, code_revision=candidate.code_revision or None,
@@ -105,6 +104,11 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
         comparisons, slices = sources.quality_comparisons(uow, candidate, incumbent,
                                                           policy.gates_for(stage))
         evidence = dataclasses.replace(evidence, comparisons=comparisons, slices=slices)
+    if any(spec.gate == "shadow-agreement" for spec in policy.gates_for(stage)):
+        from registry.service.serving_evidence import shadow_agreement
+
+        evidence = dataclasses.replace(
+            evidence, agreement=shadow_agreement(uow, model, candidate, incumbent))
     return evidence
 
 

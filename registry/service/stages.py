@@ -369,9 +369,13 @@ def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
                                        "recalled": recalled_names_upstream(uow,
                                                                            holding.version_id)}
                 flagged[number]["stages"].append(stage)
+        from registry.service.serving_evidence import states_in
+
         return {"model": line.name, "stages": stages,
                 "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)],
-                "recalled_upstream": [f for _, f in sorted(flagged.items()) if f["recalled"]]}
+                "recalled_upstream": [f for _, f in sorted(flagged.items()) if f["recalled"]],
+                # steady, drifting or degrading, per version that served (evidence after release)
+                "after_release": states_in(uow, line)}
 
 
 def find_report(catalogue: Catalogue, report_id: int) -> dict[str, Any]:

@@ -345,3 +345,63 @@ class Checkpoint(Base):
     signed_at: Mapped[str] = mapped_column(String(40))  # ISO 8601 UTC, signed as written
     key_id: Mapped[str] = mapped_column(String(64))
     signature: Mapped[str] = mapped_column(String(128))  # hex of the 64-byte Ed25519 signature
+
+
+class ServedBatch(Base):
+    """One batch a serving system sent back (served rows, or outcomes), kept by its digest so
+    that sending the same batch again changes nothing."""
+
+    __tablename__ = "served_batches"
+    __table_args__ = (
+        UniqueConstraint("model_id", "kind", "digest", name="uq_served_batch"),
+        CheckConstraint("kind IN ('served', 'outcomes')", name="ck_served_batch_kind"),
+    )
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    model_id: Mapped[int] = mapped_column(ForeignKey("models.id"))
+    kind: Mapped[str] = mapped_column(String(20))
+    digest: Mapped[str] = mapped_column(String(64))  # SHA-256 of the batch as sent
+    rows: Mapped[int] = mapped_column(Integer)
+    details_json: Mapped[str] = mapped_column(Text, default="{}")
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
+
+
+class ServedWindow(Base):
+    """The mergeable summary of what one version served in one window: rows, input profiles
+    and prediction profiles. One row per model, version and window, whatever the traffic."""
+
+    __tablename__ = "served_windows"
+    __table_args__ = (
+        UniqueConstraint("model_id", "version_id", "window_start", "window_seconds",
+                         name="uq_served_window"),
+    )
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    model_id: Mapped[int] = mapped_column(ForeignKey("models.id"), index=True)
+    version_id: Mapped[int] = mapped_column(ForeignKey("versions.id"))
+    window_start: Mapped[int] = mapped_column(BigInteger)  # seconds since the epoch, UTC
+    window_seconds: Mapped[int] = mapped_column(Integer)
+    rows: Mapped[int] = mapped_column(BigInteger)
+    summary_json: Mapped[str] = mapped_column(Text)
+    # The report's figures of this window (drift, agreement, live quality), recomputed whenever
+    # a batch or an outcome touches the window; they outlive the compact rows.
+    figures_json: Mapped[str | None] = mapped_column(Text, nullable=True)
+    updated_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+
+
+class ServedRows(Base):
+    """Compact columns of one batch's rows in one window (hashed row ids and predictions, or
+    hashed row ids and outcomes), kept for the joins and dropped after the policy's retention."""
+
+    __tablename__ = "served_rows"
+    __table_args__ = (
+        Index("ix_served_rows_window", "model_id", "window_start"),
+        CheckConstraint("kind IN ('predictions', 'outcomes')", name="ck_served_rows_kind"),
+    )
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    model_id: Mapped[int] = mapped_column(ForeignKey("models.id"))
+    batch_id: Mapped[int] = mapped_column(ForeignKey("served_batches.id"), index=True)
+    kind: Mapped[str] = mapped_column(String(20))
+    version_id: Mapped[int | None] = mapped_column(ForeignKey("versions.id"), nullable=True)
+    window_start: Mapped[int] = mapped_column(BigInteger)
+    rows: Mapped[int] = mapped_column(Integer)
+    content: Mapped[bytes] = mapped_column(LargeBinary)

@@ -16,6 +16,7 @@ from sqlalchemy import select
 from sqlalchemy.exc import DBAPIError, IntegrityError, OperationalError
 from sqlalchemy.orm import Session
 
+from registry import clock
 from registry.canonical_json import canonical_json
 from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, NotFound
 from registry.store import tables as t
@@ -31,11 +32,12 @@ from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.feed_repository import FeedRepository
 from registry.store.name_repository import NameRepository
 from registry.store.role_repository import RoleRepository
+from registry.store.serving_repository import ServingRepository
 from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
-    return datetime.now(UTC)
+    return clock.now()
 
 
 class BlobStore:
@@ -150,6 +152,7 @@ class UnitOfWork:
         self.checkpoints: CheckpointRepository
         self.capture: RowCapture | None = None
         self.rows: RowReader
+        self.serving: ServingRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -180,6 +183,7 @@ class UnitOfWork:
         self.rows = RowReader(self.session)
         if self.write:
             self.capture = RowCapture(self.session)
+        self.serving = ServingRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

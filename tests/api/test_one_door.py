@@ -131,6 +131,11 @@ def _prepare_contracts(cli: Cli, files: Path) -> None:
                  str(files / "reader.avsc"), user=AUTHOR)
 
 
+def _file_upload(files: Path, name: str) -> dict:
+    return {"data": {"file": (io.BytesIO((files / name).read_bytes()), name)},
+            "content_type": "multipart/form-data"}
+
+
 CASES = [
     Case("list tokens", "token.list", lambda d, f: ["token", "list"],
          lambda d, f, ids: ("GET", "/tokens", {})),
@@ -184,6 +189,12 @@ CASES = [
     Case("promote into an unguarded stage", "stage.promote",
          lambda d, f: ["promote", "m", "5", "--to", "shadow"],
          lambda d, f, ids: ("POST", "/models/m/versions/5/promote", _json({"stage": "shadow"}))),
+    Case("record served rows", "serving.record",
+         lambda d, f: ["serving", "record", "m", str(f / "served.parquet")],
+         lambda d, f, ids: ("POST", "/models/m/served", _file_upload(f, "served.parquet"))),
+    Case("record outcomes", "serving.outcomes",
+         lambda d, f: ["serving", "outcomes", "m", str(f / "outcomes.csv")],
+         lambda d, f, ids: ("POST", "/models/m/outcomes", _file_upload(f, "outcomes.csv"))),
     Case("promote into a guarded stage", "stage.guarded-move",
          lambda d, f: ["promote", "m", "5", "--to", "live"],
          lambda d, f, ids: ("POST", "/models/m/versions/5/promote", _json({"stage": "live"}))),
@@ -241,6 +252,10 @@ def _prepare(url: str, files: Path) -> dict:
              str(files / "scoring.avsc"), "--role", "evaluation", "--key", "segment_id",
              "--exclude", "label", user=AUTHOR)
     _prepare_contracts(cli, files)
+    from tests.after_release.served_files import now, shadow_day, write_outcomes
+
+    _, served = shadow_day(files / "served.parquet", now(), 20, versions=(1,))
+    write_outcomes(files / "outcomes.csv", served["ids"], [0, 1] * 10)
     catalogue = open_catalogue(url)
     try:
         admin = Actor(ADMIN, frozenset({"admin"}))

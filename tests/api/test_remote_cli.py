@@ -63,3 +63,23 @@ def test_remote_errors_keep_their_exit_codes(remote):
 
 def test_init_refuses_a_remote_catalogue(remote):
     remote("admin", "init", expect=2)
+
+
+def test_serving_commands_act_on_a_remote_catalogue(remote, cli, tmp_path):
+    from datetime import timedelta
+
+    from tests.after_release.served_files import now, shadow_day, write_outcomes
+
+    remote("admin", "model", "create", "m")
+    policy = tmp_path / "policy.toml"
+    policy.write_text(policy_keeping({}, skippable=("shadow", "canary")))
+    remote("admin", "model", "policy", "set", "m", str(policy))
+    document, manifest = write_version_files(tmp_path / "v1")
+    remote("publisher", "register", "m", str(document), "--manifest", str(manifest))
+    remote("approver", "promote", "m", "1", "--to", "live")
+    path, served = shadow_day(tmp_path / "day.parquet", now() + timedelta(milliseconds=5), 20,
+                              versions=(1,))
+    assert remote("publisher", "serving", "record", "m", str(path))["rows"] == 20
+    outcomes = write_outcomes(tmp_path / "o.csv", served["ids"], [0, 1] * 10)
+    assert remote("publisher", "serving", "outcomes", "m", str(outcomes))["joined"] == 20
+    assert remote("reader", "serving", "report", "m")["versions"]["1"]["rows"] == 20

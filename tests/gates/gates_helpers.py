@@ -9,7 +9,8 @@ from typing import Any
 
 from registry.gates import (Acknowledgement, Actor, Approval, ColumnCounts, ContainmentEstimate,
                             DatasetRecord, Evidence, GateResult, PairedComparison, SampleProfile,
-                            SchemaCheck, SliceComparison, Waiver, evaluate, load_policy)
+                            SchemaCheck, ShadowAgreement, SliceComparison, Waiver, evaluate,
+                            load_policy)
 
 NOW = "2026-12-01T09:00:00Z"
 AUTHOR = "ines.okafor"
@@ -76,6 +77,8 @@ def passing_evidence(**changes: Any) -> Evidence:
                                 registered_at="2026-11-20T08:05:00Z",
                                 fingerprint=EVALUATION_DIGEST)),
         approvals=(Approval("tomas.lindqvist", ("approver",), at="2026-12-01T08:30:00Z"),),
+        agreement=ShadowAgreement(against=1, task="binary", rows=5600, share_agreeing=0.96,
+                                  mean_absolute_difference=0.031, spearman=0.94),
     )
     fields.update(changes)
     return Evidence(**fields)

@@ -43,7 +43,7 @@ def test_summary_for_the_audit_log_lists_failed_gates_and_waivers(report):
     assert summary["failed"]["feature-meaning"].startswith("mean_pressure_psi: ")
     assert summary["waived"] == [{"gate": "no-leakage", "approver": "tomas.lindqvist",
                                   "reason": "disjoint by construction"}]
-    assert len(summary["gates"]) == 11
+    assert len(summary["gates"]) == 12
 
 
 def test_plain_text_shows_the_verdict_every_gate_and_the_waiver(report):
@@ -51,7 +51,7 @@ def test_plain_text_shows_the_verdict_every_gate_and_the_waiver(report):
     first, *lines = text.splitlines()
     # a waived gate is counted as waived, never as passed
     assert first == ("main-burst-risk v3 -> live: refused "
-                     "(8 passed, 1 waived, 2 failed of 11 gates)")
+                     "(8 passed, 1 waived, 2 failed of 12 gates)")
     assert any(line.split()[:2] == ["failed", "feature-meaning"] and "mean_pressure_psi" in line
                for line in lines)
     assert any(line.split()[:2] == ["waived", "no-leakage"] for line in lines)

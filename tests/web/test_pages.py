@@ -33,6 +33,7 @@ PAGES = [
     "/datasets/brackwater-telemetry-extract",
     "/datasets/brackwater-training-set?against=brackwater-evaluation-set",
     "/datasets/night-flow-live-sample",
+    "/models/main-burst-risk/after-release",
 ]
 CAUTION = "gates support but do not replace review"
 

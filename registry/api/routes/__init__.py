@@ -2,5 +2,5 @@
 
 from registry.api.routes import (  # noqa: F401 - imported for their routes
     audit, contracts, datasets, evaluations, keys, lineage, meta, models, people, schemas,
-    stages, tokens, versions,
+    serving, stages, tokens, versions,
 )

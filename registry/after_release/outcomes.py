@@ -1,0 +1,137 @@
+"""Reading an outcome batch: `row_id`, `label`, and optionally `observed_at`.
+
+Outcomes arrive days after their rows were served, in any number of batches; each label is
+checked against the task of the rows it joins (binary 0/1, a finite number for regression, one
+of the version's classes for multiclass). Outcomes whose row id was never served are counted,
+not refused: they may belong to rows served before the retention or elsewhere.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import fastavro
+import numpy as np
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.csv as pacsv
+import pyarrow.parquet as pq
+
+from registry.after_release.row_ids import hash_row_ids
+from registry.datasets.errors import ColumnsNotMatching, DatasetFileError, EmptyDataset, \
+    ValueNotParsing, cell
+from registry.datasets.readers import guess_format
+from registry.errors import UserError
+
+COLUMNS = ("row_id", "label", "observed_at")
+BINARY_LABELS = {"0": 0, "1": 1, "false": 0, "true": 1, "0.0": 0, "1.0": 1}
+
+
+@dataclass(frozen=True)
+class OutcomeBatch:
+    hashes: np.ndarray  # uint64, file order
+    labels: list[str]  # as text; checked against the task once the rows they join are known
+    observed_at: np.ndarray | None  # microseconds since the epoch
+
+
+def read_outcomes(path: str, format: str | None = None) -> OutcomeBatch:
+    table = _read_table(path, format or guess_format(path))
+    for name in table.column_names:
+        if name not in COLUMNS:
+            raise ColumnsNotMatching(f"an outcome batch has the columns row_id, label and "
+                                     f"optionally observed_at, not {name!r}",
+                                     place=f"column {name}")
+    for name in COLUMNS[:2]:
+        if name not in table.column_names:
+            raise ColumnsNotMatching(f"the batch has no column {name!r}", place=f"column {name}")
+    if table.num_rows == 0:
+        raise EmptyDataset("the batch holds no outcomes", place=path)
+    for name in COLUMNS[:2]:
+        column = table.column(name)
+        if column.null_count:
+            row = _first(pc.is_null(column).to_numpy(zero_copy_only=False))
+            raise ValueNotParsing("a value is missing", place=cell(row + 1, name))
+    labels = [str(v).strip() for v in pc.cast(table.column("label"), pa.string()).to_pylist()]
+    observed = None
+    if "observed_at" in table.column_names:
+        observed = _times(table.column("observed_at"))
+    hashes = hash_row_ids(table.column("row_id"))
+    order = np.argsort(hashes, kind="stable")
+    repeats = np.flatnonzero(hashes[order][1:] == hashes[order][:-1])
+    if len(repeats):
+        row = int(order[repeats + 1].min())
+        raise UserError("this row id already has an outcome in the batch",
+                        place=cell(row + 1, "row_id"))
+    return OutcomeBatch(hashes, labels, observed)
+
+
+def _first(mask: np.ndarray) -> int:
+    return int(np.argmax(mask))
+
+
+def _times(column: pa.ChunkedArray) -> np.ndarray:
+    array = column.combine_chunks()
+    if pa.types.is_timestamp(array.type):
+        return array.cast(pa.timestamp("us", tz="UTC")).cast(pa.int64()).to_numpy(
+            zero_copy_only=False)
+    text = pc.cast(array, pa.string())
+    try:
+        try:
+            parsed = pc.cast(text, pa.timestamp("us", tz="UTC"))
+        except pa.ArrowInvalid:
+            parsed = pc.cast(text, pa.timestamp("us"))
+    except pa.ArrowInvalid:
+        for row, value in enumerate(text.to_pylist()):
+            try:
+                pc.cast(pa.array([value]), pa.timestamp("us", tz="UTC"))
+            except pa.ArrowInvalid:
+                raise ValueNotParsing(f"{value!r} is not an ISO 8601 time",
+                                      place=cell(row + 1, "observed_at")) from None
+        raise
+    return parsed.cast(pa.int64()).to_numpy(zero_copy_only=False)
+
+
+def _read_table(path: str, format: str) -> pa.Table:
+    try:
+        if format == "parquet":
+            return pq.read_table(path)
+        if format == "avro":
+            with open(path, "rb") as handle:
+                return pa.Table.from_pylist(list(fastavro.reader(handle)))
+        options = pacsv.ConvertOptions(column_types={n: pa.string() for n in COLUMNS},
+                                       strings_can_be_null=True, null_values=[""])
+        return pacsv.read_csv(path, convert_options=options)
+    except FileNotFoundError:
+        raise DatasetFileError("no such file", place=path) from None
+    except (pa.ArrowException, OSError, ValueError) as error:
+        raise DatasetFileError(f"the outcome batch cannot be read as {format} ({error})",
+                               place=path) from None
+
+
+def check_labels(labels: list[str], task: str, classes: tuple[str, ...]) -> np.ndarray:
+    """The labels as the evaluation package holds them (0/1, floats, class indices), or the
+    first one outside the task's classes, named by its row."""
+    if task == "binary":
+        values = [BINARY_LABELS.get(label.lower(), -1) for label in labels]
+        bad = [i for i, v in enumerate(values) if v < 0]
+        if bad:
+            raise ValueNotParsing(f"{labels[bad[0]]!r} is not a label of a binary task "
+                                  "(0 or 1, true or false)", place=cell(bad[0] + 1, "label"))
+        return np.asarray(values, dtype=np.int8)
+    if task == "regression":
+        out = np.empty(len(labels))
+        for i, label in enumerate(labels):
+            try:
+                out[i] = float(label)
+            except ValueError:
+                out[i] = np.nan
+            if not np.isfinite(out[i]):
+                raise ValueNotParsing(f"{label!r} is not a finite number (regression task)",
+                                      place=cell(i + 1, "label"))
+        return out
+    index = {name: k for k, name in enumerate(classes)}
+    for i, label in enumerate(labels):
+        if label not in index:
+            raise ValueNotParsing(f"{label!r} is not one of the classes "
+                                  f"{', '.join(classes)}", place=cell(i + 1, "label"))
+    return np.asarray([index[label] for label in labels], dtype=np.int64)

@@ -1,0 +1,91 @@
+"""Live quality: the task's metrics on served rows whose outcomes arrived, with an interval for
+the metric that decides `degrading`.
+
+The metrics are the evaluation package's (scikit-learn's definitions). Intervals: the AUC's
+DeLong interval (DeLong, DeLong and Clarke-Pearson 1988, as registry.evaluation.delong);
+accuracy's Wilson score interval (Wilson 1927); the mean absolute error's normal interval.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from statistics import NormalDist
+from typing import Any
+
+import numpy as np
+
+from registry.evaluation import HIGHER_IS_BETTER, Predictions, UndefinedMetric, compute_metrics
+from registry.evaluation.delong import auc_standard_error
+
+DEFAULT_METRIC = {"binary": "roc_auc", "regression": "mae", "multiclass": "accuracy"}
+INTERVAL_METRICS = ("roc_auc", "accuracy", "mae")
+
+
+@dataclass(frozen=True)
+class LiveQuality:
+    rows: int
+    metrics: dict[str, float | None]
+    metric: str
+    value: float | None
+    ci_low: float | None = None
+    ci_high: float | None = None
+    method: str | None = None
+    notes: tuple[str, ...] = field(default=())
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"rows": self.rows, "metrics": self.metrics, "metric": self.metric,
+                "value": self.value, "ci_low": self.ci_low, "ci_high": self.ci_high,
+                "method": self.method, "notes": list(self.notes)}
+
+
+def _z(confidence: float) -> float:
+    return NormalDist().inv_cdf(0.5 + confidence / 2)
+
+
+def live_quality(task: str, labels: np.ndarray, scores: np.ndarray, classes: tuple[str, ...],
+                 metric: str, *, threshold: float = 0.5, confidence: float = 0.95
+                 ) -> LiveQuality:
+    rows = int(len(labels))
+    predictions = Predictions(task=task, row_ids=np.arange(rows), labels=labels, scores=scores,
+                              classes=classes)
+    try:
+        metrics = compute_metrics(predictions, threshold=threshold,
+                                  with_calibration=False).metrics
+    except UndefinedMetric as error:
+        return LiveQuality(rows, {}, metric, None, notes=(error.message,))
+    value = metrics.get(metric)
+    z = _z(confidence)
+    try:
+        if metric == "roc_auc" and task == "binary":
+            error = auc_standard_error(labels, scores)
+            return LiveQuality(rows, metrics, metric, value, value - z * error,
+                               value + z * error, "delong")
+    except UndefinedMetric as error:
+        return LiveQuality(rows, metrics, metric, value, notes=(error.message,))
+    if metric == "accuracy" and value is not None:
+        low, high = wilson(value, rows, z)
+        return LiveQuality(rows, metrics, metric, value, low, high, "wilson")
+    if metric == "mae" and value is not None and rows > 1:
+        errors = np.abs(labels - scores)
+        half = z * float(errors.std(ddof=1)) / math.sqrt(rows)
+        return LiveQuality(rows, metrics, metric, value, value - half, value + half, "normal")
+    return LiveQuality(rows, metrics, metric, value,
+                       notes=(f"no interval for {metric}; the state is judged on "
+                              f"{', '.join(INTERVAL_METRICS)}",))
+
+
+def wilson(share: float, n: int, z: float) -> tuple[float, float]:
+    """Wilson's score interval for a proportion (Wilson, JASA 22:209-212, 1927)."""
+    centre = (share + z * z / (2 * n)) / (1 + z * z / n)
+    half = z * math.sqrt(share * (1 - share) / n + z * z / (4 * n * n)) / (1 + z * z / n)
+    return centre - half, centre + half
+
+
+def is_below(quality: LiveQuality, evaluation_value: float, margin: float) -> bool:
+    """Live quality's whole interval worse than the evaluation value by more than the margin."""
+    if quality.ci_low is None or quality.ci_high is None:
+        return False
+    if HIGHER_IS_BETTER.get(quality.metric, True):
+        return quality.ci_high < evaluation_value - margin
+    return quality.ci_low > evaluation_value + margin

@@ -1,0 +1,205 @@
+"""Use cases after release: recording served batches and outcomes (one transaction each).
+
+A batch is read and checked in full before the transaction starts, so a bad row refuses it with
+nothing stored; the same batch sent again (same digest) changes nothing. What is kept grows with
+time, not with traffic: one mergeable summary per model, version and window, and the compact
+rows of each window until the policy's retention drops them.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from collections.abc import Callable, Mapping
+from concurrent.futures import ThreadPoolExecutor
+from typing import Any
+
+import numpy as np
+
+from registry.after_release import compact
+from registry.after_release.outcomes import OutcomeBatch, check_labels, read_outcomes
+from registry.after_release.served_batch import CheckedBatch, read_served_batch
+from registry.after_release.summaries import WindowSummary, merge_summaries
+from registry.after_release.windows import iso
+from registry.errors import UserError
+from registry.service import gatekeeping
+from registry.service.actors import Actor
+from registry.service.models import find_model
+from registry.service.authorisation import authorise
+from registry.service.serving_evidence import (classes_of_columns, refresh_figures,
+                                               serving_context)
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork, utc_now
+
+DAY = 86400
+
+
+def file_digest(path: str) -> str:
+    """SHA-256 of the batch as sent: the identity that makes sending it again harmless."""
+    digest = hashlib.sha256()
+    try:
+        with open(path, "rb") as handle:
+            for block in iter(lambda: handle.read(1 << 20), b""):
+                digest.update(block)
+    except OSError as error:
+        raise UserError(f"cannot read the batch: {error.strerror or error}", place=path) from None
+    return digest.hexdigest()
+
+
+_DIGESTS: ThreadPoolExecutor | None = None
+
+
+def _digests() -> ThreadPoolExecutor:
+    global _DIGESTS
+    if _DIGESTS is None:
+        _DIGESTS = ThreadPoolExecutor(max_workers=1, thread_name_prefix="batch-digest")
+    return _DIGESTS
+
+
+def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
+                  format: str | None = None, schema_json: Mapping[str, Any] | None = None,
+                  progress: Callable[[int], None] | None = None) -> dict[str, Any]:
+    """Check and keep one served batch; the answer says what it added, per version and window."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        authorise(uow, actor, "serving.record")  # before reading a row of the batch
+        line = find_model(uow, model)
+        context = serving_context(uow, line)
+    # The digest is taken on a thread of its own while the rows are read and checked; a batch
+    # sent again is found by it in the writing transaction below and changes nothing.
+    digesting = _digests().submit(file_digest, path)
+    try:
+        checked = read_served_batch(path, context, format=format, schema_json=schema_json,
+                                    progress=progress)
+    finally:
+        digest = digesting.result()
+    with UnitOfWork(catalogue) as uow:
+        authorise(uow, actor, "serving.record")
+        line = find_model(uow, model)
+        existing = uow.serving.batch(line.id, "served", digest)
+        if existing is not None:  # a concurrent sender of the same batch got there first
+            return _already(line.name, digest, existing)
+        versions = {v.number: v for v in uow.serving.versions(line.id)}
+        windows = _describe(checked)
+        batch = uow.serving.add_batch(t.ServedBatch(
+            model_id=line.id, kind="served", digest=digest, rows=checked.rows,
+            details_json=json.dumps({"task": checked.task, "windows": windows}),
+            created_at=utc_now(), created_by=actor.name))
+        seconds = context.window_seconds
+        for (number, start), rows in sorted(checked.groups.items()):
+            version = versions[number]
+            _merge_window(uow, line, version, start, seconds, rows.summary)
+            uow.serving.add_rows(t.ServedRows(
+                model_id=line.id, batch_id=batch.id, kind="predictions", version_id=version.id,
+                window_start=start, rows=rows.summary.rows, content=compact.encode(rows.columns())))
+        refresh_figures(uow, line, {start for _, start in checked.groups})
+        dropped = _apply_retention(uow, line)
+        uow.audit.append(actor.name, "serving.record", f"model/{line.name}",
+                         {"digest": digest, "rows": checked.rows, "task": checked.task,
+                          "windows": windows, "dropped_row_sets": dropped})
+        uow.commit()
+        return {"model": line.name, "digest": digest, "recorded": True, "rows": checked.rows,
+                "task": checked.task, "windows": windows, "dropped_row_sets": dropped}
+
+
+def _already(model: str, digest: str, batch: t.ServedBatch) -> dict[str, Any]:
+    details = json.loads(batch.details_json or "{}")
+    return {"model": model, "digest": digest, "recorded": False, "rows": batch.rows,
+            **{k: v for k, v in details.items() if k in ("task", "windows", "joined",
+                                                            "unknown_rows")}}
+
+
+def _describe(checked: CheckedBatch) -> list[dict[str, Any]]:
+    return [{"version": number, "window": iso(start), "rows": rows.summary.rows}
+            for (number, start), rows in sorted(checked.groups.items())]
+
+
+def _merge_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int,
+                  seconds: int, summary: WindowSummary) -> None:
+    window = uow.serving.window(model.id, version.id, start, seconds)
+    if window is None:
+        uow.serving.add_window(t.ServedWindow(
+            model_id=model.id, version_id=version.id, window_start=start,
+            window_seconds=seconds, rows=summary.rows,
+            summary_json=json.dumps(summary.to_dict(), allow_nan=False), updated_at=utc_now()))
+        return
+    merged = merge_summaries(WindowSummary.from_dict(json.loads(window.summary_json)), summary)
+    window.rows = merged.rows
+    window.summary_json = json.dumps(merged.to_dict(), allow_nan=False)
+    window.updated_at = utc_now()
+
+
+def _apply_retention(uow: UnitOfWork, model: t.Model) -> int:
+    """Drop compact rows older than the retention, counted back from the newest window (so an
+    old batch replayed later does not wipe what is current)."""
+    newest = uow.serving.newest_window(model.id)
+    if newest is None:
+        return 0
+    days = gatekeeping.policy_of(model).serving.retention_days
+    return uow.serving.drop_rows_before(model.id, newest - days * DAY)
+
+
+# --- outcomes --------------------------------------------------------------------------------
+
+def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
+                    format: str | None = None) -> dict[str, Any]:
+    """Join outcomes to the rows they belong to, whenever they arrive; unknown rows are counted."""
+    digest = file_digest(path)
+    with UnitOfWork(catalogue, write=False) as uow:
+        authorise(uow, actor, "serving.outcomes")  # before reading a row of the batch
+        find_model(uow, model)
+    outcomes = read_outcomes(path, format)
+    with UnitOfWork(catalogue) as uow:
+        authorise(uow, actor, "serving.outcomes")
+        line = find_model(uow, model)
+        existing = uow.serving.batch(line.id, "outcomes", digest)
+        if existing is not None:
+            return _already(line.name, digest, existing)
+        windows, task, classes = _served_windows_of(uow, line, outcomes)
+        labels = check_labels(outcomes.labels, task, classes) if task else None
+        joined = windows >= 0
+        unknown = int((~joined).sum())
+        if labels is None and joined.any():
+            raise UserError("the rows these outcomes join have no task", place="label")
+        batch = uow.serving.add_batch(t.ServedBatch(
+            model_id=line.id, kind="outcomes", digest=digest, rows=len(outcomes.hashes),
+            details_json=json.dumps({"joined": int(joined.sum()), "unknown_rows": unknown}),
+            created_at=utc_now(), created_by=actor.name))
+        per_window = []
+        for start in np.unique(windows[joined]).tolist():
+            mine = windows == start
+            columns = {"row_hash": outcomes.hashes[mine],
+                       "label": labels[mine].astype(np.float64)}
+            if outcomes.observed_at is not None:
+                columns["observed_at"] = outcomes.observed_at[mine]
+            uow.serving.add_rows(t.ServedRows(
+                model_id=line.id, batch_id=batch.id, kind="outcomes", version_id=None,
+                window_start=int(start), rows=int(mine.sum()), content=compact.encode(columns)))
+            per_window.append({"window": iso(int(start)), "rows": int(mine.sum())})
+        refresh_figures(uow, line, {int(s) for s in np.unique(windows[joined]).tolist()})
+        uow.audit.append(actor.name, "serving.outcomes", f"model/{line.name}",
+                         {"digest": digest, "rows": len(outcomes.hashes),
+                          "joined": int(joined.sum()), "unknown_rows": unknown,
+                          "windows": per_window})
+        uow.commit()
+        return {"model": line.name, "digest": digest, "recorded": True,
+                "rows": len(outcomes.hashes), "joined": int(joined.sum()),
+                "unknown_rows": unknown, "windows": per_window}
+
+
+def _served_windows_of(uow: UnitOfWork, model: t.Model, outcomes: OutcomeBatch
+                       ) -> tuple[np.ndarray, str | None, tuple[str, ...]]:
+    """For each outcome, the window its row was first served in (-1 when never served within
+    the retention), the task of those rows and their classes."""
+    windows = np.full(len(outcomes.hashes), -1, dtype=np.int64)
+    task, classes = None, ()
+    for rows, _ in uow.serving.rows(model.id, "predictions"):
+        table = compact.decode(rows.content)
+        hit = np.isin(outcomes.hashes, table.column("row_hash").to_numpy()) & (windows < 0)
+        if hit.any():
+            columns = [c for c in table.column_names if c != "row_hash"]
+            task = ("binary" if columns == ["score"] else "regression"
+                    if columns == ["prediction"] else "multiclass")
+            classes = classes_of_columns(columns)
+        windows[hit] = rows.window_start
+    return windows, task, classes

@@ -1,0 +1,364 @@
+"""The read side of evidence after release: the facts a served batch is checked against, the
+references a report compares with, the report itself, the states `status` and the pages show,
+and the shadow agreement the gates judge."""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+import numpy as np
+
+from registry import gates
+from registry.after_release import compact
+from registry.after_release.agreement import agreement, shared_rows
+from registry.after_release.quality import DEFAULT_METRIC
+from registry.after_release.report import (Reference, ReportSettings, WindowRowsOf,
+                                           build_report, merge_windows, predictions_matrix,
+                                           window_figures)
+from registry.after_release.served_batch import CLASS_PREFIX, ServingContext, VersionFacts
+from registry.after_release.summaries import WindowSummary
+from registry.after_release.timeline import Spell, serving_spells
+from registry.after_release.windows import MICROS, parse_since, window_seconds
+from registry.datasets.profile import profile_of
+from registry.datasets.types import ValueType, record_type
+from registry.errors import UserError
+from registry.service import gatekeeping
+from registry.service.datasets import load_fingerprint
+from registry.service.evaluations import evaluations_of, stored_predictions
+from registry.service.models import find_model, find_version
+from registry.store import tables as t
+from registry.store.catalogue import Catalogue
+from registry.store.unit_of_work import UnitOfWork
+
+SCORE = ValueType("double")
+
+
+def spells_of(uow: UnitOfWork, model: t.Model, stages: tuple[str, ...]
+              ) -> dict[int, tuple[Spell, ...]]:
+    return serving_spells(uow.serving.stage_events(model.id), stages)
+
+
+def _evaluation(uow: UnitOfWork, version: t.Version) -> tuple[t.Evaluation, t.Dataset] | None:
+    found = evaluations_of(uow, version)
+    return found[0] if found else None
+
+
+def serving_context(uow: UnitOfWork, model: t.Model) -> ServingContext:
+    """What the row checks of a served batch need to know of each version of the model."""
+    policy = gatekeeping.policy_of(model)
+    spells = spells_of(uow, model, policy.serving_stages)
+    facts = {}
+    for version in uow.serving.versions(model.id):
+        evaluated = _evaluation(uow, version)
+        task, classes = None, ()
+        if evaluated is not None:
+            task = evaluated[0].task
+            if task == "multiclass":
+                classes = stored_predictions(uow, evaluated[0]).classes
+        facts[version.number] = VersionFacts(
+            number=version.number, input_record=record_type(json.loads(version.input_schema_json)),
+            task=task, classes=classes, spells=spells.get(version.number, ()))
+    return ServingContext(model=model.name, versions=facts,
+                          window_seconds=policy.serving.window_seconds,
+                          serving_stages=policy.serving_stages)
+
+
+# --- references -------------------------------------------------------------------------------
+
+def reference_of(uow: UnitOfWork, version: t.Version) -> Reference:
+    """The version's training profile (its features: keys and left-out columns dropped) and its
+    evaluation: the profile of its predictions and its metrics."""
+    training = uow.serving.training_datasets(version.id)
+    profile: dict = {}
+    training_name = None
+    if training:
+        fingerprint = load_fingerprint(uow, training[0])
+        training_name = training[0].name
+        left_out = set(fingerprint.keys) | set(fingerprint.excluded)
+        profile = {n: p for n, p in fingerprint.profile.items() if n not in left_out}
+    evaluated = _evaluation(uow, version)
+    if evaluated is None:
+        return Reference(version.number, training_name, profile)
+    evaluation, dataset = evaluated
+    document = json.loads(evaluation.metrics_json)
+    predictions = stored_predictions(uow, evaluation)
+    return Reference(
+        version=version.number, training_dataset=training_name, training=profile,
+        evaluation_dataset=dataset.name,
+        evaluation_predictions={name: profile_of(_as_array(values), SCORE)
+                                for name, values in predictions.score_columns().items()},
+        evaluation_metrics=document.get("metrics", {}),
+        threshold=float(document.get("threshold") or 0.5), classes=predictions.classes)
+
+
+def _as_array(values: np.ndarray):
+    import pyarrow as pa
+
+    return pa.array(np.asarray(values, dtype=np.float64))
+
+
+# --- compact rows ------------------------------------------------------------------------------
+
+def _columns_of(table) -> list[str]:
+    return [c for c in table.column_names if c != "row_hash"]
+
+
+def prediction_rows(uow: UnitOfWork, model: t.Model, window: int, *, since: int | None = None,
+                    until: int | None = None, versions: set[int] | None = None
+                    ) -> dict[tuple[int, int], Any]:
+    """(version, report window start) -> the concatenated compact predictions."""
+    parts: dict[tuple[int, int], list[bytes]] = {}
+    for rows, number in uow.serving.rows(model.id, "predictions", since=since, until=until):
+        if versions is not None and number not in versions:
+            continue
+        parts.setdefault((number, rows.window_start - rows.window_start % window),
+                         []).append(rows.content)
+    return {key: compact.concatenated(contents) for key, contents in parts.items()}
+
+
+def outcome_labels(uow: UnitOfWork, model: t.Model, window: int, *, since: int | None = None,
+                   until: int | None = None) -> dict[int, tuple[np.ndarray, np.ndarray]]:
+    """Report window start -> (row hashes, labels) of the outcomes that joined its rows; a
+    later outcome for the same row replaces an earlier one."""
+    parts: dict[int, list[bytes]] = {}
+    for rows, _ in uow.serving.rows(model.id, "outcomes", since=since, until=until):
+        parts.setdefault(rows.window_start - rows.window_start % window, []).append(rows.content)
+    joined = {}
+    for start, contents in parts.items():
+        table = compact.concatenated(contents)
+        hashes = table.column("row_hash").to_numpy()
+        labels = table.column("label").to_numpy()
+        # keep the last outcome of each row: unique over the reversed order
+        _, last = np.unique(hashes[::-1], return_index=True)
+        keep = len(hashes) - 1 - last
+        joined[start] = (hashes[keep], labels[keep])
+    return joined
+
+
+def _with_labels(table, outcomes: tuple[np.ndarray, np.ndarray] | None) -> WindowRowsOf:
+    hashes = table.column("row_hash").to_numpy()
+    predictions = predictions_matrix(table, _columns_of(table))
+    if outcomes is None:
+        return WindowRowsOf(hashes, predictions)
+    labels = np.full(len(hashes), np.nan)
+    order = np.argsort(outcomes[0])
+    sorted_hashes = outcomes[0][order]
+    position = np.searchsorted(sorted_hashes, hashes)
+    position = np.minimum(position, len(sorted_hashes) - 1)
+    found = sorted_hashes[position] == hashes
+    labels[found] = outcomes[1][order][position[found]]
+    return WindowRowsOf(hashes, predictions, labels)
+
+
+# --- the report ----------------------------------------------------------------------------
+
+def _incumbents(spells: dict[int, tuple[Spell, ...]], starts: set[int],
+                window: int) -> dict[int, int | None]:
+    """Per window: the version that held the top stage at its middle (or at its start)."""
+    found = {}
+    for start in starts:
+        found[start] = None
+        for moment in ((start + window // 2) * MICROS, start * MICROS,
+                       (start + window) * MICROS - 1):
+            holders = [n for n, spell_list in spells.items()
+                       if any(s.holds(moment) for s in spell_list)]
+            if holders:
+                found[start] = max(holders)
+                break
+    return found
+
+
+def _settings(model: t.Model, task: str | None, seconds: int) -> ReportSettings:
+    policy = gatekeeping.policy_of(model)
+    metric = policy.serving.quality_metric or DEFAULT_METRIC.get(task or "binary", "roc_auc")
+    return ReportSettings(seconds, metric, policy.serving.quality_margin,
+                          policy.serving.confidence)
+
+
+def _task_of(summaries) -> str | None:
+    tasks = {s.task for s in summaries}
+    return sorted(tasks)[0] if tasks else None
+
+
+def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
+                    summaries: dict[tuple[int, int], WindowSummary], *,
+                    since: int | None = None) -> dict[tuple[int, int], dict[str, Any]]:
+    """The figures of each (version, window start) from the summaries, the compact rows and the
+    outcomes: the slow way, used when rows arrive and for windows longer than the policy's."""
+    if not summaries:
+        return {}
+    policy = gatekeeping.policy_of(model)
+    task = _task_of(summaries.values())
+    settings = _settings(model, task, seconds)
+    numbers = {number for number, _ in summaries}
+    by_number = {v.number: v for v in uow.serving.versions(model.id)}
+    references = {n: reference_of(uow, by_number[n]) for n in numbers}
+    starts = {start for _, start in summaries}
+    top = spells_of(uow, model, (policy.top_stage,))
+    incumbents = _incumbents(top, starts, seconds)
+    low = min(starts) if since is None else since
+    outcomes = outcome_labels(uow, model, seconds, since=low, until=max(starts) + seconds)
+    # rows are read only where they tell something: outcomes to join, or a shadow beside the
+    # incumbent to compare with
+    versions_at: dict[int, set[int]] = {}
+    for number, start in summaries:
+        versions_at.setdefault(start, set()).add(number)
+    needed = {start for start, held in versions_at.items()
+              if start in outcomes or (incumbents.get(start) is not None
+                                       and held - {incumbents[start]})}
+    rows = {}
+    if needed:
+        wanted = numbers | {n for n in incumbents.values() if n is not None}
+        predictions = prediction_rows(uow, model, seconds, since=min(needed), versions=wanted,
+                                      until=max(needed) + seconds)
+        rows = {key: _with_labels(table, outcomes.get(key[1]))
+                for key, table in predictions.items() if key[1] in needed}
+    figures = {}
+    for (number, start), summary in summaries.items():
+        incumbent = incumbents.get(start)
+        found = window_figures(number, summary, references[number], task or "unknown",
+                               settings, rows.get((number, start)),
+                               rows.get((incumbent, start)) if incumbent else None, incumbent)
+        found["incumbent"] = incumbent
+        found["task"] = task
+        found["metric"] = settings.quality_metric
+        found["confidence"] = settings.confidence
+        figures[(number, start)] = found
+    return figures
+
+
+def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int]) -> None:
+    """Recompute and keep the figures of every version's window at these starts (after a batch
+    or an outcome touched them), so that reports only read them."""
+    if not starts:
+        return
+    seconds = gatekeeping.policy_of(model).serving.window_seconds
+    found = uow.serving.windows_at(model.id, seconds, sorted(starts))
+    summaries = {(number, w.window_start): WindowSummary.from_dict(json.loads(w.summary_json))
+                 for w, number in found}
+    figures = compute_figures(uow, model, seconds, summaries)
+    for window, number in found:
+        window.figures_json = json.dumps(figures[(number, window.window_start)],
+                                         allow_nan=False)
+
+
+def report_in(uow: UnitOfWork, model: t.Model, *, version: int | None = None,
+              since: str | None = None, window: str | None = None) -> dict[str, Any]:
+    policy = gatekeeping.policy_of(model)
+    stored = policy.serving.window_seconds
+    seconds = window_seconds(window) if window else stored
+    if seconds % stored:
+        raise UserError(f"the report window must be a whole number of the policy's windows "
+                        f"({policy.serving.window}), since summaries merge but do not split",
+                        place="--window")
+    start = parse_since(since) if since else None
+    if start is not None:
+        start -= start % seconds
+    version_ids = [find_version(uow, model, version).id] if version is not None else None
+    if seconds == stored:
+        figures, task = _kept_figures(uow, model, stored, start, version_ids)
+    else:
+        stored_windows = uow.serving.windows(model.id, stored, since=start,
+                                             version_ids=version_ids)
+        summaries = merge_windows([(number, w.window_start, WindowSummary.from_dict(
+            json.loads(w.summary_json))) for w, number in stored_windows], seconds)
+        task = _task_of(summaries.values())
+        figures = compute_figures(uow, model, seconds, summaries, since=start)
+    settings = _settings(model, task, seconds)
+    incumbents = {s: f.get("incumbent") for (_, s), f in figures.items()}
+    report = build_report(model.name, task or "unknown", settings, figures, incumbents,
+                          _outcome_counts(uow, model))
+    report["window"] = window or policy.serving.window
+    report["retention_days"] = policy.serving.retention_days
+    if version is not None:
+        report["version_filter"] = version
+    return report
+
+
+def _kept_figures(uow: UnitOfWork, model: t.Model, seconds: int, since: int | None,
+                  version_ids: list[int] | None) -> tuple[dict, str | None]:
+    """The figures kept with each window; any missing or computed under other settings (a
+    changed policy) are computed again from the summaries."""
+    figures: dict[tuple[int, int], dict[str, Any]] = {}
+    stale: set[int] = set()
+    tasks = set()
+    for start, number, _rows, text in uow.serving.window_figures(
+            model.id, seconds, since=since, version_ids=version_ids):
+        found = json.loads(text) if text else None
+        if found is None:
+            stale.add(start)
+            continue
+        tasks.add(found.get("task"))
+        figures[(number, start)] = found
+    task = sorted(t for t in tasks if t)[0] if any(tasks) else None
+    settings = _settings(model, task, seconds)
+    stale |= {s for (_, s), f in figures.items()
+              if (f.get("metric"), f.get("confidence")) != (settings.quality_metric,
+                                                            settings.confidence)}
+    if stale:
+        found = uow.serving.windows_at(model.id, seconds, sorted(stale))
+        wanted = set(version_ids) if version_ids is not None else None
+        summaries = {(number, w.window_start): WindowSummary.from_dict(
+            json.loads(w.summary_json)) for w, number in found
+            if wanted is None or w.version_id in wanted}
+        figures.update(compute_figures(uow, model, seconds, summaries))
+        task = task or _task_of(summaries.values())
+    return figures, task
+
+
+def _outcome_counts(uow: UnitOfWork, model: t.Model) -> dict[str, int]:
+    counts = {"batches": 0, "rows": 0, "joined": 0, "unknown_rows": 0}
+    for batch in uow.serving.batches(model.id, "outcomes"):
+        details = json.loads(batch.details_json or "{}")
+        counts["batches"] += 1
+        counts["rows"] += batch.rows
+        counts["joined"] += int(details.get("joined", 0))
+        counts["unknown_rows"] += int(details.get("unknown_rows", 0))
+    return counts
+
+
+def serving_report(catalogue: Catalogue, model: str, *, version: int | None = None,
+                   since: str | None = None, window: str | None = None) -> dict[str, Any]:
+    """Per window and version: rows, drift, agreement, live quality and the state."""
+    with UnitOfWork(catalogue, write=False) as uow:
+        line = find_model(uow, model)
+        return report_in(uow, line, version=version, since=since, window=window)
+
+
+def states_in(uow: UnitOfWork, model: t.Model) -> dict[str, dict[str, Any]]:
+    """Each version's state after release (steady, drifting, degrading) with its reasons; empty
+    when nothing was ever served."""
+    if not uow.serving.has_windows(model.id):
+        return {}
+    return {number: {key: found[key] for key in ("state", "reasons", "newest_window")}
+            for number, found in report_in(uow, model)["versions"].items()}
+
+
+# --- evidence for the gates ----------------------------------------------------------------------
+
+def shadow_agreement(uow: UnitOfWork, model: t.Model, candidate: t.Version,
+                     incumbent: t.Version) -> gates.ShadowAgreement | None:
+    """The candidate's agreement with the incumbent over every retained row both scored."""
+    mine, theirs, task = [], [], None
+    for rows, number in uow.serving.rows(model.id, "predictions"):
+        if number == candidate.number:
+            mine.append(rows.content)
+        elif number == incumbent.number:
+            theirs.append(rows.content)
+    if not mine or not theirs:
+        return None
+    a, b = compact.concatenated(mine), compact.concatenated(theirs)
+    columns = _columns_of(a)
+    task = ("binary" if columns == ["score"] else "regression" if columns == ["prediction"]
+            else "multiclass")
+    in_a, in_b = shared_rows(a.column("row_hash").to_numpy(), b.column("row_hash").to_numpy())
+    evaluated = _evaluation(uow, candidate)
+    threshold = float(json.loads(evaluated[0].metrics_json).get("threshold") or 0.5) \
+        if evaluated else 0.5
+    return agreement(incumbent.number, task, predictions_matrix(a, columns)[in_a],
+                     predictions_matrix(b, _columns_of(b))[in_b], threshold)
+
+
+def classes_of_columns(columns: list[str]) -> tuple[str, ...]:
+    return tuple(c[len(CLASS_PREFIX):] for c in columns if c.startswith(CLASS_PREFIX))
