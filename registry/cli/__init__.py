@@ -83,6 +83,8 @@ COMMANDS: dict[str, Lazy | LazyGroup] = {
                      "Declared readers of a model's output, with their reader schemas."),
     "impact": Lazy(f"{CONTRACTS}:impact",
                    "What changes if a version enters a stage; changes nothing."),
+    "serving": Lazy("registry.cli.serving_commands:serving",
+                    "Served batches and outcomes sent back, and the after-release report."),
     "user": Lazy(f"{CATALOGUE}:user", "Roles of the people who act on the catalogue."),
     "token": Lazy("registry.cli.token_commands:token_group", "Bearer tokens for the HTTP API."),
     "key": Lazy("registry.cli.key_commands:key", "The catalogue's signing keys: create, list, rotate."),

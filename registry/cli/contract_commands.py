@@ -393,4 +393,3 @@ def impact(model_name: str, version: str | None, stage: str, as_json: bool) -> N
     emit(found, as_json, render_impact)
 
 
-COMMANDS = [feed, consumer, impact]

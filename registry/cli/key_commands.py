@@ -67,4 +67,3 @@ def key_list(as_json: bool) -> None:
     emit(found, as_json, text)
 
 
-COMMANDS = [key]

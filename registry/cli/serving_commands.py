@@ -8,7 +8,8 @@ from typing import Any
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.dataset_commands import FORMAT_CHOICE, load_schema, progress_reporter
+from registry.cli.dataset_commands import FORMAT_CHOICE, load_schema
+from registry.cli.progress import progress_bar
 from registry.cli.output import emit, json_option
 
 
@@ -44,7 +45,7 @@ def record(model_name: str, file: str, schema_path: str | None, file_format: str
                                        file_format=file_format)
     else:
         schema_json = load_schema(schema_path)
-        with progress_reporter(os.path.basename(file), _total_rows(file)) as progress:
+        with progress_bar(os.path.basename(file), _total_rows(file)) as progress:
             outcome = record_served(_context().catalogue(), model_name, file, _actor(),
                                     format=file_format, schema_json=schema_json,
                                     progress=progress)
@@ -149,4 +150,3 @@ def render_report(document: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-COMMANDS = [serving]

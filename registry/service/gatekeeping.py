@@ -10,6 +10,7 @@ from __future__ import annotations
 import dataclasses
 import json
 from collections.abc import Sequence
+from datetime import UTC, datetime
 
 from sqlalchemy import select
 
