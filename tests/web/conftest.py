@@ -36,3 +36,24 @@ def client(populated_url):
     app = create_app(populated_url, config={"TESTING": False})
     yield app.test_client()
     app.extensions["lockkeeper"].close()
+
+
+def build_demo(url: str) -> None:
+    """The demo story, played in-process by the command line, as `lockkeeper demo` plays it."""
+    from registry.demo import play, run_in_process
+
+    play(url, run_in_process, lambda line: None)
+
+
+@pytest.fixture(scope="session")
+def demo_url(tmp_path_factory) -> str:
+    url = f"sqlite:///{tmp_path_factory.mktemp('demo') / 'demo.db'}"
+    build_demo(url)
+    return url
+
+
+@pytest.fixture(scope="session")
+def demo_client(demo_url):
+    app = create_app(demo_url, config={"TESTING": False})
+    yield app.test_client()
+    app.extensions["lockkeeper"].close()
