@@ -85,7 +85,10 @@ def events():
 @blueprint.route("/models/<name>")
 def model(name: str):
     page = queries.model_page(_catalogue(), _name(name, "model"))
-    return render_template("model.html", page=page, drawing=timeline.draw(page.timeline))
+    # A link to one report (a timeline mark, a refusal) names it, so it is drawn unfolded.
+    opened = _query_number("report", low=1, high=10**9, default=None)
+    return render_template("model.html", page=page, drawing=timeline.draw(page.timeline),
+                           opened=opened)
 
 
 @blueprint.route("/models/<name>/versions/<int:number>")
