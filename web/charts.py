@@ -4,6 +4,7 @@ as named rows, and drift as a reference and a current distribution drawn over ea
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from registry.service.queries.distributions import Distribution
@@ -11,7 +12,7 @@ from registry.service.queries.reports import plain_number
 
 WIDTH = 380
 PLOT_HEIGHT = 130
-LEFT, RIGHT, TOP, BOTTOM = 46, 12, 10, 34
+LEFT, RIGHT, TOP, BOTTOM = 46, 20, 10, 34
 ROW = 18
 LABEL_ROOM = 130
 X_TICKS = 5
@@ -48,6 +49,22 @@ class Picture:
     y_ticks: tuple[Tick, ...]
     row_labels: tuple[Tick, ...]  # category names, at the middle of their row
     overlay: bool
+
+
+def round_ticks(low: float, high: float, wanted: int = X_TICKS) -> tuple[float, ...]:
+    """Round values (1, 2, 2.5 or 5 times a power of ten apart) spanning low to high."""
+    span = high - low
+    if span <= 0:
+        return (low,)
+    power = 10 ** math.floor(math.log10(span / (wanted - 1)))
+
+    def ticks(step: float) -> tuple[float, ...]:
+        first = math.ceil(low / step - 1e-9) * step
+        count = int(math.floor((high - first) / step + 1e-9)) + 1
+        return tuple(float(f"{first + i * step:.10g}") for i in range(count))
+
+    candidates = [ticks(m * power) for m in (1, 2, 2.5, 5, 10)]
+    return min(candidates, key=lambda found: (abs(len(found) - wanted), len(found)))
 
 
 def _percent(share: float) -> str:
@@ -95,9 +112,8 @@ def _columns(d: Distribution) -> Picture:
         x_ticks = tuple(Tick(x(d.edges[i] + 0.5), _edge_label(d.edges[i], True))
                         for i in range(0, len(d.edges) - 1, every))
     else:
-        x_ticks = tuple(Tick(x(d.edges[0] + span * k / (X_TICKS - 1)),
-                             plain_number(float(f"{d.edges[0] + span * k / (X_TICKS - 1):.4g}")))
-                        for k in range(X_TICKS))
+        x_ticks = tuple(Tick(x(value), plain_number(value))
+                        for value in round_ticks(d.edges[0], d.edges[-1]))
     y_ticks = (Tick(bottom, "0%"), Tick(y(peak / 2), _percent(peak / 2)), Tick(top, _percent(peak)))
     return Picture(width, height, "columns", left, top, right, bottom, tuple(rects), outline,
                    x_ticks, y_ticks, (), overlay)

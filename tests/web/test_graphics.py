@@ -115,3 +115,11 @@ def test_barycentre_ordering_untangles_two_parallel_chains():
         LineageEdge("model/m/stage/shadow", "model/m/version/2", "held-by"),
         LineageEdge("model/m/stage/live", "model/m/version/1", "held-by")))
     assert crossings(layout(graph)) == 0
+
+
+def test_axis_ticks_fall_on_round_values_within_the_range():
+    from web.charts import round_ticks
+
+    assert round_ticks(220.6, 723.6) == (300.0, 400.0, 500.0, 600.0, 700.0)
+    assert round_ticks(-15.5, 13.2) == (-15.0, -10.0, -5.0, 0.0, 5.0, 10.0)
+    assert round_ticks(0.0, 1.0) == (0.0, 0.25, 0.5, 0.75, 1.0)
