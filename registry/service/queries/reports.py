@@ -14,6 +14,7 @@ from registry.store import tables as t
 ORDER = {"failed": 0, "waived": 1, "passed": 2}
 MAX_DEPTH = 4
 _PLACE = re.compile(r"^([^:]{1,60}): ")
+_DIGEST = re.compile(r"^[0-9a-f]{32,64}$")
 # Keys whose plain words differ from the key itself.
 LABELS = {"ci_low": "interval from", "ci_high": "interval to", "p_value": "p-value",
           "n": "records", "psi": "PSI", "reader_version": "reading version",
@@ -73,7 +74,8 @@ def _inline(value: Any, depth: int = 0) -> str:
     if isinstance(value, (list, tuple)):
         return ", ".join(_inline(v, depth + 1) for v in value) if value else "none"
     if isinstance(value, str):
-        return value
+        # A digest reads as its start; the whole of it is on the dataset or version page.
+        return value[:12] + "…" if _DIGEST.match(value) else value
     return plain_number(value)
 
 
