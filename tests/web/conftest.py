@@ -31,11 +31,15 @@ def populated_url(tmp_path_factory) -> str:
     return url
 
 
-@pytest.fixture(scope="module")
-def client(populated_url):
-    app = create_app(populated_url, config={"TESTING": False})
+def serve_test_client(url: str):
+    app = create_app(url, config={"TESTING": False})
     yield app.test_client()
     app.extensions["lockkeeper"].close()
+
+
+@pytest.fixture(scope="module")
+def client(populated_url):
+    yield from serve_test_client(populated_url)
 
 
 def build_demo(url: str) -> None:
@@ -54,6 +58,4 @@ def demo_url(tmp_path_factory) -> str:
 
 @pytest.fixture(scope="session")
 def demo_client(demo_url):
-    app = create_app(demo_url, config={"TESTING": False})
-    yield app.test_client()
-    app.extensions["lockkeeper"].close()
+    yield from serve_test_client(demo_url)

@@ -130,3 +130,37 @@ def test_the_decisions_show_on_every_configured_database(empty_catalogue_url):
         assert client.get("/events?page=2").status_code == 200
     finally:
         app.extensions["lockkeeper"].close()
+
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+MODELS = st.sampled_from(["main-burst-risk", "night-flow-leak", "no-such-model"])
+DATASETS = st.sampled_from([EXTRACT, "brackwater-training-set", "night-flow-live-sample",
+                            "no-such-set"])
+NUMBERS = st.integers(min_value=0, max_value=6)
+PATHS = st.one_of(
+    st.just("/"), st.just("/events"),
+    MODELS.map(lambda m: f"/models/{m}"),
+    st.tuples(MODELS, NUMBERS).map(lambda p: f"/models/{p[0]}/versions/{p[1]}"),
+    MODELS.map(lambda m: f"/models/{m}/compare"),
+    DATASETS.map(lambda d: f"/datasets/{d}"),
+    st.just("/lineage"))
+PARAMETERS = st.sampled_from(["a", "b", "report", "page", "name", "models", "datasets", "model",
+                              "dataset", "person", "action", "against", "node", "depth",
+                              "direction"])
+VALUES = st.one_of(NUMBERS.map(str), MODELS, DATASETS,
+                   st.sampled_from(["flagged", "recalled", "in-use", "held", "stage.promote",
+                                    "tomas.lindqvist", "both", "up", "down",
+                                    "model/main-burst-risk/stage/live", "main-burst-risk@2"]),
+                   st.text(max_size=12))
+
+
+@settings(max_examples=120, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(path=PATHS, query=st.lists(st.tuples(PARAMETERS, VALUES), max_size=4))
+def test_no_page_of_the_demo_answers_with_a_server_error(demo_client, path, query):
+    from urllib.parse import urlencode
+
+    response = demo_client.get(f"{path}?{urlencode(query)}")
+    assert response.status_code < 500, (path, query, response.get_data(as_text=True)[:300])
