@@ -76,8 +76,9 @@ def draw(timeline: Timeline) -> TimelineDrawing | None:
     marks = tuple(TimelineMark(left + m.step * step + step / 2,
                                middle(m.stage) + (4 if m.kind == "refusal" else -BAR / 2 - 5),
                                m.kind, m.report_id,
-                               f"{words[m.kind]} v{m.version} {'for' if m.kind == 'refusal' else 'in'}"
-                               f" {m.stage} at {m.at}: open report {m.report_id}")
+                               f"{words[m.kind]} v{m.version} "
+                               f"{'for' if m.kind == 'refusal' else 'in'} {m.stage} at {m.at}: "
+                               f"open report {m.report_id}")
                   for m in timeline.marks)
     height = TOP + LANE * len(timeline.lanes) + 12
     return TimelineDrawing(WIDTH, height, tuple((middle(s), s) for s in timeline.lanes),

@@ -50,8 +50,9 @@ def _query_text(name: str, *, pattern: re.Pattern | None = None, default: str | 
     if not values:
         return default
     value = values[0]
-    if (len(values) > 1 or len(value) > limit or (pattern and value and not pattern.fullmatch(value))
-            or (choices is not None and value not in choices) or "\x00" in value):
+    if (len(values) > 1 or len(value) > limit or "\x00" in value
+            or (pattern and value and not pattern.fullmatch(value))
+            or (choices is not None and value not in choices)):
         abort(400, description=f"the query parameter {name!r} is malformed")
     return value
 

@@ -41,7 +41,7 @@ def _edges(low: float, high: float, integer: bool) -> np.ndarray:
 
 
 def _rebinned(histogram: LogHistogram, edges: np.ndarray) -> np.ndarray:
-    """Each stored bucket's count placed at its middle (buckets are 2^-7 wide: well inside a bin)."""
+    """Each stored bucket's count placed at its middle (a bucket is 2^-7 wide: inside a bin)."""
     if len(histogram.counts) == 0:
         return np.zeros(len(edges) - 1)
     lower, upper = bucket_bounds(histogram)
