@@ -72,6 +72,8 @@ def in_words(action: str, subject: str, details: Any) -> str:
     stage = d.get("stage", "")
     waived = [w.get("gate", "") for w in d.get("waivers", []) if isinstance(w, dict)]
     stage_name = m.group(2) if (m := _STAGE.match(subject)) else stage
+    summary = d.get("summary") if isinstance(d.get("summary"), dict) else {}
+    failed = list(summary.get("failed", {})) if isinstance(summary.get("failed"), dict) else []
     words = {
         "role.grant": lambda: f"granted the {d.get('role', '')} role to {user}",
         "role.revoke": lambda: f"took the {d.get('role', '')} role from {user}",
@@ -86,7 +88,8 @@ def in_words(action: str, subject: str, details: Any) -> str:
         "evaluation.add": lambda: f"evaluated {_version(target)} on {target.dataset}",
         "stage.promote": lambda: f"promoted {_version(target)} to {stage}"
                                  + (f", waiving {', '.join(waived)}" if waived else ""),
-        "stage.refuse": lambda: f"was refused moving {_version(target)} to {stage}",
+        "stage.refuse": lambda: f"tried to promote {_version(target)} to {stage}: refused"
+                                + (f" by {', '.join(failed)}" if failed else ""),
         "stage.rollback": lambda: f"rolled {target.model} {stage_name} back from "
                                   f"v{d.get('from_version', '?')}",
         "token.create": lambda: f"issued an API token for {d.get('user', user)}",
