@@ -224,33 +224,10 @@ def _rows_of_definitions(definitions: Any) -> list[FeatureRow]:
 
 
 def feature_rows(features: Any) -> list[FeatureRow]:
-    """Feature definitions as rows: read by registry.features when stored as registration
-    stores them, otherwise from a mapping by name or a list of definitions."""
+    """Feature definitions as rows, read by registry.features from the form registration
+    stores ({"toml": ...}); none when they are absent or unreadable."""
     definitions = feature_definitions(features)
-    if definitions is not None:
-        return _rows_of_definitions(definitions)
-    items: list[tuple[str, Any]] = []
-    if isinstance(features, dict):
-        inner = features.get("features", features)
-        if isinstance(inner, dict):
-            items = list(inner.items())
-        elif isinstance(inner, list):
-            features = inner
-    if isinstance(features, list):
-        items = [(str(f.get("name", f.get("path", "?"))), f)
-                 for f in features if isinstance(f, dict)]
-    rows = []
-    for name, definition in items:
-        if not isinstance(definition, dict):
-            rows.append(FeatureRow(str(name), _text(definition), "", "", ""))
-            continue
-        known = {"name", "path", "description", "unit", "domain", "nullable"}
-        rows.append(FeatureRow(
-            name=str(name), description=_text(definition.get("description")),
-            unit=_text(definition.get("unit")), domain=_text(definition.get("domain")),
-            nullable=_text(definition.get("nullable")) if "nullable" in definition else "",
-            other=tuple((str(k), _text(v)) for k, v in definition.items() if k not in known)))
-    return rows
+    return _rows_of_definitions(definitions) if definitions is not None else []
 
 
 @dataclass(frozen=True)
