@@ -133,7 +133,8 @@ def test_comparison_lists_schema_feature_and_metric_differences(client):
     assert "mean_pressure_psi" in html and "[psi]" in html
     assert "renamed" in html  # registry.schema's diff: linked by an alias
     # registry.features' semantic diff: the unit change the feature gate catches (SCENARIO.md)
-    assert re.search(r"unit-changed</td><td>kPa</td><td>\[psi\]</td><td><span class=\"badge failed\">breaking", html)
+    assert re.search(r"unit changed</td><td>kPa</td><td><abbr title=\"UCUM code \[psi\]\">psi</abbr>"
+                     r"</td><td><span class=\"badge failed\">breaking", html)
     assert "roc_auc" in html and re.search(r"[+-]\d", html)
     assert "Both input schemas as written, side by side" in html
 
