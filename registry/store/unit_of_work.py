@@ -20,7 +20,10 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.page_reads import PageReads
+from registry.store.role_repository import RoleRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -88,6 +91,9 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.roles: RoleRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
         self.pages: PageReads
 
     def __enter__(self) -> UnitOfWork:
@@ -95,7 +101,7 @@ class UnitOfWork:
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
-        self.pages = PageReads(self.session)
+        self._attach_repositories()
         try:
             self.session.begin()
             if self.write:
@@ -104,6 +110,13 @@ class UnitOfWork:
             self._close()
             raise _translate(error, self.catalogue) from None
         return self
+
+    def _attach_repositories(self) -> None:
+        """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
+        self.roles = RoleRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
+        self.pages = PageReads(self.session)  # the read side's rows for the web pages
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
