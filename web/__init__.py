@@ -9,5 +9,4 @@ from flask import Blueprint
 blueprint = Blueprint("web", __name__, template_folder="templates", static_folder="static",
                       static_url_path="/static")
 
-from web import views  # noqa: E402,F401 - the routes attach themselves to the blueprint
-from web import after_release  # noqa: E402,F401 - the "after release" page and its states
+from web import after_release, readable, views  # noqa: E402,F401 - pages, filters and routes attach themselves

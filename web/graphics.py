@@ -1,24 +1,30 @@
-"""Geometry for the server-drawn SVG: the layered lineage graph and profile histograms.
+"""Geometry of the lineage picture: layered columns (datasets, then versions, then stages),
+each column ordered by the barycentre of its neighbours so the demo's graphs draw without
+crossings, full labels wrapped over two lines (or shortened in the middle, the whole name in
+a tooltip), and version boxes naming the stages they hold.
 
-Pure functions from plain data to boxes, paths and bars; the templates turn them into SVG, so
-every label passes through Jinja's autoescaping.
+Pure functions from plain data to boxes and paths; the templates turn them into SVG, so every
+label passes through Jinja's autoescaping.
 """
 
 from __future__ import annotations
 
-import math
-import struct
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
 
 from registry.service.lineage import LineageGraph, LineageNode
 
-NODE_WIDTH = 206
-NODE_HEIGHT = 44
-COLUMN_GAP = 70
-ROW_GAP = 18
+NODE_WIDTH = 232
+NODE_HEIGHT = 58
+COLUMN_GAP = 64
+ROW_GAP = 16
 MARGIN = 16
-ARC_ROOM = 44
+HEADING = 22
+ARC_ROOM = 40
+LINE_CHARACTERS = 30  # what fits on one line of a box at the label's size
+SWEEPS = 4
+RELATIONS = ("derived-from", "trained-on", "evaluated-on", "parent-version", "held-by",
+             "was-held-by")
 
 
 @dataclass(frozen=True)
@@ -28,7 +34,8 @@ class PlacedNode:
     y: float
     width: float
     height: float
-    lines: tuple[str, ...]
+    lines: tuple[str, ...]  # the label, over one or two lines
+    detail: str  # kind, and what it holds or is flagged for
     is_root: bool
 
 
@@ -46,10 +53,28 @@ class GraphDrawing:
     nodes: tuple[PlacedNode, ...]
     edges: tuple[PlacedEdge, ...]
     columns: tuple[tuple[float, str], ...]  # x and heading of each kind's first column
+    relations: tuple[str, ...]  # the edge kinds drawn, for the legend
 
 
-def _short(text: str, limit: int = 26) -> str:
-    return text if len(text) <= limit else text[:limit - 1] + "…"
+def middle_short(text: str, limit: int = LINE_CHARACTERS) -> str:
+    """Text cut in the middle, so both the start and the distinguishing end stay visible."""
+    if len(text) <= limit:
+        return text
+    keep = limit - 1
+    return text[:(keep + 1) // 2] + "…" + text[len(text) - keep // 2:]
+
+
+def label_lines(text: str, limit: int = LINE_CHARACTERS) -> tuple[str, ...]:
+    """One line when it fits; else two, broken after a hyphen or space near the middle."""
+    if len(text) <= limit:
+        return (text,)
+    breaks = [i + 1 for i, c in enumerate(text) if c in "- " and i + 1 <= limit]
+    if breaks:
+        cut = min(breaks, key=lambda i: abs(i - len(text) / 2))
+        if len(text) - cut <= limit:
+            return text[:cut].rstrip(), text[cut:].lstrip()
+        return text[:cut].rstrip(), middle_short(text[cut:].lstrip(), limit)
+    return (middle_short(text, limit),)
 
 
 def _levels(graph: LineageGraph) -> dict[str, int]:
@@ -82,175 +107,113 @@ def _levels(graph: LineageGraph) -> dict[str, int]:
     return columns
 
 
-def layout(graph: LineageGraph) -> GraphDrawing:
-    columns = _levels(graph)
+def _ordered(graph: LineageGraph, columns: dict[str, int]) -> dict[int, list[LineageNode]]:
+    """Barycentre ordering (Sugiyama, Tagawa and Toda 1981): sweep right then left, placing each
+    node at the mean position of its neighbours in the column just swept."""
     by_column: dict[int, list[LineageNode]] = {}
-    for node in graph.nodes:
+    for node in sorted(graph.nodes, key=lambda n: n.label):
         by_column.setdefault(columns[node.id], []).append(node)
-    placed: dict[str, PlacedNode] = {}
+    neighbours: dict[str, list[str]] = {n.id: [] for n in graph.nodes}
+    for edge in graph.edges:
+        if edge.source in neighbours and edge.target in neighbours:
+            neighbours[edge.source].append(edge.target)
+            neighbours[edge.target].append(edge.source)
+    order = sorted(by_column)
+    for sweep in range(SWEEPS):
+        position = {n.id: i for members in by_column.values() for i, n in enumerate(members)}
+        for column in (order[1:] if sweep % 2 == 0 else list(reversed(order))[1:]):
+            members = by_column[column]
+
+            def centre(node: LineageNode, members: list[LineageNode] = members) -> float:
+                near = [position[m] for m in neighbours[node.id]
+                        if columns[m] != column and m in position]
+                return sum(near) / len(near) if near else members.index(node)
+
+            members.sort(key=lambda n: (centre(n), n.label))
+            position.update({n.id: i for i, n in enumerate(members)})
+    return by_column
+
+
+def _detail(node: LineageNode, held: Mapping[str, tuple[str, ...]]) -> str:
+    words = [node.kind]
+    if node.kind == "version" and held.get(node.id):
+        words.append("holds " + ", ".join(held[node.id]))
+    if node.kind == "stage" and not node.current:
+        words.append("held formerly")
+    if node.recalled:
+        words.append("RECALLED")
+    elif node.flagged:
+        words.append("flagged")
+    return " · ".join(words)
+
+
+def _edge_path(start: PlacedNode, end: PlacedNode, skips: bool) -> str:
+    x1, y1 = start.x + start.width, start.y + start.height / 2
+    x2, y2 = end.x, end.y + end.height / 2
+    if x2 <= x1:  # same column: bow outwards on the right
+        x2, bend = end.x + end.width, COLUMN_GAP / 2 + 20
+        return (f"M{x1:.1f},{y1:.1f} C{x1 + bend:.1f},{y1:.1f} "
+                f"{x2 + bend:.1f},{y2:.1f} {x2:.1f},{y2:.1f}")
+    if skips:  # over the columns between, through the corridor above them
+        lift = MARGIN + HEADING + 8
+        return (f"M{x1:.1f},{y1:.1f} C{x1 + COLUMN_GAP:.1f},{lift:.1f} "
+                f"{x2 - COLUMN_GAP:.1f},{lift:.1f} {x2 - 6:.1f},{y2:.1f}")
+    middle = (x1 + x2) / 2
+    return (f"M{x1:.1f},{y1:.1f} C{middle:.1f},{y1:.1f} "
+            f"{middle:.1f},{y2:.1f} {x2 - 6:.1f},{y2:.1f}")
+
+
+def layout(graph: LineageGraph, held: Mapping[str, tuple[str, ...]] | None = None
+           ) -> GraphDrawing:
+    held = held or {}
+    columns = _levels(graph)
+    by_column = _ordered(graph, columns)
     tallest = max((len(v) for v in by_column.values()), default=1)
-    # Edges that skip a column arc over the nodes between, through a corridor above them.
-    skips = any(columns[e.source] - columns[e.target] > 1 for e in graph.edges
-                if e.source in columns and e.target in columns)
-    corridor = ARC_ROOM if skips else 0
-    height = 2 * MARGIN + tallest * NODE_HEIGHT + (tallest - 1) * ROW_GAP + 20 + corridor
+    skipping = [e for e in graph.edges if e.source in columns and e.target in columns
+                and columns[e.source] - columns[e.target] > 1]
+    corridor = ARC_ROOM if skipping else 0
+    top_room = MARGIN + HEADING + corridor
+    height = top_room + tallest * NODE_HEIGHT + (tallest - 1) * ROW_GAP + MARGIN
+    placed: dict[str, PlacedNode] = {}
     headings: dict[str, float] = {}
     for column, members in sorted(by_column.items()):
         x = MARGIN + column * (NODE_WIDTH + COLUMN_GAP)
-        members.sort(key=lambda n: n.label)
         used = len(members) * NODE_HEIGHT + (len(members) - 1) * ROW_GAP
-        top = MARGIN + 20 + corridor + (height - 2 * MARGIN - 20 - corridor - used) / 2
+        top = top_room + (height - top_room - MARGIN - used) / 2
         for index, node in enumerate(members):
             headings.setdefault(node.kind, x)
-            marks = [word for word, on in (("RECALLED", node.recalled),
-                                           ("flagged", node.flagged and not node.recalled),
-                                           ("formerly held", node.kind == "stage"
-                                            and not node.current)) if on]
-            lines = (_short(node.label), _short(" · ".join([node.kind] + marks), 30))
             placed[node.id] = PlacedNode(node, x, top + index * (NODE_HEIGHT + ROW_GAP),
-                                         NODE_WIDTH, NODE_HEIGHT, lines, node.id == graph.root)
+                                         NODE_WIDTH, NODE_HEIGHT, label_lines(node.label),
+                                         middle_short(_detail(node, held), 36),
+                                         node.id == graph.root)
     edges = []
     for edge in graph.edges:
         # Drawn from the upstream end (target) on the left to the dependent (source) on the right.
         start, end = placed.get(edge.target), placed.get(edge.source)
         if start is None or end is None:
             continue
-        x1, y1 = start.x + start.width, start.y + start.height / 2
-        x2, y2 = end.x, end.y + end.height / 2
-        if x2 <= x1:  # same column (should not happen for a layered graph): bow outwards
-            x2, y2 = end.x + end.width, y2
-            bend = COLUMN_GAP / 2 + 20
-            path = (f"M{x1:.1f},{y1:.1f} C{x1 + bend:.1f},{y1:.1f} "
-                    f"{x2 + bend:.1f},{y2:.1f} {x2:.1f},{y2:.1f}")
-        elif columns[edge.source] - columns[edge.target] > 1:
-            lift = MARGIN + 22
-            path = (f"M{x1:.1f},{y1:.1f} C{x1 + COLUMN_GAP:.1f},{lift:.1f} "
-                    f"{x2 - COLUMN_GAP:.1f},{lift:.1f} {x2 - 6:.1f},{y2:.1f}")
-        else:
-            middle = (x1 + x2) / 2
-            path = (f"M{x1:.1f},{y1:.1f} C{middle:.1f},{y1:.1f} "
-                    f"{middle:.1f},{y2:.1f} {x2 - 6:.1f},{y2:.1f}")
-        edges.append(PlacedEdge(path, edge.relation,
+        edges.append(PlacedEdge(_edge_path(start, end, edge in skipping), edge.relation,
                                 f"{edge.source} {edge.relation} {edge.target}"))
     column_count = max(columns.values(), default=0) + 1
     width = 2 * MARGIN + column_count * (NODE_WIDTH + COLUMN_GAP) - COLUMN_GAP
     heading_names = {"dataset": "datasets", "feed": "feeds", "version": "versions",
                      "stage": "stages", "consumer": "consumers"}
+    drawn = {e.relation for e in edges}
     return GraphDrawing(width, height, tuple(placed.values()), tuple(edges),
-                        tuple((x, heading_names[k]) for k, x in headings.items()))
+                        tuple((x, heading_names[k]) for k, x in headings.items()),
+                        tuple(r for r in RELATIONS if r in drawn))
 
 
-@dataclass(frozen=True)
-class Bar:
-    x: float
-    y: float
-    width: float
-    height: float
-    label: str  # what the bar counts, for its tooltip and the table beside the chart
-    count: int
-
-
-@dataclass(frozen=True)
-class Chart:
-    width: float
-    height: float
-    bars: tuple[Bar, ...]
-    axis_left: str
-    axis_right: str
-    caption: str
-
-
-CHART_WIDTH, CHART_HEIGHT = 320, 120
-
-
-def _finite(value: Any) -> bool:
-    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
-
-
-def _bars(labels: list[str], counts: list[int]) -> tuple[Bar, ...]:
-    peak = max(counts, default=0) or 1
-    slot = CHART_WIDTH / max(len(counts), 1)
-    return tuple(Bar(i * slot + 1, CHART_HEIGHT - CHART_HEIGHT * c / peak, max(slot - 2, 1),
-                     CHART_HEIGHT * c / peak, label, c)
-                 for i, (label, c) in enumerate(zip(labels, counts)))
-
-
-def _format(value: float) -> str:
-    return f"{value:.4g}"
-
-
-MAX_BARS = 40
-
-
-def _bucket_bounds(index: int, mantissa_bits: int) -> tuple[float, float]:
-    """Value range of a signed log-linear bucket: index sign(x) * (1 + (bits(|x|) >> (52 - m))),
-    as the dataset profile stores it (registry.datasets.histogram)."""
-    if index == 0:
-        return 0.0, 0.0
-    shift = 52 - mantissa_bits
-    magnitude = abs(index) - 1
-    low = struct.unpack("<d", struct.pack("<Q", magnitude << shift))[0]
-    top = min((magnitude + 1) << shift, 0x7FEFFFFFFFFFFFFF)  # at most the largest double
-    high = struct.unpack("<d", struct.pack("<Q", top))[0]
-    return (low, high) if index > 0 else (-high, -low)
-
-
-def _log_buckets(histogram: dict) -> Chart | None:
-    bits, buckets = histogram.get("mantissa_bits"), histogram.get("buckets")
-    if (not isinstance(bits, int) or not 0 <= bits <= 52 or not isinstance(buckets, list)
-            or not buckets or len(buckets) > 100_000):
-        return None
-    ranges = []
-    for pair in buckets:
-        if (not isinstance(pair, list) or len(pair) != 2
-                or not all(isinstance(v, int) and not isinstance(v, bool) for v in pair)
-                or pair[1] < 0 or abs(pair[0]) > (1 << (64 - 52 + bits))):
-            return None
-        low, high = _bucket_bounds(pair[0], bits)
-        if not (math.isfinite(low) and math.isfinite(high)):
-            return None
-        ranges.append((low, high, pair[1]))
-    ranges.sort()
-    size = math.ceil(len(ranges) / MAX_BARS)
-    groups = [ranges[i:i + size] for i in range(0, len(ranges), size)]
-    labels = [f"{_format(g[0][0])} to {_format(g[-1][1])}" for g in groups]
-    counts = [sum(c for _, _, c in g) for g in groups]
-    return Chart(CHART_WIDTH, CHART_HEIGHT, _bars(labels, counts), _format(ranges[0][0]),
-                 _format(ranges[-1][1]),
-                 f"{sum(counts)} values in {len(ranges)} log-spaced buckets"
-                 + (f", shown as {len(groups)} bars" if size > 1 else ""))
-
-
-def histogram_chart(histogram: Any) -> Chart | None:
-    """Bars for a stored histogram, {edges, counts} or log-linear {mantissa_bits, buckets};
-    None when it is absent or malformed."""
-    if not isinstance(histogram, dict):
-        return None
-    if "buckets" in histogram:
-        return _log_buckets(histogram)
-    edges, counts = histogram.get("edges"), histogram.get("counts")
-    if (not isinstance(edges, list) or not isinstance(counts, list) or not counts
-            or len(edges) != len(counts) + 1 or not all(_finite(e) for e in edges)
-            or not all(isinstance(c, int) and not isinstance(c, bool) and c >= 0 for c in counts)
-            or len(counts) > 1000):
-        return None
-    labels = [f"{_format(edges[i])} to {_format(edges[i + 1])}" for i in range(len(counts))]
-    return Chart(CHART_WIDTH, CHART_HEIGHT, _bars(labels, counts), _format(edges[0]),
-                 _format(edges[-1]), f"{sum(counts)} values in {len(counts)} bins")
-
-
-def category_chart(counts: Any, limit: int = 30) -> Chart | None:
-    """Bars for category or enum symbol counts {value: count}."""
-    if not isinstance(counts, dict) or not counts:
-        return None
-    pairs = [(str(k), v) for k, v in counts.items()
-             if isinstance(v, int) and not isinstance(v, bool) and v >= 0]
-    if not pairs:
-        return None
-    pairs.sort(key=lambda p: -p[1])
-    shown = pairs[:limit]
-    caption = f"{len(pairs)} values"
-    if len(pairs) > limit:
-        caption += f", the {limit} most frequent shown"
-    return Chart(CHART_WIDTH, CHART_HEIGHT, _bars([k for k, _ in shown], [v for _, v in shown]),
-                 "", "", caption)
+def crossings(drawing: GraphDrawing) -> int:
+    """Pairs of edges between the same two adjacent columns that cross: the layout's measure."""
+    ends = []
+    for edge in drawing.edges:
+        numbers = [float(v) for v in edge.path.replace("M", " ").replace("C", " ")
+                   .replace(",", " ").split()]
+        ends.append((numbers[0], numbers[1], numbers[-2], numbers[-1]))
+    count = 0
+    for i, (ax1, ay1, ax2, ay2) in enumerate(ends):
+        for bx1, by1, bx2, by2 in ends[i + 1:]:
+            if abs(ax1 - bx1) < 1 and abs(ax2 - bx2) < 1 and (ay1 - by1) * (ay2 - by2) < 0:
+                count += 1
+    return count

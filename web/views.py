@@ -1,22 +1,26 @@
-"""The routes of the lineage browser: parse the request, read one page's data, render it."""
+"""The routes of the lineage browser: parse the request, call one page query, render it."""
 
 from __future__ import annotations
 
 import re
-from typing import Any
 
 from flask import abort, current_app, render_template, request
 
 from registry.errors import UserError
 from registry.names import NAME_PATTERN
-from registry.service import lineage as lineage_service
-from registry.store.unit_of_work import UnitOfWork
-from web import blueprint, comparisons, graphics, pages, schemas
+from registry.service import queries
+from registry.service.lineage import normalise_node
+from registry.service.queries.catalogue import DATASET_STATES, MODEL_STATES
+from registry.store.page_reads import EventFilter
+from web import blueprint, charts, graphics, timeline
 
-DEFAULT_DEPTH = 2
+# Deep enough that a source dataset's graph reaches the stages its versions hold:
+# extract -> training set -> version -> stage.
+DEFAULT_DEPTH = 4
 PAGE_DEPTH_LIMIT = 8
 MAX_DRAWN_NODES = 250  # beyond this a drawing helps nobody; the page lists the nodes instead
 _NUMBER = re.compile(r"^[0-9]{1,9}$")
+_ACTION = re.compile(r"^[a-z]{1,20}\.[a-z-]{1,20}$")
 
 
 def _catalogue():
@@ -41,59 +45,57 @@ def _query_number(name: str, *, low: int, high: int, default: int | None = None)
 
 
 def _query_text(name: str, *, pattern: re.Pattern | None = None, default: str | None = None,
-                limit: int = 300) -> str | None:
+                limit: int = 300, choices: tuple[str, ...] | None = None) -> str | None:
     values = request.args.getlist(name)
     if not values:
         return default
     value = values[0]
-    if len(values) > 1 or len(value) > limit or (pattern and not pattern.fullmatch(value)):
+    if (len(values) > 1 or len(value) > limit or "\x00" in value
+            or (pattern and value and not pattern.fullmatch(value))
+            or (choices is not None and value not in choices)):
         abort(400, description=f"the query parameter {name!r} is malformed")
     return value
 
 
-@blueprint.app_template_filter("plain_number")
-def plain_number(value: Any) -> str:
-    if isinstance(value, bool) or value is None:
-        return "—" if value is None else str(value)
-    if isinstance(value, float):
-        return f"{value:.4g}" if value == value else "NaN"
-    return str(value)
-
-
-@blueprint.app_template_filter("signed")
-def signed(value: Any) -> str:
-    if not isinstance(value, (int, float)) or isinstance(value, bool):
-        return "—"
-    return f"{value:+.4g}"
-
-
-@blueprint.app_template_global("evidence_kind")
-def evidence_kind(value: Any) -> str:
-    if isinstance(value, dict):
-        return "mapping"
-    if isinstance(value, (list, tuple)):
-        return "list"
-    return "scalar"
+@blueprint.app_template_global("picture_of")
+def picture_of(distribution):
+    return charts.picture(distribution)
 
 
 @blueprint.route("/")
 def catalogue():
-    return render_template("catalogue.html", page=pages.catalogue_page(_catalogue()))
+    page = queries.catalogue_page(
+        _catalogue(), name=_query_text("name", default="", limit=100) or "",
+        model_state=_query_text("models", default="", choices=MODEL_STATES) or "",
+        dataset_state=_query_text("datasets", default="", choices=DATASET_STATES) or "")
+    return render_template("catalogue.html", page=page, model_states=MODEL_STATES,
+                           dataset_states=DATASET_STATES)
+
+
+@blueprint.route("/events")
+def events():
+    chosen = EventFilter(
+        model=_query_text("model", pattern=NAME_PATTERN, default="") or "",
+        dataset=_query_text("dataset", pattern=NAME_PATTERN, default="") or "",
+        person=_query_text("person", pattern=NAME_PATTERN, default="") or "",
+        action=_query_text("action", pattern=_ACTION, default="") or "")
+    number = _query_number("page", low=1, high=10**6, default=1) or 1
+    return render_template("events.html", page=queries.events_page(_catalogue(), chosen, number))
 
 
 @blueprint.route("/models/<name>")
 def model(name: str):
-    page = pages.model_page(_catalogue(), _name(name, "model"))
-    return render_template("model.html", page=page)
+    page = queries.model_page(_catalogue(), _name(name, "model"))
+    # A link to one report (a timeline mark, a refusal) names it, so it is drawn unfolded.
+    opened = _query_number("report", low=1, high=10**9, default=None)
+    return render_template("model.html", page=page, drawing=timeline.draw(page.timeline),
+                           opened=opened)
 
 
 @blueprint.route("/models/<name>/versions/<int:number>")
 def version(name: str, number: int):
-    page = pages.version_page(_catalogue(), _name(name, "model"), number)
-    return render_template("version.html", page=page,
-                           input_tree=schemas.schema_tree(page.input_schema),
-                           output_tree=schemas.schema_tree(page.output_schema),
-                           features=schemas.feature_rows(page.features))
+    page = queries.version_page(_catalogue(), _name(name, "model"), number)
+    return render_template("version.html", page=page)
 
 
 @blueprint.route("/models/<name>/versions/<int:number>/impact")
@@ -118,14 +120,7 @@ def compare(name: str):
     b = _query_number("b", low=1, high=10**9 - 1)
     if a is None or b is None:
         abort(400, description="choose two versions: /models/NAME/compare?a=N&b=M")
-    first, second = pages.versions_for_comparison(_catalogue(), name, a, b)
-    return render_template(
-        "compare.html", a=first, b=second,
-        input_diff=schemas.compare_schemas(first.input_schema, second.input_schema),
-        output_diff=schemas.compare_schemas(first.output_schema, second.output_schema),
-        feature_diff=schemas.compare_features(first.features, second.features,
-                                              first.input_schema, second.input_schema),
-        metrics=comparisons.metric_differences(first, second))
+    return render_template("compare.html", page=queries.compare_page(_catalogue(), name, a, b))
 
 
 @blueprint.route("/lineage")
@@ -133,52 +128,25 @@ def lineage():
     node = _query_text("node")
     if node is None:
         abort(400, description="say which node: /lineage?node=dataset/NAME")
-    direction = _query_text("direction", pattern=re.compile(r"^(up|down|both)$"), default="both")
+    direction = _query_text("direction", choices=("up", "down", "both"), default="both")
     depth = _query_number("depth", low=0, high=PAGE_DEPTH_LIMIT, default=DEFAULT_DEPTH)
     try:
-        canonical = lineage_service.normalise_node(node)
+        normalise_node(node)
     except UserError as error:
         abort(400, description=error.one_line())
-    with UnitOfWork(_catalogue(), write=False) as uow:
-        graph = lineage_service.graph_in(uow, canonical, direction, depth)
-    drawing = graphics.layout(graph) if len(graph.nodes) <= MAX_DRAWN_NODES else None
-    return render_template("lineage.html", graph=graph, drawing=drawing, direction=direction,
-                           depth=depth, depth_limit=PAGE_DEPTH_LIMIT, drawn_limit=MAX_DRAWN_NODES)
+    page = queries.lineage_page(_catalogue(), node, direction or "both", depth)
+    drawing = (graphics.layout(page.graph, page.held)
+               if len(page.graph.nodes) <= MAX_DRAWN_NODES else None)
+    return render_template("lineage.html", graph=page.graph, held=page.held, drawing=drawing,
+                           direction=direction, depth=depth, depth_limit=PAGE_DEPTH_LIMIT,
+                           drawn_limit=MAX_DRAWN_NODES)
 
 
 @blueprint.route("/datasets/<name>")
 def dataset(name: str):
     name = _name(name, "dataset")
     against = _query_text("against", pattern=NAME_PATTERN)
-    page = pages.dataset_page(_catalogue(), name)
-    drift = None
-    if against:
-        if against == name:
-            abort(400, description="compare a dataset with another one, not with itself")
-        other = pages.dataset_fingerprint(_catalogue(), against)
-        drift = comparisons.drift_between(page.fingerprint, other)
-    profile = page.fingerprint.get("profile") if isinstance(page.fingerprint, dict) else None
-    columns = []
-    if isinstance(profile, dict):
-        for column, facts in profile.items():
-            facts = facts if isinstance(facts, dict) else {}
-            chart = graphics.histogram_chart(facts.get("histogram"))
-            categories = None
-            if chart is None:
-                for key in ("symbols", "categories"):
-                    stored = facts.get(key)
-                    # Category counts are stored as {"counts": {...}, "total", "cap", ...}.
-                    if isinstance(stored, dict) and isinstance(stored.get("counts"), dict):
-                        stored = stored["counts"]
-                    categories = graphics.category_chart(stored)
-                    if categories:
-                        break
-            scalars = [(k, v) for k, v in facts.items()
-                       if k in ("type", "count", "nulls", "min", "max", "mean", "variance",
-                                "distinct", "non_finite")]
-            columns.append((str(column), scalars, chart, categories))
-    return render_template("dataset.html", page=page, columns=columns, against=against,
-                           drift=drift, profile_present=isinstance(profile, dict))
-
-
-blueprint.app_template_global("schema_tree_of")(schemas.schema_tree)
+    if against == "":
+        against = None
+    page = queries.dataset_page(_catalogue(), name, against)
+    return render_template("dataset.html", page=page)

@@ -201,3 +201,10 @@ def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledS
                                       recalled_at=walks.utc_iso(row.recalled_at),
                                       recalled_by=row.recalled_by or "", chain=tuple(chain)))
     return sources
+
+
+def downstream_of(uow: UnitOfWork, dataset: t.Dataset
+                  ) -> tuple[tuple[str, ...], tuple[FlaggedVersion, ...]]:
+    """Datasets and versions downstream of a dataset, each version with the stages it holds."""
+    datasets, versions, _ = _downstream_of_dataset(uow, dataset)
+    return datasets, versions

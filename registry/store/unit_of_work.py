@@ -31,6 +31,7 @@ from registry.store.row_digests import RowReader
 from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.feed_repository import FeedRepository
 from registry.store.name_repository import NameRepository
+from registry.store.page_reads import PageReads
 from registry.store.role_repository import RoleRepository
 from registry.store.serving_repository import ServingRepository
 from registry.store.token_repository import TokenRepository
@@ -153,6 +154,7 @@ class UnitOfWork:
         self.capture: RowCapture | None = None
         self.rows: RowReader
         self.serving: ServingRepository
+        self.pages: PageReads
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -184,6 +186,7 @@ class UnitOfWork:
         if self.write:
             self.capture = RowCapture(self.session)
         self.serving = ServingRepository(self.session)
+        self.pages = PageReads(self.session)  # the read side's rows for the web pages
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

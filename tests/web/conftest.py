@@ -31,8 +31,31 @@ def populated_url(tmp_path_factory) -> str:
     return url
 
 
-@pytest.fixture(scope="module")
-def client(populated_url):
-    app = create_app(populated_url, config={"TESTING": False})
+def serve_test_client(url: str):
+    app = create_app(url, config={"TESTING": False})
     yield app.test_client()
     app.extensions["lockkeeper"].close()
+
+
+@pytest.fixture(scope="module")
+def client(populated_url):
+    yield from serve_test_client(populated_url)
+
+
+def build_demo(url: str) -> None:
+    """The demo story, played in-process by the command line, as `lockkeeper demo` plays it."""
+    from registry.demo import play, run_in_process
+
+    play(url, run_in_process, lambda line: None)
+
+
+@pytest.fixture(scope="session")
+def demo_url(tmp_path_factory) -> str:
+    url = f"sqlite:///{tmp_path_factory.mktemp('demo') / 'demo.db'}"
+    build_demo(url)
+    return url
+
+
+@pytest.fixture(scope="session")
+def demo_client(demo_url):
+    yield from serve_test_client(demo_url)

@@ -16,8 +16,10 @@ from werkzeug.serving import make_server
 
 from registry.app import create_app
 from tests.web.test_pages import PAGES
+from web.views import DEFAULT_DEPTH
 
 CHROMIUM = Path("/usr/bin/chromium")
+ARTIFACTS = Path(__file__).resolve().parents[2] / "test-artifacts" / "screenshots"  # gitignored
 LAUNCH_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking"]
 TELEMETRY = "dataset/brackwater-telemetry-extract"
 
@@ -25,18 +27,27 @@ pytestmark = pytest.mark.skipif(not CHROMIUM.exists(),
                                 reason="no /usr/bin/chromium: run .ci/install-browser")
 
 
-@pytest.fixture(scope="module")
-def server(populated_url):
+def _serve(url: str):
     import logging
 
     logging.getLogger("werkzeug").setLevel(logging.WARNING)  # one line per request is noise here
-    app = create_app(populated_url)
+    app = create_app(url)
     httpd = make_server("127.0.0.1", 0, app, threaded=True)
     thread = threading.Thread(target=httpd.serve_forever, daemon=True)
     thread.start()
     yield f"http://127.0.0.1:{httpd.server_port}"
     httpd.shutdown()
     app.extensions["lockkeeper"].close()
+
+
+@pytest.fixture(scope="module")
+def server(populated_url):
+    yield from _serve(populated_url)
+
+
+@pytest.fixture(scope="module")
+def demo_server(demo_url):
+    yield from _serve(demo_url)
 
 
 @pytest.fixture(scope="module")
@@ -51,9 +62,10 @@ def browser():
 
 @pytest.fixture(scope="module")
 def screenshots(tmp_path_factory) -> Path:
-    # LOCKKEEPER_SCREENSHOTS keeps them somewhere known; by default a temporary folder.
+    # Kept as test artifacts in test-artifacts/screenshots (gitignored), or where
+    # LOCKKEEPER_SCREENSHOTS says.
     chosen = os.environ.get("LOCKKEEPER_SCREENSHOTS")
-    folder = Path(chosen) if chosen else tmp_path_factory.mktemp("screenshots")
+    folder = Path(chosen) if chosen else ARTIFACTS
     folder.mkdir(parents=True, exist_ok=True)
     print(f"\nscreenshots in {folder}")
     return folder
@@ -139,7 +151,7 @@ def test_lineage_clicks_through_from_telemetry_to_the_live_version(watched, serv
     page.locator('svg.lineage a.node[data-node="model/main-burst-risk/version/1"]').click()
     page.get_by_role("link", name="Version page").click()
     assert page.locator("h1").inner_text() == "main-burst-risk v1"
-    assert "live" in page.locator("dl.facts").first.inner_text()
+    assert "live" in page.locator(".status-line").inner_text()
     assert page.get_by_role("alert").is_visible()  # recalled data upstream
     _shot(page, screenshots, "lineage-3-live-version")
 
@@ -171,5 +183,76 @@ def test_graph_nodes_are_reached_with_tab_alone(watched, server):
     focused = page.evaluate("document.activeElement.getAttribute('data-node')")
     assert focused
     page.keyboard.press("Enter")
-    page.wait_for_url(f"**/lineage?node={focused}&direction=both&depth=2")
+    page.wait_for_url(f"**/lineage?node={focused}&direction=both&depth={DEFAULT_DEPTH}")
     assert page.locator("svg.lineage a.node.root").get_attribute("data-node") == focused
+
+
+# One page of every kind on the demo catalogue (`lockkeeper demo`).
+DEMO_PAGES = {
+    "catalogue": "/",
+    "events": "/events",
+    "events-filtered": "/events?person=tomas.lindqvist&action=stage.promote",
+    "model": "/models/main-burst-risk",
+    "version-live": "/models/main-burst-risk/versions/1",
+    "version-waived": "/models/main-burst-risk/versions/2",
+    "version-refused": "/models/main-burst-risk/versions/4",
+    "compare": "/models/main-burst-risk/compare?a=1&b=2",
+    "lineage": f"/lineage?node={TELEMETRY}",
+    "dataset-recalled": "/datasets/brackwater-telemetry-extract",
+    "dataset-drift": "/datasets/brackwater-live-sample?against=brackwater-training-set",
+    "not-found": "/models/no-such-model",
+}
+SERIOUS = ("serious", "critical")
+
+
+def test_every_page_kind_passes_axe_with_no_serious_or_critical_violation(browser, demo_server,
+                                                                          screenshots):
+    from axe_playwright_python.sync_playwright import Axe
+
+    axe = Axe()
+    # axe-core is injected as a script, which the pages' policy forbids: only this test's
+    # browser context bypasses it.
+    context = browser.new_context(viewport={"width": 1400, "height": 900}, bypass_csp=True)
+    try:
+        page = context.new_page()
+        found = {}
+        for name, url in DEMO_PAGES.items():
+            page.goto(demo_server + url)
+            for opened in page.locator("details").all():  # check what is folded away too
+                opened.evaluate("element => element.open = true")
+            violations = axe.run(page).response["violations"]
+            found[name] = [(v["id"], v["impact"], [n["target"] for n in v["nodes"]][:3])
+                           for v in violations if v["impact"] in SERIOUS]
+        assert found == {name: [] for name in DEMO_PAGES}
+    finally:
+        context.close()
+
+
+def test_the_demo_pages_are_screenshotted_at_desktop_width(watched, demo_server, screenshots):
+    page = watched.page
+    page.set_viewport_size({"width": 1400, "height": 900})
+    for name, url in DEMO_PAGES.items():
+        response = page.goto(demo_server + url)
+        assert response.status == (404 if name == "not-found" else 200), url
+        _shot(page, screenshots, f"demo-{name}")
+
+
+def test_the_model_page_stays_short_at_desktop_width(watched, demo_server):
+    page = watched.page
+    page.set_viewport_size({"width": 1400, "height": 900})
+    page.goto(demo_server + "/models/main-burst-risk")
+    assert page.evaluate("document.documentElement.scrollHeight") < 4000
+    assert page.locator("svg.timeline g.holder").count() >= 10
+    # Reports are folded: a timeline mark opens its report where it is.
+    page.locator("svg.timeline a.mark.refusal").first.focus()
+    page.keyboard.press("Enter")
+    page.wait_for_url("**/models/main-burst-risk?report=*#report-*")
+    assert page.locator("details.report[open]").count() == 1
+    assert page.locator("details.report[open] .gate-finding.failed").count() >= 1
+
+
+def test_version_4_reads_refused_in_the_browser(watched, demo_server):
+    page = watched.page
+    page.goto(demo_server + "/models/main-burst-risk/versions/4")
+    status = " ".join(page.locator(".status-line").inner_text().split())
+    assert "refused for shadow by reads-live-feed at /fields/diameter_mm/type" in status

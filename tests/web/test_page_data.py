@@ -1,42 +1,56 @@
-"""Reading stored evaluation and gate JSON in every form the pages may meet."""
+"""The page queries' readings of stored reports and evaluations, without a database."""
 
 from __future__ import annotations
 
-import pytest
+from registry.service.queries.reports import evidence_items, place_of, plain_number
+from registry.service.queries.versions import _comparisons, _slices
 
-from web.pages import _comparisons, _gate_results, _interval, _slices
-
-ONE_REPORT = {"column": "district", "correction": "holm-bonferroni",
-              "values": {"NORTHGATE": {"n": 80, "metrics": {"roc_auc": 0.7}}}}
-
-
-@pytest.mark.parametrize("slices", [ONE_REPORT, [ONE_REPORT], {"district": ONE_REPORT},
-                                    {"district": {"NORTHGATE": {"n": 80, "roc_auc": 0.7}}}])
-def test_slices_read_from_each_stored_form(slices):
-    assert _slices({"slices": slices}) == [("district", ["roc_auc"], [("NORTHGATE", 80, [0.7])])]
+STORED_SLICES = {"district": {"column": "district", "correction": "holm-bonferroni",
+                              "values": {"NORTHGATE": {"n": 80, "metrics": {"roc_auc": 0.7}}}}}
 
 
-@pytest.mark.parametrize("slices", [None, 3, "x", [1], {"d": 3}, {"column": "d", "values": 3}])
-def test_malformed_slices_are_skipped(slices):
-    assert _slices({"slices": slices}) == []
+def test_slices_are_read_as_the_evaluation_use_case_stores_them():
+    [table] = _slices({"slices": STORED_SLICES})
+    assert (table.column, table.metrics, table.rows) == ("district", ("roc_auc",),
+                                                        (("NORTHGATE", 80, (0.7,)),))
+
+
+def test_malformed_slices_are_skipped():
+    for stored in (None, 3, "x", [1], {"d": 3}, {"d": {"column": "d", "values": 3}}):
+        assert _slices({"slices": stored}) == ()
 
 
 def test_comparison_against_a_baseline_keeps_its_interval_and_method():
     document = {"comparison": {"roc_auc": {"difference": 0.02, "ci_low": 0.01, "ci_high": 0.03,
                                            "p_value": 0.01, "method": "delong"}, "x": 3}}
-    assert _comparisons(document) == [("roc_auc", 0.02, 0.01, 0.03, 0.01, "delong")]
-    assert _comparisons({"comparison": [1]}) == []
+    assert _comparisons(document) == (("roc_auc", 0.02, 0.01, 0.03, 0.01, "delong"),)
+    assert _comparisons({"comparison": [1]}) == ()
 
 
-def test_intervals_may_be_pairs_or_mappings():
-    assert _interval({"intervals": {"rmse": [1.0, 2.0]}}, "rmse") == (1.0, 2.0)
-    assert _interval({"intervals": {"rmse": {"low": 1.0, "high": 2.0}}}, "rmse") == (1.0, 2.0)
-    assert _interval({"intervals": {"rmse": "wide"}}, "rmse") == (None, None)
+def test_a_failed_schema_gate_names_the_reader_path_at_fault():
+    evidence = {"checks": [{"reader_version": 4, "writer_version": 2, "compatible": False,
+                            "problems": [{"path": "/fields/diameter_mm/type",
+                                          "rule": "type-mismatch", "message": "m"}]}]}
+    assert place_of("anything", evidence) == "/fields/diameter_mm/type"
+    assert place_of("diameter_mm: no unit any more", {}) == "diameter_mm"
+    assert place_of("1 feature change since version 1, none breaking", {}) == ""
 
 
-def test_gate_results_are_read_generically_and_waivers_shown_as_such():
-    results, readable = _gate_results({"results": [
-        {"gate": "schema-reads-feed", "passed": False, "waived": True, "summary": "s",
-         "evidence": {"a": 1}}, "junk"]})
-    assert readable and [(r.gate, r.status) for r in results] == [("schema-reads-feed", "waived")]
-    assert _gate_results("not a report") == ([], False)
+def test_evidence_reads_as_named_facts_without_raw_dumps():
+    items = evidence_items({"compatible": True, "witness": None, "data_as_of": None,
+                            "containment": 0.000123456, "rows": 12345, "nested": {"a_b": False},
+                            "checks": [{"path": "/x", "ok": True}, {"path": "/y", "ok": False}]})
+    by_label = {i.label: i for i in items}
+    assert by_label["compatible"].text == "yes"
+    assert "witness" not in by_label and "data as of" not in by_label
+    assert by_label["containment"].text == "0.0001235" and by_label["rows"].text == "12,345"
+    assert by_label["nested"].children[0].label == "a b"
+    assert by_label["nested"].children[0].text == "no"
+    assert by_label["checks"].table.columns == ("path", "ok")
+    assert by_label["checks"].table.rows == (("/x", "yes"), ("/y", "no"))
+
+
+def test_numbers_are_shown_at_a_sensible_precision():
+    assert [plain_number(v) for v in (0.8160758706467661, 3, 0.0, 123456.7, 1e-7, True,
+                                      None)] == ["0.8161", "3", "0", "123,457", "1.00e-07",
+                                                 "yes", "—"]

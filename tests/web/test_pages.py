@@ -27,6 +27,9 @@ PAGES = [
     "/models/night-flow-leak/versions/1",
     "/models/main-burst-risk/compare?a=2&b=3",
     "/models/main-burst-risk/compare?a=1&b=4",
+    "/models/main-burst-risk/versions/4",
+    "/events",
+    "/events?model=main-burst-risk&page=1",
     f"/lineage?node={TELEMETRY}",
     "/lineage?node=main-burst-risk@2&direction=up&depth=4",
     "/lineage?node=model/main-burst-risk/stage/live&direction=up",
@@ -64,12 +67,18 @@ def test_lineage_nodes_are_links_that_recentre_and_mark_the_recall(client):
     html = client.get(f"/lineage?node={TELEMETRY}").get_data(as_text=True)
     svg = html[html.index("<svg class=\"lineage\""):html.index("</svg>", html.index("<svg class=\"lineage\""))]
     links = re.findall(r'<a href="([^"]+)" class="node ([^"]+)" data-node="([^"]+)"', svg)
-    assert len(links) == 7  # telemetry, the two sets derived from it, versions 1 to 4
     for href, classes, node in links:
         assert href.startswith("/lineage?node=") and "direction=" in href
     classes = {node: cls for _, cls, node in links}
+    # telemetry, the two sets derived from it, versions 1 to 4, and, at the default depth,
+    # the stages those versions hold or held
+    assert {n for n in classes if n.startswith(("dataset/", "model/main-burst-risk/version/"))} \
+        == {TELEMETRY, "dataset/brackwater-training-set", "dataset/brackwater-evaluation-set",
+            *(f"model/main-burst-risk/version/{n}" for n in (1, 2, 3, 4))}
+    assert "model/main-burst-risk/stage/live" in classes
     assert "recalled" in classes[TELEMETRY].split()
     assert "flagged" in classes["model/main-burst-risk/version/2"].split()
+    assert "version · holds live · flagged" in svg  # the version box says what it holds
     assert "The same graph as text" in html
 
 
@@ -77,32 +86,47 @@ def test_version_page_shows_schemas_features_metrics_and_the_recall(client):
     html = client.get("/models/main-burst-risk/versions/2").get_data(as_text=True)
     for expected in ("repairs_5y", "brackwater.scores.BurstRisk", "PipeMaterial",
                      "roc_auc", "By district", "SALTMARSH", "kPa", "Recalled data upstream",
-                     RECALL_REASON.split()[0], "trained-on"):
+                     RECALL_REASON.split()[0], "trained on"):
         assert expected in html, expected
-    assert "average_precision" in html and "n = " in html
+    assert "average_precision" in html and " records" in html
 
 
-def test_model_page_shows_timeline_and_gate_reports_generically(client):
+def test_units_times_and_events_read_as_plain_words(client):
+    html = client.get("/models/main-burst-risk/versions/3").get_data(as_text=True)
+    assert '<abbr title="UCUM code [psi]">psi</abbr>' in html
+    assert '<abbr title="UCUM code a">years</abbr>' in html
+    assert '<abbr title="UCUM code Cel">degrees Celsius</abbr>' in html
+    assert not re.search(r">\d{4}-\d\d-\d\dT", html)  # times to the second, not raw ISO
+    events = client.get("/events").get_data(as_text=True)
+    assert "promoted main-burst-risk v2 to live" in events
+    assert ">stage.promote<" not in events and "to_stage" not in events  # kinds in words
+
+
+def test_model_page_shows_timeline_and_gate_reports_collapsed(client):
     html = client.get("/models/main-burst-risk").get_data(as_text=True)
-    assert "Stage timeline" in html and "replaced" in html
+    assert "Timeline" in html and '<svg class="timeline"' in html
     assert "feature-meaning" in html and "mean_pressure unit changed" in html
-    assert '<dl class="evidence">' in html and "<dt>checked</dt>" in html
+    assert '<details class="report refused" id="report-' in html
+    assert "<dt>checked</dt>" in html and " open>" not in html
 
 
-def test_dataset_page_draws_histograms_and_category_bars(client):
+def test_dataset_page_draws_distributions_with_axes_and_named_categories(client):
     html = client.get("/datasets/brackwater-asset-register").get_data(as_text=True)
-    assert html.count('<rect class="bar"') >= 12
-    assert "histogram of pipe_age_years" in html and "counts of pipe_material" in html
-    assert '<span class="category">SALTMARSH</span>' in html  # the district counts
-    assert '<span class="category">total</span>' not in html  # not the counts' bookkeeping
+    assert html.count('<rect class="bar single"') >= 12
+    assert "distribution of pipe_age_years" in html and "distribution of pipe_material" in html
+    assert '<text class="tick end"' in html and ">SALTMARSH</text>" in html  # axis, category
+    assert ">total</text>" not in html  # not the counts' bookkeeping
 
 
 def test_drift_against_another_dataset_comes_from_the_dataset_comparison(client):
     html = client.get("/datasets/brackwater-training-set?against=brackwater-evaluation-set"
                       ).get_data(as_text=True)
     # Disjoint segments (SCENARIO.md): the training and evaluation sets share no record.
-    assert "overlap Jaccard 0," in html
-    assert re.search(r"<code>pipe_age_years</code></th><td>\d", html)  # a PSI figure
+    assert "Jaccard similarity 0;" in html
+    assert re.search(r"<code>pipe_age_years</code> <span class=\"badge level-\w+\">\w+</span> "
+                     r"<span class=\"small\">PSI \d", html)
+    assert '<path class="outline"' in html  # the current distribution over the reference
+    assert "<code>segment_id</code> <span class=\"badge" not in html  # the key is left out
 
 
 def test_comparison_lists_schema_feature_and_metric_differences(client):
@@ -110,8 +134,10 @@ def test_comparison_lists_schema_feature_and_metric_differences(client):
     assert "mean_pressure_psi" in html and "[psi]" in html
     assert "renamed" in html  # registry.schema's diff: linked by an alias
     # registry.features' semantic diff: the unit change the feature gate catches (SCENARIO.md)
-    assert re.search(r"unit-changed</td><td>kPa</td><td>\[psi\]</td><td><span class=\"badge failed\">breaking", html)
+    assert re.search(r"unit changed</td><td>kPa</td><td><abbr title=\"UCUM code \[psi\]\">psi</abbr>"
+                     r"</td><td><span class=\"badge failed\">breaking", html)
     assert "roc_auc" in html and re.search(r"[+-]\d", html)
+    assert "Both input schemas as written, side by side" in html
 
 
 @pytest.mark.parametrize("url, status", [
@@ -135,6 +161,13 @@ def test_comparison_lists_schema_feature_and_metric_differences(client):
     ("/models/main-burst-risk/compare?a=0&b=2", 400),
     ("/models/main-burst-risk/compare?a=1&b=99999999999", 400),
     ("/models/main-burst-risk/compare?a=1&b=99", 404),
+    ("/models/main-burst-risk/compare?a=2&b=2", 400),
+    ("/events?page=0", 400),
+    ("/events?page=x", 400),
+    ("/events?person=%3Cscript%3E", 400),
+    ("/events?action=nope", 400),
+    ("/?models=sideways", 400),
+    ("/?datasets=x", 400),
     ("/models/nope/compare?a=1&b=2", 404),
     ("/lineage", 400),
     ("/lineage?node=", 400),
@@ -274,7 +307,7 @@ def test_stored_json_of_any_shape_renders_without_error(catalogue, catalogue_url
     app = create_app(catalogue_url)
     try:
         with app.test_client() as client:
-            urls = ["/", "/models/odd", "/models/odd/versions/1", "/models/odd/compare?a=1&b=1",
+            urls = ["/", "/models/odd", "/models/odd/versions/1",
                     "/lineage?node=odd@1"] + [
                 f"/datasets/odd-{i}" for i in range(len(ODD_FINGERPRINTS))] + [
                 "/datasets/odd-2?against=odd-3"]
@@ -328,9 +361,10 @@ _ANY_TEXT = st.text(st.characters(blacklist_categories=("Cs",)), max_size=40)
           suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(path=st.sampled_from(["/lineage", "/models/main-burst-risk/compare",
                              "/datasets/brackwater-training-set", "/models/main-burst-risk",
-                             "/"]),
-       names=st.lists(st.sampled_from(["node", "depth", "direction", "a", "b", "against", "x"]),
-                      max_size=4),
+                             "/", "/events"]),
+       names=st.lists(st.sampled_from(["node", "depth", "direction", "a", "b", "against", "x",
+                                       "name", "models", "datasets", "model", "dataset",
+                                       "person", "action", "page"]), max_size=4),
        values=st.lists(_ANY_TEXT, min_size=4, max_size=4))
 def test_no_query_string_makes_a_page_fail(client, path, names, values):
     from urllib.parse import urlencode

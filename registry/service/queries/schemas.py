@@ -2,8 +2,8 @@
 
 Schema trees follow the Avro specification's declaration forms (records, enums, arrays, maps,
 unions, fixed, logical types); anything unexpected is shown as its JSON text rather than refused.
-The comparison uses registry.schema's diff when the catalogue ships it, and a structural field
-list side by side otherwise.
+Comparisons use registry.schema's diff and registry.features' semantic diff; a stored schema
+they cannot read falls back to its fields side by side.
 """
 
 from __future__ import annotations
@@ -133,19 +133,17 @@ class SchemaComparison:
 def compare_schemas(old: Any, new: Any) -> SchemaComparison:
     if old is None or new is None:
         return SchemaComparison("fields", note="one of the versions has no such schema")
+    from registry import schema as avro
+
     try:
-        from registry import schema as avro  # shipped by the schema work when merged
         result = avro.diff(avro.load(json.dumps(old)), avro.load(json.dumps(new)))
-        changes = tuple(SchemaChange(str(c.path), str(c.kind), str(c.message),
-                                     str(getattr(c.classification, "value", c.classification)))
-                        for c in result.changes)
-        return SchemaComparison("diff", changes=changes)
-    except ImportError:
-        pass
     except Exception as error:  # an unreadable stored schema: fall back to the field list
         note = f"the schema diff could not read these schemas ({type(error).__name__})"
         return _field_rows(old, new, note)
-    return _field_rows(old, new, "schema diff not available in this build; fields side by side")
+    changes = tuple(SchemaChange(str(c.path), str(c.kind), str(c.message),
+                                 str(getattr(c.classification, "value", c.classification)))
+                    for c in result.changes)
+    return SchemaComparison("diff", changes=changes)
 
 
 def _field_rows(old: Any, new: Any, note: str) -> SchemaComparison:
@@ -184,11 +182,11 @@ def feature_definitions(features: Any) -> Any:
     stores it), or None when they are absent, in another form, or unreadable."""
     if not isinstance(features, dict) or not isinstance(features.get("toml"), str):
         return None
-    try:
-        from registry.features import parse_feature_file
+    from registry.features import parse_feature_file
 
+    try:
         return parse_feature_file(features["toml"], origin="stored definitions")
-    except Exception:  # ImportError, or definitions this build cannot read
+    except Exception:  # definitions this build cannot read
         return None
 
 
@@ -226,33 +224,10 @@ def _rows_of_definitions(definitions: Any) -> list[FeatureRow]:
 
 
 def feature_rows(features: Any) -> list[FeatureRow]:
-    """Feature definitions as rows: read by registry.features when stored as registration
-    stores them, otherwise from a mapping by name or a list of definitions."""
+    """Feature definitions as rows, read by registry.features from the form registration
+    stores ({"toml": ...}); none when they are absent or unreadable."""
     definitions = feature_definitions(features)
-    if definitions is not None:
-        return _rows_of_definitions(definitions)
-    items: list[tuple[str, Any]] = []
-    if isinstance(features, dict):
-        inner = features.get("features", features)
-        if isinstance(inner, dict):
-            items = list(inner.items())
-        elif isinstance(inner, list):
-            features = inner
-    if isinstance(features, list):
-        items = [(str(f.get("name", f.get("path", "?"))), f)
-                 for f in features if isinstance(f, dict)]
-    rows = []
-    for name, definition in items:
-        if not isinstance(definition, dict):
-            rows.append(FeatureRow(str(name), _text(definition), "", "", ""))
-            continue
-        known = {"name", "path", "description", "unit", "domain", "nullable"}
-        rows.append(FeatureRow(
-            name=str(name), description=_text(definition.get("description")),
-            unit=_text(definition.get("unit")), domain=_text(definition.get("domain")),
-            nullable=_text(definition.get("nullable")) if "nullable" in definition else "",
-            other=tuple((str(k), _text(v)) for k, v in definition.items() if k not in known)))
-    return rows
+    return _rows_of_definitions(definitions) if definitions is not None else []
 
 
 @dataclass(frozen=True)
