@@ -20,6 +20,7 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.role_repository import RoleRepository
 
 
 def utc_now() -> datetime:
@@ -87,12 +88,14 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.roles: RoleRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
+        self._attach_repositories()
         try:
             self.session.begin()
             if self.write:
@@ -101,6 +104,10 @@ class UnitOfWork:
             self._close()
             raise _translate(error, self.catalogue) from None
         return self
+
+    def _attach_repositories(self) -> None:
+        """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
+        self.roles = RoleRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
