@@ -20,6 +20,8 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.document_repository import DocumentRepository
+from registry.store.release_repository import ReleaseRepository
 from registry.store.role_repository import RoleRepository
 
 
@@ -52,6 +54,9 @@ class AuditLog:
 
     def __init__(self, session: Session) -> None:
         self._session = session
+        # The newest event appended in this transaction, which a release statement quotes.
+        self.last_sequence: int | None = None
+        self.last_hash: str | None = None
 
     def append(self, actor: str, action: str, subject: str, details: dict[str, Any]) -> int:
         head = self._session.get(t.AuditHead, 1)
@@ -70,6 +75,7 @@ class AuditLog:
         else:
             head.sequence, head.hash = sequence, digest
         self._session.flush()
+        self.last_sequence, self.last_hash = sequence, digest
         return sequence
 
 
@@ -89,6 +95,8 @@ class UnitOfWork:
         self.blobs: BlobStore
         self.audit: AuditLog
         self.roles: RoleRepository
+        self.releases: ReleaseRepository
+        self.documents: DocumentRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -108,6 +116,8 @@ class UnitOfWork:
     def _attach_repositories(self) -> None:
         """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
         self.roles = RoleRepository(self.session)
+        self.releases = ReleaseRepository(self.session)
+        self.documents = DocumentRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
