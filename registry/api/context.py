@@ -7,10 +7,13 @@ import threading
 from flask import Flask, current_app, g
 
 from registry.service.cached_reads import CachedReads
+from registry.service.change_watch import ChangeWatcher
 from registry.store.catalogue import Catalogue, open_catalogue
 
 EXTENSION = "lockkeeper.catalogue"
 READS_EXTENSION = "lockkeeper.cached_reads"
+WATCH_EXTENSION = "lockkeeper.change_watch"
+DEFAULT_MAX_WAITING = 64  # requests one process may hold open waiting for a change
 WEB_EXTENSION = "lockkeeper"  # registry.app's CatalogueHolder
 _opening = threading.Lock()
 
@@ -48,6 +51,21 @@ def cached_reads() -> CachedReads:
                 reads = CachedReads(opened)
                 app.extensions[READS_EXTENSION] = reads
     return reads
+
+
+def change_watcher() -> ChangeWatcher:
+    """The process's watcher of the audit head, for requests that wait for a change."""
+    app = current_app
+    watcher = app.extensions.get(WATCH_EXTENSION)
+    if watcher is None:
+        reads = cached_reads()
+        with _opening:
+            watcher = app.extensions.get(WATCH_EXTENSION)
+            if watcher is None:
+                watcher = ChangeWatcher(reads.generation, max_waiting=int(
+                    app.config.get("LOCKKEEPER_MAX_WAITING", DEFAULT_MAX_WAITING)))
+                app.extensions[WATCH_EXTENSION] = watcher
+    return watcher
 
 
 def generation() -> int:

@@ -17,6 +17,7 @@ from registry.canonical_json import digest_of
 from registry.errors import NotFound
 from registry.gates import GateReport
 from registry.names import check_name
+from registry.service.models import find_model, find_version
 from registry.signing import dsse
 from registry.signing.statements import (PAYLOAD_TYPE, Approval, GateStatus, ReleaseStatement,
                                          WaiverRecord)
@@ -113,6 +114,7 @@ def current_release(catalogue: Catalogue, model: str, stage: str) -> Release:
 
 def releases_of_version(catalogue: Catalogue, model: str, number: int) -> list[Release]:
     with UnitOfWork(catalogue, write=False) as uow:
+        find_version(uow, find_model(uow, model), number)
         return [Release.of(s) for s in uow.releases.of_version(model, number)]
 
 
