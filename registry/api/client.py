@@ -12,7 +12,7 @@ import secrets
 import urllib.error
 import urllib.parse
 import urllib.request
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from pathlib import Path, PurePosixPath
 from typing import Any
 
@@ -145,6 +145,36 @@ class ApiClient:
             raise CatalogueUnavailable(f"cannot reach the server at {self.base}: {reason}",
                                        place="--server") from None
 
+    def stream(self, path: str, *, headers: dict[str, str] | None = None,
+               chunk_size: int = 1024 * 1024) -> Iterator[tuple[dict[str, str], bytes]]:
+        """GET `path` and yield (response headers, chunk) as the body arrives, never holding
+        it whole; a problem document comes back as its typed error."""
+        sent = dict(headers or {})
+        if self.token:
+            sent["Authorization"] = f"Bearer {self.token}"
+        request = urllib.request.Request(self.base + path, method="GET", headers=sent)
+        try:
+            response = urllib.request.urlopen(request, timeout=self.timeout)
+        except urllib.error.HTTPError as error:
+            with error:
+                document = _json(error.read())
+            if isinstance(document, dict) and "type" in document:
+                raise error_from_problem(error.code, document) from None
+            raise RemoteError(f"HTTP {error.code} from {self.base}", kind="bad-input",
+                              status=error.code, place=path) from None
+        except (urllib.error.URLError, OSError) as error:
+            reason = getattr(error, "reason", error)
+            raise CatalogueUnavailable(f"cannot reach the server at {self.base}: {reason}",
+                                       place="--server") from None
+        with response:
+            received = dict(response.headers)
+            try:
+                while chunk := response.read(chunk_size):
+                    yield received, chunk
+            except OSError as error:
+                raise CatalogueUnavailable(f"the server at {self.base} broke off: {error}",
+                                           place="--server") from None
+
     def _get(self, path: str) -> Any:
         return self.request("GET", path)[2]
 
@@ -216,6 +246,26 @@ class ApiClient:
         status, response_headers, document = self.request(
             "GET", f"/models/{_quote(model)}/stages/{_quote(stage)}", headers=headers)
         return (None if status == 304 else document), response_headers.get("ETag")
+
+    def status_when_changed(self, model: str, etag: str | None, wait: float
+                            ) -> tuple[dict | None, str | None]:
+        """The model's status once it differs from `etag` (held up to `wait` seconds by the
+        server); (None, etag) when nothing changed meanwhile."""
+        headers = {"If-None-Match": etag} if etag else None
+        status, response_headers, document = self.request(
+            "GET", f"/models/{_quote(model)}/status?wait={wait:g}", headers=headers)
+        return (None if status == 304 else document), response_headers.get("ETag")
+
+    def document_path(self, model: str, *, version: int | None = None,
+                      stage: str | None = None) -> str:
+        if version is not None:
+            return f"/models/{_quote(model)}/versions/{int(version)}/document"
+        return f"/models/{_quote(model)}/stages/{_quote(stage or '')}/document"
+
+    def release_envelope(self, model: str, stage: str) -> bytes:
+        """The current release statement of a stage: the envelope's exact bytes."""
+        return b"".join(chunk for _, chunk in
+                        self.stream(f"/models/{_quote(model)}/stages/{_quote(stage)}/release"))
 
     def report(self, report_id: int) -> dict:
         return self._get(f"/reports/{int(report_id)}")

@@ -54,6 +54,8 @@ COMMAND_MODULES = [
     "registry.cli.dataset_commands",
     "registry.cli.dataset_catalogue_commands",
     "registry.cli.document_commands",
+    "registry.cli.document_get_commands",
+    "registry.cli.release_commands",
     "registry.cli.lineage_commands",
     "registry.cli.serve_commands",
     "registry.cli.token_commands",

@@ -15,6 +15,7 @@ from registry.api.rendering import path_name
 from registry.api.routing import route
 from registry.service.document_fetch import StoredDocument, document_chunks, find_document
 
+VERSION_HEADER = "Lockkeeper-Version"  # which version's document this is, for a stage's holder
 DOCUMENT_RESPONSES = {200: "The document's bytes", 206: "Partial Content: the range asked for",
                       304: "Not Modified: the client has these bytes",
                       404: "No such model, version or stage, or nobody holds the stage",
@@ -42,6 +43,7 @@ def _byte_range(document: StoredDocument) -> tuple[int, int] | None | Response:
 
 def serve_document(document: StoredDocument, *, immutable: bool) -> Response:
     headers = {"ETag": f'"{document.sha256}"', "Accept-Ranges": "bytes",
+               VERSION_HEADER: str(document.version),
                "Content-Disposition": f'attachment; filename="{document.file_name}"',
                # A version's document never changes; a stage's holder may at any time.
                "Cache-Control": "private, max-age=31536000, immutable" if immutable
