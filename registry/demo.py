@@ -155,6 +155,10 @@ def story() -> list[Step]:
                    caption="The first admin grants the roles of the people in the story.")]
     people += [Step(ADMIN, ("user", "grant", user, role)) for user, role in (
         (AUTHOR, "publisher"), (APPROVER, "approver"), (SECOND_APPROVER, "approver"))]
+    people.append(Step(ADMIN, ("key", "create"),
+                       caption="The catalogue's signing key: its private half stays in a file "
+                               "beside the catalogue (made when missing), its public half is "
+                               "recorded."))
     models = [
         Step(ADMIN, ("model", "create", "main-burst-risk", "--description",
                      "Which water-main segments will burst within 90 days")),

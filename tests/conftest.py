@@ -51,6 +51,15 @@ def empty_catalogue_url(request, tmp_path) -> Iterator[str]:
         connection.execute(f'DROP SCHEMA "{schema}" CASCADE')
 
 
+@pytest.fixture(autouse=True)
+def signing_key_file(tmp_path, monkeypatch):
+    """Each test's own signing key location (no file until a test makes one), so no test
+    picks up a key from the working folder, which PostgreSQL catalogues would share."""
+    path = tmp_path / "keys" / "signing.key"
+    monkeypatch.setenv("LOCKKEEPER_SIGNING_KEY", str(path))
+    return path
+
+
 def pytest_generate_tests(metafunc):
     # Every test that asks for a catalogue runs once per configured database.
     for name in ("empty_catalogue_url", "catalogue_url"):

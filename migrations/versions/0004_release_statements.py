@@ -1,7 +1,7 @@
 """Release statements: signed DSSE envelopes recording moves into and out of exclusive stages.
 
 Revision ID: 0004
-Revises: 0001
+Revises: 0003
 """
 
 from alembic import op
@@ -9,7 +9,7 @@ import sqlalchemy as sa
 
 
 revision = '0004'
-down_revision = '0001'
+down_revision = '0003'
 branch_labels = None
 depends_on = None
 

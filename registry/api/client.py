@@ -358,6 +358,9 @@ class ApiClient:
     def verify_audit(self) -> dict:
         return self._get("/audit/verify")
 
+    def list_keys(self) -> dict:
+        return self._get("/keys")
+
     def check_schemas(self, reader: Any, writer: Any) -> dict:
         """Both schemas as JSON values (what an .avsc file holds, parsed)."""
         return self._post("/schemas/check", {"reader": reader, "writer": writer})

@@ -60,6 +60,7 @@ COMMAND_MODULES = [
     "registry.cli.serve_commands",
     "registry.cli.token_commands",
     "registry.cli.backup_commands",
+    "registry.cli.key_commands",
 ]
 
 

@@ -68,6 +68,8 @@ ACTIONS: dict[str, Permission] = {
     "token.revoke": Permission((ADMIN,), "managing tokens"),
     "token.list": Permission((ADMIN,), "listing tokens"),
     "catalogue.import": Permission((ADMIN,), "importing an export"),
+    "key.create": Permission((ADMIN,), "creating the signing key"),
+    "key.rotate": Permission((ADMIN,), "rotating the signing key"),
 }
 
 

@@ -24,6 +24,7 @@ from registry.store import tables as t
 from registry.store.audit import AuditRecord, verify_chain
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
+from registry.timestamps import utc_iso
 
 FORMAT = "lockkeeper-export/1"
 BLOB_TABLE = t.Blob.__tablename__
@@ -48,11 +49,7 @@ def _tables() -> list[Table]:
 
 
 def _plain(value: Any) -> Any:
-    if isinstance(value, datetime):
-        # SQLite hands back naive datetimes that were written as UTC; PostgreSQL aware ones.
-        aware = value.replace(tzinfo=UTC) if value.tzinfo is None else value.astimezone(UTC)
-        return aware.isoformat(timespec="microseconds")
-    return value
+    return utc_iso(value) if isinstance(value, datetime) else value
 
 
 def _row_line(table: Table, row: Any) -> bytes:

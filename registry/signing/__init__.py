@@ -1,2 +1,3 @@
-"""Signatures the catalogue makes and a serving system checks: the catalogue's Ed25519 key,
-DSSE envelopes and the in-toto statements inside them."""
+"""The catalogue's signing key (Ed25519, RFC 8032) and what it signs: checkpoints of the audit
+chain, export manifests and release statements. The key lives in a file outside the database;
+only its public half is stored in the catalogue."""

@@ -15,6 +15,7 @@ from sqlalchemy.orm import Session, sessionmaker
 from sqlalchemy.pool import NullPool
 
 from registry.errors import CatalogueUnavailable, UserError
+from registry.signing.keys import SigningKey, key_path, load_signing_key
 
 DEFAULT_URL = "sqlite:///.lockkeeper/catalogue.db"
 SQLITE_BUSY_TIMEOUT_MS = 30_000
@@ -87,11 +88,14 @@ def describe(url: URL) -> str:
 
 @dataclass
 class Catalogue:
-    """An open catalogue: the engine and a session factory. Cheap to keep, close when done."""
+    """An open catalogue: the engine, a session factory, and the signing key from the key file
+    (None when there is none: the catalogue then works, signing nothing). Close when done."""
 
     url: URL
     engine: Engine
     sessions: sessionmaker[Session]
+    signing_key: SigningKey | None = None
+    key_file: Path | None = None
 
     @property
     def dialect(self) -> str:
@@ -134,8 +138,11 @@ def open_catalogue(raw_url: str | None, *, must_exist: bool = True) -> Catalogue
     """Open the catalogue named by a URL; with must_exist, insist that `init` has run."""
     url = parse_catalogue_url(raw_url)
     engine = create_catalogue_engine(url)
+    # The key is never created here: only `key create` and `lockkeeper demo` make one.
+    key_file = key_path(raw_url)
     catalogue = Catalogue(url=url, engine=engine,
-                          sessions=sessionmaker(engine, expire_on_commit=False))
+                          sessions=sessionmaker(engine, expire_on_commit=False),
+                          signing_key=load_signing_key(key_file), key_file=key_file)
     if must_exist:
         catalogue.require_initialised()
     else:

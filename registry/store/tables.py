@@ -257,3 +257,32 @@ class AuditEvent(Base):
     details_json: Mapped[str] = mapped_column(Text)
     previous_hash: Mapped[str] = mapped_column(String(64))
     hash: Mapped[str] = mapped_column(String(64))
+    # Digests of every deciding row the event's transaction wrote (docs/row-coverage.md);
+    # hashed with the event. Empty on events that wrote no covered row.
+    rows_json: Mapped[str | None] = mapped_column(Text, nullable=True)
+
+
+class SigningKeyRow(Base):
+    """The public half of each signing key the catalogue has had; the newest unretired one is
+    current. The private half lives only in the key file."""
+
+    __tablename__ = "signing_keys"
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    key_id: Mapped[str] = mapped_column(String(64), unique=True)  # SHA-256 of the raw public key
+    algorithm: Mapped[str] = mapped_column(String(20))
+    public_key_pem: Mapped[str] = mapped_column(Text)
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+    retired_at: Mapped[datetime | None] = mapped_column(DateTime(timezone=True), nullable=True)
+
+
+class Checkpoint(Base):
+    """The catalogue's signature over (event count, head hash, time): a cut or rewritten history
+    no longer extends it. Self-certifying, so not itself covered by the chain."""
+
+    __tablename__ = "checkpoints"
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    sequence: Mapped[int] = mapped_column(Integer, index=True)
+    head_hash: Mapped[str] = mapped_column(String(64))
+    signed_at: Mapped[str] = mapped_column(String(40))  # ISO 8601 UTC, signed as written
+    key_id: Mapped[str] = mapped_column(String(64))
+    signature: Mapped[str] = mapped_column(String(128))  # hex of the 64-byte Ed25519 signature

@@ -21,6 +21,7 @@ from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.document_repository import DocumentRepository
+from registry.store.keys_repository import KeyRepository
 from registry.store.release_repository import ReleaseRepository
 from registry.store.role_repository import RoleRepository
 
@@ -97,6 +98,7 @@ class UnitOfWork:
         self.roles: RoleRepository
         self.releases: ReleaseRepository
         self.documents: DocumentRepository
+        self.keys: KeyRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -118,6 +120,7 @@ class UnitOfWork:
         self.roles = RoleRepository(self.session)
         self.releases = ReleaseRepository(self.session)
         self.documents = DocumentRepository(self.session)
+        self.keys = KeyRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

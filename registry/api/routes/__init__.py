@@ -1,6 +1,6 @@
 """The API's routes, one module per resource; importing this package registers them all."""
 
 from registry.api.routes import (  # noqa: F401 - imported for their routes
-    audit, datasets, documents, evaluations, lineage, meta, models, people, releases, schemas,
-    stages, tokens, versions,
+    audit, datasets, documents, evaluations, keys, lineage, meta, models, people, releases,
+    schemas, stages, tokens, versions,
 )
