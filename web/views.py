@@ -5,11 +5,12 @@ from __future__ import annotations
 import re
 from typing import Any
 
-from flask import abort, current_app, render_template, request
+from flask import Response, abort, current_app, render_template, request
 
 from registry.errors import UserError
 from registry.names import NAME_PATTERN
 from registry.service import lineage as lineage_service
+from registry.service import releases
 from registry.store.unit_of_work import UnitOfWork
 from web import blueprint, comparisons, graphics, pages, schemas
 
@@ -17,6 +18,7 @@ DEFAULT_DEPTH = 2
 PAGE_DEPTH_LIMIT = 8
 MAX_DRAWN_NODES = 250  # beyond this a drawing helps nobody; the page lists the nodes instead
 _NUMBER = re.compile(r"^[0-9]{1,9}$")
+_DIGEST = re.compile(r"^[0-9a-f]{64}$")
 
 
 def _catalogue():
@@ -93,7 +95,21 @@ def version(name: str, number: int):
     return render_template("version.html", page=page,
                            input_tree=schemas.schema_tree(page.input_schema),
                            output_tree=schemas.schema_tree(page.output_schema),
-                           features=schemas.feature_rows(page.features))
+                           features=schemas.feature_rows(page.features),
+                           releases=releases.releases_of_version(_catalogue(), page.model,
+                                                                 page.number))
+
+
+@blueprint.route("/models/<name>/releases/<digest>.json")
+def release_download(name: str, digest: str):
+    """One release statement's envelope, byte for byte, as a download."""
+    if not _DIGEST.fullmatch(digest):
+        abort(404, description=f"no release statement {digest!r}")
+    release = releases.release_by_digest(_catalogue(), _name(name, "model"), digest)
+    file_name = f"{release.model}-v{release.version}-{release.stage}-{release.move}.release.json"
+    return Response(release.envelope, mimetype=releases.ENVELOPE_MEDIA_TYPE,
+                    headers={"Content-Disposition": f'attachment; filename="{file_name}"',
+                             "ETag": f'"{release.digest}"'})
 
 
 @blueprint.route("/models/<name>/compare")
