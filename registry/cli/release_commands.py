@@ -150,4 +150,43 @@ def _render_verdict(document: dict) -> str:
     return f"NOT VERIFIED ({document['reason']}): {document['message']}"
 
 
+@click.command("public")
+@click.argument("key_id", required=False, metavar="[KEY_ID]")
+@click.option("-o", "--output", default=None, type=click.Path(dir_okay=False),
+              help="Write the PEM to this file instead of printing it.")
+def key_public(key_id: str | None, output: str | None) -> None:
+    """The public half of the catalogue's current signing key (or of KEY_ID), as PEM: what
+    `release verify --key` takes."""
+    context = click.get_current_context().obj
+    remote = context.remote()
+    if remote:
+        keys = remote.list_keys()["keys"]
+    else:
+        from registry.service.signing_keys import list_keys
+
+        keys = list_keys(context.catalogue())["keys"]
+    if key_id is None:
+        chosen = [k for k in keys if k["retired_at"] is None][-1:]
+        if not chosen:
+            raise UserError("the catalogue has no current signing key (`lockkeeper key "
+                            "create` makes one)", place="key")
+    else:
+        chosen = [k for k in keys if k["id"] == key_id]
+        if not chosen:
+            raise NotFound(f"the catalogue has no signing key {key_id}", place="KEY_ID")
+    pem = chosen[0]["public_key"]
+    if output:
+        Path(output).write_text(pem, encoding="ascii")
+    else:
+        click.echo(pem.rstrip("\n"))
+
+
+def _attach_to_key_group() -> None:
+    from registry.cli.key_commands import key
+
+    key.add_command(key_public)
+
+
+_attach_to_key_group()
+
 COMMANDS = [release_group]

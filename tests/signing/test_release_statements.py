@@ -36,7 +36,8 @@ def story(cli, tmp_path):
              user=SECOND_APPROVER)
     cli.json("promote", "m", "1", "--to", "live", user=APPROVER)
     key = tmp_path / "catalogue.pub.pem"
-    key.write_text(cli.json("key", "list")["keys"][0]["public_key"])
+    assert cli("key", "public", "-o", str(key)).exit_code == 0
+    assert key.read_text() == cli.json("key", "list")["keys"][0]["public_key"]
     return key
 
 
@@ -218,3 +219,24 @@ def test_over_http_the_release_has_an_etag_and_a_superseded_one_is_refused(cli, 
     finally:
         server.shutdown()
         thread.join(5)
+
+
+def test_key_public_prints_the_current_or_a_named_key(cli, tmp_path, story):
+    first = cli.json("key", "list")["keys"][0]
+    assert cli("key", "public").stdout.strip() == first["public_key"].strip()
+    cli.json("key", "rotate", user=ADMIN)
+    assert cli("key", "public", first["id"]).stdout.strip() == first["public_key"].strip()
+    assert cli("key", "public").stdout.strip() != first["public_key"].strip()
+    unknown = cli("key", "public", "ab" * 32)
+    assert unknown.exit_code == 2 and len(unknown.stderr.strip().splitlines()) == 1
+
+
+def test_statements_after_a_rotation_verify_with_the_new_key_only(cli, tmp_path, story):
+    cli.json("key", "rotate", user=ADMIN)
+    cli.json("approve", "m", "2", "--for", "live", user=SECOND_APPROVER)
+    cli.json("promote", "m", "2", "--to", "live", user=APPROVER)
+    document, envelope = _fetch(cli, tmp_path, "rotated")
+    new_key = tmp_path / "new.pub.pem"
+    assert cli("key", "public", "-o", str(new_key)).exit_code == 0
+    assert _verify(cli, document, envelope, new_key)["verified"] is True
+    assert _verify(cli, document, envelope, story, expect=1)["reason"] == "wrong-key"
