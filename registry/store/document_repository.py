@@ -17,6 +17,7 @@ from sqlalchemy.orm import Session
 from registry.store import tables as t
 
 CHUNK_SIZE = 1024 * 1024
+SQLITE_MMAP_BYTES = 1 << 30  # address space, not memory: the kernel pages it in and out
 
 
 @dataclass(frozen=True)
@@ -71,6 +72,9 @@ def _sqlite_chunks(engine: Engine, digest: str, start: int, end: int,
     connection = engine.raw_connection()
     try:
         raw = connection.dbapi_connection
+        # Read pages straight from a memory map rather than copying each through the page
+        # cache: several times faster for a large blob, and this connection only reads.
+        raw.execute(f"PRAGMA mmap_size = {SQLITE_MMAP_BYTES}")
         row = raw.execute("SELECT rowid FROM blobs WHERE digest = ?", (digest,)).fetchone()
         if row is None:
             return
