@@ -11,7 +11,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 from dataclasses import dataclass
 
-from sqlalchemy import Engine, select, text
+from sqlalchemy import Engine, select
 from sqlalchemy.orm import Session
 
 from registry.store import tables as t
@@ -93,16 +93,19 @@ def _sqlite_chunks(engine: Engine, digest: str, start: int, end: int,
 
 def _substring_chunks(engine: Engine, digest: str, start: int, end: int,
                       chunk_size: int) -> Iterator[bytes]:
-    query = text("SELECT substring(content FROM :offset FOR :length) FROM blobs "
-                 "WHERE digest = :digest")
-    position = start
-    with engine.connect() as connection:
+    # Binary results: bytea in text format comes as hex, twice the bytes and a decode.
+    query = "SELECT substring(content FROM %s FOR %s) FROM blobs WHERE digest = %s"
+    connection = engine.raw_connection()
+    try:
+        cursor = connection.dbapi_connection.cursor(binary=True)
+        position = start
         while position < end:
             length = min(chunk_size, end - position)
-            chunk = connection.execute(query, {"offset": position + 1, "length": length,
-                                               "digest": digest}).scalar()
-            if not chunk:
+            row = cursor.execute(query, (position + 1, length, digest)).fetchone()
+            if row is None or not row[0]:
                 return
-            chunk = bytes(chunk)
+            chunk = bytes(row[0])
             position += len(chunk)
             yield chunk
+    finally:
+        connection.close()
