@@ -118,44 +118,43 @@ class ApiClient:
                 content_type: str | None = None, headers: dict[str, str] | None = None
                 ) -> tuple[int, dict[str, str], Any]:
         sent = dict(headers or {})
-        if self.token:
-            sent["Authorization"] = f"Bearer {self.token}"
         if body is not UNSET:
             data = json.dumps(body).encode("utf-8")
             content_type = "application/json"
         if content_type:
             sent["Content-Type"] = content_type
-        request = urllib.request.Request(self.base + path, data=data, method=method,
-                                         headers=sent)
-        try:
-            with urllib.request.urlopen(request, timeout=self.timeout) as response:
-                return response.status, dict(response.headers), _json(response.read())
-        except urllib.error.HTTPError as error:
-            with error:
-                payload = error.read()
-                if error.code == 304:
-                    return 304, dict(error.headers), None
-                document = _json(payload)
-            if isinstance(document, dict) and "type" in document:
-                raise error_from_problem(error.code, document) from None
-            raise RemoteError(f"HTTP {error.code} from {self.base}", kind="bad-input",
-                              status=error.code, place=path) from None
-        except (urllib.error.URLError, OSError) as error:
-            reason = getattr(error, "reason", error)
-            raise CatalogueUnavailable(f"cannot reach the server at {self.base}: {reason}",
-                                       place="--server") from None
+        with self._open(method, path, data=data, headers=sent) as response:
+            status = response.status
+            return status, dict(response.headers), (None if status == 304
+                                                     else _json(response.read()))
 
     def stream(self, path: str, *, headers: dict[str, str] | None = None,
                chunk_size: int = 1024 * 1024) -> Iterator[tuple[dict[str, str], bytes]]:
         """GET `path` and yield (response headers, chunk) as the body arrives, never holding
         it whole; a problem document comes back as its typed error."""
+        with self._open("GET", path, headers=headers) as response:
+            received = dict(response.headers)
+            try:
+                while chunk := response.read(chunk_size):
+                    yield received, chunk
+            except OSError as error:
+                raise CatalogueUnavailable(f"the server at {self.base} broke off: {error}",
+                                           place="--server") from None
+
+    def _open(self, method: str, path: str, *, data: bytes | None = None,
+              headers: dict[str, str] | None = None) -> Any:
+        """The response, open: a 2xx or a 304 (an HTTPError is a response too); any other
+        status raises the typed error of its problem document."""
         sent = dict(headers or {})
         if self.token:
             sent["Authorization"] = f"Bearer {self.token}"
-        request = urllib.request.Request(self.base + path, method="GET", headers=sent)
+        request = urllib.request.Request(self.base + path, data=data, method=method,
+                                         headers=sent)
         try:
-            response = urllib.request.urlopen(request, timeout=self.timeout)
+            return urllib.request.urlopen(request, timeout=self.timeout)
         except urllib.error.HTTPError as error:
+            if error.code == 304:
+                return error
             with error:
                 document = _json(error.read())
             if isinstance(document, dict) and "type" in document:
@@ -166,14 +165,6 @@ class ApiClient:
             reason = getattr(error, "reason", error)
             raise CatalogueUnavailable(f"cannot reach the server at {self.base}: {reason}",
                                        place="--server") from None
-        with response:
-            received = dict(response.headers)
-            try:
-                while chunk := response.read(chunk_size):
-                    yield received, chunk
-            except OSError as error:
-                raise CatalogueUnavailable(f"the server at {self.base} broke off: {error}",
-                                           place="--server") from None
 
     def _get(self, path: str) -> Any:
         return self.request("GET", path)[2]

@@ -6,18 +6,16 @@ import hashlib
 import json
 import subprocess
 import sys
-import threading
 import time
 
 import pytest
 from click.testing import CliRunner
-from werkzeug.serving import make_server
 
 from registry.cli import main
 from registry.cli.document_get_commands import write_checked
 from registry.errors import Refusal
 
-from tests.api.api_helpers import make_api
+from tests.api.api_helpers import make_api, served
 from tests.catalogue.stage_helpers import register, set_up_model
 
 APPROVER = "tomas.lindqvist"
@@ -35,14 +33,8 @@ def two_versions(cli, tmp_path):
 @pytest.fixture
 def server(cli):
     api = make_api(cli)
-    served = make_server("127.0.0.1", 0, api.client.application, threaded=True)
-    thread = threading.Thread(target=served.serve_forever, daemon=True)
-    thread.start()
-    try:
-        yield f"http://127.0.0.1:{served.server_port}", api.secrets["reader"]
-    finally:
-        served.shutdown()
-        thread.join(5)
+    with served(api.client.application) as url:
+        yield url, api.secrets["reader"]
 
 
 @pytest.mark.parametrize("names", [("m", "1"), ("m@1",), ("m", "v1"), ("m", "--stage", "live")])

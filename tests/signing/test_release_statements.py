@@ -4,14 +4,12 @@ and checked offline by `release verify`, on every configured database."""
 from __future__ import annotations
 
 import json
-import threading
 from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
 from securesystemslib.dsse import Envelope as ReferenceEnvelope
 from securesystemslib.signer import SSlibKey
-from werkzeug.serving import make_server
 
 from registry.canonical_json import digest_of
 from registry.cli import main
@@ -19,7 +17,7 @@ from registry.service.stages import find_report
 from registry.signing import dsse
 from registry.signing.statements import parse_statement
 
-from tests.api.api_helpers import make_tokens, open_api
+from tests.api.api_helpers import make_tokens, open_api, served
 from tests.catalogue.stage_helpers import register, set_up_model
 
 ADMIN, APPROVER, SECOND_APPROVER = "mara.kowalczyk", "tomas.lindqvist", "priya.raman"
@@ -188,18 +186,14 @@ def test_release_verify_needs_no_catalogue(tmp_path, story, cli):
 def test_over_http_the_release_has_an_etag_and_a_superseded_one_is_refused(cli, tmp_path,
                                                                           story):
     api = open_api(cli.url, make_tokens(cli.url))
-    server = make_server("127.0.0.1", 0, api.client.application, threaded=True)
-    thread = threading.Thread(target=server.serve_forever, daemon=True)
-    thread.start()
-    url = f"http://127.0.0.1:{server.server_port}"
-    try:
-        served = api.get("/models/m/stages/live/release")
-        assert served.status_code == 200
-        assert served.headers["ETag"].startswith('"')
+    with served(api.client.application) as url:
+        release = api.get("/models/m/stages/live/release")
+        assert release.status_code == 200
+        assert release.headers["ETag"].startswith('"')
         assert api.get("/models/m/stages/live/release",
-                       headers={"If-None-Match": served.headers["ETag"]}).status_code == 304
+                       headers={"If-None-Match": release.headers["ETag"]}).status_code == 304
         document, envelope = _fetch(cli, tmp_path, "v1")
-        assert envelope.read_bytes() == served.data
+        assert envelope.read_bytes() == release.data
         token = ["--token", api.secrets["reader"]]
 
         def verify(expect: int):
@@ -216,9 +210,6 @@ def test_over_http_the_release_has_an_etag_and_a_superseded_one_is_refused(cli, 
         assert superseded["reason"] == "superseded" and superseded["current"] is False
         unknown = api.get("/models/m/stages/attic/release")
         assert unknown.status_code == 404
-    finally:
-        server.shutdown()
-        thread.join(5)
 
 
 def test_key_public_prints_the_current_or_a_named_key(cli, tmp_path, story):
