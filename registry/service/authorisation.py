@@ -65,9 +65,9 @@ ACTIONS: dict[str, Permission] = {
     "role.grant": Permission((ADMIN,), "granting roles"),
     "role.revoke": Permission((ADMIN,), "revoking roles"),
     "token.create": Permission((ADMIN,), "managing tokens"),
-    "token.revoke": Permission((ADMIN,), "managing tokens"),
-    "token.list": Permission((ADMIN,), "listing tokens"),
-    "catalogue.import": Permission((ADMIN,), "importing an export"),
+    # Tokens exist only once an admin does, so these two are never open.
+    "token.revoke": Permission((ADMIN,), "managing tokens", open_before_first_admin=False),
+    "token.list": Permission((ADMIN,), "listing tokens", open_before_first_admin=False),
     "key.create": Permission((ADMIN,), "creating the signing key"),
     "key.rotate": Permission((ADMIN,), "rotating the signing key"),
 }

@@ -23,7 +23,9 @@ from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.document_repository import DocumentRepository
 from registry.store.keys_repository import KeyRepository
 from registry.store.release_repository import ReleaseRepository
+from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.role_repository import RoleRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -99,6 +101,8 @@ class UnitOfWork:
         self.releases: ReleaseRepository
         self.documents: DocumentRepository
         self.keys: KeyRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -121,6 +125,8 @@ class UnitOfWork:
         self.releases = ReleaseRepository(self.session)
         self.documents = DocumentRepository(self.session)
         self.keys = KeyRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
