@@ -11,12 +11,13 @@ from __future__ import annotations
 
 import hashlib
 from dataclasses import dataclass
-from datetime import datetime
+from datetime import UTC, datetime
 
 from registry.canonical_json import digest_of
 from registry.errors import NotFound
 from registry.gates import GateReport
 from registry.names import check_name
+from registry.service.document_fetch import find_document
 from registry.service.models import find_model, find_version
 from registry.signing import dsse
 from registry.signing.statements import (PAYLOAD_TYPE, Approval, GateStatus, ReleaseStatement,
@@ -39,6 +40,8 @@ def _signing_key(uow: UnitOfWork):
 
 
 def _iso(moment: datetime) -> str:
+    if moment.tzinfo is None:  # SQLite hands back what it stored, without the zone: UTC
+        moment = moment.replace(tzinfo=UTC)
     return moment.isoformat(timespec="seconds").replace("+00:00", "Z")
 
 
@@ -103,13 +106,12 @@ def current_release(catalogue: Catalogue, model: str, stage: str) -> Release:
     check_name(stage, what="stage")
     with UnitOfWork(catalogue, write=False) as uow:
         stored = uow.releases.current(model, stage)
-        if stored is None:
-            if uow.documents.of_stage(model, stage) is None:
-                raise NotFound(f"no version of {model!r} holds {stage!r} (or there is no such "
-                               "model)", place="stage")
-            raise NotFound(f"the version holding {stage!r} of {model!r} entered it without a "
-                           "release statement (only exclusive stages have them)", place="stage")
-        return Release.of(stored)
+    if stored is None:
+        # Say precisely why: no such model or stage, nobody holds it, or its holder has none.
+        holder = find_document(catalogue, model, stage=stage)
+        raise NotFound(f"v{holder.version}, holding {stage!r} of {model!r}, entered it without "
+                       "a release statement (only exclusive stages have them)", place="stage")
+    return Release.of(stored)
 
 
 def releases_of_version(catalogue: Catalogue, model: str, number: int) -> list[Release]:

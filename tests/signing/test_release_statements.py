@@ -231,3 +231,14 @@ def test_statements_after_a_rotation_verify_with_the_new_key_only(cli, tmp_path,
     assert cli("key", "public", "-o", str(new_key)).exit_code == 0
     assert _verify(cli, document, envelope, new_key)["verified"] is True
     assert _verify(cli, document, envelope, story, expect=1)["reason"] == "wrong-key"
+
+
+@pytest.mark.parametrize("arguments, fragment", [
+    (("nobody", "--stage", "live"), "unknown model"),
+    (("m", "--stage", "attic"), "no stage"),
+    (("m", "--stage", "canary"), "holds"),
+])
+def test_release_show_says_precisely_why_there_is_no_statement(cli, story, arguments, fragment):
+    result = cli("release", "show", *arguments)
+    assert result.exit_code == 2 and fragment in result.stderr
+    assert len(result.stderr.strip().splitlines()) == 1
