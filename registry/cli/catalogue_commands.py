@@ -51,15 +51,21 @@ def init(as_json: bool) -> None:
 
     context = _context()
     context.local_only("init")
+    from registry.service.coverage_upgrade import cover_rows_written_before_coverage
+
     catalogue = open_catalogue(context.db_url, must_exist=False)
     try:
         before = migrate.current_revision(catalogue)
         migrate.upgrade(catalogue)
         after = migrate.current_revision(catalogue)
+        covered = cover_rows_written_before_coverage(catalogue, context.user)
     finally:
         catalogue.close()
-    emit({"catalogue": describe(catalogue.url), "revision_before": before, "revision": after},
-         as_json, lambda d: f"catalogue {d['catalogue']} at revision {d['revision']}")
+    emit({"catalogue": describe(catalogue.url), "revision_before": before, "revision": after,
+          "rows_brought_under_the_chain": covered}, as_json,
+         lambda d: f"catalogue {d['catalogue']} at revision {d['revision']}"
+         + (f"; {d['rows_brought_under_the_chain']} earlier rows now covered by the audit chain"
+            if d["rows_brought_under_the_chain"] else ""))
 
 
 @click.group()
@@ -177,28 +183,54 @@ def audit() -> None:
 
 
 @audit.command("verify")
+@click.option("--against", "against_path", type=click.Path(dir_okay=False), default=None,
+              metavar="CHECKPOINT.json",
+              help="Also prove the catalogue still extends this checkpoint kept elsewhere.")
 @json_option
-def audit_verify(as_json: bool) -> None:
-    """Recompute the audit chain and every stored digest; name the first broken link."""
+def audit_verify(against_path: str | None, as_json: bool) -> None:
+    """Recompute the audit chain and every stored digest, compare every deciding row with the
+    chain, check the signed checkpoints; name the first difference."""
     remote = _context().remote()
-    if remote:
+    if remote and against_path is None:
         document = remote.verify_audit()
     else:
-        report = integrity.verify_catalogue(_context().catalogue())
-        document = {"ok": report.ok, "events": report.events, "blobs": report.blobs,
-                    "versions": report.versions, "datasets": report.datasets,
-                    "first_broken_link": report.first_broken_link, "findings": report.findings}
+        _context().local_only("audit verify --against")
+        against = (integrity.read_external_checkpoint(Path(against_path))
+                   if against_path else None)
+        document = integrity.verify_catalogue(_context().catalogue(), against).to_dict()
 
     def text(d):
         if d["ok"]:
-            return (f"audit chain intact: {d['events']} events, {d['blobs']} blobs, "
-                    f"{d['versions']} versions, {d['datasets']} datasets checked")
+            signed = (f"newest checkpoint event {d['newest_checkpoint']['sequence']}"
+                      if d.get("newest_checkpoint") else
+                      "no checkpoint yet" if d.get("signed") else "nothing is signed (no key)")
+            return (f"audit chain intact: {d['events']} events, {d.get('rows', 0)} rows, "
+                    f"{d['blobs']} blobs, {d['versions']} versions, {d['datasets']} datasets "
+                    f"checked; {signed}"
+                    + (f"; extends {against_path}" if against_path else ""))
         return "\n".join([f"BROKEN at {d['first_broken_link']}"] +
                          [f"  {f['place']}: {f['problem']}" for f in d["findings"]])
 
     emit(document, as_json, text)
     if not document["ok"]:
         click.get_current_context().exit(1)
+
+
+@audit.command("checkpoint")
+@json_option
+def audit_checkpoint(as_json: bool) -> None:
+    """Print the newest signed checkpoint (signing one of the head if the chain has grown),
+    to keep outside the catalogue for `audit verify --against`."""
+    from registry.service.checkpoints import newest_checkpoint
+
+    _context().local_only("audit checkpoint")
+    document = newest_checkpoint(_context().catalogue(), _actor())
+    if as_json:
+        emit(document, True, str)
+    else:
+        import json
+
+        click.echo(json.dumps(document, indent=2, sort_keys=True))
 
 
 @click.group()

@@ -70,6 +70,9 @@ ACTIONS: dict[str, Permission] = {
     "token.list": Permission((ADMIN,), "listing tokens", open_before_first_admin=False),
     "key.create": Permission((ADMIN,), "creating the signing key"),
     "key.rotate": Permission((ADMIN,), "rotating the signing key"),
+    # Signs the chain as it stands and changes no deciding row: anyone with a role may ask.
+    "audit.checkpoint": Permission(("reader", PUBLISHER, APPROVER, ADMIN),
+                                   "signing a checkpoint"),
 }
 
 

@@ -1,26 +1,39 @@
-"""`audit verify`: recompute the audit chain, every blob digest and every registration digest,
-and check every evaluation against what the audit log recorded when it was added."""
+"""`audit verify`: recompute the audit chain, check the signed checkpoints (and one kept outside),
+compare every deciding row with the row digests the chain recorded, recompute every blob digest
+and registration digest, and check every evaluation against what the audit log recorded."""
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import json
 from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
 
 from sqlalchemy import select
 
+from registry.errors import UserError
 from registry.service.registration import registration_record
+from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
 from registry.canonical_json import digest_of
+from registry.signing.checkpoints import SignedCheckpoint, from_document, is_signed_by
 from registry.store import tables as t
-from registry.store.audit import AuditRecord, verify_chain
+from registry.store.audit import GENESIS_HASH, AuditRecord, verify_chain
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
+
+MAX_CHECKPOINT_BYTES = 64_000
 
 
 @dataclass(frozen=True)
 class Finding:
-    place: str  # e.g. "audit event 17", "blob 3fa1...", "model/main-burst-risk/version/2"
+    place: str  # e.g. "audit event 17", "blob 3fa1...", "stage_holdings (id=4) column stage"
     problem: str
+    # For a deciding row that differs from what the chain recorded: which one, and where.
+    table: str | None = None
+    key: dict[str, Any] | None = None
+    column: str | None = None
 
 
 @dataclass(frozen=True)
@@ -32,40 +45,124 @@ class VerificationReport:
     datasets: int
     evaluations: int = 0
     findings: list[Finding] = field(default_factory=list)
+    rows: int = 0              # covered rows compared with the chain
+    checkpoints: int = 0
+    newest_checkpoint: dict[str, Any] | None = None
+    signed: bool = False       # whether the catalogue has a signing key to check against
 
     @property
     def first_broken_link(self) -> str | None:
         return self.findings[0].place if self.findings else None
 
+    def to_dict(self) -> dict[str, Any]:
+        return {"ok": self.ok, "events": self.events, "blobs": self.blobs,
+                "versions": self.versions, "datasets": self.datasets,
+                "evaluations": self.evaluations, "rows": self.rows,
+                "checkpoints": self.checkpoints, "newest_checkpoint": self.newest_checkpoint,
+                "signed": self.signed, "first_broken_link": self.first_broken_link,
+                "findings": [dataclasses.asdict(f) for f in self.findings]}
 
-def _audit_findings(uow: UnitOfWork) -> tuple[int, list[Finding], dict[str, dict]]:
-    rows = uow.session.execute(select(t.AuditEvent).order_by(t.AuditEvent.sequence)).scalars()
-    records: list[AuditRecord] = []
-    findings: list[Finding] = []
-    registered: dict[str, dict] = {}
-    for row in rows:
-        try:
-            details = json.loads(row.details_json)
-        except json.JSONDecodeError:
-            findings.append(Finding(f"audit event {row.sequence}", "its details are not JSON"))
-            details = {"unreadable": row.details_json}
-        records.append(AuditRecord(row.sequence, row.occurred_at, row.actor, row.action,
-                                   row.subject, details, row.previous_hash, row.hash))
-        if row.action in ("version.register", "dataset.add", "evaluation.add"):
-            registered[row.subject] = details
-    head = uow.session.get(t.AuditHead, 1)
-    breaks = verify_chain(records, (head.sequence, head.hash) if head else None)
-    findings += [Finding(f"audit event {b.sequence}", b.problem) for b in breaks]
-    return len(records), findings, registered
+
+@dataclass
+class _ChainWalk:
+    """What one pass over the stored events gathers besides the chain's own breaks."""
+
+    replayed: ReplayedRows = field(default_factory=ReplayedRows)
+    registered: dict[str, dict] = field(default_factory=dict)
+    hashes: dict[int, str] = field(default_factory=dict)  # of events that checkpoints name
+    findings: list[Finding] = field(default_factory=list)
+    events: int = 0
+
+
+def _walk_chain(uow: UnitOfWork, wanted: set[int]) -> _ChainWalk:
+    walk = _ChainWalk()
+
+    def records():
+        for row in uow.audit.events():
+            try:
+                details = json.loads(row.details_json)
+            except json.JSONDecodeError:
+                walk.findings.append(Finding(f"audit event {row.sequence}",
+                                             "its details are not JSON"))
+                details = {"unreadable": row.details_json}
+            rows = parse_rows(row.rows_json)
+            walk.replayed.replay(row.sequence, rows)
+            if row.sequence in wanted:
+                walk.hashes[row.sequence] = row.hash
+            if row.action in ("version.register", "dataset.add", "evaluation.add"):
+                walk.registered[row.subject] = details
+            walk.events += 1
+            yield AuditRecord(row.sequence, row.occurred_at, row.actor, row.action,
+                              row.subject, details, row.previous_hash, row.hash, rows)
+
+    # A missing head row reads as an empty chain, which the stored events then contradict.
+    breaks = verify_chain(records(), uow.audit.head() or (0, GENESIS_HASH))
+    walk.findings += [Finding(f"audit event {b.sequence}", b.problem) for b in breaks]
+    walk.findings += [Finding(f"audit event {sequence}", problem)
+                      for sequence, problem in walk.replayed.problems]
+    return walk
+
+
+def _row_findings(uow: UnitOfWork, walk: _ChainWalk) -> tuple[int, list[Finding]]:
+    counted = 0
+
+    def stored(table):
+        nonlocal counted
+        for row in uow.rows.scan(table):
+            counted += 1
+            yield row
+
+    def rows_of_event(sequence: int):
+        return parse_rows(uow.audit.rows_json_of(sequence))
+
+    differences = compare_all(stored, walk.replayed, rows_of_event)
+    return counted, [Finding(d.place, d.problem, d.table, d.key, d.column) for d in differences]
+
+
+def _checkpoint_findings(uow: UnitOfWork, checkpoints: list[tuple[int, SignedCheckpoint]],
+                         walk: _ChainWalk) -> list[Finding]:
+    findings = []
+    head = uow.audit.head()
+    head_sequence = head[0] if head else 0
+    for row_id, checkpoint in checkpoints:
+        place = f"checkpoint {row_id} (event {checkpoint.sequence})"
+        key = uow.keys.get(checkpoint.key_id)
+        if key is None:
+            findings.append(Finding(place, f"signed by key {checkpoint.key_id}, which the "
+                                           "catalogue does not know"))
+        elif not is_signed_by(checkpoint, key.public_key_pem):
+            findings.append(Finding(place, "its signature does not verify: it was changed "
+                                           "after signing"))
+        else:
+            findings += _extends(place, checkpoint, head_sequence, walk.hashes)
+    return findings
+
+
+def _extends(place: str, checkpoint: SignedCheckpoint, head_sequence: int,
+             hashes: dict[int, str]) -> list[Finding]:
+    """Whether the stored chain still holds the event a checkpoint signed."""
+    if checkpoint.sequence > head_sequence:
+        return [Finding(place, f"it signed event {checkpoint.sequence} but the chain ends at "
+                               f"event {head_sequence}: history was cut")]
+    if hashes.get(checkpoint.sequence) != checkpoint.head_hash:
+        return [Finding(place, f"the chain's event {checkpoint.sequence} is not the one it "
+                               "signed: history was rewritten")]
+    return []
 
 
 def _blob_findings(uow: UnitOfWork) -> tuple[int, list[Finding]]:
     findings = []
     count = 0
-    for digest, content in uow.session.execute(select(t.Blob.digest, t.Blob.content)):
+    for digest, size, content in uow.session.execute(
+            select(t.Blob.digest, t.Blob.size, t.Blob.content)):
         count += 1
         if hashlib.sha256(content).hexdigest() != digest:
-            findings.append(Finding(f"blob {digest}", "its content does not match its digest"))
+            findings.append(Finding(f"blob {digest}", "its content does not match its digest",
+                                    t.Blob.__tablename__, {"digest": digest}, "content"))
+        elif size != len(content):
+            findings.append(Finding(f"blob {digest}", "its size is not the length of its "
+                                                      "content", t.Blob.__tablename__,
+                                    {"digest": digest}, "size"))
     return count, findings
 
 
@@ -232,14 +329,79 @@ def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
     return count, findings
 
 
-def verify_catalogue(catalogue: Catalogue) -> VerificationReport:
+def verify_catalogue(catalogue: Catalogue,
+                     against: ExternalCheckpoint | None = None) -> VerificationReport:
+    """Everything `audit verify` checks, first difference first: the chain (and a checkpoint
+    kept outside, when given), the signed checkpoints, every deciding row against the chain's
+    row digests, the blobs, then each registration against its recorded digests."""
     with UnitOfWork(catalogue, write=False) as uow:
-        events, findings, registered = _audit_findings(uow)
+        checkpoints = _guarded(uow, "checkpoints", [], uow.checkpoints.all)
+        wanted = {checkpoint.sequence for _, checkpoint in checkpoints}
+        if against is not None:
+            wanted.add(against.checkpoint.sequence)
+        walk = _walk_chain(uow, wanted)
+        head = uow.audit.head()
+        outside = [] if against is None else _extends(
+            against.place, against.checkpoint, head[0] if head else 0, walk.hashes)
+        checkpoint_findings = _guarded(uow, "checkpoints", [],
+                                       lambda: _checkpoint_findings(uow, checkpoints, walk))
+        rows, row_findings = _row_findings(uow, walk)
         blobs, blob_findings = _blob_findings(uow)
-        versions, version_findings = _version_findings(uow, registered)
-        datasets, dataset_findings = _dataset_findings(uow, registered)
-        evaluations, evaluation_findings = _evaluation_findings(uow, registered)
-    everything = (findings + blob_findings + version_findings + dataset_findings
-                  + evaluation_findings)
-    return VerificationReport(ok=not everything, events=events, blobs=blobs, versions=versions,
-                              datasets=datasets, evaluations=evaluations, findings=everything)
+        versions, version_findings = _guarded(
+            uow, "versions", (0, []), lambda: _version_findings(uow, walk.registered))
+        datasets, dataset_findings = _guarded(
+            uow, "datasets", (0, []), lambda: _dataset_findings(uow, walk.registered))
+        evaluations, evaluation_findings = _guarded(
+            uow, "evaluations", (0, []), lambda: _evaluation_findings(uow, walk.registered))
+        has_key = _guarded(uow, "signing_keys", False, lambda: uow.keys.current() is not None)
+    # The chain first, then a checkpoint kept outside, then the deciding rows (which include
+    # the signing keys the stored checkpoints are checked with), then everything else.
+    everything = (walk.findings + outside + row_findings + checkpoint_findings + blob_findings
+                  + version_findings + dataset_findings + evaluation_findings)
+    newest = checkpoints[-1][1] if checkpoints else None
+    return VerificationReport(
+        ok=not everything, events=walk.events, blobs=blobs, versions=versions,
+        datasets=datasets, evaluations=evaluations, findings=everything, rows=rows,
+        checkpoints=len(checkpoints), signed=has_key,
+        newest_checkpoint=None if newest is None else {
+            "sequence": newest.sequence, "head_hash": newest.head_hash,
+            "signed_at": newest.signed_at, "key_id": newest.key_id})
+
+
+def _guarded(uow: UnitOfWork, what: str, empty: Any, check: Any) -> Any:
+    """Run one of the checks that read rows through their mapped types. Tampered rows can make
+    those reads fail (a timestamp that no longer parses, a reference to a row that is gone);
+    the row digests name such a change first, so the check then just reports it could not run."""
+    try:
+        with uow.session.begin_nested():
+            return check()
+    except Exception as error:  # any failure to read tampered rows is the finding itself
+        finding = Finding(what, f"could not be checked: the stored rows no longer read back "
+                                f"({type(error).__name__})")
+        if isinstance(empty, tuple):
+            return empty[0], [finding]
+        return [finding] if isinstance(empty, list) else empty
+
+
+@dataclass(frozen=True)
+class ExternalCheckpoint:
+    """A checkpoint document kept outside the catalogue, already checked against its own key."""
+
+    place: str
+    checkpoint: SignedCheckpoint
+    public_key_pem: str
+
+
+def read_external_checkpoint(path: Path) -> ExternalCheckpoint:
+    place = f"checkpoint {path}"
+    try:
+        if path.stat().st_size > MAX_CHECKPOINT_BYTES:
+            raise UserError("the file is too large to be a checkpoint", place=place)
+        document = json.loads(path.read_bytes())
+    except FileNotFoundError:
+        raise UserError(f"no such file: {path}", place="--against") from None
+    except (OSError, json.JSONDecodeError, UnicodeDecodeError) as error:
+        raise UserError(f"not a readable checkpoint: {error}", place=place) from None
+    checkpoint, public_key_pem = from_document(document, place=place)
+    return ExternalCheckpoint(f"{place} (event {checkpoint.sequence})", checkpoint,
+                              public_key_pem)

@@ -45,10 +45,18 @@ def _iso(moment: datetime) -> str:
     return moment.isoformat(timespec="seconds").replace("+00:00", "Z")
 
 
-def record_move(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, *, move: str,
-                reason: str, previous_holder: int | None, holder_after: int | None,
-                report: GateReport | None) -> None:
-    """Write the statement of one move; call it after the move's audit event is appended."""
+def moving_event(uow: UnitOfWork) -> tuple[int, str]:
+    """(sequence, hash) of the audit event just appended for a move, for its statements to
+    quote. Each statement then appends an event of its own, so the move's event is never the
+    transaction's last one, the one rehashed at commit with the row digests: the hash quoted
+    is final."""
+    return uow.audit.last_sequence, uow.audit.last_hash
+
+
+def record_move(uow: UnitOfWork, actor: str, model: t.Model, version: t.Version, stage: str, *,
+                move: str, reason: str, previous_holder: int | None, holder_after: int | None,
+                report: GateReport | None, moved_by: tuple[int, str]) -> None:
+    """Write the statement of one move, quoting `moved_by` (see moving_event), and audit it."""
     key = _signing_key(uow)
     waivers = [r.waiver for r in report.results if r.waived and r.waiver] if report else []
     statement = ReleaseStatement(
@@ -61,16 +69,19 @@ def record_move(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str,
                         for who, note in uow.releases.approvals(version.id, stage)),
         waivers=tuple(WaiverRecord(w.gate, w.approver, w.reason) for w in waivers),
         signing_key_id=key.key_id if key else None,
-        audit_event_sequence=uow.audit.last_sequence, audit_event_hash=uow.audit.last_hash)
+        audit_event_sequence=moved_by[0], audit_event_hash=moved_by[1])
     payload = statement.to_payload()
     envelope = (dsse.sign(PAYLOAD_TYPE, payload, key.key_id, key.sign) if key
                 else dsse.unsigned(PAYLOAD_TYPE, payload))
     data = envelope.to_json()
+    digest = hashlib.sha256(data).hexdigest()
     uow.releases.add(model_id=model.id, version_id=version.id, stage=stage, move=move,
-                     envelope_json=data.decode("ascii"),
-                     envelope_digest=hashlib.sha256(data).hexdigest(),
-                     key_id=key.key_id if key else None, audit_sequence=uow.audit.last_sequence,
+                     envelope_json=data.decode("ascii"), envelope_digest=digest,
+                     key_id=key.key_id if key else None, audit_sequence=moved_by[0],
                      at=utc_now())
+    uow.audit.append(actor, "release.record", f"model/{model.name}/version/{version.number}",
+                     {"stage": stage, "move": move, "reason": reason,
+                      "envelope_digest": digest, "signed_by": key.key_id if key else None})
 
 
 @dataclass(frozen=True)

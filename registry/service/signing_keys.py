@@ -58,8 +58,8 @@ def create_key(catalogue: Catalogue, actor: Actor) -> dict[str, Any]:
                             "`key rotate` for a new one", place="key")
         key = in_file or create_signing_key_file(path)
         row = _record(uow, key, actor, "key.create", retired=None, file=path)
+        catalogue.signing_key = key  # so this very transaction signs its first checkpoint
         uow.commit()
-    catalogue.signing_key = key
     return {**key_document(row), "file": str(path), "created_file": in_file is None}
 
 
@@ -79,8 +79,8 @@ def rotate_key(catalogue: Catalogue, actor: Actor) -> dict[str, Any]:
         if retired is not None:
             uow.keys.retire(retired, utc_now())
         row = _record(uow, key, actor, "key.rotate", retired=retired, file=path)
+        catalogue.signing_key = key
         uow.commit()
-    catalogue.signing_key = key
     return {**key_document(row), "file": str(path), "retired": retired}
 
 

@@ -12,7 +12,7 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlalchemy import delete, select
+from sqlalchemy import select
 
 from registry.errors import Conflict, NotFound, Refusal, UserError
 from registry.names import check_name
@@ -187,8 +187,10 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
                           "displaced_version": displaced, "summary": report.summary(),
                           "waivers": [dataclasses.asdict(w) for w in report.waivers]})
         if report.passed and policy.is_exclusive(stage):
-            releases.record_move(uow, line, version, stage, move="entered", reason="promotion",
-                                 previous_holder=displaced, holder_after=number, report=report)
+            releases.record_move(uow, actor.name, line, version, stage, move="entered",
+                                 reason="promotion", previous_holder=displaced,
+                                 holder_after=number, report=report,
+                                 moved_by=releases.moving_event(uow))
         uow.commit()
         return StageOutcome(line.name, number, stage, report.passed, report.to_dict(), report_id,
                             displaced)
@@ -275,10 +277,12 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
                           "to_version": previous.number, "passed": report.passed,
                           "report_id": report_id, "summary": report.summary()})
         if report.passed:
+            moved_by = releases.moving_event(uow)
             for moved, move in ((holder, "left"), (previous, "entered")):
-                releases.record_move(uow, line, moved, stage, move=move, reason="rollback",
-                                     previous_holder=holder.number,
-                                     holder_after=previous.number, report=report)
+                releases.record_move(uow, actor.name, line, moved, stage, move=move,
+                                     reason="rollback", previous_holder=holder.number,
+                                     holder_after=previous.number, report=report,
+                                     moved_by=moved_by)
         uow.commit()
         return StageOutcome(line.name, previous.number, stage, report.passed, report.to_dict(),
                             report_id, holder.number if report.passed else None)
@@ -311,7 +315,12 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
                   place="retire")
         if "retired" in held:
             raise UserError(f"version {number} is already retired", place="retire")
-        uow.session.execute(delete(t.StageHolding).where(t.StageHolding.version_id == version.id))
+        # Row by row, not a bulk DELETE, so the unit of work sees each deleted holding.
+        for holding in uow.session.execute(
+                select(t.StageHolding).where(t.StageHolding.version_id == version.id)
+        ).scalars().all():
+            uow.session.delete(holding)
+        uow.session.flush()
         for stage in held:
             _event(uow, line, version, stage, "retired", actor, reason=reason)
         uow.session.add(t.StageHolding(model_id=line.id, version_id=version.id, stage="retired",
@@ -319,10 +328,12 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
         _event(uow, line, version, "retired", "entered", actor, reason=reason)
         uow.audit.append(actor.name, "version.retire", f"model/{line.name}/version/{number}",
                          {"left_stages": held, "reason": reason})
+        moved_by = releases.moving_event(uow)
         for stage in held:
             if policy.is_exclusive(stage):
-                releases.record_move(uow, line, version, stage, move="left", reason="retirement",
-                                     previous_holder=number, holder_after=None, report=None)
+                releases.record_move(uow, actor.name, line, version, stage, move="left",
+                                     reason="retirement", previous_holder=number,
+                                     holder_after=None, report=None, moved_by=moved_by)
         uow.commit()
         return {"model": line.name, "version": number, "left_stages": held, "retired": True}
 

@@ -1,7 +1,9 @@
 """The audit chain: how an event is hashed, and how a chain of stored events is checked.
 
 Each event's hash is SHA-256 over the canonical JSON of its content and its predecessor's hash,
-so editing, removing or reordering any stored event breaks every later link.
+so editing, removing or reordering any stored event breaks every later link. An event that
+closes a transaction also carries the digests of every deciding row the transaction wrote
+(registry/store/row_digests.py), hashed with it; events without rows hash as they always did.
 """
 
 from __future__ import annotations
@@ -25,14 +27,19 @@ class AuditRecord:
     details: dict[str, Any]
     previous_hash: str
     hash: str
+    rows: list[dict[str, Any]] | None = None
 
 
 def event_hash(sequence: int, occurred_at: str, actor: str, action: str, subject: str,
-               details: dict[str, Any], previous_hash: str) -> str:
-    return digest_of({
+               details: dict[str, Any], previous_hash: str,
+               rows: list[dict[str, Any]] | None = None) -> str:
+    content = {
         "sequence": sequence, "occurred_at": occurred_at, "actor": actor, "action": action,
         "subject": subject, "details": details, "previous_hash": previous_hash,
-    })
+    }
+    if rows is not None:
+        content["rows"] = rows
+    return digest_of(content)
 
 
 @dataclass(frozen=True)
@@ -57,7 +64,7 @@ def verify_chain(records: Iterable[AuditRecord], head: tuple[int, str] | None) -
                                      "its previous-hash does not match the event before it"))
         recomputed = event_hash(record.sequence, record.occurred_at, record.actor,
                                 record.action, record.subject, record.details,
-                                record.previous_hash)
+                                record.previous_hash, record.rows)
         if recomputed != record.hash:
             breaks.append(ChainBreak(record.sequence,
                                      "its content does not match its hash: the event was edited"))

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 from datetime import UTC, datetime
+from collections.abc import Iterator
 from typing import Any
 
 from sqlalchemy import select
@@ -20,9 +21,12 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.checkpoint_repository import CheckpointRepository
 from registry.store.document_repository import DocumentRepository
 from registry.store.keys_repository import KeyRepository
 from registry.store.release_repository import ReleaseRepository
+from registry.store.row_capture import RowCapture
+from registry.store.row_digests import RowReader
 from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.role_repository import RoleRepository
 from registry.store.token_repository import TokenRepository
@@ -57,7 +61,9 @@ class AuditLog:
 
     def __init__(self, session: Session) -> None:
         self._session = session
-        # The newest event appended in this transaction, which a release statement quotes.
+        self.appended: list[t.AuditEvent] = []  # this transaction's events, oldest first
+        # The newest event appended, as appended: final unless it stays the transaction's last
+        # event, which takes the row digests at commit (attach_rows) and is rehashed.
         self.last_sequence: int | None = None
         self.last_hash: str | None = None
 
@@ -70,9 +76,11 @@ class AuditLog:
         details_json = canonical_json(details).decode("utf-8")
         digest = event_hash(sequence, occurred_at, actor, action, subject,
                             _json_loads(details_json), previous_hash)
-        self._session.add(t.AuditEvent(sequence=sequence, occurred_at=occurred_at, actor=actor,
-                                       action=action, subject=subject, details_json=details_json,
-                                       previous_hash=previous_hash, hash=digest))
+        appended = t.AuditEvent(sequence=sequence, occurred_at=occurred_at, actor=actor,
+                                action=action, subject=subject, details_json=details_json,
+                                previous_hash=previous_hash, hash=digest)
+        self._session.add(appended)
+        self.appended.append(appended)
         if head is None:
             self._session.add(t.AuditHead(id=1, sequence=sequence, hash=digest))
         else:
@@ -80,6 +88,43 @@ class AuditLog:
         self._session.flush()
         self.last_sequence, self.last_hash = sequence, digest
         return sequence
+
+    def attach_rows(self, rows: list[dict[str, Any]]) -> None:
+        """Give the transaction's last event the digests of the rows the transaction wrote, and
+        rehash it: nothing is chained after it yet, so only it and the head change."""
+        last = self.appended[-1]
+        rows_json = canonical_json(rows).decode("utf-8")
+        last.rows_json = rows_json
+        last.hash = event_hash(last.sequence, last.occurred_at, last.actor, last.action,
+                               last.subject, _json_loads(last.details_json), last.previous_hash,
+                               _json_loads(rows_json))
+        head = self._session.get(t.AuditHead, 1)
+        head.hash = last.hash
+        self._session.flush()
+
+
+    # --- reading the chain back (audit verify, export) ---
+
+    def events(self) -> Iterator[Any]:
+        """Every stored event, oldest first, as plain rows (streamed: chains can be long)."""
+        query = select(t.AuditEvent.sequence, t.AuditEvent.occurred_at, t.AuditEvent.actor,
+                       t.AuditEvent.action, t.AuditEvent.subject, t.AuditEvent.details_json,
+                       t.AuditEvent.previous_hash, t.AuditEvent.hash, t.AuditEvent.rows_json
+                       ).order_by(t.AuditEvent.sequence)
+        yield from self._session.execute(query.execution_options(yield_per=2000))
+
+    def head(self) -> tuple[int, str] | None:
+        head = self._session.get(t.AuditHead, 1)
+        return (head.sequence, head.hash) if head is not None else None
+
+    def records_rows(self) -> bool:
+        """Whether any stored event carries row digests (none did before revision 0003)."""
+        return self._session.execute(select(t.AuditEvent.sequence).where(
+            t.AuditEvent.rows_json.is_not(None)).limit(1)).first() is not None
+
+    def rows_json_of(self, sequence: int) -> str | None:
+        return self._session.execute(select(t.AuditEvent.rows_json).where(
+            t.AuditEvent.sequence == sequence)).scalar_one_or_none()
 
 
 def _json_loads(text: str) -> Any:
@@ -100,9 +145,12 @@ class UnitOfWork:
         self.roles: RoleRepository
         self.releases: ReleaseRepository
         self.documents: DocumentRepository
-        self.keys: KeyRepository
         self.tokens: TokenRepository
         self.evaluations: EvaluationRepository
+        self.keys: KeyRepository
+        self.checkpoints: CheckpointRepository
+        self.capture: RowCapture | None = None
+        self.rows: RowReader
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
@@ -124,9 +172,13 @@ class UnitOfWork:
         self.roles = RoleRepository(self.session)
         self.releases = ReleaseRepository(self.session)
         self.documents = DocumentRepository(self.session)
-        self.keys = KeyRepository(self.session)
         self.tokens = TokenRepository(self.session)
         self.evaluations = EvaluationRepository(self.session)
+        self.keys = KeyRepository(self.session)
+        self.checkpoints = CheckpointRepository(self.session)
+        self.rows = RowReader(self.session)
+        if self.write:
+            self.capture = RowCapture(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":
@@ -140,7 +192,11 @@ class UnitOfWork:
             self.session.flush()
 
     def commit(self) -> None:
+        from registry.store.sealing import seal_transaction
+
         try:
+            if self.write:
+                seal_transaction(self)
             self.session.commit()
         except BaseException as error:
             raise _translate(error, self.catalogue) from None
@@ -160,6 +216,9 @@ class UnitOfWork:
         return False
 
     def _close(self) -> None:
+        if self.capture is not None:
+            self.capture.close()
+            self.capture = None
         self.session.close()
         sqlite_write_intent.reset(self._intent_token)
 

@@ -53,7 +53,10 @@ class Case:
     name: str
     action: str
     argv: Callable[[str, Path], list[str]]          # (door, files) -> arguments
-    request: Callable[[str, Path, dict], tuple]     # (door, files, ids) -> method, path, kwargs
+    request: Callable[[str, Path, dict], tuple] | None  # (door, files, ids) -> method, path, kwargs
+    # The signing key's file is on the machine that runs the command, so its actions have only
+    # the local door.
+    doors: tuple[str, ...] = ("local", "remote", "api")
 
 
 def _json(body: dict) -> dict:
@@ -135,6 +138,12 @@ CASES = [
     Case("promote into a guarded stage", "stage.guarded-move",
          lambda d, f: ["promote", "m", "5", "--to", "live"],
          lambda d, f, ids: ("POST", "/models/m/versions/5/promote", _json({"stage": "live"}))),
+    Case("create the signing key", "key.create", lambda d, f: ["key", "create"], None,
+         doors=("local",)),
+    Case("rotate the signing key", "key.rotate", lambda d, f: ["key", "rotate"], None,
+         doors=("local",)),
+    Case("sign a checkpoint", "audit.checkpoint", lambda d, f: ["audit", "checkpoint"], None,
+         doors=("local",)),
 ]
 
 
@@ -238,7 +247,7 @@ def test_every_door_gives_the_same_answer_for_every_write(empty_catalogue_url, t
         for case in CASES:
             expected_forbidden = role not in ACTIONS[case.action].roles
             answers = {}
-            for door in ("local", "remote", "api"):
+            for door in case.doors:
                 before = _audit_head(url)
                 if door == "api":
                     method, path, kwargs = case.request(door, tmp_path, ids)

@@ -18,9 +18,12 @@ def _run_with(runner: CliRunner, log: list[str]):
     return run
 
 
-def test_the_demo_story_plays_through_on_this_database(catalogue_url, cli):
+def test_the_demo_story_plays_through_on_this_database(catalogue_url, cli, signing_key_file):
     log: list[str] = []
+    assert not signing_key_file.exists()
     demo.play(catalogue_url, _run_with(CliRunner(), log), lambda line: None)
+    assert signing_key_file.exists()  # the demo made its signing key
+    assert cli.json("audit", "verify")["newest_checkpoint"] is not None
     status = cli.json("status", "main-burst-risk")["stages"]
     assert status["live"] == [1]           # v2 was rolled back to v1
     assert 2 in status["candidate"]        # and went back to the bottom of the ladder

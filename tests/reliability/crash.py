@@ -49,8 +49,10 @@ class CrashFigures:
 
 
 def set_up(cli: Cli, tmp_path: Path) -> None:
-    """Model `m` with no gates and a skippable ladder, plus an evaluation dataset."""
+    """Model `m` with no gates and a skippable ladder, plus an evaluation dataset, in a
+    catalogue with a signing key, so the killed commands write signed checkpoints too."""
     set_up_model(cli, tmp_path, {}, skippable=("shadow", "canary"))
+    cli.json("key", "create", user="mara.kowalczyk")
     cli.json("dataset", "add", EVALUATION_SET,
              str(SEED_DATA / "datasets" / f"{EVALUATION_SET}.parquet"), "--role", "evaluation",
              "--key", "segment_id", "--exclude", "burst_within_90d")

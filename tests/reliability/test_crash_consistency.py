@@ -8,6 +8,7 @@ import os
 import pytest
 
 from tests.reliability.crash import kill_trials, operations, set_up
+from tests.reliability.harness import assert_catalogue_sound, read_state
 
 OPERATIONS = ["register", "dataset-add", "evaluate", "promote", "rollback"]
 BOUNDED_TRIALS = 2
@@ -31,6 +32,9 @@ def test_a_killed_operation_happens_completely_or_not_at_all(operation, cli, tmp
                           seed=10, database=_database(cli.url))
     print(figures.line())
     assert figures.trials == BOUNDED_TRIALS
+    # Checkpoints were being signed throughout, and every one still verifies.
+    assert read_state(cli.url).counts["checkpoints"] >= 1
+    assert assert_catalogue_sound(cli.url)
 
 
 @pytest.mark.soak

@@ -251,6 +251,7 @@ def test_stored_json_of_any_shape_renders_without_error(catalogue, catalogue_url
                 schema_json="not json" if index % 2 else '{"type": "record", "fields": 3}',
                 fingerprint_digest=digest, registration_digest="0" * 64, created_at=now,
                 created_by="x"))
+        uow.audit.append("x", "test.odd-rows", "dataset/odd", {})  # rows need their event
         uow.commit()
     document, manifest = write_version_files(
         tmp_path, manifest_extra='trained_on = ["odd-0"]\nevaluated_on = ["odd-1"]\n')
@@ -267,6 +268,7 @@ def test_stored_json_of_any_shape_renders_without_error(catalogue, catalogue_url
             uow.session.add(t.GateReportRow(model_id=version.model_id, version_id=version_id,
                                             stage="shadow", attempt="promote", passed=False,
                                             report_json=report, created_at=now, created_by="x"))
+        uow.audit.append("x", "test.odd-rows", "model/odd", {})
         uow.commit()
     app = create_app(catalogue_url)
     try:

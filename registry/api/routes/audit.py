@@ -11,8 +11,4 @@ from registry.service import integrity
 @route("/audit/verify", "GET", summary="Recompute the audit chain and every stored digest",
        tag="audit")
 def verify_audit():
-    report = integrity.verify_catalogue(catalogue())
-    return json_response({"ok": report.ok, "events": report.events, "blobs": report.blobs,
-                          "versions": report.versions, "datasets": report.datasets,
-                          "first_broken_link": report.first_broken_link,
-                          "findings": report.findings})
+    return json_response(integrity.verify_catalogue(catalogue()).to_dict())
