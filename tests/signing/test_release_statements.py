@@ -132,6 +132,14 @@ def test_a_rollback_supersedes_the_release_and_states_both_moves(cli, catalogue,
     # The v2 statement is still a valid signature over v2's document; only the catalogue can
     # say it is no longer current, which --server asks (below, over HTTP).
     assert _verify(cli, v1_document, v1_envelope, story)["version"] == 1
+    # Every statement is audited, and the rollback's event hash it quotes is the one stored.
+    assert cli.json("audit", "verify")["ok"] is True
+    from sqlalchemy import text
+
+    with catalogue.engine.connect() as connection:
+        recorded = connection.execute(text(
+            "SELECT count(*) FROM audit_events WHERE action = 'release.record'")).scalar()
+    assert recorded == 4  # v1 and v2 entering live, then v2 leaving and v1 entering
 
 
 def test_retiring_the_live_version_leaves_the_stage_without_a_release(cli, tmp_path, story):
