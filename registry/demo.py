@@ -26,13 +26,16 @@ ADMIN, AUTHOR, APPROVER, SECOND_APPROVER = ("mara.kowalczyk", "ines.okafor", "to
 
 @dataclass(frozen=True)
 class Step:
-    """One command of the story, who runs it, and the exit code the story expects."""
+    """One command of the story, who runs it, and the exit code the story expects. A step
+    with an `action` does something a person would do outside lockkeeper instead (its
+    arguments are what the story prints for it)."""
 
     user: str
     arguments: tuple[str, ...]
     expect: int = 0
     caption: str = ""
     at: datetime | None = None  # the story's date of the step, when it has one
+    action: Callable[[], None] | None = None
 
 
 def _shown(arguments: Sequence[str]) -> str:
@@ -228,6 +231,59 @@ def story() -> list[Step]:
             *night_flow_story(), *closing]
 
 
+SERVING_SYSTEM = "burst-scoring-service"
+
+
+def _change_one_byte(source: Path, copy: Path) -> Callable[[], None]:
+    def change() -> None:
+        data = bytearray(source.read_bytes())
+        data[len(data) // 2] ^= 0x01
+        copy.write_bytes(bytes(data))
+
+    return change
+
+
+def serving_handoff(folder: Path) -> list[Step]:
+    """The serving side: fetch what is live, check its release statement before loading it,
+    and see a copy with one byte changed refused."""
+    document, envelope = folder / "live.pfa.json", folder / "live.release.json"
+    key, edited = folder / "catalogue.pub.pem", folder / "edited.pfa.json"
+    verify = ("release", "verify", "--model", "main-burst-risk", "--stage", "live",
+              "--key", str(key))
+    return [
+        Step(SERVING_SYSTEM, ("document", "get", "main-burst-risk", "--stage", "live", "-o",
+                              str(document)),
+             caption="The scoring service fetches the live document, its release statement "
+                     "and the catalogue's public key."),
+        Step(SERVING_SYSTEM, ("release", "show", "main-burst-risk", "--stage", "live", "-o",
+                              str(envelope))),
+        Step(SERVING_SYSTEM, ("key", "public", "-o", str(key))),
+        Step(SERVING_SYSTEM, (*verify[:2], str(document), str(envelope), *verify[2:]),
+             caption="Before loading it, the service checks the statement offline."),
+        Step(SERVING_SYSTEM, ("copy", str(document), "to", str(edited), "with one byte "
+                              "changed"),
+             caption="A copy edited by hand: one byte changed.",
+             action=_change_one_byte(document, edited)),
+        Step(SERVING_SYSTEM, (*verify[:2], str(edited), str(envelope), *verify[2:]), expect=1,
+             caption="The service refuses it: the document is not the one released."),
+    ]
+
+
+def _work_folder(db_url: str) -> Path:
+    """Where the serving side of the story keeps its files: beside the demo's SQLite file, or
+    a fresh temporary folder for a catalogue on a server."""
+    import tempfile
+
+    from registry.store.catalogue import parse_catalogue_url
+
+    url = parse_catalogue_url(db_url)
+    if url.get_backend_name() != "sqlite" or not url.database:
+        return Path(tempfile.mkdtemp(prefix="lockkeeper-demo-serving-"))
+    folder = Path(url.database).parent / "serving"
+    folder.mkdir(parents=True, exist_ok=True)
+    return folder
+
+
 def play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None]) -> None:
     """Run every step against the catalogue at db_url; stop at the first unexpected outcome.
     The story keeps a calendar of its own: the catalogue's clock starts at its first day and
@@ -245,12 +301,16 @@ def play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str]
 def _play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None]) -> None:
     from registry import clock
 
-    for step in [Step(ADMIN, ("init",)), *story()]:
+    for step in [Step(ADMIN, ("init",)), *story(), *serving_handoff(_work_folder(db_url))]:
         if step.at is not None:
             clock.travel_to(step.at)
         if step.caption:
             echo("")
             echo(f"# {step.caption}")
+        if step.action is not None:
+            echo(f"(by hand) {' '.join(_shown([a]) for a in step.arguments)}")
+            step.action()
+            continue
         echo(f"$ lockkeeper --as {step.user} {_shown(step.arguments)}")
         code = run(["--db", db_url, "--as", step.user, *step.arguments], step.user)
         if code != step.expect:

@@ -42,6 +42,12 @@ class NotFound(UserError):
     kind = "not-found"
 
 
+class StageNotHeld(NotFound):
+    """The model and stage exist, but no version holds the stage now."""
+
+    kind = "stage-not-held"
+
+
 class AlreadyExists(UserError):
     """A name that must be unique is already taken."""
 

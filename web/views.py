@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import re
 
-from flask import abort, current_app, render_template, request
+from flask import Response, abort, current_app, render_template, request
 
 from registry.errors import UserError
 from registry.names import NAME_PATTERN
@@ -13,6 +13,7 @@ from registry.service.lineage import normalise_node
 from registry.service.queries.catalogue import DATASET_STATES, MODEL_STATES
 from registry.store.page_reads import EventFilter
 from web import blueprint, charts, graphics, timeline
+from registry.service import releases
 
 # Deep enough that a source dataset's graph reaches the stages its versions hold:
 # extract -> training set -> version -> stage.
@@ -21,6 +22,7 @@ PAGE_DEPTH_LIMIT = 8
 MAX_DRAWN_NODES = 250  # beyond this a drawing helps nobody; the page lists the nodes instead
 _NUMBER = re.compile(r"^[0-9]{1,9}$")
 _ACTION = re.compile(r"^[a-z]{1,20}\.[a-z-]{1,20}$")
+_DIGEST = re.compile(r"^[0-9a-f]{64}$")
 
 
 def _catalogue():
@@ -95,7 +97,9 @@ def model(name: str):
 @blueprint.route("/models/<name>/versions/<int:number>")
 def version(name: str, number: int):
     page = queries.version_page(_catalogue(), _name(name, "model"), number)
-    return render_template("version.html", page=page)
+    return render_template("version.html", page=page,
+                           releases=releases.releases_of_version(_catalogue(), page.model,
+                                                                 page.number))
 
 
 @blueprint.route("/models/<name>/versions/<int:number>/impact")
@@ -111,6 +115,16 @@ def version_impact(name: str, number: int):
     found = impact_of(_catalogue(), name, number, stage)
     return render_template("impact.html", impact=found, ladder=ladder,
                            chart=interval_chart(found["metrics"], found["slices"]))
+@blueprint.route("/models/<name>/releases/<digest>.json")
+def release_download(name: str, digest: str):
+    """One release statement's envelope, byte for byte, as a download."""
+    if not _DIGEST.fullmatch(digest):
+        abort(404, description=f"no release statement {digest!r}")
+    release = releases.release_by_digest(_catalogue(), _name(name, "model"), digest)
+    file_name = f"{release.model}-v{release.version}-{release.stage}-{release.move}.release.json"
+    return Response(release.envelope, mimetype=releases.ENVELOPE_MEDIA_TYPE,
+                    headers={"Content-Disposition": f'attachment; filename="{file_name}"',
+                             "ETag": f'"{release.digest}"'})
 
 
 @blueprint.route("/models/<name>/compare")

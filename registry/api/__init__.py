@@ -8,6 +8,8 @@ Configuration (app.config):
                          the default SQLite file)
   LOCKKEEPER_OPEN_READS  True lets requests without a token read (default False: every read
                          needs a token of any role)
+  LOCKKEEPER_MAX_WAITING how many requests one process holds open waiting for a change
+                         (`?wait=`); more get 503 with Retry-After (default 64)
   MAX_CONTENT_LENGTH     the largest body accepted, in bytes (default 64 MiB); larger uploads
                          get 413 before their body is read
 """

@@ -12,19 +12,19 @@ import secrets
 import urllib.error
 import urllib.parse
 import urllib.request
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from pathlib import Path, PurePosixPath
 from typing import Any
 
 from registry.errors import (
     AlreadyExists, CatalogueUnavailable, Conflict, Forbidden, LockkeeperError, NotFound, Refusal,
-    Unprocessable, UserError,
+    StageNotHeld, Unprocessable, UserError,
 )
 from registry.manifest import parse_manifest
 from registry.service.tokens import Unauthenticated
 
 ERRORS_BY_KIND: dict[str, type[LockkeeperError]] = {
-    "not-found": NotFound, "already-exists": AlreadyExists, "forbidden": Forbidden,
+    "not-found": NotFound, "stage-not-held": StageNotHeld, "already-exists": AlreadyExists, "forbidden": Forbidden,
     "conflict": Conflict, "refused": Refusal, "invalid-content": Unprocessable,
     "invalid-schema": Unprocessable, "unauthenticated": Unauthenticated,
     "catalogue-unavailable": CatalogueUnavailable,
@@ -118,24 +118,45 @@ class ApiClient:
                 content_type: str | None = None, headers: dict[str, str] | None = None
                 ) -> tuple[int, dict[str, str], Any]:
         sent = dict(headers or {})
-        if self.token:
-            sent["Authorization"] = f"Bearer {self.token}"
         if body is not UNSET:
             data = json.dumps(body).encode("utf-8")
             content_type = "application/json"
         if content_type:
             sent["Content-Type"] = content_type
+        with self._open(method, path, data=data, headers=sent) as response:
+            status = response.status
+            return status, dict(response.headers), (None if status == 304
+                                                     else _json(response.read()))
+
+    def stream(self, path: str, *, headers: dict[str, str] | None = None,
+               chunk_size: int = 1024 * 1024) -> Iterator[tuple[dict[str, str], bytes]]:
+        """GET `path` and yield (response headers, chunk) as the body arrives, never holding
+        it whole; a problem document comes back as its typed error."""
+        with self._open("GET", path, headers=headers) as response:
+            received = dict(response.headers)
+            try:
+                while chunk := response.read(chunk_size):
+                    yield received, chunk
+            except OSError as error:
+                raise CatalogueUnavailable(f"the server at {self.base} broke off: {error}",
+                                           place="--server") from None
+
+    def _open(self, method: str, path: str, *, data: bytes | None = None,
+              headers: dict[str, str] | None = None) -> Any:
+        """The response, open: a 2xx or a 304 (an HTTPError is a response too); any other
+        status raises the typed error of its problem document."""
+        sent = dict(headers or {})
+        if self.token:
+            sent["Authorization"] = f"Bearer {self.token}"
         request = urllib.request.Request(self.base + path, data=data, method=method,
                                          headers=sent)
         try:
-            with urllib.request.urlopen(request, timeout=self.timeout) as response:
-                return response.status, dict(response.headers), _json(response.read())
+            return urllib.request.urlopen(request, timeout=self.timeout)
         except urllib.error.HTTPError as error:
+            if error.code == 304:
+                return error
             with error:
-                payload = error.read()
-                if error.code == 304:
-                    return 304, dict(error.headers), None
-                document = _json(payload)
+                document = _json(error.read())
             if isinstance(document, dict) and "type" in document:
                 raise error_from_problem(error.code, document) from None
             raise RemoteError(f"HTTP {error.code} from {self.base}", kind="bad-input",
@@ -216,6 +237,26 @@ class ApiClient:
         status, response_headers, document = self.request(
             "GET", f"/models/{_quote(model)}/stages/{_quote(stage)}", headers=headers)
         return (None if status == 304 else document), response_headers.get("ETag")
+
+    def status_when_changed(self, model: str, etag: str | None, wait: float
+                            ) -> tuple[dict | None, str | None]:
+        """The model's status once it differs from `etag` (held up to `wait` seconds by the
+        server); (None, etag) when nothing changed meanwhile."""
+        headers = {"If-None-Match": etag} if etag else None
+        status, response_headers, document = self.request(
+            "GET", f"/models/{_quote(model)}/status?wait={wait:g}", headers=headers)
+        return (None if status == 304 else document), response_headers.get("ETag")
+
+    def document_path(self, model: str, *, version: int | None = None,
+                      stage: str | None = None) -> str:
+        if version is not None:
+            return f"/models/{_quote(model)}/versions/{int(version)}/document"
+        return f"/models/{_quote(model)}/stages/{_quote(stage or '')}/document"
+
+    def release_envelope(self, model: str, stage: str) -> bytes:
+        """The current release statement of a stage: the envelope's exact bytes."""
+        return b"".join(chunk for _, chunk in
+                        self.stream(f"/models/{_quote(model)}/stages/{_quote(stage)}/release"))
 
     def report(self, report_id: int) -> dict:
         return self._get(f"/reports/{int(report_id)}")

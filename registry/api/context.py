@@ -3,16 +3,22 @@
 from __future__ import annotations
 
 import threading
+from collections.abc import Callable
+from typing import TypeVar
 
 from flask import Flask, current_app, g
 
 from registry.service.cached_reads import CachedReads
+from registry.service.change_watch import ChangeWatcher
 from registry.store.catalogue import Catalogue, open_catalogue
 
 EXTENSION = "lockkeeper.catalogue"
 READS_EXTENSION = "lockkeeper.cached_reads"
+WATCH_EXTENSION = "lockkeeper.change_watch"
+DEFAULT_MAX_WAITING = 64  # requests one process may hold open waiting for a change
 WEB_EXTENSION = "lockkeeper"  # registry.app's CatalogueHolder
-_opening = threading.Lock()
+_opening = threading.RLock()  # reentrant: making one object may open another
+T = TypeVar("T")
 
 
 def catalogue() -> Catalogue:
@@ -37,17 +43,27 @@ def _shared_or_own(app: Flask) -> Catalogue:
     return open_catalogue(app.config.get("LOCKKEEPER_DB"))
 
 
-def cached_reads() -> CachedReads:
+def _once_per_app(key: str, make: Callable[[], T]) -> T:
+    """The app's one `key` object, made on first use (`make` may itself open others)."""
     app = current_app
-    reads = app.extensions.get(READS_EXTENSION)
-    if reads is None:
-        opened = catalogue()
+    made = app.extensions.get(key)
+    if made is None:
         with _opening:
-            reads = app.extensions.get(READS_EXTENSION)
-            if reads is None:
-                reads = CachedReads(opened)
-                app.extensions[READS_EXTENSION] = reads
-    return reads
+            made = app.extensions.get(key)
+            if made is None:
+                made = app.extensions[key] = make()
+    return made
+
+
+def cached_reads() -> CachedReads:
+    return _once_per_app(READS_EXTENSION, lambda: CachedReads(catalogue()))
+
+
+def change_watcher() -> ChangeWatcher:
+    """The process's watcher of the audit head, for requests that wait for a change."""
+    limit = int(current_app.config.get("LOCKKEEPER_MAX_WAITING", DEFAULT_MAX_WAITING))
+    return _once_per_app(WATCH_EXTENSION,
+                         lambda: ChangeWatcher(cached_reads().generation, max_waiting=limit))
 
 
 def generation() -> int:

@@ -24,6 +24,8 @@ TITLES = {
     "malformed-json": "The body is not valid JSON",
     "unknown-fields": "The body has fields this operation does not take",
     "not-found": "No such thing in the catalogue",
+    "stage-not-held": "No version holds this stage",
+    "too-many-waiting": "Too many requests are already waiting for a change",
     "already-exists": "The name is already taken",
     "invalid-content": "The content parsed but is not acceptable",
     "invalid-schema": "The Avro schema is not valid",

@@ -1,6 +1,9 @@
 """The WSGI entry point for production servers: `gunicorn registry.api.wsgi:app`.
 
-The catalogue is LOCKKEEPER_DB; LOCKKEEPER_OPEN_READS=1 lets requests without a token read.
+The catalogue is LOCKKEEPER_DB; LOCKKEEPER_OPEN_READS=1 lets requests without a token read;
+LOCKKEEPER_MAX_WAITING caps the requests one process holds open for `?wait=` (default 64). Run
+threaded workers (`--worker-class gthread --threads N`) when clients wait: each waiting request
+holds a thread.
 """
 
 from __future__ import annotations
@@ -11,4 +14,6 @@ from registry.api import create_api_app
 
 app = create_api_app(os.environ.get("LOCKKEEPER_DB"), config={
     "LOCKKEEPER_OPEN_READS": os.environ.get("LOCKKEEPER_OPEN_READS", "") in ("1", "true", "True"),
+    **({"LOCKKEEPER_MAX_WAITING": int(os.environ["LOCKKEEPER_MAX_WAITING"])}
+       if os.environ.get("LOCKKEEPER_MAX_WAITING", "").isdigit() else {}),
 })

@@ -223,3 +223,10 @@ def diff_command(ctx: click.Context, old: str, new: str, old_schema: str | None,
     emit(_diff_report(diff), as_json, _render_diff)
     if diff.is_breaking:
         ctx.exit(1)
+
+
+# `document get` fetches from a catalogue; its own module keeps the catalogue-free commands here
+# light to import.
+from registry.cli.document_get_commands import document_get  # noqa: E402
+
+document_group.add_command(document_get)

@@ -40,7 +40,10 @@ def gunicorn_application(app, options: dict):
 @click.option("--port", type=click.IntRange(1, 65535), default=8765, show_default=True)
 @click.option("--workers", type=click.IntRange(1, 64), default=2, show_default=True,
               help="gunicorn worker processes.")
-def serve(host: str, port: int, workers: int) -> None:
+@click.option("--threads", type=click.IntRange(2, 1024), default=32, show_default=True,
+              help="Threads per worker; requests waiting for a change (?wait=) each hold one, "
+                   "up to three quarters of them.")
+def serve(host: str, port: int, workers: int, threads: int) -> None:
     """Serve the read-only lineage browser at http://HOST:PORT/ (gunicorn)."""
     from registry.app import create_app
     from registry.store.catalogue import open_catalogue
@@ -52,8 +55,10 @@ def serve(host: str, port: int, workers: int) -> None:
         raise UserError(f"invalid host {host!r}", place="--host")
     if not _is_loopback(host):
         warn(f"lockkeeper: serving on {host}, beyond this machine; the pages have no login")
-    app = create_app(context.db_url)
+    # Waiting requests may take three quarters of the threads; the rest answer everyone else.
+    app = create_app(context.db_url, config={"LOCKKEEPER_MAX_WAITING": max(1, threads * 3 // 4)})
     warn(f"lockkeeper: serving the catalogue on http://{host}:{port}/ with {workers} worker(s)")
     gunicorn_application(app, {"bind": f"{host}:{port}", "workers": workers,
+                               "worker_class": "gthread", "threads": threads,
                                "accesslog": "-", "errorlog": "-", "loglevel": "warning",
                                "timeout": 60}).run()

@@ -171,9 +171,20 @@ def retire(model_name: str, version: int, reason: str, as_json: bool) -> None:
 
 @click.command()
 @click.argument("model_name", metavar="MODEL")
+@click.option("--watch", is_flag=True, help="Keep watching: print each change as it happens "
+              "(with --json, one JSON document per line) until Ctrl-C.")
+@click.option("--changes", type=click.IntRange(min=1), default=None, metavar="N",
+              help="With --watch, stop after N changes.")
 @json_option
-def status(model_name: str, as_json: bool) -> None:
+def status(model_name: str, watch: bool, changes: int | None, as_json: bool) -> None:
     """Who holds each stage of MODEL."""
+    if watch:
+        from registry.cli.status_watch import watch_status
+
+        watch_status(_context(), model_name, as_json, changes)
+        return
+    if changes is not None:
+        raise UserError("--changes goes with --watch", place="--changes")
     remote = _context().remote()
     document = (remote.status(model_name) if remote
                 else stages.status(_context().catalogue(), model_name))

@@ -162,6 +162,10 @@ class CachedReads:
             self._remember(self._holders, key, holder, generation)
         return holder
 
+    def connections_in_use(self) -> int:
+        """Reading connections checked out now, not counting the idle ones kept for the head."""
+        return self.engine.pool.checkedout() - self._idle_connections.qsize()
+
     def close(self) -> None:
         while not self._idle_connections.empty():
             self._idle_connections.get_nowait().close()

@@ -14,7 +14,7 @@ from functools import lru_cache
 
 from sqlalchemy import Connection, select
 
-from registry.errors import NotFound
+from registry.errors import NotFound, StageNotHeld
 from registry.names import check_name
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
@@ -65,8 +65,11 @@ def read_stage_holder(connection: Connection, model: str, stage: str) -> StageHo
              .order_by(t.StageHolding.since.desc(), t.StageHolding.id.desc()))
     rows = connection.execute(query).all()
     if not rows:
-        raise NotFound(f"no version of {model!r} holds {stage!r} (or there is no such model)",
-                       place="stage")
+        # Only now, off the hot path, tell an unknown model from a stage nobody holds.
+        known = connection.execute(select(t.Model.id).where(t.Model.name == model)).first()
+        if known is None:
+            raise NotFound(f"unknown model {model!r}", place="model")
+        raise StageNotHeld(f"no version of {model!r} holds {stage!r}", place="stage")
     newest = rows[0]
     tag = hashlib.sha256("|".join(f"{row.id}@{row.since.isoformat()}" for row in rows)
                          .encode("utf-8")).hexdigest()[:32]

@@ -17,7 +17,7 @@ from sqlalchemy import select
 from registry.errors import Conflict, NotFound, Refusal, UserError
 from registry.moments import utc_iso
 from registry.names import check_name
-from registry.service import gatekeeping
+from registry.service import gatekeeping, releases
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.models import find_model, find_version
@@ -188,6 +188,11 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
                          {"stage": stage, "passed": report.passed, "report_id": report_id,
                           "displaced_version": displaced, "summary": report.summary(),
                           "waivers": [dataclasses.asdict(w) for w in report.waivers]})
+        if report.passed and policy.is_exclusive(stage):
+            releases.record_move(uow, actor.name, line, version, stage, move="entered",
+                                 reason="promotion", previous_holder=displaced,
+                                 holder_after=number, report=report,
+                                 moved_by=releases.moving_event(uow))
         uow.commit()
         return StageOutcome(line.name, number, stage, report.passed, report.to_dict(), report_id,
                             displaced)
@@ -273,6 +278,13 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
                          {"stage": stage, "from_version": holder.number,
                           "to_version": previous.number, "passed": report.passed,
                           "report_id": report_id, "summary": report.summary()})
+        if report.passed:
+            moved_by = releases.moving_event(uow)
+            for moved, move in ((holder, "left"), (previous, "entered")):
+                releases.record_move(uow, actor.name, line, moved, stage, move=move,
+                                     reason="rollback", previous_holder=holder.number,
+                                     holder_after=previous.number, report=report,
+                                     moved_by=moved_by)
         uow.commit()
         return StageOutcome(line.name, previous.number, stage, report.passed, report.to_dict(),
                             report_id, holder.number if report.passed else None)
@@ -318,6 +330,12 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
         _event(uow, line, version, "retired", "entered", actor, reason=reason)
         uow.audit.append(actor.name, "version.retire", f"model/{line.name}/version/{number}",
                          {"left_stages": held, "reason": reason})
+        moved_by = releases.moving_event(uow)
+        for stage in held:
+            if policy.is_exclusive(stage):
+                releases.record_move(uow, actor.name, line, version, stage, move="left",
+                                     reason="retirement", previous_holder=number,
+                                     holder_after=None, report=None, moved_by=moved_by)
         uow.commit()
         return {"model": line.name, "version": number, "left_stages": held, "retired": True}
 

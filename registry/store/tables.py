@@ -189,6 +189,28 @@ class Approval(Base):
     created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
 
 
+class ReleaseStatementRow(Base):
+    """A signed release statement: a DSSE envelope around an in-toto statement that a version's
+    document entered or left an exclusive stage (registry/signing/statements.py)."""
+
+    __tablename__ = "release_statements"
+    __table_args__ = (
+        CheckConstraint("move IN ('entered', 'left')", name="ck_release_move"),
+        Index("ix_release_statements_stage", "model_id", "stage", "id"),
+    )
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    model_id: Mapped[int] = mapped_column(ForeignKey("models.id"))
+    version_id: Mapped[int] = mapped_column(ForeignKey("versions.id"), index=True)
+    stage: Mapped[str] = mapped_column(String(NAME_LENGTH))
+    move: Mapped[str] = mapped_column(String(10))
+    envelope_json: Mapped[str] = mapped_column(Text)
+    # SHA-256 of the envelope's bytes as served: its ETag and its name in links.
+    envelope_digest: Mapped[str] = mapped_column(String(64), unique=True)
+    key_id: Mapped[str | None] = mapped_column(String(64), nullable=True)  # None: unsigned
+    audit_sequence: Mapped[int] = mapped_column(Integer)
+    created_at: Mapped[datetime] = mapped_column(DateTime(timezone=True))
+
+
 class RoleGrant(Base):
     """Roles of local and token users: publisher, approver, admin."""
 

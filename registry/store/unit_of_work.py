@@ -25,7 +25,9 @@ from registry.store.audit_repository import AuditEventRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.consumer_repository import ConsumerRepository
 from registry.store.checkpoint_repository import CheckpointRepository
+from registry.store.document_repository import DocumentRepository
 from registry.store.keys_repository import KeyRepository
+from registry.store.release_repository import ReleaseRepository
 from registry.store.row_capture import RowCapture
 from registry.store.row_digests import RowReader
 from registry.store.evaluation_repository import EvaluationRepository
@@ -67,6 +69,10 @@ class AuditLog:
     def __init__(self, session: Session) -> None:
         self._session = session
         self.appended: list[t.AuditEvent] = []  # this transaction's events, oldest first
+        # The newest event appended, as appended: final unless it stays the transaction's last
+        # event, which takes the row digests at commit (attach_rows) and is rehashed.
+        self.last_sequence: int | None = None
+        self.last_hash: str | None = None
 
     def append(self, actor: str, action: str, subject: str, details: dict[str, Any]) -> int:
         head = self._session.get(t.AuditHead, 1)
@@ -87,6 +93,7 @@ class AuditLog:
         else:
             head.sequence, head.hash = sequence, digest
         self._session.flush()
+        self.last_sequence, self.last_hash = sequence, digest
         return sequence
 
     def attach_rows(self, rows: list[dict[str, Any]]) -> None:
@@ -145,6 +152,8 @@ class UnitOfWork:
         self.roles: RoleRepository
         self.feeds: FeedRepository
         self.consumers: ConsumerRepository
+        self.releases: ReleaseRepository
+        self.documents: DocumentRepository
         self.tokens: TokenRepository
         self.evaluations: EvaluationRepository
         self.audit_events: AuditEventRepository
@@ -176,6 +185,8 @@ class UnitOfWork:
         self.roles = RoleRepository(self.session)
         self.feeds = FeedRepository(self.session)
         self.consumers = ConsumerRepository(self.session)
+        self.releases = ReleaseRepository(self.session)
+        self.documents = DocumentRepository(self.session)
         self.tokens = TokenRepository(self.session)
         self.evaluations = EvaluationRepository(self.session)
         self.audit_events = AuditEventRepository(self.session)

@@ -4,8 +4,13 @@ from __future__ import annotations
 
 import io
 import json
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
+
+from werkzeug.serving import make_server
 
 from registry.api import create_api_app
 from registry.service import tokens
@@ -76,6 +81,19 @@ def make_tokens(url: str) -> dict[str, str]:
                 for role, user in HOLDERS.items()}
     finally:
         catalogue.close()
+
+
+@contextmanager
+def served(app) -> Iterator[str]:
+    """The app on a loopback port of its own, in a thread; yields its base URL."""
+    server = make_server("127.0.0.1", 0, app, threaded=True)
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    try:
+        yield f"http://127.0.0.1:{server.server_port}"
+    finally:
+        server.shutdown()
+        thread.join(5)
 
 
 def open_api(url: str, secrets: dict[str, str], *, config: dict | None = None) -> Api:

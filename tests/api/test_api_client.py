@@ -2,16 +2,14 @@
 
 from __future__ import annotations
 
-import threading
 
 import pytest
-from werkzeug.serving import make_server
 
 from registry.api.client import ApiClient, RemoteError
 from registry.errors import AlreadyExists, CatalogueUnavailable, Forbidden, NotFound
 from registry.service.tokens import Unauthenticated
 
-from tests.api.api_helpers import make_api
+from tests.api.api_helpers import make_api, served
 from tests.catalogue.helpers import INPUT_SCHEMA, write_version_files
 from tests.catalogue.stage_helpers import policy_keeping
 
@@ -19,14 +17,8 @@ from tests.catalogue.stage_helpers import policy_keeping
 @pytest.fixture
 def live(cli):
     api = make_api(cli)
-    server = make_server("127.0.0.1", 0, api.client.application, threaded=True)
-    thread = threading.Thread(target=server.serve_forever, daemon=True)
-    thread.start()
-    try:
-        yield api, f"http://127.0.0.1:{server.server_port}"
-    finally:
-        server.shutdown()
-        thread.join(5)
+    with served(api.client.application) as url:
+        yield api, url
 
 
 def test_the_client_drives_every_use_case_over_http(live, tmp_path):

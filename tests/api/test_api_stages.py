@@ -43,10 +43,15 @@ def test_stage_lookup_answers_304_while_the_holder_is_unchanged(api, tmp_path):
     assert changed.headers["ETag"] != etag
 
 
-def test_stage_nobody_holds_is_a_not_found_problem(api, tmp_path):
+def test_stage_nobody_holds_is_a_not_found_problem_of_its_own(api, tmp_path):
     set_up_model(api, tmp_path)
-    document = problem(api.get("/models/m/stages/live"))
-    assert document["type"].endswith("/not-found")
+    response = api.get("/models/m/stages/live")
+    document = problem(response)
+    assert response.status_code == 404
+    assert document["type"].endswith("/stage-not-held")
+    assert document["title"] == "No version holds this stage"
+    unknown = api.get("/models/no-such-model/stages/live")
+    assert unknown.status_code == 404 and problem(unknown)["type"].endswith("/not-found")
 
 
 def test_rollback_and_retire_and_history(api, tmp_path):

@@ -3,15 +3,13 @@
 from __future__ import annotations
 
 import json
-import threading
 
 import pytest
 from click.testing import CliRunner
-from werkzeug.serving import make_server
 
 from registry.cli import main
 
-from tests.api.api_helpers import make_api
+from tests.api.api_helpers import make_api, served
 from tests.catalogue.helpers import write_version_files
 from tests.catalogue.stage_helpers import policy_keeping
 
@@ -19,10 +17,6 @@ from tests.catalogue.stage_helpers import policy_keeping
 @pytest.fixture
 def remote(cli):
     api = make_api(cli)
-    server = make_server("127.0.0.1", 0, api.client.application, threaded=True)
-    thread = threading.Thread(target=server.serve_forever, daemon=True)
-    thread.start()
-    url = f"http://127.0.0.1:{server.server_port}"
 
     def run(role: str, *arguments: str, expect: int = 0):
         result = CliRunner().invoke(main, ["--server", url, "--token", api.secrets[role],
@@ -30,11 +24,8 @@ def remote(cli):
         assert result.exit_code == expect, result.output
         return json.loads(result.stdout) if result.stdout.strip() else None
 
-    try:
+    with served(api.client.application) as url:
         yield run
-    finally:
-        server.shutdown()
-        thread.join(5)
 
 
 def test_a_version_climbs_to_live_through_the_remote_commands(remote, cli, tmp_path):

@@ -82,6 +82,8 @@ def one_byte_edit(table: str, column: str, value: Any) -> Any:
     if table == t.VersionDataset.__tablename__ and column == "relation":
         # a CHECK constraint allows only the two relations: swap them
         return "evaluated-on" if value == "trained-on" else "trained-on"
+    if table == t.ReleaseStatementRow.__tablename__ and column == "move":
+        return "left" if value == "entered" else "entered"  # its CHECK allows only these two
     if value is None:
         if isinstance(column_type, DateTime):
             return datetime(2026, 1, 1, tzinfo=UTC)

@@ -34,6 +34,10 @@ def test_the_demo_story_plays_through_on_this_database(catalogue_url, cli, signi
     refused = [a for a in history["attempts"] if not a["passed"]]
     assert [(a["version"], a["stage"]) for a in refused] == [(2, "canary"), (3, "shadow"),
                                                              (4, "shadow")]
+    # The serving side closes the story: the live document verifies, an edited copy does not.
+    verdicts = [line for entry in log for line in entry.splitlines() if "VERIFIED" in line]
+    assert verdicts[0].startswith("VERIFIED: main-burst-risk@1")
+    assert verdicts[1].startswith("NOT VERIFIED (document-changed)")
 
 
 def test_refusals_name_the_place_at_fault(catalogue_url, cli):

@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
-from flask import g
+from flask import Response, g
 
 from registry.api.bodies import NAME, TEXT, json_body, strict_object
 from registry.api.context import catalogue
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
+from registry.api.waiting import WAIT_PARAMETER, answer_when_changed, unchanged, wait_seconds
+from registry.canonical_json import digest_of
 from registry.service import models, policies, stages
 
 CREATE_MODEL_BODY = strict_object({"name": NAME, "description": TEXT}, ("name",))
@@ -47,9 +49,26 @@ def set_policy(model: str):
                                              body["policy"], g.actor))
 
 
-@route("/models/<model>/status", "GET", summary="Who holds each stage of a model", tag="models")
+@route("/models/<model>/status", "GET", summary="Who holds each stage of a model (send "
+       "If-None-Match with the last ETag and ?wait=SECONDS to be answered when it changes)",
+       tag="models", query=(WAIT_PARAMETER,),
+       responses={200: "OK", 304: "Not Modified: nobody moved", 400: "Bad wait",
+                  503: "Too many requests already wait in this process (see Retry-After)"})
 def model_status(model: str):
-    return json_response(stages.status(catalogue(), path_name(model, "model")))
+    name = path_name(model, "model")
+    seconds = wait_seconds()
+    document = answer_when_changed(lambda _at: stages.status(catalogue(), name), _status_tag,
+                                   seconds)
+    if isinstance(document, Response):
+        return document
+    headers = {"ETag": f'"{_status_tag(document)}"', "Cache-Control": "no-cache"}
+    if unchanged(_status_tag(document)):
+        return Response(status=304, headers=headers)
+    return json_response(document, headers=headers)
+
+
+def _status_tag(document: dict) -> str:
+    return digest_of(document)[:32]
 
 
 @route("/models/<model>/history", "GET", summary="Every stage event of a model, oldest first",

@@ -8,9 +8,10 @@ import json
 from flask import Response, g, request
 
 from registry.api.bodies import NAME, TEXT, WAIVERS, json_body, strict_object
-from registry.api.context import cached_reads, catalogue, generation
+from registry.api.context import cached_reads, catalogue
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
+from registry.api.waiting import WAIT_PARAMETER, answer_when_changed, unchanged, wait_seconds
 from registry.service import gatekeeping, stages
 
 CHECK_BODY = strict_object({"stage": NAME, "waivers": WAIVERS}, ("stage",))
@@ -83,13 +84,21 @@ def roll_back_stage(model: str, stage: str):
 
 
 @route("/models/<model>/stages/<stage>", "GET", summary="The version holding a stage now "
-       "(what a scoring service polls; send If-None-Match with the last ETag)", tag="stages",
-       responses={200: "OK", 304: "Not Modified: the holder is unchanged"})
+       "(what a scoring service polls; send If-None-Match with the last ETag, and ?wait=SECONDS "
+       "to be answered as soon as the holder changes)", tag="stages",
+       query=(WAIT_PARAMETER,),
+       responses={200: "OK", 304: "Not Modified: the holder is unchanged", 400: "Bad wait",
+                  503: "Too many requests already wait in this process (see Retry-After)"})
 def stage_holding(model: str, stage: str):
-    holder = cached_reads().stage_holder(model, stage, generation())
+    seconds = wait_seconds()
+    reads = cached_reads()
+    holder = answer_when_changed(lambda at: reads.stage_holder(model, stage, at),
+                                 lambda found: found.tag, seconds)
+    if isinstance(holder, Response):
+        return holder
     etag = f'"{holder.tag}"'
     headers = {"ETag": etag, "Cache-Control": "no-cache"}
-    if request.if_none_match.contains_weak(holder.tag):
+    if unchanged(holder.tag):
         return Response(status=304, headers=headers)
     # Plain json.dumps: this is the hot path, and the document is already plain data.
     return Response(json.dumps(holder.to_dict()), status=200, headers=headers,

@@ -1,0 +1,118 @@
+"""`lockkeeper document get`: a stored document, written atomically and checked on arrival.
+
+The bytes go to a temporary file beside the target, hashed as they arrive; only when their
+SHA-256 is the one the catalogue names does the file take its final name (a rename, so a
+server watching the folder never sees half a document).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import tempfile
+from collections.abc import Iterable
+from pathlib import Path
+
+import click
+
+from registry.cli.output import emit, json_option, stderr_is_terminal
+from registry.cli.version_names import model_and_version
+from registry.errors import Refusal, UserError
+
+
+def write_checked(chunks: Iterable[bytes], target: Path, expected_sha256: str,
+                  size: int | None) -> int:
+    """Write `chunks` to `target` atomically, refusing bytes whose SHA-256 is not expected."""
+    folder = target.parent if str(target.parent) else Path(".")
+    if not folder.is_dir():
+        raise UserError(f"no such folder: {folder}", place="--output")
+    digest, written = hashlib.sha256(), 0
+    try:
+        handle = tempfile.NamedTemporaryFile(dir=folder, prefix=f".{target.name}.",
+                                             suffix=".part", delete=False)
+    except OSError as error:
+        raise UserError(f"cannot write in {folder}: {error.strerror}", place="--output") from None
+    temporary = Path(handle.name)
+    try:
+        with handle, _progress(size) as progress:
+            for chunk in chunks:
+                handle.write(chunk)
+                digest.update(chunk)
+                written += len(chunk)
+                progress.update(len(chunk))
+            handle.flush()
+            os.fsync(handle.fileno())
+        if digest.hexdigest() != expected_sha256:
+            raise Refusal(f"the bytes received have SHA-256 {digest.hexdigest()}, not "
+                          f"{expected_sha256}; nothing was written", place=str(target))
+        os.replace(temporary, target)
+    finally:
+        temporary.unlink(missing_ok=True)
+    return written
+
+
+class _NoProgress:
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *_):
+        return False
+
+    def update(self, _count: int) -> None:
+        pass
+
+
+def _progress(size: int | None):
+    """A progress bar on stderr for large documents, only when a person watches."""
+    if size is None or size < 8 * 1024 * 1024 or not stderr_is_terminal():
+        return _NoProgress()
+    return click.progressbar(length=size, label="fetching", file=click.get_text_stream("stderr"))
+
+
+@click.command("get")
+@click.argument("model_name", metavar="MODEL")
+@click.argument("version", required=False, metavar="[VERSION]")
+@click.option("--stage", default=None, help="The document of the version holding this stage.")
+@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False),
+              help="The file to write (replaced atomically).")
+@json_option
+def document_get(model_name: str, version: str | None, stage: str | None, output: str,
+                 as_json: bool) -> None:
+    """Fetch a version's document (MODEL VERSION, or MODEL@N), or that of a stage's holder
+    (MODEL --stage live), byte for byte as registered."""
+    model, number = model_and_version(model_name, version)
+    if (number is None) == (stage is None):
+        raise UserError("give a VERSION or --stage, not both", place="--stage")
+    context = click.get_current_context().obj
+    target = Path(output)
+    remote = context.remote()
+    if remote:
+        path = remote.document_path(model, version=number, stage=stage)
+        chunks = remote.stream(path)
+        first_headers, first = next(chunks, ({}, b""))
+        expected = first_headers.get("ETag", "").strip('"')
+        size = int(first_headers.get("Content-Length", "0")) or None
+        found_version = int(first_headers.get("Lockkeeper-Version", number or 0)) or number
+        written = write_checked(_chain(first, chunks), target, expected, size)
+    else:
+        from registry.service.document_fetch import document_chunks, find_document
+
+        catalogue = context.catalogue()
+        document = find_document(catalogue, model, version=number, stage=stage)
+        expected, found_version = document.sha256, document.version
+        written = write_checked(document_chunks(catalogue, document), target, expected,
+                                document.size)
+    result = {"model": model, "version": found_version, "stage": stage, "sha256": expected,
+              "size": written, "path": str(target)}
+    emit(result, as_json, lambda r: f"wrote {r['size']} bytes of {r['model']}"
+         + (f" v{r['version']}" if r["version"] else f" ({r['stage']})")
+         + f" to {r['path']} (sha256 {r['sha256']})")
+
+
+def _chain(first: bytes, rest) -> Iterable[bytes]:
+    if first:
+        yield first
+    for _, chunk in rest:
+        yield chunk
+
+

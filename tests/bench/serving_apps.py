@@ -1,0 +1,51 @@
+"""The WSGI app the serving benchmark runs under gunicorn: Lockkeeper's API, and beside it, in
+the same workers, bare apps that send the same bytes: streamed from a file a megabyte at a time
+(`/bare`), or, on PostgreSQL, read whole in one query (`/bare-database`), which is the least a
+database-backed server can pay."""
+
+from __future__ import annotations
+
+import os
+
+from registry.api.wsgi import app as lockkeeper_app
+
+BARE_PREFIX = "/bare"
+DATABASE_PREFIX = "/bare-database"
+CHUNK = 1024 * 1024
+
+
+def bare_file_app(environ, start_response):
+    path = os.environ["BENCH_DOCUMENT_FILE"]
+    size = os.path.getsize(path)
+    start_response("200 OK", [("Content-Type", "application/octet-stream"),
+                              ("Content-Length", str(size))])
+
+    def chunks():
+        with open(path, "rb") as file:
+            while chunk := file.read(CHUNK):
+                yield chunk
+
+    return chunks()
+
+
+def bare_database_app(environ, start_response):
+    import psycopg
+    from sqlalchemy.engine import make_url
+
+    url = make_url(os.environ["LOCKKEEPER_DB"]).set(drivername="postgresql")
+    options = url.query.get("options")
+    conninfo = url.set(query={}).render_as_string(hide_password=False)
+    with psycopg.connect(conninfo, options=options or "") as connection:
+        content = connection.cursor(binary=True).execute(
+            "SELECT content FROM blobs ORDER BY size DESC LIMIT 1").fetchone()[0]
+    start_response("200 OK", [("Content-Type", "application/octet-stream"),
+                              ("Content-Length", str(len(content)))])
+    return [bytes(content)]
+
+
+def app(environ, start_response):
+    if environ.get("PATH_INFO", "").startswith(DATABASE_PREFIX):
+        return bare_database_app(environ, start_response)
+    if environ.get("PATH_INFO", "").startswith(BARE_PREFIX):
+        return bare_file_app(environ, start_response)
+    return lockkeeper_app(environ, start_response)
