@@ -11,7 +11,7 @@ import sqlalchemy as sa
 
 
 revision = '0005'
-down_revision = "0003"
+down_revision = "0004"
 branch_labels = None
 depends_on = None
 
