@@ -10,14 +10,18 @@ from __future__ import annotations
 import hashlib
 import os
 import tempfile
+from contextlib import nullcontext
 from collections.abc import Iterable
 from pathlib import Path
 
 import click
 
-from registry.cli.output import emit, json_option, stderr_is_terminal
+from registry.cli.output import emit, json_option
+from registry.cli.progress import progress_bar
 from registry.cli.version_names import model_and_version
 from registry.errors import Refusal, UserError
+
+LARGE = 8 * 1024 * 1024  # bytes: smaller documents arrive too fast for a bar to help
 
 
 def write_checked(chunks: Iterable[bytes], target: Path, expected_sha256: str,
@@ -34,12 +38,15 @@ def write_checked(chunks: Iterable[bytes], target: Path, expected_sha256: str,
         raise UserError(f"cannot write in {folder}: {error.strerror}", place="--output") from None
     temporary = Path(handle.name)
     try:
-        with handle, _progress(size) as progress:
+        # A bar only for large documents, and only when a person watches (registry.cli.progress).
+        bar = progress_bar("fetching", size, unit="bytes") if (size or 0) >= LARGE else nullcontext()
+        with handle, bar as advance:
             for chunk in chunks:
                 handle.write(chunk)
                 digest.update(chunk)
                 written += len(chunk)
-                progress.update(len(chunk))
+                if advance is not None:
+                    advance(len(chunk))
             handle.flush()
             os.fsync(handle.fileno())
         if digest.hexdigest() != expected_sha256:
@@ -49,24 +56,6 @@ def write_checked(chunks: Iterable[bytes], target: Path, expected_sha256: str,
     finally:
         temporary.unlink(missing_ok=True)
     return written
-
-
-class _NoProgress:
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *_):
-        return False
-
-    def update(self, _count: int) -> None:
-        pass
-
-
-def _progress(size: int | None):
-    """A progress bar on stderr for large documents, only when a person watches."""
-    if size is None or size < 8 * 1024 * 1024 or not stderr_is_terminal():
-        return _NoProgress()
-    return click.progressbar(length=size, label="fetching", file=click.get_text_stream("stderr"))
 
 
 @click.command("get")

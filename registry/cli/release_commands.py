@@ -9,7 +9,7 @@ from pathlib import Path
 
 import click
 
-from registry.cli.document_commands import _read_bytes
+from registry.cli.files import read_file_bytes
 from registry.cli.output import emit, json_option
 from registry.errors import NotFound, UserError
 from registry.signing.release_check import (check_release, load_public_key, read_envelope,
@@ -108,8 +108,8 @@ def release_verify(document: str, envelope_file: str, key_file: str, model: str 
     """Check, before loading DOCUMENT, that ENVELOPE is a release statement for it signed with
     the key: exit 0 if so, 1 naming the reason if not, 2 for unreadable input. Needs no
     catalogue."""
-    public_key = load_public_key(_read_bytes(key_file), "--key")
-    envelope = read_envelope(_read_bytes(envelope_file), envelope_file)
+    public_key = load_public_key(read_file_bytes(key_file, "--key"), "--key")
+    envelope = read_envelope(read_file_bytes(envelope_file, "ENVELOPE"), envelope_file)
     verdict = check_release(_sha256_of_file(document), envelope, public_key, model=model,
                             stage=stage)
     context = click.get_current_context().obj
