@@ -366,6 +366,7 @@ class DatasetPage:
     schema: Any
     fingerprint: Any
     others: list[str]
+    sources: list[tuple[str, int, str]] = field(default_factory=list)  # path, size, sha256
 
 
 def _dataset(uow: UnitOfWork, name: str) -> t.Dataset:
@@ -414,7 +415,8 @@ def dataset_page(catalogue: Catalogue, name: str) -> DatasetPage:
             recalled_at=utc_iso(row.recalled_at) if row.recalled_at else None,
             recall_reason=row.recall_reason or "", recalled_by=row.recalled_by or "",
             flagged_by=flagged_by, parents=parents, children=children, versions=versions,
-            schema=loads(row.schema_json), fingerprint=fingerprint_of(uow, row), others=others)
+            schema=loads(row.schema_json), fingerprint=fingerprint_of(uow, row), others=others,
+            sources=uow.dataset_sources.of(row.id))
 
 
 def dataset_fingerprint(catalogue: Catalogue, name: str) -> Any:

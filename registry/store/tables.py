@@ -8,7 +8,7 @@ from __future__ import annotations
 from datetime import datetime
 
 from sqlalchemy import (
-    Boolean, CheckConstraint, DateTime, ForeignKey, Index, Integer, LargeBinary, String, Text,
+    BigInteger, Boolean, CheckConstraint, DateTime, ForeignKey, Index, Integer, LargeBinary, String, Text,
     UniqueConstraint, text,
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
@@ -98,6 +98,17 @@ class DatasetParent(Base):
     child_id: Mapped[int] = mapped_column(ForeignKey("datasets.id"), primary_key=True)
     parent_id: Mapped[int] = mapped_column(ForeignKey("datasets.id"), primary_key=True,
                                            index=True)
+
+
+class DatasetSource(Base):
+    """One file a dataset was made from: its path within the dataset, its size and SHA-256."""
+
+    __tablename__ = "dataset_sources"
+    dataset_id: Mapped[int] = mapped_column(ForeignKey("datasets.id"), primary_key=True)
+    position: Mapped[int] = mapped_column(Integer, primary_key=True)  # in the dataset's order
+    path: Mapped[str] = mapped_column(Text)
+    size: Mapped[int] = mapped_column(BigInteger)
+    sha256: Mapped[str] = mapped_column(String(64), index=True)
 
 
 class VersionDataset(Base):

@@ -20,6 +20,7 @@ from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, Not
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
+from registry.store.dataset_sources_repository import DatasetSourceRepository
 
 
 def utc_now() -> datetime:
@@ -87,12 +88,14 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.dataset_sources: DatasetSourceRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
+        self.dataset_sources = DatasetSourceRepository(self.session)
         try:
             self.session.begin()
             if self.write:

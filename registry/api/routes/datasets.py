@@ -3,7 +3,7 @@ fingerprint the producer computed on its side (`lockkeeper dataset fingerprint -
 
 POST /datasets takes either
   application/json     {"name", "fingerprint": {...}, "role", "derived_from": [...],
-                        "feed_of", "source_uri"}
+                        "feed_of", "source_uri", "sources": [{"path", "size", "sha256"}]}
   multipart/form-data  part `file` (Avro, Parquet or CSV), optional part `schema` (.avsc), and
                        fields name, role, format, key (repeatable), exclude (repeatable),
                        derived_from (repeatable), feed_of, source_uri
@@ -29,6 +29,11 @@ DATASET_BODY = strict_object({
     "name": NAME, "role": ROLE, "fingerprint": {"type": "object"}, "source_uri": TEXT,
     "derived_from": {"type": "array", "items": NAME}, "feed_of": {"type": ["string", "null"],
                                                                  "maxLength": 100},
+    "sources": {"type": "array", "maxItems": 100_000, "items": strict_object({
+        "path": {"type": "string", "minLength": 1, "maxLength": 4096},
+        "size": {"type": "integer", "minimum": 0},
+        "sha256": {"type": "string", "pattern": "^[0-9a-f]{64}$"}},
+        ("path", "size", "sha256"))},
 }, ("name", "fingerprint"))
 TEXT_FIELD = {"type": "string"}
 DATASET_FORM = {
@@ -64,7 +69,8 @@ def _request_from_json() -> datasets.DatasetRequest:
         name=path_name(body["name"], "dataset"), role=body.get("role", "source"),
         fingerprint=_fingerprint_from_json(body["fingerprint"]),
         source_uri=body.get("source_uri", ""), derived_from=tuple(body.get("derived_from", ())),
-        feed_of=body.get("feed_of"))
+        feed_of=body.get("feed_of"), sources=tuple(
+            (s["path"], s["size"], s["sha256"]) for s in body.get("sources", ())))
 
 
 def _schema_part() -> dict | None:

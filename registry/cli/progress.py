@@ -1,0 +1,68 @@
+"""The progress bar of long dataset work: on stderr, and only when stderr is a terminal.
+
+Drawn with rich: files and rows done, rows per second and time left. The bar advances by rows
+when every file says how many it holds (Parquet), by bytes of finished files otherwise.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Iterator
+from contextlib import contextmanager
+
+from registry.cli.output import stderr_is_terminal
+
+
+class DatasetProgress:
+    """Receives (rows, bytes, files) as the work goes on; call `start(plan)` once planned."""
+
+    def __init__(self, label: str) -> None:
+        from rich.console import Console
+        from rich.progress import (BarColumn, Progress, TextColumn, TimeRemainingColumn)
+
+        self.label = label
+        self.bar = Progress(TextColumn("{task.description}"), BarColumn(),
+                            TextColumn("{task.fields[files]}"), TextColumn("{task.fields[rows]}"),
+                            TextColumn("{task.fields[speed]}"), TimeRemainingColumn(),
+                            console=Console(stderr=True), transient=False)
+        self.task = None
+        self.by_rows = False
+        self.total_files = self.files = self.rows = 0
+        self.started = time.monotonic()
+
+    def start(self, plan) -> None:
+        self.by_rows = plan.total_rows is not None
+        self.total_files = len(plan.files)
+        total = plan.total_rows if self.by_rows else plan.total_bytes
+        self.bar.start()
+        self.task = self.bar.add_task(self.label, total=max(total, 1), **self._fields())
+
+    def __call__(self, rows: int, bytes_done: int, files: int) -> None:
+        if self.task is None:
+            return
+        self.rows += rows
+        self.files += files
+        self.bar.update(self.task, advance=rows if self.by_rows else bytes_done,
+                        **self._fields())
+
+    def _fields(self) -> dict[str, str]:
+        elapsed = max(time.monotonic() - self.started, 1e-6)
+        return {"files": f"{self.files}/{self.total_files} files",
+                "rows": f"{self.rows:,} rows", "speed": f"{self.rows / elapsed:,.0f} rows/s"}
+
+    def stop(self) -> None:
+        if self.task is not None:
+            self.bar.stop()
+
+
+@contextmanager
+def dataset_progress(label: str) -> Iterator[DatasetProgress | None]:
+    """A progress bar when stderr is a terminal, else None (nothing is drawn in pipes or CI)."""
+    if not stderr_is_terminal():
+        yield None
+        return
+    progress = DatasetProgress(label)
+    try:
+        yield progress
+    finally:
+        progress.stop()
