@@ -40,7 +40,7 @@ def run_on_cluster(address: str, plan: FingerprintPlan, timeout: float,
         futures = client.map(run_job, plan.jobs, settings=plan.settings, pure=False)
         index = {future.key: number for number, future in enumerate(futures)}
         try:
-            for future in distributed.as_completed(futures):
+            for future in distributed.as_completed(futures, loop=client.loop):
                 result = future.result()  # raises the job's error, as it was raised
                 number = index[future.key]
                 tally.finished(plan.jobs[number], result.fingerprint.rows)
