@@ -3,14 +3,15 @@
 Every way runs the same jobs (plan.py) and merges their fingerprints in job order, so the result
 is the same to the bit. Without --workers the jobs run one after another in this process, each
 reading ahead and hashing on two threads; with --workers N each of N processes works on one
-thread (N=1: this process), which is what lets N workers use N cores.
+thread (this process being one of them), which is what lets N workers use N cores.
 """
 
 from __future__ import annotations
 
 import multiprocessing
 from collections.abc import Callable, Sequence
-from concurrent.futures import FIRST_EXCEPTION, ProcessPoolExecutor, wait
+from collections import deque
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from dataclasses import dataclass
 from typing import Any, Mapping
 
@@ -107,22 +108,46 @@ def run_here(plan: FingerprintPlan, tally: Tally, threads: bool) -> list[JobResu
 
 
 def run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[JobResult]:
-    # forkserver: workers start from a fresh single-threaded process with the dataset code
-    # loaded once, never from a copy of this one and whatever threads it runs.
-    context = multiprocessing.get_context("forkserver")
-    context.set_forkserver_preload(["registry.datasets.jobs"])
-    pool = ProcessPoolExecutor(max_workers=min(workers, len(plan.jobs)), mp_context=context)
+    """This process and workers - 1 child processes, each on one thread: the children take
+    jobs from the front of the list, this process from the back, until they meet. This process
+    starts at once, while the children start up (their imports and compiled kernels take a
+    second or two)."""
+    # spawn: children start from a fresh interpreter, never from a copy of this process and
+    # whatever threads it runs.
+    context = multiprocessing.get_context("spawn")
+    children = workers - 1
+    pool = ProcessPoolExecutor(max_workers=children, mp_context=context,
+                               initializer=_start_worker)
+    pending = deque(range(len(plan.jobs)))
+    futures: dict[Future, int] = {}
+    results: list[JobResult | None] = [None] * len(plan.jobs)
+
+    def feed() -> None:
+        while pending and len(futures) < 2 * children:  # a job queued behind each running one
+            index = pending.popleft()
+            futures[pool.submit(run_job, plan.jobs[index], plan.settings)] = index
+
+    def collect(block: bool) -> None:
+        done, _ = wait(futures, timeout=None if block else 0, return_when=FIRST_COMPLETED)
+        for future in done:
+            index = futures.pop(future)
+            results[index] = future.result()  # raises the job's error, as it was raised
+            tally.finished(plan.jobs[index], results[index].fingerprint.rows)
+
     try:
-        futures = {pool.submit(run_job, job, plan.settings): index
-                   for index, job in enumerate(plan.jobs)}
-        results: list[JobResult | None] = [None] * len(plan.jobs)
-        pending = set(futures)
+        feed()
         while pending:
-            done, pending = wait(pending, return_when=FIRST_EXCEPTION)
-            for future in sorted(done, key=futures.__getitem__):
-                index = futures[future]
-                results[index] = future.result()  # raises the job's error, as it was raised
-                tally.finished(plan.jobs[index], results[index].fingerprint.rows)
+            index = pending.pop()
+            results[index] = run_job(plan.jobs[index], plan.settings, False, tally.rows)
+            tally.finished(plan.jobs[index], 0)  # its rows were counted batch by batch
+            collect(block=False)
+            feed()
+        while futures:
+            collect(block=True)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
     return results  # type: ignore[return-value]
+
+
+def _start_worker() -> None:
+    import registry.datasets.warm_start  # noqa: F401 - loads the compiled kernels up front
