@@ -9,6 +9,7 @@ thread (this process being one of them), which is what lets N workers use N core
 from __future__ import annotations
 
 import multiprocessing
+import threading
 from collections.abc import Callable, Sequence
 from collections import deque
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
@@ -109,21 +110,19 @@ def run_here(plan: FingerprintPlan, tally: Tally, threads: bool) -> list[JobResu
 
 def run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[JobResult]:
     """This process and workers - 1 child processes, each on one thread: the children take
-    jobs from the front of the list, this process from the back, until they meet. This process
-    starts at once, while the children start up (their imports and compiled kernels take a
-    second or two)."""
-    # spawn: children start from a fresh interpreter, never from a copy of this process and
-    # whatever threads it runs.
-    context = multiprocessing.get_context("spawn")
+    jobs from the front of the list, this process from the back, until they meet."""
+    import registry.datasets.warm_start  # noqa: F401 - the kernels, loaded once for all
+
     children = workers - 1
-    pool = ProcessPoolExecutor(max_workers=children, mp_context=context,
+    pool = ProcessPoolExecutor(max_workers=children, mp_context=_start_method(),
                                initializer=_start_worker)
     pending = deque(range(len(plan.jobs)))
     futures: dict[Future, int] = {}
     results: list[JobResult | None] = [None] * len(plan.jobs)
 
     def feed() -> None:
-        while pending and len(futures) < 2 * children:  # a job queued behind each running one
+        # a job queued behind each running one, and always one left for this process
+        while len(pending) > 1 and len(futures) < 2 * children:
             index = pending.popleft()
             futures[pool.submit(run_job, plan.jobs[index], plan.settings)] = index
 
@@ -147,6 +146,16 @@ def run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
     return results  # type: ignore[return-value]
+
+
+def _start_method() -> multiprocessing.context.BaseContext:
+    """Fork when this process runs one thread (the command line): the children start at once,
+    with the kernels already loaded. A process running other threads (a server, a test
+    runner, a Dask client) spawns fresh interpreters instead, as a fork copies the locks
+    those threads may hold."""
+    if threading.active_count() == 1 and "fork" in multiprocessing.get_all_start_methods():
+        return multiprocessing.get_context("fork")
+    return multiprocessing.get_context("spawn")
 
 
 def _start_worker() -> None:

@@ -46,6 +46,17 @@ def test_workers_give_the_fingerprint_of_one_process_to_the_bit(folder):
     assert one.sources == two.sources == here.sources
 
 
+@pytest.mark.parametrize("method", ["fork", "spawn"])
+def test_forked_and_spawned_workers_agree(folder, monkeypatch, method):
+    import multiprocessing
+
+    from registry.datasets import workers
+
+    monkeypatch.setattr(workers, "_start_method", lambda: multiprocessing.get_context(method))
+    here = fingerprint_dataset([str(folder)], **OPTIONS)
+    assert fingerprint_dataset([str(folder)], workers=3, **OPTIONS) == here
+
+
 def test_progress_counts_every_row_byte_and_file(folder):
     seen = {"rows": 0, "bytes": 0, "files": 0}
 
