@@ -24,7 +24,9 @@ class DatasetProgress:
         self.bar = Progress(TextColumn("{task.description}"), BarColumn(),
                             TextColumn("{task.fields[files]}"), TextColumn("{task.fields[rows]}"),
                             TextColumn("{task.fields[speed]}"), TimeRemainingColumn(),
-                            console=Console(stderr=True), transient=False)
+                            console=Console(stderr=True), transient=False,
+                            auto_refresh=False)  # no drawing thread: workers may then fork
+        self.drawn = 0.0
         self.task = None
         self.by_rows = False
         self.total_files = self.files = self.rows = 0
@@ -44,6 +46,10 @@ class DatasetProgress:
         self.files += files
         self.bar.update(self.task, advance=rows if self.by_rows else bytes_done,
                         **self._fields())
+        now = time.monotonic()
+        if now - self.drawn >= 0.1 or files:
+            self.bar.refresh()
+            self.drawn = now
 
     def _fields(self) -> dict[str, str]:
         elapsed = max(time.monotonic() - self.started, 1e-6)
@@ -52,6 +58,7 @@ class DatasetProgress:
 
     def stop(self) -> None:
         if self.task is not None:
+            self.bar.refresh()
             self.bar.stop()
 
 

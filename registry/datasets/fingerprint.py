@@ -26,7 +26,7 @@ from registry.datasets import hashing
 from registry.datasets.profile import (ColumnProfile, empty_profile, merge_profiles,
                                        profile_of)
 from registry.datasets.numeric_columns import is_plain_number_column
-from registry.datasets.readers import Part, Source, open_source, read_batches
+from registry.datasets.readers import Part, Source, read_batches
 from registry.datasets.sketch import (DEFAULT_K, BottomKSketch, add_hashes, empty_sketch,
                                       merge_sketches)
 from registry.datasets.types import NUMERIC, RecordType, ValueType, value_type_of

@@ -13,6 +13,7 @@ import threading
 from collections.abc import Callable, Sequence
 from collections import deque
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 from typing import Any, Mapping
 
@@ -143,6 +144,9 @@ def run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[
             feed()
         while futures:
             collect(block=True)
+    except BrokenProcessPool:
+        raise UserError("a worker process stopped before its work was done (out of memory, or "
+                        "killed); try fewer workers", place="--workers") from None
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
     return results  # type: ignore[return-value]

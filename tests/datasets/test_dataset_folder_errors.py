@@ -1,4 +1,5 @@
-"""Bad folders, globs and clusters: one line, exit 2, and nothing registered."""
+"""Bad folders, globs and clusters: one line, exit 2, and nothing registered; and the
+progress bar, drawn only on a terminal."""
 
 from __future__ import annotations
 
@@ -135,3 +136,16 @@ def test_work_options_are_checked(tmp_path, arguments, expected):
     path = write_parquet(tmp_path / "one.parquet", segment_records(50, seed=56))
     one_line(CliRunner().invoke(main, ["dataset", "fingerprint", str(path), *arguments]),
              expected)
+
+
+def test_a_terminal_gets_a_progress_bar_of_files_and_rows_on_stderr(tmp_path, monkeypatch):
+    import registry.cli.progress as progress
+
+    monkeypatch.setattr(progress, "stderr_is_terminal", lambda: True)
+    for index in range(3):
+        write_parquet(tmp_path / f"part-{index}.parquet", segment_records(100, seed=60 + index))
+    result = CliRunner().invoke(main, ["dataset", "fingerprint", str(tmp_path), "--json"])
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.stdout)["rows"] == 300  # stdout stays one JSON document
+    last = result.stderr.strip().splitlines()[-1]
+    assert "3/3 files" in last and "300 rows" in last and "rows/s" in last
