@@ -30,3 +30,17 @@ def test_a_bad_list_of_files_is_refused_and_nothing_is_registered(api):
         assert response.status_code == 400, (sources, response.data)
         assert problem(response)["status"] == 400
     assert api.get("/datasets").json["datasets"] == []
+
+
+def test_an_uploaded_file_is_recorded_under_the_name_it_was_sent_with(api):
+    import hashlib
+    import io
+
+    path = BRACKWATER / "datasets" / "brackwater-live-sample.avro"
+    response = api.post("/datasets", role="publisher", content_type="multipart/form-data",
+                        data={"name": "live", "file": (io.BytesIO(path.read_bytes()),
+                                                       "live-sample.avro")})
+    assert response.status_code == 201, response.data
+    assert response.json["sources"] == [{"path": "live-sample.avro",
+                                         "size": path.stat().st_size,
+                                         "sha256": hashlib.sha256(path.read_bytes()).hexdigest()}]

@@ -12,6 +12,7 @@ POST /datasets takes either
 from __future__ import annotations
 
 import json
+import os
 
 from flask import g, request
 
@@ -84,20 +85,22 @@ def _schema_part() -> dict | None:
 
 
 def _request_from_upload() -> datasets.DatasetRequest:
-    from registry.datasets import fingerprint_file
+    from registry.datasets import fingerprint_dataset
 
     refuse_unknown_parts(FORM_PARTS)
     name = path_name(form_value("name") or "", "dataset")
     upload = file_part("file")
     schema = _schema_part()
     with saved_upload(upload, "dataset") as path:
-        fingerprint = fingerprint_file(str(path), schema_json=schema,
-                                       format=form_value("format"), keys=form_values("key"),
-                                       exclude=form_values("exclude"))
+        run = fingerprint_dataset([str(path)], schema_json=schema, format=form_value("format"),
+                                  keys=form_values("key"), exclude=form_values("exclude"))
+    # the file as the producer named it, not the name it was saved under here
+    sent_as = os.path.basename(upload.filename or "") or path.name
     return datasets.DatasetRequest(
-        name=name, role=form_value("role", "source"), fingerprint=fingerprint,
+        name=name, role=form_value("role", "source"), fingerprint=run.fingerprint,
         source_uri=form_value("source_uri", "") or f"upload:{path.name}",
-        derived_from=form_values("derived_from"), feed_of=form_value("feed_of"))
+        derived_from=form_values("derived_from"), feed_of=form_value("feed_of"),
+        sources=tuple((sent_as, source.size, source.sha256) for source in run.sources))
 
 
 @route("/datasets", "GET", summary="Every registered dataset", tag="datasets")
