@@ -132,7 +132,7 @@ def with_partition(batch: pa.RecordBatch, source: Source) -> pa.RecordBatch:
     if not source.partition:
         return batch
     values = dict(source.partition)
-    columns = [pa.array([values[name]] * batch.num_rows, type=value_type.arrow_type())
+    columns = [pa.repeat(pa.scalar(values[name], type=value_type.arrow_type()), batch.num_rows)
                if name in values else batch.column(name)
                for name, value_type in source.record.fields]
     return pa.RecordBatch.from_arrays(columns, schema=source.record.arrow_schema())
