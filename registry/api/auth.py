@@ -1,4 +1,5 @@
-"""Who is calling: the bearer token of the request, checked against the role a route needs.
+"""Who is calling: the bearer token of the request. Whether the caller may act is the service's
+one authorisation rule (registry.service.authorisation), never decided here.
 
 Reads need a token of any role unless the app is configured with LOCKKEEPER_OPEN_READS=True;
 then a request without a token reads as the user `anonymous` (a token, when sent, still counts).
@@ -9,7 +10,6 @@ from __future__ import annotations
 from flask import current_app, request
 
 from registry.api.context import cached_reads, generation
-from registry.errors import Forbidden
 from registry.service.actors import Actor
 from registry.service.tokens import Unauthenticated
 
@@ -27,19 +27,12 @@ def bearer_secret() -> str | None:
     return secret.strip()
 
 
-def authorise(role: str | tuple[str, ...] | None, *, is_read: bool) -> Actor | None:
-    """The acting user, or Unauthenticated (401) / Forbidden (403)."""
-    if role is None:
-        return None
+def authenticate(*, is_read: bool) -> Actor:
+    """The acting user with the role of their token, or Unauthenticated (401)."""
     secret = bearer_secret()
     if secret is None:
         if is_read and current_app.config.get("LOCKKEEPER_OPEN_READS"):
             return ANONYMOUS
         raise Unauthenticated("this operation needs a bearer token "
                               "(`lockkeeper token create`)", place="Authorization")
-    actor = cached_reads().authenticate(secret, generation())
-    wanted = (role,) if isinstance(role, str) else role
-    if not any(actor.has_role(each) for each in wanted):
-        raise Forbidden(f"{actor.name}'s token acts as {', '.join(sorted(actor.roles))}; this "
-                        f"needs {' or '.join(wanted)}", place="role")
-    return actor
+    return cached_reads().authenticate(secret, generation())

@@ -1,21 +1,23 @@
 """Reading request bodies strictly: the right content type, valid JSON, known fields only, each
-of the declared type. The JSON Schema given to `json_body` is also what the OpenAPI document
-shows, so the check and the documentation are one thing."""
+of the declared type. The JSON Schema given to `json_body` (or `check_form`) is also what the
+OpenAPI document shows, and the jsonschema library checks bodies against it, so the document
+never advertises what the server ignores."""
 
 from __future__ import annotations
 
 import json
+from functools import lru_cache
 from typing import Any
 
 from flask import current_app, request
+from jsonschema import Draft202012Validator
+from jsonschema.exceptions import ValidationError
 
 from registry.api.problems import ApiError
 
 # Far deeper than any Avro schema or fingerprint needs, and far shallower than the recursion
 # limit of the parsers that read the body next.
 MAX_DEPTH = 64
-JSON_TYPES = {"string": str, "integer": int, "object": dict, "array": list, "boolean": bool,
-              "null": type(None)}
 
 
 def refuse_oversize_body() -> None:
@@ -36,8 +38,8 @@ def require_media_type(*accepted: str) -> None:
 
 
 def json_body(schema: dict[str, Any], *, required: bool = True) -> dict[str, Any]:
-    """The JSON object of the body, checked against a small JSON Schema (object of typed
-    properties). An absent body reads as {} when the body is optional."""
+    """The JSON object of the body, checked against its JSON Schema. An absent body reads as {}
+    when the body is optional."""
     if not required and not request.content_length and request.mimetype in ("", None):
         value: Any = {}
     else:
@@ -71,54 +73,77 @@ def nesting_depth(value: Any) -> int:
 
 
 def check_value(value: Any, schema: dict[str, Any], place: str) -> None:
-    """The subset of JSON Schema our bodies use: type, properties, required,
-    additionalProperties=false, items, maxLength, minimum, enum."""
-    types = schema.get("type")
-    if types is not None:
-        names = [types] if isinstance(types, str) else list(types)
-        if not any(_is_type(value, name) for name in names):
-            raise ApiError(f"expected {' or '.join(names)}, got {_type_name(value)}",
-                           kind="bad-input", status=400, place=place)
-    if "enum" in schema and value not in schema["enum"]:
-        raise ApiError(f"expected one of {', '.join(map(str, schema['enum']))}", kind="bad-input",
-                       status=400, place=place)
-    if isinstance(value, str) and len(value) > schema.get("maxLength", len(value)):
-        raise ApiError(f"longer than {schema['maxLength']} characters", kind="bad-input",
-                       status=400, place=place)
-    if _is_type(value, "integer") and value < schema.get("minimum", value):
-        raise ApiError(f"must be at least {schema['minimum']}", kind="bad-input", status=400,
-                       place=place)
-    if isinstance(value, dict):
-        properties = schema.get("properties", {})
-        if schema.get("additionalProperties") is False:
-            unknown = sorted(set(value) - set(properties))
-            if unknown:
-                raise ApiError(f"unknown field(s) {', '.join(unknown)}; this operation takes "
-                               f"{', '.join(sorted(properties)) or 'no fields'}",
-                               kind="unknown-fields", status=400, place=f"{place}/{unknown[0]}")
-        for name in schema.get("required", ()):
-            if name not in value:
-                raise ApiError(f"missing field {name!r}", kind="bad-input", status=400,
-                               place=f"{place}/{name}")
-        for name, item in value.items():
-            if name in properties:
-                check_value(item, properties[name], f"{place}/{name}")
-    if isinstance(value, list) and "items" in schema:
-        for index, item in enumerate(value):
-            check_value(item, schema["items"], f"{place}/{index}")
+    """Validate `value` against the very JSON Schema (draft 2020-12, as OpenAPI 3.1 uses) that
+    the OpenAPI document publishes for it; the first problem becomes a 400 problem document
+    naming the field, as a JSON-pointer-like path under `place`."""
+    errors = sorted(_validator(schema).iter_errors(value), key=_error_order)
+    if errors:
+        raise _problem(errors[0], place)
 
 
-def _is_type(value: Any, name: str) -> bool:
-    if name == "integer":
-        return isinstance(value, int) and not isinstance(value, bool)
-    if name == "number":
-        return isinstance(value, (int, float)) and not isinstance(value, bool)
-    return isinstance(value, JSON_TYPES[name])
+def check_form(schema: dict[str, Any]) -> None:
+    """Validate a multipart/form-data body against its published JSON Schema: each text field
+    as a string (or an array of strings where the schema says so), each file as a binary
+    string, unknown parts refused."""
+    properties = schema.get("properties", {})
+    instance: dict[str, Any] = {}
+    for name in set(request.form) | set(request.files):
+        values = request.form.getlist(name) + ["<file>" for _ in request.files.getlist(name)]
+        is_list = properties.get(name, {}).get("type") == "array"
+        instance[name] = values if is_list or len(values) > 1 else values[0]
+    check_value(instance, schema, "form")
+
+
+@lru_cache(maxsize=256)
+def _validator_for(schema_text: str) -> Draft202012Validator:
+    return Draft202012Validator(json.loads(schema_text))
+
+
+def _validator(schema: dict[str, Any]) -> Draft202012Validator:
+    return _validator_for(json.dumps(schema, sort_keys=True))
+
+
+def _error_order(error: ValidationError) -> tuple:
+    # Unknown fields first (the commonest client mistake), then the shallowest problem.
+    return (error.validator != "additionalProperties", len(error.absolute_path),
+            [str(part) for part in error.absolute_path])
+
+
+def _problem(error: ValidationError, place: str) -> ApiError:
+    path = "/".join([place, *(str(part) for part in error.absolute_path)])
+    if error.validator == "additionalProperties":
+        allowed = sorted(error.schema.get("properties", {}))
+        unknown = sorted(set(error.instance) - set(allowed))
+        return ApiError(f"unknown field(s) {', '.join(unknown)}; this operation takes "
+                        f"{', '.join(allowed) or 'no fields'}", kind="unknown-fields",
+                        status=400, place=f"{path}/{unknown[0]}")
+    if error.validator == "required":
+        missing = next(name for name in error.validator_value if name not in error.instance)
+        return ApiError(f"missing field {missing!r}", kind="bad-input", status=400,
+                        place=f"{path}/{missing}")
+    return ApiError(_plain_message(error), kind="bad-input", status=400, place=path)
+
+
+def _plain_message(error: ValidationError) -> str:
+    rule, value = error.validator, error.validator_value
+    if rule == "type":
+        names = [value] if isinstance(value, str) else list(value)
+        return f"expected {' or '.join(names)}, got {_type_name(error.instance)}"
+    if rule == "enum":
+        return f"expected one of {', '.join(map(str, value))}"
+    if rule == "maxLength":
+        return f"longer than {value} characters"
+    if rule == "minimum":
+        return f"must be at least {value}"
+    if rule == "maximum":
+        return f"must be at most {value}"
+    return error.message
 
 
 def _type_name(value: Any) -> str:
-    for name in ("null", "boolean", "integer", "string", "array", "object"):
-        if _is_type(value, name):
+    for name, kind in (("null", type(None)), ("boolean", bool), ("integer", int),
+                       ("string", str), ("array", list), ("object", dict)):
+        if isinstance(value, kind):
             return name
     return "number"
 

@@ -10,6 +10,7 @@ from typing import Any
 from registry.api.problems import PROBLEM_BASE, PROBLEM_MEDIA_TYPE, TITLES
 from registry.api.routing import API_PREFIX, LARGEST_NUMBER, OPERATIONS, Operation
 from registry.names import NAME_PATTERN
+from registry.service.authorisation import permission
 
 RULE_PARAMETER = re.compile(r"<(?:(\w+):)?(\w+)>")
 
@@ -70,9 +71,13 @@ def _operation(operation: Operation) -> dict[str, Any]:
             entry["content"] = {"application/json": {"schema": operation.response_schema or {}}}
         responses[str(status)] = entry
     errors = dict(ERROR_STATUSES)
-    if operation.role is not None:
+    if not operation.public:
         errors.update(AUTH_STATUSES)
         document["security"] = [{"bearer": []}]
+    if operation.action is not None:
+        rule = permission(operation.action)
+        document["description"] = (f"Needs a token of a user holding the "
+                                   f"{' or '.join(rule.roles)} role ({rule.what}).")
     for status, description in sorted(errors.items()):
         responses.setdefault(str(status), {"description": description, "content": {
             PROBLEM_MEDIA_TYPE: {"schema": {"$ref": "#/components/schemas/Problem"}}}})

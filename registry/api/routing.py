@@ -1,5 +1,7 @@
-"""The API blueprint and the one decorator every route uses: path, method, role and the metadata
-the OpenAPI document is built from, so the routes and the document cannot drift apart."""
+"""The API blueprint and the one decorator every route uses: path, method, the use case's action
+and the metadata the OpenAPI document is built from, so the routes and the document cannot drift
+apart. The decorator authenticates (who is calling) and nothing more: whether that caller may
+act is decided by the use case, through registry.service.authorisation."""
 
 from __future__ import annotations
 
@@ -11,7 +13,7 @@ from typing import Any
 from flask import Blueprint, g
 from werkzeug.routing import IntegerConverter
 
-from registry.api.auth import authorise
+from registry.api.auth import authenticate
 from registry.api.bodies import refuse_oversize_body
 from registry.api.problems import install_problem_handlers
 
@@ -37,15 +39,17 @@ api.before_request(refuse_oversize_body)
 
 @dataclass(frozen=True)
 class Operation:
-    """One route: `rule` in Flask syntax under /api/v1, the role it needs (None: anyone), and
-    what the OpenAPI document says about it."""
+    """One route: `rule` in Flask syntax under /api/v1, the action of the service's
+    authorisation table it performs (None for reads), whether it needs no token at all
+    (`public`), and what the OpenAPI document says about it."""
 
     rule: str
     method: str
     operation_id: str
     summary: str
     tag: str
-    role: str | tuple[str, ...] | None
+    action: str | None = None
+    public: bool = False
     body: dict[str, Any] | None = None        # JSON Schema of a JSON body
     form: dict[str, Any] | None = None        # JSON Schema of a multipart/form-data body
     body_required: bool = True
@@ -59,7 +63,8 @@ OPERATIONS: list[Operation] = []
 
 
 def route(rule: str, method: str, *, summary: str, tag: str,
-          role: str | tuple[str, ...] | None = "reader", body: dict[str, Any] | None = None,
+          action: str | None = None, public: bool = False,
+          body: dict[str, Any] | None = None,
           form: dict[str, Any] | None = None, body_required: bool = True,
           query: tuple[dict[str, Any], ...] = (), responses: dict[int, str] | None = None,
           response_schema: dict[str, Any] | None = None,
@@ -67,15 +72,16 @@ def route(rule: str, method: str, *, summary: str, tag: str,
     """Register a view on the API blueprint; the view finds the acting user in `g.actor`."""
     def decorate(view: Callable[..., Any]) -> Callable[..., Any]:
         operation = Operation(rule=rule, method=method, operation_id=view.__name__,
-                              summary=summary, tag=tag, role=role, body=body, form=form,
+                              summary=summary, tag=tag, action=action, public=public,
+                              body=body, form=form,
                               body_required=body_required, query=query,
                               responses=dict(responses or {200: "OK"}),
                               response_schema=response_schema,
-                              is_read=is_read if is_read is not None else role == "reader")
+                              is_read=is_read if is_read is not None else action is None)
 
         @functools.wraps(view)
         def guarded(**arguments: Any) -> Any:
-            g.actor = authorise(operation.role, is_read=operation.is_read)
+            g.actor = None if operation.public else authenticate(is_read=operation.is_read)
             return view(**arguments)
 
         OPERATIONS.append(operation)

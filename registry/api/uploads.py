@@ -55,13 +55,3 @@ def form_value(name: str, default: str | None = None) -> str | None:
     if len(values) > 1:
         raise UserError(f"the field {name!r} is given {len(values)} times", place=name)
     return values[0] if values and values[0] != "" else default
-
-
-def refuse_unknown_parts(known: set[str]) -> None:
-    from registry.api.problems import ApiError
-
-    unknown = sorted((set(request.form) | set(request.files)) - known)
-    if unknown:
-        raise ApiError(f"unknown part(s) {', '.join(map(repr, unknown))}; this operation takes "
-                       f"{', '.join(sorted(known))}", kind="unknown-fields", status=400,
-                       place=unknown[0])

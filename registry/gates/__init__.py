@@ -1,6 +1,5 @@
 """Promotion gates: policy loading and pure functions from evidence to a gate report."""
 
-from registry.gates.approval_gate import check_approval
 from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval, ColumnCounts,
                                      ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
                                      FeatureChange, PairedComparison, RecalledDataset,
@@ -19,7 +18,7 @@ __all__ = [
     "ContainmentEstimate", "DatasetRecord", "Evidence", "EvidenceError", "FeatureChange",
     "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
     "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "SliceComparison",
-    "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_approval", "check_waivers",
+    "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_waivers",
     "default_policy", "default_policy_text", "evaluate", "from_plain", "holm_adjust",
     "load_policy", "render_report", "to_plain",
 ]

@@ -1,24 +1,12 @@
-"""Four eyes: the approved gate, and the check that refuses an author approving their version."""
+"""Four eyes: the approved gate counts approvals by approvers other than the author."""
 
 from __future__ import annotations
 
 from collections.abc import Mapping
 from typing import Any
 
-from registry.errors import Forbidden
-from registry.gates.evidence import APPROVER, Actor, Evidence, to_plain
+from registry.gates.evidence import APPROVER, Evidence, to_plain
 from registry.gates.report import GateResult
-
-
-def check_approval(actor: Actor, *, author: str, model: str, version: int) -> None:
-    """Refuse an approval the approved gate would not count: from someone without the approver
-    role, or from the version's own author (four eyes)."""
-    if not actor.has_role(APPROVER):
-        raise Forbidden(f"{actor.user} does not hold the {APPROVER} role and cannot approve "
-                        f"{model} version {version}", place="approved")
-    if actor.user == author:
-        raise Forbidden(f"{actor.user} is the author of {model} version {version}; four eyes: "
-                        "another approver must approve it", place="approved")
 
 
 def approved(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:

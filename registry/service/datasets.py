@@ -19,7 +19,7 @@ from registry.errors import AlreadyExists, NotFound, UserError
 from registry.names import check_name
 from registry.service.actors import Actor
 from registry.service.models import find_model
-from registry.service.roles import require_role
+from registry.service.authorisation import authorise
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -145,7 +145,7 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
     sources = check_sources(request.sources)
     fingerprint_bytes = canonical_json(request.fingerprint.to_dict())
     with UnitOfWork(catalogue) as uow:
-        require_role(uow, actor, "publisher", "registering a dataset")
+        authorise(uow, actor, "dataset.add")
         parents = [find_dataset(uow, name) for name in sorted(set(request.derived_from))]
         feed_model = find_model(uow, request.feed_of) if request.feed_of else None
         fingerprint_digest = uow.blobs.put(fingerprint_bytes)

@@ -7,15 +7,13 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlalchemy import select
-
 from registry.canonical_json import sha256_hex
 from registry.errors import AlreadyExists, UserError
 from registry.evaluation import Predictions, compute_metrics, slice_metrics
 from registry.service.actors import Actor
+from registry.service.authorisation import authorise
 from registry.service.datasets import find_dataset, load_fingerprint
 from registry.service.models import find_model, find_version
-from registry.service.roles import require_role
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -71,7 +69,7 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
     document = metrics_document(request.predictions, request.slice_columns, request.threshold)
     stored_predictions = request.predictions.to_bytes()
     with UnitOfWork(catalogue) as uow:
-        require_role(uow, actor, "publisher", "recording an evaluation")
+        authorise(uow, actor, "evaluation.add")
         line = find_model(uow, request.model)
         version = find_version(uow, line, request.version)
         dataset = find_dataset(uow, request.dataset)
@@ -89,9 +87,7 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
                             "rows): predict every row of the dataset, each once",
                             place="--predictions")
         predictions_digest = uow.blobs.put(stored_predictions)
-        existing = uow.session.execute(select(t.Evaluation).where(
-            t.Evaluation.version_id == version.id, t.Evaluation.dataset_id == dataset.id)
-        ).scalar_one_or_none()
+        existing = uow.evaluations.find(version.id, dataset.id)
         if existing is not None:
             if existing.predictions_digest == predictions_digest:
                 return _summary(line, version, dataset, existing, created=False)
@@ -104,8 +100,7 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
             dataset_content_digest=dataset.content_digest, task=request.predictions.task,
             metrics_json=metrics_json,
             predictions_digest=predictions_digest, created_at=utc_now(), created_by=actor.name)
-        uow.session.add(evaluation)
-        uow.session.flush()
+        uow.evaluations.add(evaluation)
         uow.audit.append(actor.name, "evaluation.add",
                          f"model/{line.name}/version/{version.number}/evaluation/{dataset.name}",
                          {"dataset_content_digest": dataset.content_digest,
@@ -130,9 +125,7 @@ def _summary(line: t.Model, version: t.Version, dataset: t.Dataset, evaluation: 
 
 
 def evaluations_of(uow: UnitOfWork, version: t.Version) -> list[tuple[t.Evaluation, t.Dataset]]:
-    return list(uow.session.execute(
-        select(t.Evaluation, t.Dataset).join(t.Dataset, t.Dataset.id == t.Evaluation.dataset_id)
-        .where(t.Evaluation.version_id == version.id).order_by(t.Evaluation.id)).all())
+    return uow.evaluations.of_version(version.id)
 
 
 def stored_predictions(uow: UnitOfWork, evaluation: t.Evaluation) -> Predictions:

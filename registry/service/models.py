@@ -9,7 +9,7 @@ from sqlalchemy import func, select
 from registry.errors import AlreadyExists, NotFound
 from registry.names import check_name
 from registry.service.actors import Actor
-from registry.service.roles import require_role
+from registry.service.authorisation import authorise
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -93,7 +93,7 @@ def _summary(uow: UnitOfWork, model: t.Model) -> ModelSummary:
 def create_model(catalogue: Catalogue, name: str, description: str, actor: Actor) -> ModelSummary:
     check_name(name, what="model")
     with UnitOfWork(catalogue) as uow:
-        require_role(uow, actor, "admin", "creating a model")
+        authorise(uow, actor, "model.create")
         existing = uow.session.execute(select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
         if existing is not None:
             raise AlreadyExists(f"a model named {name!r} already exists", place="model")

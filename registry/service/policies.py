@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 from registry import gates
-from registry.errors import Forbidden
 from registry.service.actors import Actor
+from registry.service.authorisation import authorise
 from registry.service.gatekeeping import policy_of
 from registry.service.models import find_model
 from registry.store.catalogue import Catalogue
@@ -24,10 +24,8 @@ def set_policy(catalogue: Catalogue, model: str, text: str, actor: Actor, *,
                source: str = "policy") -> dict:
     """Validate first (a bad policy changes nothing), then store it."""
     gates.load_policy(text, source=source, base=gates.default_policy())
-    if not actor.has_role("admin"):
-        raise Forbidden(f"setting a model's policy needs the admin role; {actor.name} does not "
-                        "have it", place="policy")
     with UnitOfWork(catalogue) as uow:
+        authorise(uow, actor, "model.set-policy", place="policy")
         line = find_model(uow, model)
         line.policy_toml = text
         uow.audit.append(actor.name, "model.policy", f"model/{model}", {"policy": text})

@@ -11,15 +11,15 @@ from dataclasses import dataclass
 
 from sqlalchemy import select
 
-from registry.errors import Forbidden, NotFound, UserError
+from registry.errors import NotFound, UserError
 from registry.service.actors import Actor
+from registry.service.authorisation import authorise
 from registry.service.lineage import dataset_id, version_id
 from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
 
-RECALL_ROLES = ("publisher", "approver")  # an admin may do everything
 
 
 @dataclass(frozen=True)
@@ -96,10 +96,8 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
     reason = (reason or "").strip()
     if not reason:
         raise UserError("a recall needs a reason a person can act on", place="--reason")
-    if not any(actor.has_role(role) for role in RECALL_ROLES):
-        raise Forbidden(f"recalling a dataset needs the publisher or approver role; "
-                        f"{actor.name} has neither", place="recall")
     with UnitOfWork(catalogue) as uow:
+        authorise(uow, actor, "dataset.recall", place="recall")
         dataset = uow.session.execute(
             select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
         if dataset is None:

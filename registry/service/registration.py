@@ -14,7 +14,7 @@ from registry.names import check_name
 from registry.service.actors import Actor
 from registry.service.contents import VersionContents, read_version_contents
 from registry.service.models import find_model
-from registry.service.roles import require_role
+from registry.service.authorisation import authorise
 from registry.service.stages import enter_first_stage
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
@@ -88,7 +88,7 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
     contents = read_version_contents(request)
     digest = registration_digest(request.model, contents, request.manifest)
     with UnitOfWork(catalogue) as uow:
-        require_role(uow, actor, "publisher", "registering a version")
+        authorise(uow, actor, "version.register")
         model = find_model(uow, request.model)
         existing = uow.session.execute(
             select(t.Version).where(t.Version.model_id == model.id,

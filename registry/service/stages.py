@@ -14,10 +14,11 @@ from typing import Any
 
 from sqlalchemy import delete, select
 
-from registry.errors import Conflict, Forbidden, NotFound, Refusal, UserError
+from registry.errors import Conflict, NotFound, Refusal, UserError
 from registry.names import check_name
 from registry.service import gatekeeping
 from registry.service.actors import Actor
+from registry.service.authorisation import authorise
 from registry.service.models import find_model, find_version
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
@@ -147,6 +148,7 @@ def check(catalogue: Catalogue, model: str, number: int, stage: str, actor: Acto
     with UnitOfWork(catalogue, write=False) as uow:
         line = find_model(uow, model)
         version = find_version(uow, line, number)
+        _authorise_waivers(uow, actor, version, waivers)
         policy = gatekeeping.policy_of(line)
         policy.check_transition(stages_of(uow, version), stage)
         report = gatekeeping.run_gates(uow, line, version, stage, actor, waivers, policy=policy)
@@ -162,13 +164,13 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
         line = find_model(uow, model)
         version = find_version(uow, line, number)
         policy = gatekeeping.policy_of(line)
+        authorise(uow, actor, "stage.guarded-move" if gatekeeping.is_guarded(policy, stage)
+                  else "stage.promote", place="--to")
+        _authorise_waivers(uow, actor, version, waivers)
         current = stages_of(uow, version)
         if stage in current:
             raise UserError(f"version {number} already holds {stage!r}", place="--to")
         policy.check_transition(current, stage)
-        if gatekeeping.is_guarded(policy, stage) and not actor.has_role("approver"):
-            raise Forbidden(f"promoting into the guarded stage {stage!r} needs the approver role; "
-                            f"{actor.name} does not have it", place="--to")
         now = _numbers(uow, holders(uow, line, stage))
         if expected is not None and policy.is_exclusive(stage) and now != expected.versions:
             raise Conflict(f"{stage!r} changed while this promotion waited (now held by "
@@ -189,6 +191,13 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
                             displaced)
 
 
+def _authorise_waivers(uow: UnitOfWork, actor: Actor, version: t.Version,
+                       waivers: list[gatekeeping.Waiver]) -> None:
+    if waivers:
+        authorise(uow, actor, "gate.waive", authors=(version.author, version.created_by),
+                  place=f"waiver of {waivers[0].gate}")
+
+
 def _describe(numbers: tuple[int, ...]) -> str:
     return ", ".join(f"v{n}" for n in numbers) or "no version"
 
@@ -200,13 +209,9 @@ def approve(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
         line = find_model(uow, model)
         version = find_version(uow, line, number)
         policy = gatekeeping.policy_of(line)
+        authorise(uow, actor, "version.approve", authors=(version.author, version.created_by),
+                  place="approve")
         policy.stage(stage)
-        if not actor.has_role("approver"):
-            raise Forbidden(f"{actor.name} does not have the approver role", place="approve")
-        if actor.name in (version.author, version.created_by):
-            raise Forbidden(f"{actor.name} wrote version {number} and cannot approve it "
-                            "(four eyes: an approval must come from someone else)",
-                            place="approve")
         existing = uow.session.execute(select(t.Approval).where(
             t.Approval.version_id == version.id, t.Approval.stage == stage,
             t.Approval.approver == actor.name)).scalar_one_or_none()
@@ -230,11 +235,11 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
         line = find_model(uow, model)
         policy = gatekeeping.policy_of(line)
         policy.stage(stage)
+        authorise(uow, actor, "stage.guarded-move" if gatekeeping.is_guarded(policy, stage)
+                  else "stage.rollback", place="--stage")
         if not policy.is_exclusive(stage):
             raise UserError(f"{stage!r} is not an exclusive stage; roll back works on a stage "
                             "held by one version", place="--stage")
-        if gatekeeping.is_guarded(policy, stage) and not actor.has_role("approver"):
-            raise Forbidden(f"rolling back {stage!r} needs the approver role", place="--stage")
         current = holders(uow, line, stage)
         if not current:
             raise UserError(f"no version holds {stage!r}; there is nothing to roll back",
@@ -245,6 +250,7 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
             raise UserError(f"v{holder.number} was the first version to hold {stage!r}; there is "
                             "no earlier holder to restore", place="--stage")
         previous = uow.session.get(t.Version, holding.previous_version_id)
+        _authorise_waivers(uow, actor, previous, waivers)
         if "retired" in stages_of(uow, previous):
             raise UserError(f"v{previous.number}, the previous holder, is retired",
                             place="--stage")
@@ -292,12 +298,11 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
         version = find_version(uow, line, number)
         policy = gatekeeping.policy_of(line)
         held = stages_of(uow, version)
+        guarded = [s for s in held if gatekeeping.is_guarded(policy, s)]
+        authorise(uow, actor, "stage.guarded-move" if guarded else "version.retire",
+                  place="retire")
         if "retired" in held:
             raise UserError(f"version {number} is already retired", place="retire")
-        guarded = [s for s in held if gatekeeping.is_guarded(policy, s)]
-        if guarded and not actor.has_role("approver"):
-            raise Forbidden(f"v{number} holds {', '.join(guarded)}; retiring it needs the "
-                            "approver role", place="retire")
         uow.session.execute(delete(t.StageHolding).where(t.StageHolding.version_id == version.id))
         for stage in held:
             _event(uow, line, version, stage, "retired", actor, reason=reason)

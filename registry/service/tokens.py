@@ -14,11 +14,10 @@ import secrets
 from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 
-from sqlalchemy import select
-
-from registry.errors import Forbidden, LockkeeperError, NotFound, UserError
+from registry.errors import LockkeeperError, NotFound, UserError
 from registry.names import check_name
 from registry.service.actors import ROLES, Actor
+from registry.service.authorisation import authorise, is_bootstrap, require_first_admin
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -87,20 +86,6 @@ def _record(row: t.ApiToken) -> TokenRecord:
                        revoked_at=row.revoked_at.isoformat() if row.revoked_at else None)
 
 
-def _catalogue_roles(uow: UnitOfWork, user: str) -> set[str]:
-    return set(uow.session.execute(
-        select(t.RoleGrant.role).where(t.RoleGrant.user == user)).scalars())
-
-
-def _has_any_admin(uow: UnitOfWork) -> bool:
-    return uow.session.execute(
-        select(t.RoleGrant).where(t.RoleGrant.role == "admin")).first() is not None
-
-
-def _is_admin(uow: UnitOfWork, actor: Actor) -> bool:
-    """Admin now, in the catalogue, and in the role the actor acts with (a token's role)."""
-    return "admin" in actor.roles and "admin" in _catalogue_roles(uow, actor.name)
-
 
 def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
                  expires_at: datetime | None = None, label: str = "") -> CreatedToken:
@@ -111,17 +96,12 @@ def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
         raise UserError(f"unknown role {role!r}; roles are {', '.join(ROLES)}", place="--role")
     secret = SECRET_PREFIX + secrets.token_urlsafe(32)
     with UnitOfWork(catalogue) as uow:
-        bootstrap = not _has_any_admin(uow)
-        if bootstrap and role != "admin":
-            raise Forbidden("this catalogue has no admin yet: create an admin token first",
-                            place="--role")
-        if not bootstrap and not _is_admin(uow, actor):
-            raise Forbidden(f"managing tokens needs the admin role; {actor.name} does not have "
-                            "it", place="token")
-        held = _catalogue_roles(uow, user)
+        require_first_admin(uow, role, place="--role")
+        bootstrap = is_bootstrap(uow)
+        authorise(uow, actor, "token.create", place="token")
+        held = uow.roles.held_by(user)
         if bootstrap:
-            uow.session.add(t.RoleGrant(user=user, role="admin", granted_at=utc_now(),
-                                        granted_by=actor.name))
+            uow.roles.grant(user, "admin", at=utc_now(), by=actor.name)
             uow.audit.append(actor.name, "role.grant", f"user/{user}",
                              {"role": "admin", "bootstrap": True})
         elif role != "reader" and role not in held:
@@ -131,8 +111,7 @@ def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
                             f"`lockkeeper user grant {user} {role}`", place="--role")
         row = t.ApiToken(token_hash=hash_secret(secret), user=user, role=role, label=label,
                          created_at=utc_now(), created_by=actor.name, expires_at=expires_at)
-        uow.session.add(row)
-        uow.session.flush()
+        uow.tokens.add(row)
         uow.audit.append(actor.name, "token.create", f"token/{row.id}", {
             "user": user, "role": role, "label": label,
             "expires_at": expires_at.isoformat() if expires_at else None})
@@ -143,15 +122,13 @@ def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
 
 def revoke_token(catalogue: Catalogue, token_id: int, actor: Actor) -> TokenRecord:
     with UnitOfWork(catalogue) as uow:
-        if not _is_admin(uow, actor):
-            raise Forbidden(f"managing tokens needs the admin role; {actor.name} does not have "
-                            "it", place="token")
-        row = uow.session.get(t.ApiToken, token_id)
+        authorise(uow, actor, "token.revoke", place="token")
+        row = uow.tokens.get(token_id)
         if row is None:
             raise NotFound(f"no token {token_id}", place="token")
         if row.revoked_at is None:
             row.revoked_at = utc_now()
-            uow.session.flush()
+            uow.tokens.save()
             uow.audit.append(actor.name, "token.revoke", f"token/{row.id}",
                              {"user": row.user, "role": row.role})
         record = _record(row)
@@ -162,11 +139,8 @@ def revoke_token(catalogue: Catalogue, token_id: int, actor: Actor) -> TokenReco
 def list_tokens(catalogue: Catalogue, actor: Actor) -> list[TokenRecord]:
     """Every token, never its secret (the catalogue does not have it)."""
     with UnitOfWork(catalogue, write=False) as uow:
-        if not _is_admin(uow, actor):
-            raise Forbidden(f"listing tokens needs the admin role; {actor.name} does not have "
-                            "it", place="token")
-        rows = uow.session.execute(select(t.ApiToken).order_by(t.ApiToken.id)).scalars().all()
-        return [_record(row) for row in rows]
+        authorise(uow, actor, "token.list", place="token")
+        return [_record(row) for row in uow.tokens.all()]
 
 
 @dataclass(frozen=True)
@@ -196,8 +170,7 @@ def token_standing(catalogue: Catalogue, secret: str) -> TokenStanding:
                               place="Authorization")
     wanted = hash_secret(secret)
     with UnitOfWork(catalogue, write=False) as uow:
-        row = uow.session.execute(
-            select(t.ApiToken).where(t.ApiToken.token_hash == wanted)).scalar_one_or_none()
+        row = uow.tokens.by_hash(wanted)
         stored = row.token_hash if row is not None else hash_secret("")
         if row is None or not hmac.compare_digest(stored, wanted):
             raise Unauthenticated("unknown bearer token", place="Authorization")
@@ -206,7 +179,7 @@ def token_standing(catalogue: Catalogue, secret: str) -> TokenStanding:
         expires_at = row.expires_at
         if expires_at is not None and expires_at.tzinfo is None:
             expires_at = expires_at.replace(tzinfo=UTC)  # SQLite hands back naive UTC
-        held = _catalogue_roles(uow, row.user)
+        held = uow.roles.held_by(row.user)
         user, role = row.user, row.role
     if not (role == "reader" or role in held):
         role = "reader"  # the user lost the role after the token was made: it may still read

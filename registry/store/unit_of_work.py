@@ -21,6 +21,9 @@ from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.dataset_sources_repository import DatasetSourceRepository
+from registry.store.evaluation_repository import EvaluationRepository
+from registry.store.role_repository import RoleRepository
+from registry.store.token_repository import TokenRepository
 
 
 def utc_now() -> datetime:
@@ -89,13 +92,16 @@ class UnitOfWork:
         self.blobs: BlobStore
         self.audit: AuditLog
         self.dataset_sources: DatasetSourceRepository
+        self.roles: RoleRepository
+        self.tokens: TokenRepository
+        self.evaluations: EvaluationRepository
 
     def __enter__(self) -> UnitOfWork:
         self._intent_token = sqlite_write_intent.set(self.write)
         self.session = self.catalogue.sessions()
         self.blobs = BlobStore(self.session)
         self.audit = AuditLog(self.session)
-        self.dataset_sources = DatasetSourceRepository(self.session)
+        self._attach_repositories()
         try:
             self.session.begin()
             if self.write:
@@ -104,6 +110,13 @@ class UnitOfWork:
             self._close()
             raise _translate(error, self.catalogue) from None
         return self
+
+    def _attach_repositories(self) -> None:
+        """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
+        self.roles = RoleRepository(self.session)
+        self.tokens = TokenRepository(self.session)
+        self.evaluations = EvaluationRepository(self.session)
+        self.dataset_sources = DatasetSourceRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

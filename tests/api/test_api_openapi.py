@@ -86,3 +86,53 @@ def test_generated_requests_to_reads_and_the_schema_check_never_get_a_5xx(cli, t
 
         call()
     assert failures == []
+
+
+@pytest.fixture
+def admin_client(tmp_path):
+    """A test client over a fresh catalogue with the Brackwater people, and an admin token."""
+    from tests.api.api_helpers import make_tokens
+    from tests.catalogue.stage_helpers import set_up_people
+    from tests.conftest import Cli
+
+    url = f"sqlite:///{tmp_path / 'catalogue.db'}"
+    assert Cli(url)("init").exit_code == 0
+    set_up_people(Cli(url))
+    secret = make_tokens(url)["admin"]
+    client = create_api_app(url).test_client()
+    client.environ_base["HTTP_AUTHORIZATION"] = f"Bearer {secret}"
+    return client
+
+
+def test_every_published_body_schema_is_the_one_the_server_checks(admin_client):
+    """For each operation with a JSON body, a body with a field the published schema does not
+    allow is refused with 400 naming that field (jsonschema, draft 2020-12, checks the bodies
+    against these very schemas), before any authorisation or change."""
+    document = admin_client.get("/api/v1/openapi.json").json
+    checked = 0
+    for path, item in document["paths"].items():
+        for method, operation in item.items():
+            body = operation.get("requestBody", {}).get("content", {}).get("application/json")
+            if body is None or body["schema"].get("additionalProperties") is not False:
+                continue
+            numbered = re.sub(r"\{(version|token_id|report_id)\}", "1", path)
+            concrete = re.sub(r"\{(\w+)\}", "x", numbered)
+            response = admin_client.open(concrete, method=method.upper(),
+                                         json={"not_a_field_we_publish": 1})
+            assert response.status_code == 400, (path, method, response.json)
+            assert response.json["place"].endswith("not_a_field_we_publish"), response.json
+            checked += 1
+    assert checked >= 8
+
+
+@pytest.mark.parametrize("body, place, words", [
+    ({"stage": 5}, "body/stage", "expected string, got integer"),
+    ({"stage": "live", "waivers": [{"gate": "slice-guard"}]}, "body/waivers/0/reason",
+     "missing field 'reason'"),
+    ({"stage": "x" * 101}, "body/stage", "longer than 100 characters"),
+    ({}, "body/stage", "missing field 'stage'"),
+])
+def test_a_body_that_breaks_its_schema_names_the_field(admin_client, body, place, words):
+    response = admin_client.post("/api/v1/models/m/versions/1/promote", json=body)
+    assert response.status_code == 400
+    assert response.json["place"] == place and words in response.json["detail"]

@@ -52,12 +52,11 @@ def test_a_revoked_token_stops_working_on_the_next_request(api):
     assert refused.status_code == 401 and "revoked" in problem(refused)["detail"]
 
 
-def test_a_token_loses_its_role_when_the_user_does(api):
+def test_a_token_loses_its_role_when_the_user_does(api, tmp_path):
     assert api.delete("/users/ines.okafor/roles/publisher").status_code == 200
     # Still a valid token, but it now only reads.
     assert api.get("/models", role="publisher").status_code == 200
-    assert api.post("/models/m/versions", role="publisher", data={},
-                    content_type="multipart/form-data").status_code == 403
+    assert api.register("m", tmp_path, role="publisher").status_code == 403
 
 
 @pytest.mark.parametrize("header", ["Bearer lkt_not-a-token", "Bearer nonsense", "Basic abc",

@@ -4,8 +4,8 @@ import pytest
 
 from gates_helpers import (INES, MARA, PRIYA, TOMAS, judge, one_gate_policy, passing_evidence,
                            waive)
-from registry.errors import Forbidden, UserError
-from registry.gates import Actor, Approval, Waiver, check_approval, default_policy, evaluate
+from registry.errors import UserError
+from registry.gates import Actor, Approval, Waiver, default_policy, evaluate
 
 AT = "2026-12-01T08:30:00Z"
 
@@ -54,21 +54,6 @@ def test_approved_fails_without_approvals():
     assert "for live" in result.summary
 
 
-def test_approving_ones_own_version_is_refused_as_a_user_error():
-    author_as_approver = Actor("ines.okafor", ("approver",))
-    with pytest.raises(Forbidden) as caught:
-        check_approval(author_as_approver, author="ines.okafor", model="main-burst-risk",
-                       version=3)
-    assert isinstance(caught.value, UserError) and caught.value.exit_code == 2
-    assert "four eyes" in caught.value.message
-
-
-def test_approving_without_the_approver_role_is_refused():
-    with pytest.raises(Forbidden):
-        check_approval(MARA, author="ines.okafor", model="main-burst-risk", version=3)
-    check_approval(TOMAS, author="ines.okafor", model="main-burst-risk", version=3)
-
-
 # waivers
 
 FAILING = passing_evidence(approvals=(), feed=None)  # reads-live-feed fails: no check given
@@ -76,13 +61,6 @@ FAILING = passing_evidence(approvals=(), feed=None)  # reads-live-feed fails: no
 
 def attempt(waivers, actor=TOMAS, evidence=FAILING):
     return evaluate(default_policy(), "live", evidence, waivers, actor)
-
-
-def test_waiver_without_the_approver_role_is_rejected():
-    with pytest.raises(Forbidden) as caught:
-        attempt(waive("reads-live-feed", actor=MARA), actor=MARA)
-    assert caught.value.exit_code == 2
-    assert caught.value.place == "waiver of reads-live-feed"
 
 
 @pytest.mark.parametrize("reason", ["", "   \n"])
@@ -93,15 +71,8 @@ def test_waiver_without_a_reason_is_rejected(reason):
     assert caught.value.exit_code == 2
 
 
-def test_waiver_by_the_versions_author_is_rejected():
-    author_as_approver = Actor("ines.okafor", ("approver",))
-    with pytest.raises(Forbidden) as caught:
-        attempt(waive("reads-live-feed", actor=author_as_approver), actor=author_as_approver)
-    assert "four eyes" in caught.value.message
-
-
 def test_waiver_on_behalf_of_someone_else_is_rejected():
-    with pytest.raises(Forbidden):
+    with pytest.raises(UserError, match="given by the acting user"):
         attempt((Waiver("reads-live-feed", "priya.raman", "checked"),), actor=TOMAS)
 
 

@@ -16,12 +16,12 @@ import os
 
 from flask import g, request
 
-from registry.api.bodies import NAME, TEXT, json_body, require_media_type, strict_object
+from registry.api.bodies import (NAME, TEXT, check_form, json_body, require_media_type,
+                                 strict_object)
 from registry.api.context import catalogue
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
-from registry.api.uploads import (file_part, form_value, form_values, refuse_unknown_parts,
-                                  saved_upload)
+from registry.api.uploads import file_part, form_value, form_values, saved_upload
 from registry.errors import UserError
 from registry.service import datasets
 
@@ -49,7 +49,6 @@ DATASET_FORM = {
                    "feed_of": TEXT_FIELD, "source_uri": TEXT_FIELD},
     "required": ["file", "name"], "additionalProperties": False,
 }
-FORM_PARTS = set(DATASET_FORM["properties"])
 
 
 def _fingerprint_from_json(value: dict):
@@ -87,7 +86,7 @@ def _schema_part() -> dict | None:
 def _request_from_upload() -> datasets.DatasetRequest:
     from registry.datasets import fingerprint_dataset
 
-    refuse_unknown_parts(FORM_PARTS)
+    check_form(DATASET_FORM)
     name = path_name(form_value("name") or "", "dataset")
     upload = file_part("file")
     schema = _schema_part()
@@ -114,7 +113,7 @@ def show_dataset(dataset: str):
     return json_response(datasets.show_dataset(catalogue(), path_name(dataset, "dataset")))
 
 
-@route("/datasets", "POST", role="publisher", summary="Register a dataset from an uploaded "
+@route("/datasets", "POST", action="dataset.add", summary="Register a dataset from an uploaded "
        "file or from a fingerprint computed by the producer", tag="datasets",
        body=DATASET_BODY, form=DATASET_FORM,
        responses={201: "Created", 200: "Already registered with this content; nothing changed"})

@@ -12,12 +12,11 @@ import math
 
 from flask import g
 
-from registry.api.bodies import require_media_type
+from registry.api.bodies import check_form, require_media_type
 from registry.api.context import catalogue
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
-from registry.api.uploads import (file_part, form_value, form_values, refuse_unknown_parts,
-                                  saved_upload)
+from registry.api.uploads import file_part, form_value, form_values, saved_upload
 from registry.errors import UserError
 from registry.service import evaluations
 
@@ -43,7 +42,7 @@ def _threshold() -> float:
     return value
 
 
-@route(VERSION_PATH + "/evaluations", "POST", role="publisher", summary="Compute and store a "
+@route(VERSION_PATH + "/evaluations", "POST", action="evaluation.add", summary="Compute and store a "
        "version's metrics on an evaluation dataset from its predictions", tag="evaluations",
        form=EVALUATION_FORM,
        responses={201: "Created", 200: "This evaluation already exists; nothing changed"})
@@ -52,7 +51,7 @@ def add_evaluation(model: str, version: int):
     from registry.evaluation import read_predictions
 
     require_media_type("multipart/form-data")
-    refuse_unknown_parts(set(EVALUATION_FORM["properties"]))
+    check_form(EVALUATION_FORM)
     dataset = path_name(form_value("dataset") or "", "dataset")
     threshold = _threshold()
     with saved_upload(file_part("predictions"), "predictions.csv") as path:

@@ -67,7 +67,7 @@ def lineage():
     return json_response(lineage_service.lineage_of(catalogue(), node, direction, depth))
 
 
-@route("/datasets/<dataset>/recall", "POST", role=recall_service.RECALL_ROLES,
+@route("/datasets/<dataset>/recall", "POST", action="dataset.recall",
        summary="Recall a dataset: flag everything downstream and block it from promotion",
        tag="lineage", body=RECALL_BODY)
 def recall_dataset(dataset: str):

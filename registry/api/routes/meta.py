@@ -8,12 +8,12 @@ from registry.api.routing import route
 PING = {"service": "lockkeeper", "api": "v1", "ok": True}
 
 
-@route("/ping", "GET", role=None, summary="A constant answer: the server is up", tag="meta")
+@route("/ping", "GET", public=True, summary="A constant answer: the server is up", tag="meta")
 def ping():
     return json_response(PING)
 
 
-@route("/openapi.json", "GET", role=None, summary="This API's OpenAPI 3.1 document", tag="meta")
+@route("/openapi.json", "GET", public=True, summary="This API's OpenAPI 3.1 document", tag="meta")
 def openapi_document():
     from registry.api.openapi import document
 

@@ -20,7 +20,7 @@ def list_models():
     return json_response({"models": models.list_models(catalogue())})
 
 
-@route("/models", "POST", role="admin", summary="Create a model line", tag="models",
+@route("/models", "POST", action="model.create", summary="Create a model line", tag="models",
        body=CREATE_MODEL_BODY, responses={201: "Created"})
 def create_model():
     body = json_body(CREATE_MODEL_BODY)
@@ -39,7 +39,7 @@ def show_policy(model: str):
     return json_response(policies.show_policy(catalogue(), path_name(model, "model")))
 
 
-@route("/models/<model>/policy", "PUT", role="admin", summary="Give a model its own policy "
+@route("/models/<model>/policy", "PUT", action="model.set-policy", summary="Give a model its own policy "
        "(TOML text, laid over the default)", tag="models", body=SET_POLICY_BODY)
 def set_policy(model: str):
     body = json_body(SET_POLICY_BODY)

@@ -16,13 +16,13 @@ CREATE_TOKEN_BODY = strict_object({
     "expires": {"type": "string", "maxLength": 40}, "label": TEXT}, ("user", "role"))
 
 
-@route("/tokens", "GET", role="admin", summary="Every token (never a secret)", tag="tokens",
+@route("/tokens", "GET", action="token.list", summary="Every token (never a secret)", tag="tokens",
        is_read=False)
 def list_tokens():
     return json_response({"tokens": tokens.list_tokens(catalogue(), g.actor)})
 
 
-@route("/tokens", "POST", role="admin", summary="Make a token; its secret is shown once",
+@route("/tokens", "POST", action="token.create", summary="Make a token; its secret is shown once",
        tag="tokens", body=CREATE_TOKEN_BODY, responses={201: "Created"})
 def create_token():
     body = json_body(CREATE_TOKEN_BODY)
@@ -32,7 +32,7 @@ def create_token():
     return json_response(created, 201, {"Location": f"/api/v1/tokens/{created.token.id}"})
 
 
-@route("/tokens/<number:token_id>", "DELETE", role="admin", summary="Revoke a token",
+@route("/tokens/<number:token_id>", "DELETE", action="token.revoke", summary="Revoke a token",
        tag="tokens")
 def revoke_token(token_id: int):
     return json_response(tokens.revoke_token(catalogue(), token_id, g.actor))

@@ -17,7 +17,7 @@ from pathlib import PurePosixPath
 
 from flask import g, request
 
-from registry.api.bodies import require_media_type
+from registry.api.bodies import check_form, require_media_type
 from registry.api.context import catalogue
 from registry.api.problems import ApiError
 from registry.api.rendering import json_response, path_name
@@ -40,6 +40,7 @@ REGISTER_FORM = {
 def _parts() -> dict[str, tuple[bytes, str | None]]:
     """Every part of the upload by name: its bytes and, for a file, its file name."""
     require_media_type("multipart/form-data")
+    check_form(REGISTER_FORM)
     parts: dict[str, tuple[bytes, str | None]] = {}
     for name, upload in request.files.items(multi=True):
         if name in parts:
@@ -93,7 +94,7 @@ def registration_request(model: str, parts: dict[str, tuple[bytes, str | None]]
         features_text=features_text)
 
 
-@route("/models/<model>/versions", "POST", role="publisher", summary="Register the next "
+@route("/models/<model>/versions", "POST", action="version.register", summary="Register the next "
        "version of a model (multipart upload of document, manifest and the files it names)",
        tag="versions", form=REGISTER_FORM,
        responses={201: "Created", 200: "This registration already exists; nothing changed"})
