@@ -105,6 +105,7 @@ def telemetry_extract_schema() -> dict:
     return {"type": "record", "name": "TelemetrySummary", "namespace": "brackwater.telemetry",
             "doc": "Seven-day pressure and weather summary per segment.",
             "fields": [{"name": "segment_id", "type": "string"},
+                       {"name": "district", "type": "string"},
                        {"name": "mean_pressure_kpa", "type": "double"},
                        {"name": "pressure_transients_7d", "type": "int"},
                        {"name": "min_air_temp_c_7d", "type": "double"}]}
@@ -492,6 +493,16 @@ def write_avro(path: Path, schema: dict, rows: list[dict]) -> None:
                         sync_marker=AVRO_SYNC_MARKER)
 
 
+def write_avro_partitioned(folder: Path, schema: dict, rows: list[dict], key: str) -> None:
+    """One Avro file per value of `key`, in `key=value/` folders; the files leave the key out."""
+    inner = {**schema, "fields": [field for field in schema["fields"] if field["name"] != key]}
+    for value in sorted({row[key] for row in rows}):
+        (folder / f"{key}={value}").mkdir(parents=True, exist_ok=True)
+        write_avro(folder / f"{key}={value}" / "part-0.avro", inner,
+                   [{name: v for name, v in row.items() if name != key} for row in rows
+                    if row[key] == value])
+
+
 def arrow_type(avro_type: object) -> pa.DataType:
     if isinstance(avro_type, dict) and avro_type["type"] == "enum":
         return pa.string()
@@ -554,6 +565,9 @@ def generate_brackwater(root: Path) -> None:
               [list(record.values()) for record in records(network, register)])
     write_avro(folders["datasets"] / "brackwater-telemetry-extract.avro", telemetry_extract_schema(),
                records(network, telemetry_extract_schema()))
+    # The same extract as the telemetry team keeps it: a folder partitioned by district.
+    write_avro_partitioned(folders["datasets"] / "brackwater-telemetry-extract", telemetry_extract_schema(),
+                           records(network, telemetry_extract_schema()), "district")
     labelled = labelled_segment_schema()
     training, evaluation = take(network, training_index), take(network, evaluation_index)
     write_parquet(folders["datasets"] / "brackwater-training-set.parquet", labelled,

@@ -33,7 +33,7 @@ def regenerated(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 def generated_files(root: Path) -> list[Path]:
     return sorted(path.relative_to(root) for scenario in SCENARIOS for folder in GENERATED_FOLDERS
-                  for path in (root / scenario / folder).glob("*") if path.is_file())
+                  for path in (root / scenario / folder).rglob("*") if path.is_file())
 
 
 def read_schema(path: Path) -> dict:

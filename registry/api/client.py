@@ -271,11 +271,14 @@ class ApiClient:
 
     def add_dataset_fingerprint(self, name: str, fingerprint: dict, *, role: str = "source",
                                 derived_from: Sequence[str] = (), feed_of: str | None = None,
-                                source_uri: str = "") -> dict:
-        """Register a dataset from a fingerprint computed here (`dataset fingerprint --json`)."""
-        return self._post("/datasets", {"name": name, "fingerprint": fingerprint, "role": role,
-                                        "derived_from": list(derived_from), "feed_of": feed_of,
-                                        "source_uri": source_uri})
+                                source_uri: str = "", sources: Sequence[dict] = ()) -> dict:
+        """Register a dataset from a fingerprint computed here (`dataset fingerprint --json`),
+        with the files it was made from ({"path", "size", "sha256"} each)."""
+        body = {"name": name, "fingerprint": fingerprint, "role": role,
+                "derived_from": list(derived_from), "feed_of": feed_of, "source_uri": source_uri}
+        if sources:
+            body["sources"] = list(sources)
+        return self._post("/datasets", body)
 
     def add_dataset_file(self, name: str, file: str | Path, *, schema: str | Path | None = None,
                          role: str = "source", file_format: str | None = None,

@@ -10,16 +10,15 @@ import os
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.dataset_commands import (FORMAT_CHOICE, fingerprint_path, load_schema,
-                                           render_fingerprint)
+from registry.cli.dataset_commands import (FORMAT_CHOICE, Work, fingerprint_paths, load_schema,
+                                           render_fingerprint, work_options)
 from registry.cli.output import emit, json_option, short_time
 from registry.cli.params import FilePath
-from registry.errors import UserError
 
 
 @click.command("add")
 @click.argument("name")
-@click.argument("file", type=FilePath("a dataset file"))
+@click.argument("paths", nargs=-1, required=True, metavar="PATH...")
 @click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema of the records (required for CSV).")
 @click.option("--format", "file_format", type=FORMAT_CHOICE, default=None)
@@ -34,32 +33,50 @@ from registry.errors import UserError
               help="Column left out of the feature-only digest and sketch, e.g. the label.")
 @click.option("--feed-of", "feed_of", default=None, metavar="MODEL",
               help="For a live sample: the model whose feed it was taken from.")
-@click.option("--source-uri", default=None, help="Where the data lives (default: the file).")
+@click.option("--source-uri", default=None,
+              help="Where the data lives (default: the file or folder named).")
+@work_options
 @json_option
-def dataset_add(name: str, file: str, schema_path: str | None, file_format: str | None,
-                role: str, derived_from: tuple[str, ...], keys: tuple[str, ...],
-                exclude: tuple[str, ...], feed_of: str | None, source_uri: str | None,
-                as_json: bool) -> None:
-    """Fingerprint FILE and register it as dataset NAME."""
+def dataset_add(name: str, paths: tuple[str, ...], schema_path: str | None,
+                file_format: str | None, role: str, derived_from: tuple[str, ...],
+                keys: tuple[str, ...], exclude: tuple[str, ...], feed_of: str | None,
+                source_uri: str | None, workers: int | None, cluster: str | None,
+                cluster_timeout: float, as_json: bool) -> None:
+    """Fingerprint PATH (a file, a folder, a quoted glob, or several) and register it as
+    dataset NAME, with the list of files it was made from."""
     from registry.service.datasets import DatasetRequest, add_dataset
 
-    if not os.path.isfile(file):
-        raise UserError("no such file", place=file)
+    work = Work(workers, cluster, cluster_timeout)
+    source_uri = source_uri or " ".join(os.path.abspath(p) for p in paths)
     remote = _context().remote()
     if remote:  # fingerprint here, so only the fingerprint crosses the network
-        fingerprint = fingerprint_path(file, load_schema(schema_path), file_format, keys, exclude)
+        run = fingerprint_paths(paths, load_schema(schema_path), file_format, keys, exclude,
+                                work)
         summary = remote.add_dataset_fingerprint(
-            name, fingerprint.to_dict(), role=role, derived_from=derived_from, feed_of=feed_of,
-            source_uri=source_uri or os.path.abspath(file))
+            name, run.fingerprint.to_dict(), role=role, derived_from=derived_from,
+            feed_of=feed_of, source_uri=source_uri,
+            sources=[source.to_dict() for source in run.sources])
         emit(summary, as_json, _render_added)
         return
     catalogue = _context().catalogue()  # fail on a bad catalogue before a long fingerprint
-    fingerprint = fingerprint_path(file, load_schema(schema_path), file_format, keys, exclude)
-    request = DatasetRequest(name=name, role=role, fingerprint=fingerprint,
-                             source_uri=source_uri or os.path.abspath(file),
-                             derived_from=derived_from, feed_of=feed_of)
+    run = fingerprint_paths(paths, load_schema(schema_path), file_format, keys, exclude, work)
+    request = DatasetRequest(name=name, role=role, fingerprint=run.fingerprint,
+                             source_uri=source_uri, derived_from=derived_from, feed_of=feed_of,
+                             sources=tuple((s.relative_path, s.size, s.sha256)
+                                           for s in run.sources))
     summary = add_dataset(catalogue, request, _actor())
     emit(summary, as_json, _render_added)
+
+
+def render_sources(sources: list[dict]) -> list[str]:
+    """The files a dataset was made from, one line each: size, SHA-256, path."""
+    if not sources:
+        return []
+    total = sum(source["size"] for source in sources)
+    lines = [f"files               {len(sources)} ({total:,} bytes)"]
+    lines += [f"  {source['size']:>14,}  {source['sha256'][:16]}  {source['path']}"
+              for source in sources]
+    return lines
 
 
 def _render_added(s: dict) -> str:
@@ -84,7 +101,8 @@ def dataset_show(name: str, as_json: bool) -> None:
         head = [f"{s['name']}  ({s['role']}, {s['rows']} rows){recalled}",
                 f"derived from        {', '.join(s['derived_from']) or '-'}",
                 f"source              {s['source_uri']}",
-                f"registered          {short_time(s['created_at'])} by {s['created_by']}"]
+                f"registered          {short_time(s['created_at'])} by {s['created_by']}",
+                *render_sources(s.get("sources") or [])]
         if remote:
             return "\n".join(head)
         return "\n".join(head) + "\n" + render_fingerprint(

@@ -6,6 +6,8 @@ They and the catalogue's dataset commands form the `dataset` group of registry.c
 from __future__ import annotations
 
 import os
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
 from typing import Any
 
 import click
@@ -13,9 +15,11 @@ import click
 from registry.cli.files import read_file_text
 from registry.cli.output import emit, json_option
 from registry.cli.params import FilePath
-from registry.cli.progress import progress_bar
+from registry.cli.progress import dataset_progress
 from registry.errors import UserError
 from registry.schema.errors import SchemaError
+
+CLUSTER_TIMEOUT = 10.0  # registry.datasets.workers.CLUSTER_TIMEOUT, kept here so --help is quick
 
 FORMAT_CHOICE = click.Choice(["avro", "parquet", "csv"])
 
@@ -42,12 +46,51 @@ def load_schema(path: str | None) -> dict[str, Any] | None:
                         f"most {MAX_NESTING}", place=path)
     return document
 
+def work_options(function: Callable[..., Any]) -> Callable[..., Any]:
+    """--workers, --cluster and --cluster-timeout: where the fingerprinting runs."""
+    function = click.option(
+        "--cluster-timeout", "cluster_timeout", type=click.FloatRange(min=0.1),
+        default=CLUSTER_TIMEOUT, show_default=True, metavar="SECONDS",
+        help="How long to wait for the Dask scheduler to answer.")(function)
+    function = click.option(
+        "--cluster", "cluster", metavar="ADDRESS", default=None,
+        help="Run on the Dask scheduler at ADDRESS (e.g. tcp://10.0.0.5:8786); needs the "
+             "'dask' extra, and lockkeeper installed on the workers.")(function)
+    return click.option(
+        "--workers", "workers", type=int, default=None, metavar="N",
+        help="Spread files and row groups over N local processes, one core each "
+             "(default: this process, on two threads).")(function)
+
+
+@dataclass(frozen=True)
+class Work:
+    """Where fingerprinting runs: the values of work_options."""
+
+    workers: int | None = None
+    cluster: str | None = None
+    cluster_timeout: float = CLUSTER_TIMEOUT
+
+
+def fingerprint_paths(paths: Sequence[str], schema_json: dict[str, Any] | None,
+                      file_format: str | None, keys: tuple[str, ...] = (),
+                      exclude: tuple[str, ...] = (), work: Work = Work()):
+    """The fingerprint and source files of files, folders or globs, with a progress bar on a
+    terminal."""
+    from registry.datasets import fingerprint_dataset
+
+    label = paths[0] if len(paths) == 1 else f"{len(paths)} paths"
+    with dataset_progress(os.path.basename(label.rstrip("/")) or label) as progress:
+        return fingerprint_dataset(
+            paths, schema_json=schema_json, format=file_format, keys=keys, exclude=exclude,
+            workers=work.workers, cluster=work.cluster, cluster_timeout=work.cluster_timeout,
+            progress=progress, on_plan=progress.start if progress else None)
+
 
 def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format: str | None,
-                     keys: tuple[str, ...] = (), exclude: tuple[str, ...] = ()):
-    """A file's fingerprint; a .json file written by `dataset fingerprint --json` is loaded."""
-    from registry.datasets import fingerprint_file, load_fingerprint
-    from registry.datasets.readers import open_source
+                     keys: tuple[str, ...] = (), exclude: tuple[str, ...] = (),
+                     work: Work = Work()):
+    """A dataset's fingerprint; a .json file written by `dataset fingerprint --json` is loaded."""
+    from registry.datasets import load_fingerprint
 
     if path.lower().endswith(".json") and os.path.isfile(path):
         given = [option for option, value in (("--schema", schema_json), ("--format", file_format),
@@ -56,26 +99,25 @@ def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format:
             raise UserError(f"{', '.join(given)} cannot apply to a saved fingerprint; give the "
                             "data file instead", place=given[0])
         return load_fingerprint(path)
-    total = open_source(path, schema_json, file_format).total_rows
-    with progress_bar(f"fingerprinting {os.path.basename(path)}", total) as progress:
-        return fingerprint_file(path, schema_json=schema_json, format=file_format, keys=keys,
-                                exclude=exclude, progress=progress)
+    return fingerprint_paths([path], schema_json, file_format, keys, exclude, work).fingerprint
 
 
-def file_or_catalogue_fingerprint(argument: str, schema_json: dict[str, Any] | None):
-    """A file's fingerprint, or, when no such file exists, a registered dataset's."""
-    if os.path.exists(argument):
-        return fingerprint_path(argument, schema_json, None)
+def file_or_catalogue_fingerprint(argument: str, schema_json: dict[str, Any] | None,
+                                  work: Work = Work()):
+    """A dataset's fingerprint (file, folder or glob), or, when no such file exists, a
+    registered dataset's."""
+    from registry.datasets.locations import is_glob
     from registry.names import NAME_PATTERN
+
+    if os.path.lexists(argument) or is_glob(argument) or not NAME_PATTERN.fullmatch(argument):
+        return fingerprint_path(argument, schema_json, None, work=work)
     from registry.service.datasets import fingerprint_of
 
-    if not NAME_PATTERN.fullmatch(argument):
-        raise UserError("no such file", place=argument)
     return fingerprint_of(click.get_current_context().obj.catalogue(), argument)
 
 
 @click.command("fingerprint")
-@click.argument("file", type=FilePath("a dataset file"))
+@click.argument("paths", nargs=-1, required=True, metavar="PATH...")
 @click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema to read the records with (required for CSV).")
 @click.option("--format", "file_format", type=FORMAT_CHOICE,
@@ -84,12 +126,21 @@ def file_or_catalogue_fingerprint(argument: str, schema_json: dict[str, Any] | N
               help="Key column: left out of the feature digest and sketch (repeatable).")
 @click.option("--exclude", "exclude", multiple=True, metavar="COL",
               help="Column to leave out of the feature digest and sketch, e.g. a label.")
+@work_options
 @json_option
-def fingerprint_command(file: str, schema_path: str | None, file_format: str | None,
-                        keys: tuple[str, ...], exclude: tuple[str, ...], as_json: bool) -> None:
-    """Fingerprint a dataset file: content digest, schema fingerprint, profile and sketch."""
-    found = fingerprint_path(file, load_schema(schema_path), file_format, keys, exclude)
-    emit(found.to_dict(), as_json, render_fingerprint)
+def fingerprint_command(paths: tuple[str, ...], schema_path: str | None,
+                        file_format: str | None, keys: tuple[str, ...],
+                        exclude: tuple[str, ...], workers: int | None, cluster: str | None,
+                        cluster_timeout: float, as_json: bool) -> None:
+    """Fingerprint a dataset: content digest, schema fingerprint, profile and sketch.
+
+    PATH is a file, a folder (every data file below it; `key=value` folders give fields), or a
+    quoted glob; several may be given."""
+    run = fingerprint_paths(paths, load_schema(schema_path), file_format, keys, exclude,
+                            Work(workers, cluster, cluster_timeout))
+    document = run.fingerprint.to_dict()
+    document["sources"] = [source.to_dict() for source in run.sources]
+    emit(document, as_json, render_fingerprint)
 
 
 @click.command("compare")
@@ -97,17 +148,20 @@ def fingerprint_command(file: str, schema_path: str | None, file_format: str | N
 @click.argument("current", metavar="B")
 @click.option("--schema", "schema_path", type=FilePath("a schema"), metavar="AVSC",
               help="Avro schema to read both files with (required for CSV).")
+@work_options
 @json_option
 def compare_command(reference: str, current: str, schema_path: str | None,
+                    workers: int | None, cluster: str | None, cluster_timeout: float,
                     as_json: bool) -> None:
     """Compare dataset A (the reference) with B: record overlap and drift of every column.
 
-    A and B are files, or the names of registered datasets."""
+    A and B are files, folders, quoted globs, or the names of registered datasets."""
     from registry.datasets import compare
 
     schema_json = load_schema(schema_path)
-    comparison = compare(file_or_catalogue_fingerprint(reference, schema_json),
-                         file_or_catalogue_fingerprint(current, schema_json))
+    work = Work(workers, cluster, cluster_timeout)
+    comparison = compare(file_or_catalogue_fingerprint(reference, schema_json, work),
+                         file_or_catalogue_fingerprint(current, schema_json, work))
     emit(comparison.to_dict(), as_json, render_comparison)
 
 
@@ -119,6 +173,8 @@ def render_fingerprint(document: dict[str, Any]) -> str:
              f"distinct records    ~{document['sketch']['distinct_estimate']:.0f}"]
     if document.get("key_digest"):
         lines.append(f"key digest          {document['key_digest']}")
+    if len(document.get("sources") or ()) > 1:
+        lines.append(f"files               {len(document['sources'])}")
     lines.append("")
     lines.append(f"{'column':<26} {'type':<8} {'nulls':>7}  summary")
     for name, column in document["profile"].items():

@@ -12,25 +12,19 @@ from registry.datasets.fingerprint import (DatasetFingerprint, fingerprint_batch
                                            fingerprint_file, fingerprint_source, key_set_digest,
                                            load_fingerprint, merge_fingerprints,
                                            schema_fingerprint)
+from registry.datasets.locations import SourceFile
 from registry.datasets.profile import ColumnProfile
 from registry.datasets.sketch import (BottomKSketch, Overlap, containment, intersection, jaccard,
                                       overlap)
+from registry.datasets.workers import DatasetRun, fingerprint_dataset
 
 __all__ = [
     "BottomKSketch", "ColumnDrift", "ColumnProfile", "ColumnsNotMatching", "DatasetComparison",
-    "DatasetFileError", "DatasetFingerprint", "EmptyDataset", "Overlap", "ValueNotParsing",
-    "compare", "containment", "fingerprint_batches", "fingerprint_file", "fingerprint_source",
+    "DatasetFileError", "DatasetFingerprint", "DatasetRun", "EmptyDataset", "Overlap",
+    "SourceFile", "ValueNotParsing", "compare", "containment", "fingerprint_batches",
+    "fingerprint_dataset", "fingerprint_file", "fingerprint_source",
     "intersection", "jaccard", "jensen_shannon", "key_set_digest", "ks_two_sample",
     "l_infinity", "load_fingerprint", "merge_fingerprints", "overlap", "psi", "psi_level",
     "schema_fingerprint",
 ]
 
-
-def fingerprint_partitioned(*args, **kwargs):
-    """See registry.datasets.partitioned (imported on use, so dask stays an optional extra)."""
-    from registry.datasets.partitioned import fingerprint_partitioned as run
-
-    return run(*args, **kwargs)
-
-
-__all__.append("fingerprint_partitioned")

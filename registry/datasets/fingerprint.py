@@ -26,7 +26,7 @@ from registry.datasets import hashing
 from registry.datasets.profile import (ColumnProfile, empty_profile, merge_profiles,
                                        profile_of)
 from registry.datasets.numeric_columns import is_plain_number_column
-from registry.datasets.readers import Part, Source, open_source, read_batches
+from registry.datasets.readers import Part, Source, read_batches
 from registry.datasets.sketch import (DEFAULT_K, BottomKSketch, add_hashes, empty_sketch,
                                       merge_sketches)
 from registry.datasets.types import NUMERIC, RecordType, ValueType, value_type_of
@@ -192,10 +192,19 @@ def check_columns(record: RecordType, keys: Sequence[str], exclude: Sequence[str
 
 def fingerprint_batches(batches: Iterable[pa.RecordBatch], record: RecordType,
                         keys: Sequence[str] = (), exclude: Sequence[str] = (),
-                        progress: Callable[[int], None] | None = None) -> DatasetFingerprint:
+                        progress: Callable[[int], None] | None = None,
+                        threads: bool = True) -> DatasetFingerprint:
+    """The fingerprint of the batches, merged in their order. Without threads, everything runs
+    on the caller's thread (a worker process of --workers uses one core)."""
     check_columns(record, keys, exclude)
     empty = empty_fingerprint(record, keys, exclude)
     fingerprint = empty
+    if not threads:
+        for batch in batches:
+            fingerprint = merge_fingerprints(fingerprint, add_batch(empty, batch, record))
+            if progress is not None:
+                progress(batch.num_rows)
+        return fingerprint
     # Batches are independent and numpy lets go of the GIL, so batches are fingerprinted on two
     # threads and merged here in file order (which keeps the result the same on every run).
     pending: deque[tuple[int, Future]] = deque()
@@ -218,9 +227,11 @@ def fingerprint_batches(batches: Iterable[pa.RecordBatch], record: RecordType,
 
 def fingerprint_source(source: Source, keys: Sequence[str] = (), exclude: Sequence[str] = (),
                        progress: Callable[[int], None] | None = None,
-                       part: Part = (0, 1)) -> DatasetFingerprint:
-    batches = (batch for _, batch in read_batches(source, part))
-    return fingerprint_batches(read_ahead(batches), source.record, keys, exclude, progress)
+                       part: Part = (0, 1), threads: bool = True) -> DatasetFingerprint:
+    batches = (batch for _, batch in read_batches(replace(source, threads=threads), part))
+    if threads:
+        batches = read_ahead(batches)
+    return fingerprint_batches(batches, source.record, keys, exclude, progress, threads)
 
 
 def read_ahead(batches: Iterator[pa.RecordBatch], depth: int = 2) -> Iterator[pa.RecordBatch]:
@@ -266,10 +277,16 @@ def fingerprint_file(path: str, *, schema_json: Mapping[str, Any] | None,
                      exclude: Sequence[str] = (),
                      progress: Callable[[int], None] | None = None) -> DatasetFingerprint:
     """Fingerprint one Avro, Parquet or CSV file read under the schema (the file's own for
-    Avro and Parquet when none is given), streaming in bounded batches."""
-    source = open_source(path, schema_json, format)
-    check_columns(source.record, keys, exclude)
-    return fingerprint_source(source, keys, exclude, progress)
+    Avro and Parquet when none is given), streaming in bounded batches; a folder or a glob
+    too (see registry.datasets.workers.fingerprint_dataset)."""
+    from registry.datasets.workers import fingerprint_dataset
+
+    def on_rows(rows: int, _bytes: int = 0, _files: int = 0) -> None:
+        if progress is not None and rows:
+            progress(rows)
+
+    return fingerprint_dataset([path], schema_json=schema_json, format=format, keys=keys,
+                               exclude=exclude, progress=on_rows).fingerprint
 
 
 def key_set_digest(values: Any, avro_type: Any | None = None) -> str:

@@ -193,6 +193,8 @@ def byte_string_words(array: pa.Array) -> tuple[np.ndarray, np.ndarray]:
     if pa.types.is_dictionary(array.type):
         d0, d1 = byte_string_words(array.dictionary)
         indices = array.indices.fill_null(0).to_numpy(zero_copy_only=False)
+        if len(d0) == 0:  # every value is null; the words of nulls are placeholders
+            return np.zeros(len(indices), d0.dtype), np.zeros(len(indices), d1.dtype)
         return d0[indices], d1[indices]
     if pa.types.is_string(array.type) or pa.types.is_large_string(array.type):
         kind = STRING

@@ -13,7 +13,7 @@ import json
 import os
 from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass
-from functools import partial
+from functools import cached_property, partial
 from typing import Any
 
 import fastavro
@@ -45,15 +45,37 @@ class Source:
     format: str
     record: RecordType
     total_rows: int | None = None  # known up front for Parquet only
+    # Fields a `key=value/` folder gives every record of the file, already typed; the file
+    # itself holds the other fields (file_record).
+    partition: tuple[tuple[str, Any], ...] = ()
+    threads: bool = True  # may the reader decode on threads of its own (Parquet)
 
     @property
     def schema_json(self) -> Mapping[str, Any]:
         return self.record.schema_json
 
+    @cached_property
+    def file_record(self) -> RecordType:
+        if not self.partition:
+            return self.record
+        return record_type(without_fields(self.record.schema_json, dict(self.partition)))
+
+
+def without_fields(schema_json: Mapping[str, Any], names) -> dict[str, Any]:
+    """The record schema less some top-level fields."""
+    return {**schema_json, "fields": [f for f in schema_json["fields"] if f["name"] not in names]}
+
 
 def open_source(path: str, schema_json: Mapping[str, Any] | None = None,
-                format: str | None = None) -> Source:
-    """Check the file exists and is not empty, choose its format and its record type."""
+                format: str | None = None,
+                partition: tuple[tuple[str, Any], ...] = ()) -> Source:
+    """Check the file exists and is not empty, choose its format and its record type.
+
+    With a partition, the schema (required then) holds the partition's fields too."""
+    if partition:
+        source = open_source(path, without_fields(schema_json, dict(partition)), format)
+        return Source(path, source.format, record_type(schema_json), source.total_rows,
+                      partition)
     if not os.path.isfile(path):
         raise DatasetFileError("no such file", place=path)
     if os.path.getsize(path) == 0:
@@ -100,9 +122,20 @@ def read_batches(source: Source, part: Part = (0, 1),
     for first_row, batch in readers[source.format](source, part, batch_rows):
         if batch.num_rows:
             seen = True
-            yield first_row, batch
+            yield first_row, with_partition(batch, source)
     if not seen and part == (0, 1):
         raise EmptyDataset("the file holds no records", place=source.path)
+
+
+def with_partition(batch: pa.RecordBatch, source: Source) -> pa.RecordBatch:
+    """The batch with the partition's fields added, in the record's field order."""
+    if not source.partition:
+        return batch
+    values = dict(source.partition)
+    columns = [pa.repeat(pa.scalar(values[name], type=value_type.arrow_type()), batch.num_rows)
+               if name in values else batch.column(name)
+               for name, value_type in source.record.fields]
+    return pa.RecordBatch.from_arrays(columns, schema=source.record.arrow_schema())
 
 
 # --- Avro ------------------------------------------------------------------------------------
@@ -135,9 +168,9 @@ def _avro_writer_schema(path: str) -> dict[str, Any]:
 
 
 def _avro_batches(source: Source, part: Part, batch_rows: int):
-    make_batch = _AvroBatchMaker(source.record)
+    make_batch = _AvroBatchMaker(source.file_record)
     reader_schema = _avro_reader_schema(source)
-    converters = _logical_converters(source.schema_json)
+    converters = _logical_converters(source.file_record.schema_json)
     rows_read = 0
     pending: list[dict] = []
     converted: list[pa.RecordBatch] = []
@@ -198,7 +231,7 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
 def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
     """The reader schema to hand fastavro, or None when the writer's serves as it is: fastavro
     decodes about three times faster without schema resolution."""
-    wanted = dict(source.schema_json)
+    wanted = dict(source.file_record.schema_json)
     writer = _avro_writer_schema(source.path)
     if wanted == writer:
         return None
@@ -366,7 +399,8 @@ def _parquet_batch_rows(parquet: pq.ParquetFile, batch_rows: int) -> int:
 def _parquet_batches(source: Source, part: Part, batch_rows: int):
     parquet = _parquet_file(source.path)
     present = parquet.schema_arrow.names
-    columns = _check_columns(present, source.record)
+    record = source.file_record
+    columns = _check_columns(present, record)
     groups = list(range(parquet.num_row_groups))
     starts = np.concatenate([[0], np.cumsum(
         [parquet.metadata.row_group(g).num_rows for g in groups])]).astype(int)
@@ -375,9 +409,9 @@ def _parquet_batches(source: Source, part: Part, batch_rows: int):
         first_row = int(starts[group])
         try:
             batches = parquet.iter_batches(batch_size=batch_rows, row_groups=[group],
-                                           columns=columns)
+                                           columns=columns, use_threads=source.threads)
             for batch in batches:
-                yield first_row, conform(batch, source.record, first_row, parse_text=False)
+                yield first_row, conform(batch, record, first_row, parse_text=False)
                 first_row += batch.num_rows
         except pa.ArrowException as error:
             raise DatasetFileError(f"the Parquet file is truncated or damaged ({error})",
@@ -388,8 +422,9 @@ def _parquet_batches(source: Source, part: Part, batch_rows: int):
 
 def _csv_batches(source: Source, part: Part, batch_rows: int):
     header = _csv_header(source.path)
-    _check_columns(header, source.record)
-    for name, value_type in source.record.fields:
+    record = source.file_record
+    _check_columns(header, record)
+    for name, value_type in record.fields:
         if value_type.avro in ("bytes", "fixed", "record", "array", "map"):
             raise UserError(f"a CSV file cannot hold {value_type.avro} values; use Avro or "
                             f"Parquet", place=f"column {name}")
@@ -398,7 +433,8 @@ def _csv_batches(source: Source, part: Part, batch_rows: int):
         quoted_strings_can_be_null=False, null_values=[""])
     try:
         reader = pacsv.open_csv(
-            source.path, read_options=pacsv.ReadOptions(block_size=CSV_BLOCK_BYTES),
+            source.path, read_options=pacsv.ReadOptions(block_size=CSV_BLOCK_BYTES,
+                                                        use_threads=source.threads),
             parse_options=pacsv.ParseOptions(newlines_in_values=True), convert_options=options)
     except pa.ArrowException as error:
         raise _csv_error(source.path, error) from error
@@ -414,7 +450,7 @@ def _csv_batches(source: Source, part: Part, batch_rows: int):
         mine = index % part[1] == part[0]
         index += 1
         if mine:
-            yield rows_read, conform(batch, source.record, rows_read, parse_text=True)
+            yield rows_read, conform(batch, record, rows_read, parse_text=True)
         rows_read += batch.num_rows
 
 

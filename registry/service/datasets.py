@@ -8,6 +8,7 @@ own side and send it).
 from __future__ import annotations
 
 import json
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -39,6 +40,8 @@ class DatasetRequest:
     source_uri: str = ""
     derived_from: tuple[str, ...] = ()
     feed_of: str | None = None  # for a live sample: the model whose feed it was taken from
+    # the files it was made from: (path within the dataset, size, SHA-256), in order
+    sources: tuple[tuple[str, int, str], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -57,6 +60,7 @@ class DatasetSummary:
     recall_reason: str | None = None
     created: bool = True
     profile: dict[str, Any] = field(default_factory=dict)
+    sources: list[dict[str, Any]] = field(default_factory=list)  # path, size, sha256 per file
 
 
 def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
@@ -81,12 +85,38 @@ def load_fingerprint(uow: UnitOfWork, dataset: t.Dataset) -> DatasetFingerprint:
 
 def dataset_registration_digest(name: str, role: str, source_uri: str, content_digest: str,
                                 schema_fingerprint: str, fingerprint_digest: str,
-                                parents: list[str], feed_of: str | None) -> str:
-    """What makes two dataset registrations the same; recomputed by `audit verify`."""
-    return digest_of({"name": name, "role": role, "source_uri": source_uri,
-                      "content_digest": content_digest, "schema_fingerprint": schema_fingerprint,
-                      "fingerprint_digest": fingerprint_digest, "derived_from": sorted(parents),
-                      "feed_of": feed_of})
+                                parents: list[str], feed_of: str | None,
+                                sources: Sequence[tuple[str, int, str]] = ()) -> str:
+    """What makes two dataset registrations the same; recomputed by `audit verify`. The
+    source files count only when recorded, so digests of datasets registered without them
+    stay as they were."""
+    identity = {"name": name, "role": role, "source_uri": source_uri,
+                "content_digest": content_digest, "schema_fingerprint": schema_fingerprint,
+                "fingerprint_digest": fingerprint_digest, "derived_from": sorted(parents),
+                "feed_of": feed_of}
+    if sources:
+        identity["sources"] = [list(source) for source in sources]
+    return digest_of(identity)
+
+
+def check_sources(sources: Sequence[Any]) -> tuple[tuple[str, int, str], ...]:
+    """(path, size, sha256) of each source file, or an error naming the bad entry."""
+    checked = []
+    for index, source in enumerate(sources):
+        try:
+            path, size, sha256 = source
+            valid = (isinstance(path, str) and 0 < len(path) <= 4096 and isinstance(size, int)
+                     and size >= 0 and isinstance(sha256, str) and len(sha256) == 64
+                     and all(c in "0123456789abcdef" for c in sha256))
+        except (TypeError, ValueError):
+            valid = False
+        if not valid:
+            raise UserError("a source file needs a path, a size in bytes and a SHA-256 in hex",
+                            place=f"sources/{index}")
+        checked.append((path, size, sha256))
+    if len({path for path, _, _ in checked}) != len(checked):
+        raise UserError("a source file is listed twice", place="sources")
+    return tuple(checked)
 
 
 def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
@@ -99,7 +129,9 @@ def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
         source_uri=dataset.source_uri, derived_from=parents_of(uow, dataset), feed_of=feed_of,
         created_at=utc_iso(dataset.created_at), created_by=dataset.created_by,
         recalled=dataset.recalled_at is not None, recall_reason=dataset.recall_reason,
-        created=created, profile=profile)
+        created=created, profile=profile,
+        sources=[{"path": path, "size": size, "sha256": sha256}
+                 for path, size, sha256 in uow.dataset_sources.of(dataset.id)])
 
 
 def _differences(uow: UnitOfWork, existing: t.Dataset, request: DatasetRequest,
@@ -145,6 +177,7 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
                         "--role live-sample", place="--feed-of")
     if request.name in request.derived_from:
         raise UserError("a dataset cannot be derived from itself", place="--derived-from")
+    sources = check_sources(request.sources)
     fingerprint_bytes = canonical_json(request.fingerprint.to_dict())
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "dataset.add")
@@ -154,7 +187,7 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
         digest = dataset_registration_digest(
             request.name, request.role, request.source_uri, request.fingerprint.content_digest,
             request.fingerprint.schema_fingerprint, fingerprint_digest,
-            [p.name for p in parents], request.feed_of)
+            [p.name for p in parents], request.feed_of, sources)
         existing = uow.session.execute(
             select(t.Dataset).where(t.Dataset.name == request.name)).scalar_one_or_none()
         if existing is not None:
@@ -177,10 +210,11 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
         for parent in parents:
             uow.session.add(t.DatasetParent(child_id=dataset.id, parent_id=parent.id))
         uow.session.flush()
+        uow.dataset_sources.add(dataset.id, sources)
         uow.audit.append(actor.name, "dataset.add", f"dataset/{request.name}", {
             "registration_digest": digest, "content_digest": request.fingerprint.content_digest,
             "fingerprint_digest": fingerprint_digest, "role": request.role,
-            "derived_from": [p.name for p in parents]})
+            "derived_from": [p.name for p in parents], "files": len(sources)})
         summary = _summary(uow, dataset)
         uow.commit()
         return summary

@@ -259,7 +259,7 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
         recomputed = dataset_registration_digest(
             dataset.name, dataset.role, dataset.source_uri, dataset.content_digest,
             dataset.schema_fingerprint, dataset.fingerprint_digest, parents_of(uow, dataset),
-            feed_of)
+            feed_of, uow.dataset_sources.of(dataset.id))
         findings += _registration_findings(place, recomputed, registered.get(place), {
             "registration_digest": dataset.registration_digest})
         blob = uow.session.get(t.Blob, dataset.fingerprint_digest)

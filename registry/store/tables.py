@@ -100,6 +100,17 @@ class DatasetParent(Base):
                                            index=True)
 
 
+class DatasetSource(Base):
+    """One file a dataset was made from: its path within the dataset, its size and SHA-256."""
+
+    __tablename__ = "dataset_sources"
+    dataset_id: Mapped[int] = mapped_column(ForeignKey("datasets.id"), primary_key=True)
+    position: Mapped[int] = mapped_column(Integer, primary_key=True)  # in the dataset's order
+    path: Mapped[str] = mapped_column(Text)
+    size: Mapped[int] = mapped_column(BigInteger)
+    sha256: Mapped[str] = mapped_column(String(64), index=True)
+
+
 class VersionDataset(Base):
     """A version's lineage link to a dataset: trained-on or evaluated-on."""
 

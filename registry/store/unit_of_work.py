@@ -30,6 +30,7 @@ from registry.store.keys_repository import KeyRepository
 from registry.store.release_repository import ReleaseRepository
 from registry.store.row_capture import RowCapture
 from registry.store.row_digests import RowReader
+from registry.store.dataset_sources_repository import DatasetSourceRepository
 from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.feed_repository import FeedRepository
 from registry.store.name_repository import NameRepository
@@ -149,6 +150,7 @@ class UnitOfWork:
         self.session: Session
         self.blobs: BlobStore
         self.audit: AuditLog
+        self.dataset_sources: DatasetSourceRepository
         self.roles: RoleRepository
         self.feeds: FeedRepository
         self.consumers: ConsumerRepository
@@ -198,6 +200,7 @@ class UnitOfWork:
             self.capture = RowCapture(self.session)
         self.serving = ServingRepository(self.session)
         self.pages = PageReads(self.session)  # the read side's rows for the web pages
+        self.dataset_sources = DatasetSourceRepository(self.session)
 
     def _take_write_lock(self) -> None:
         if self.catalogue.dialect == "sqlite":

@@ -98,3 +98,17 @@ def test_fingerprint_survives_a_round_trip_through_json(tmp_path, records):
     found = digest(write_avro(tmp_path / "a.avro", records), keys=["segment_id"])
     loaded = DatasetFingerprint.from_dict(json.loads(json.dumps(found.to_dict())))
     assert loaded == found
+
+
+def test_a_batch_whose_string_column_is_all_null_gets_the_digest_of_the_same_records(tmp_path):
+    from dataset_files import write_avro as avro_file, write_parquet as parquet_file
+
+    schema = {"type": "record", "name": "Note", "fields": [
+        {"name": "n", "type": "long"}, {"name": "text", "type": ["null", "string"]}]}
+    rows = [{"n": i, "text": None if i < 50 else f"t{i}"} for i in range(80)]
+    parquet = parquet_file(tmp_path / "notes.parquet", rows, row_group_size=50)
+    avro = avro_file(tmp_path / "notes.avro", rows, schema=schema)
+    from registry.datasets import fingerprint_file as digest_of_file
+
+    assert (digest_of_file(str(parquet), schema_json=schema).content_digest
+            == digest_of_file(str(avro), schema_json=schema).content_digest)

@@ -3,7 +3,7 @@ fingerprint the producer computed on its side (`lockkeeper dataset fingerprint -
 
 POST /datasets takes either
   application/json     {"name", "fingerprint": {...}, "role", "derived_from": [...],
-                        "feed_of", "source_uri"}
+                        "feed_of", "source_uri", "sources": [{"path", "size", "sha256"}]}
   multipart/form-data  part `file` (Avro, Parquet or CSV), optional part `schema` (.avsc), and
                        fields name, role, format, key (repeatable), exclude (repeatable),
                        derived_from (repeatable), feed_of, source_uri
@@ -12,6 +12,7 @@ POST /datasets takes either
 from __future__ import annotations
 
 import json
+import os
 
 from flask import g, request
 
@@ -30,6 +31,11 @@ DATASET_BODY = strict_object({
     "name": NAME, "role": ROLE, "fingerprint": {"type": "object"}, "source_uri": URI,
     "derived_from": {"type": "array", "items": NAME}, "feed_of": {"type": ["string", "null"],
                                                                  "maxLength": 100},
+    "sources": {"type": "array", "maxItems": 100_000, "items": strict_object({
+        "path": {"type": "string", "minLength": 1, "maxLength": 4096},
+        "size": {"type": "integer", "minimum": 0},
+        "sha256": {"type": "string", "pattern": "^[0-9a-f]{64}$"}},
+        ("path", "size", "sha256"))},
 }, ("name", "fingerprint"))
 TEXT_FIELD = {"type": "string"}
 DATASET_FORM = {
@@ -66,7 +72,8 @@ def _request_from_json() -> datasets.DatasetRequest:
         name=path_name(body["name"], "dataset"), role=body.get("role", "source"),
         fingerprint=_fingerprint_from_json(body["fingerprint"]),
         source_uri=body.get("source_uri", ""), derived_from=tuple(body.get("derived_from", ())),
-        feed_of=body.get("feed_of"))
+        feed_of=body.get("feed_of"), sources=tuple(
+            (s["path"], s["size"], s["sha256"]) for s in body.get("sources", ())))
 
 
 def _schema_part() -> dict | None:
@@ -80,20 +87,22 @@ def _schema_part() -> dict | None:
 
 
 def _request_from_upload() -> datasets.DatasetRequest:
-    from registry.datasets import fingerprint_file
+    from registry.datasets import fingerprint_dataset
 
     check_form(DATASET_FORM)
     name = path_name(form_value("name") or "", "dataset")
     upload = file_part("file")
     schema = _schema_part()
     with saved_upload(upload, "dataset") as path:
-        fingerprint = fingerprint_file(str(path), schema_json=schema,
-                                       format=form_value("format"), keys=form_values("key"),
-                                       exclude=form_values("exclude"))
+        run = fingerprint_dataset([str(path)], schema_json=schema, format=form_value("format"),
+                                  keys=form_values("key"), exclude=form_values("exclude"))
+    # the file as the producer named it, not the name it was saved under here
+    sent_as = os.path.basename(upload.filename or "") or path.name
     return datasets.DatasetRequest(
-        name=name, role=form_value("role", "source"), fingerprint=fingerprint,
+        name=name, role=form_value("role", "source"), fingerprint=run.fingerprint,
         source_uri=form_value("source_uri", "") or f"upload:{path.name}",
-        derived_from=form_values("derived_from"), feed_of=form_value("feed_of"))
+        derived_from=form_values("derived_from"), feed_of=form_value("feed_of"),
+        sources=tuple((sent_as, source.size, source.sha256) for source in run.sources))
 
 
 @route("/datasets", "GET", summary="Every registered dataset", tag="datasets")

@@ -69,6 +69,8 @@ class DatasetPage:
     profile_present: bool
     schema_tree: SchemaNode | None
     others: tuple[str, ...]
+    # The files the dataset was made from: relative path, size in bytes, SHA-256.
+    sources: tuple[tuple[str, int, str], ...] = ()
     drift: DriftView | None
 
 
@@ -162,4 +164,5 @@ def dataset_page(catalogue: Catalogue, name: str, against: str | None = None) ->
             linked_versions=tuple(uow.pages.versions_using(row.id)),
             downstream_versions=downstream, columns=columns, profile_present=present,
             schema_tree=schema_tree(loads(row.schema_json)),
-            others=tuple(d.name for d in uow.pages.datasets() if d.id != row.id), drift=drift)
+            others=tuple(d.name for d in uow.pages.datasets() if d.id != row.id), drift=drift,
+            sources=tuple(uow.dataset_sources.of(row.id)))

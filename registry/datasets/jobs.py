@@ -1,0 +1,56 @@
+"""One job of a fingerprint: the fingerprint of one file or share of one, and the file's SHA-256.
+
+A plain function of plain values, so it runs the same in this process, in a local worker
+process or on a Dask worker.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from registry.datasets.errors import DatasetFileError, EmptyDataset
+from registry.datasets.fingerprint import (DatasetFingerprint, empty_fingerprint,
+                                           fingerprint_source)
+from registry.datasets.plan import Job, JobSettings, located
+from registry.datasets.readers import open_source
+from registry.datasets.types import record_type
+from registry.errors import LockkeeperError
+
+
+@dataclass(frozen=True)
+class JobResult:
+    fingerprint: DatasetFingerprint
+    sha256: str | None  # the whole file's, from the first job of each file
+
+
+def run_job(job: Job, settings: JobSettings, threads: bool = False,
+            progress: Callable[[int], None] | None = None) -> JobResult:
+    """Fingerprint the job's share of its file; `threads` lets it use a second core."""
+    try:
+        digest = file_sha256(job.path) if job.hashes_file else None
+        try:
+            source = open_source(job.path, settings.schema_json, job.format, job.partition)
+            fingerprint = fingerprint_source(source, settings.keys, settings.exclude, progress,
+                                             part=job.part, threads=threads)
+        except EmptyDataset:
+            if not settings.names_files:
+                raise
+            # one file of several may hold no records; the dataset as a whole may not
+            fingerprint = empty_fingerprint(record_type(settings.schema_json), settings.keys,
+                                            settings.exclude)
+    except LockkeeperError as error:
+        if settings.names_files:
+            located(error, job.path, job.relative_path)
+        raise
+    return JobResult(fingerprint, digest)
+
+
+def file_sha256(path: str) -> str:
+    try:
+        with open(path, "rb") as handle:
+            return hashlib.file_digest(handle, "sha256").hexdigest()
+    except OSError as error:
+        raise DatasetFileError(f"the file cannot be read ({error.strerror})",
+                               place=path) from None
