@@ -69,9 +69,9 @@ class DatasetPage:
     profile_present: bool
     schema_tree: SchemaNode | None
     others: tuple[str, ...]
+    drift: DriftView | None
     # The files the dataset was made from: relative path, size in bytes, SHA-256.
     sources: tuple[tuple[str, int, str], ...] = ()
-    drift: DriftView | None
 
 
 def _fingerprint(stored: Any):
