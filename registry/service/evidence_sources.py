@@ -10,6 +10,7 @@ from sqlalchemy import select
 
 from registry import gates
 from registry import schema as avro
+from registry.service.recall import recalled_upstream as recalled_sources
 from registry.store import tables as t
 from registry.store.unit_of_work import UnitOfWork
 
@@ -69,8 +70,6 @@ def dataset_records(uow: UnitOfWork, version: t.Version) -> tuple[gates.DatasetR
 
 def recalled_upstream(uow: UnitOfWork, version: t.Version) -> tuple[gates.RecalledDataset, ...]:
     """Every recalled dataset upstream of the version, with the lineage path down to it."""
-    from registry.service.recall import recalled_upstream as recalled_sources
-
     return tuple(gates.RecalledDataset(name=source.dataset, reason=source.reason,
                                        recalled_at=source.recalled_at, via=source.chain)
                  for source in recalled_sources(uow, version))

@@ -18,6 +18,7 @@ from registry import gates
 from registry.gates import GateReport, Policy, Waiver
 from registry.service import evidence_sources as sources
 from registry.service.actors import Actor
+from registry.service.policies import policy_of
 from registry.store import tables as t
 from registry.store.unit_of_work import UnitOfWork
 
@@ -25,14 +26,6 @@ __all__ = ["GateReport", "Policy", "Waiver", "is_guarded", "policy_of", "run_gat
            "run_rollback_gates", "SCHEMA_GATES"]
 
 SCHEMA_GATES = ("reads-live-feed", "rollback-safe", "output-readable", "live-data-check")
-
-
-def policy_of(model: t.Model) -> Policy:
-    """The model's own policy laid over the catalogue-wide default, or the default alone."""
-    if model.policy_toml:
-        return gates.load_policy(model.policy_toml, source=f"policy of {model.name}",
-                                 base=gates.default_policy())
-    return gates.default_policy()
 
 
 def is_guarded(policy: Policy, stage: str) -> bool:

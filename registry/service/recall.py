@@ -14,7 +14,8 @@ from sqlalchemy import select
 from registry.errors import NotFound, UserError
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
-from registry.service.lineage import dataset_id, version_id
+from registry.service.lineage import dataset_id, node_name, version_id
+from registry.service.policies import policy_of
 from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
@@ -85,8 +86,6 @@ def _downstream_of_dataset(uow: UnitOfWork, dataset: t.Dataset):
 
 def _resting_stages(uow: UnitOfWork, model: str) -> tuple[str, ...]:
     """Stages from which nothing is served: the first rung of the ladder, and retired."""
-    from registry.service.gatekeeping import policy_of
-
     line = uow.session.execute(select(t.Model).where(t.Model.name == model)).scalar_one()
     return (policy_of(line).ladder[0], "retired")
 
@@ -147,8 +146,6 @@ def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledS
             if upstream not in came_from:
                 came_from[upstream] = current
                 queue.append(upstream)
-    from registry.service.lineage import node_name
-
     sources = []
     for key in recalled:
         chain, step = [], key
