@@ -7,7 +7,7 @@ import threading
 import pytest
 from werkzeug.serving import make_server
 
-from registry.api.client import ApiClient, RemoteError
+from registry.cli.remote import ApiClient, RemoteError
 from registry.errors import AlreadyExists, CatalogueUnavailable, Forbidden, NotFound
 from registry.service.tokens import Unauthenticated
 

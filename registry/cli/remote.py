@@ -1,4 +1,5 @@
-"""A small HTTP client for the API (standard library only), one method per use case.
+"""The command line's HTTP client for a remote catalogue (standard library only), one method per
+use case. It speaks only the published API and imports nothing of the server's package.
 
 Each method returns the JSON document the API returns; a problem document comes back as the
 matching error of registry.errors (NotFound, Forbidden, Conflict ...), so a shell renders a
