@@ -2,40 +2,10 @@
 
 from __future__ import annotations
 
-import csv
-from pathlib import Path
-
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
 from registry.cli.output import emit, json_option
-from registry.errors import UserError
-
-
-def infer_task(path: str) -> str:
-    """binary when there is a `score` column, regression with `prediction`, multiclass with
-    `p_<class>` columns."""
-    file = Path(path)
-    try:
-        if file.suffix.lower() in (".parquet", ".pq") or file.read_bytes()[:4] == b"PAR1":
-            import pyarrow.parquet as pq
-
-            columns = pq.read_schema(file).names
-        else:
-            with file.open(newline="", encoding="utf-8") as handle:
-                columns = next(csv.reader(handle), [])
-    except FileNotFoundError:
-        raise UserError(f"no such file: {path}", place="--predictions") from None
-    except Exception as error:  # unreadable header: let the reader say exactly what is wrong
-        raise UserError(f"cannot read the columns of {path}: {error}", place="--predictions") from None
-    if "score" in columns:
-        return "binary"
-    if "prediction" in columns:
-        return "regression"
-    if any(column.startswith("p_") for column in columns):
-        return "multiclass"
-    raise UserError("cannot tell the task: expected a `score`, `prediction` or `p_<class>` "
-                    "column; or give --task", place="--predictions")
 
 
 @click.command()
@@ -56,6 +26,7 @@ def evaluate(model_name: str, version: int, dataset_name: str, predictions_path:
              as_json: bool) -> None:
     """Compute and store the metrics of a version's predictions on an evaluation dataset."""
     from registry.evaluation import read_predictions
+    from registry.evaluation.predictions import infer_task
     from registry.service.evaluations import EvaluationRequest, add_evaluation
 
     remote = _context().remote()
@@ -63,7 +34,8 @@ def evaluate(model_name: str, version: int, dataset_name: str, predictions_path:
         summary = remote.evaluate(model_name, version, dataset_name, predictions_path,
                                   task=task, slices=slice_columns, threshold=threshold)
     else:
-        predictions = read_predictions(predictions_path, task or infer_task(predictions_path))
+        predictions = read_predictions(predictions_path,
+                                       task or infer_task(predictions_path, place="--predictions"))
         request = EvaluationRequest(model=model_name, version=version, dataset=dataset_name,
                                     predictions=predictions, slice_columns=slice_columns,
                                     threshold=threshold)

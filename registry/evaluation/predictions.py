@@ -120,6 +120,32 @@ def read_predictions(path: str | Path, task: str) -> Predictions:
     return build_predictions(columns, task, source=str(path))
 
 
+def infer_task(path: str | Path, *, place: str = "PREDICTIONS") -> str:
+    """binary when there is a `score` column, regression with `prediction`, multiclass with
+    `p_<class>` columns."""
+    file = Path(path)
+    try:
+        if file.suffix.lower() in (".parquet", ".pq") or file.read_bytes()[:4] == b"PAR1":
+            import pyarrow.parquet as pq
+
+            columns = pq.read_schema(file).names
+        else:
+            with file.open(newline="", encoding="utf-8") as handle:
+                columns = next(csv.reader(handle), [])
+    except FileNotFoundError:
+        raise UserError(f"no such file: {path}", place=place) from None
+    except Exception as error:  # unreadable header: let the reader say exactly what is wrong
+        raise UserError(f"cannot read the columns of {path}: {error}", place=place) from None
+    if "score" in columns:
+        return "binary"
+    if "prediction" in columns:
+        return "regression"
+    if any(column.startswith("p_") for column in columns):
+        return "multiclass"
+    raise UserError("cannot tell the task: expected a `score`, `prediction` or `p_<class>` "
+                    "column; or give --task", place=place)
+
+
 def check_task(task: str) -> None:
     if task not in TASKS:
         raise PredictionsError(f"unknown task {task!r}; use one of {', '.join(TASKS)}",

@@ -48,15 +48,16 @@ def _threshold() -> float:
        form=EVALUATION_FORM,
        responses={201: "Created", 200: "This evaluation already exists; nothing changed"})
 def add_evaluation(model: str, version: int):
-    from registry.cli.evaluation_commands import infer_task
     from registry.evaluation import read_predictions
+    from registry.evaluation.predictions import infer_task
 
     require_media_type("multipart/form-data")
     refuse_unknown_parts(set(EVALUATION_FORM["properties"]))
     dataset = path_name(form_value("dataset") or "", "dataset")
     threshold = _threshold()
     with saved_upload(file_part("predictions"), "predictions.csv") as path:
-        predictions = read_predictions(path, form_value("task") or infer_task(str(path)))
+        task = form_value("task") or infer_task(path, place="--predictions")
+        predictions = read_predictions(path, task)
     summary = evaluations.add_evaluation(catalogue(), evaluations.EvaluationRequest(
         model=path_name(model, "model"), version=version, dataset=dataset,
         predictions=predictions, slice_columns=form_values("slice"), threshold=threshold),
