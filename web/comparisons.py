@@ -1,7 +1,7 @@
 """Metric differences between two versions and drift between two datasets, for the pages.
 
-Drift is computed by registry.datasets.compare when the catalogue ships it; otherwise the page
-says so rather than inventing numbers of its own.
+Drift is computed by registry.datasets.compare; when stored fingerprints cannot be compared the
+page says so rather than inventing numbers of its own.
 """
 
 from __future__ import annotations
@@ -10,6 +10,7 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
+from registry.datasets import DatasetFingerprint, compare
 from web.pages import EvaluationView, VersionPage
 
 
@@ -66,11 +67,6 @@ class DriftView:
 
 
 def drift_between(reference: Any, current: Any) -> DriftView:
-    try:
-        from registry.datasets import DatasetFingerprint, compare
-    except ImportError:
-        return DriftView(False, "drift needs the dataset comparison of registry.datasets, which "
-                                "this build of Lockkeeper does not include yet")
     try:
         result = compare(DatasetFingerprint.from_dict(reference),
                          DatasetFingerprint.from_dict(current))

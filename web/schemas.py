@@ -2,8 +2,8 @@
 
 Schema trees follow the Avro specification's declaration forms (records, enums, arrays, maps,
 unions, fixed, logical types); anything unexpected is shown as its JSON text rather than refused.
-The comparison uses registry.schema's diff when the catalogue ships it, and a structural field
-list side by side otherwise.
+The comparison uses registry.schema's diff, and a structural field list side by side when a
+stored schema cannot be read.
 """
 
 from __future__ import annotations
@@ -11,6 +11,8 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass, field
 from typing import Any
+
+from registry import schema as avro
 
 MAX_TREE_DEPTH = 12
 
@@ -134,18 +136,14 @@ def compare_schemas(old: Any, new: Any) -> SchemaComparison:
     if old is None or new is None:
         return SchemaComparison("fields", note="one of the versions has no such schema")
     try:
-        from registry import schema as avro  # shipped by the schema work when merged
         result = avro.diff(avro.load(json.dumps(old)), avro.load(json.dumps(new)))
-        changes = tuple(SchemaChange(str(c.path), str(c.kind), str(c.message),
-                                     str(getattr(c.classification, "value", c.classification)))
-                        for c in result.changes)
-        return SchemaComparison("diff", changes=changes)
-    except ImportError:
-        pass
     except Exception as error:  # an unreadable stored schema: fall back to the field list
         note = f"the schema diff could not read these schemas ({type(error).__name__})"
         return _field_rows(old, new, note)
-    return _field_rows(old, new, "schema diff not available in this build; fields side by side")
+    changes = tuple(SchemaChange(str(c.path), str(c.kind), str(c.message),
+                                 str(getattr(c.classification, "value", c.classification)))
+                    for c in result.changes)
+    return SchemaComparison("diff", changes=changes)
 
 
 def _field_rows(old: Any, new: Any, note: str) -> SchemaComparison:

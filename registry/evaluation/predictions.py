@@ -376,12 +376,9 @@ def _csv_columns(data: bytes, path: Path) -> dict[str, list[str]]:
 
 
 def _parquet_columns(data: bytes, path: Path) -> dict[str, Any]:
-    try:
-        import pyarrow as pa
-        import pyarrow.parquet as pq
-    except ImportError:  # pragma: no cover - pyarrow is in the parquet extra
-        raise PredictionsError("reading Parquet needs pyarrow (the `parquet` extra)",
-                               place=str(path)) from None
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
     try:
         table = pq.read_table(pa.BufferReader(data))
     except (pa.ArrowException, OSError) as error:
