@@ -4,7 +4,7 @@ from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval,
                                      ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
                                      FeatureChange, PairedComparison, RecalledDataset,
                                      SampleProfile, SchemaCheck, SchemaProblem, SliceComparison,
-                                     Waiver, from_plain, to_plain)
+                                     Waiver, to_plain)
 from registry.gates.policy import (RETIRED, GateSpec, Policy, PolicyError, StageRule,
                                    TransitionError, UnknownStage, default_policy,
                                    default_policy_text, load_policy)
@@ -19,6 +19,6 @@ __all__ = [
     "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
     "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "SliceComparison",
     "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_waivers",
-    "default_policy", "default_policy_text", "evaluate", "from_plain", "holm_adjust",
+    "default_policy", "default_policy_text", "evaluate", "holm_adjust",
     "load_policy", "render_report", "to_plain",
 ]
