@@ -10,7 +10,6 @@ from dataclasses import dataclass
 from typing import Any
 
 PRIMITIVE_TYPES = ("null", "boolean", "int", "long", "float", "double", "bytes", "string")
-NAMED_KINDS = ("record", "enum", "fixed")
 
 
 class _NoDefault:
@@ -60,10 +59,6 @@ class Schema:
     properties: tuple[tuple[str, Any], ...] = ()  # other attributes, kept as metadata
 
     kind = "schema"
-
-    @property
-    def is_named(self) -> bool:
-        return self.kind in NAMED_KINDS
 
     def __repr__(self) -> str:
         return f"{type(self).__name__}({self.describe()})"
