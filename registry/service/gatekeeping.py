@@ -8,7 +8,6 @@ blobs and the pure results of the schema, feature, dataset and evaluation packag
 from __future__ import annotations
 
 import dataclasses
-import json
 from collections.abc import Sequence
 from datetime import UTC, datetime
 
@@ -114,7 +113,3 @@ def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, hol
 def parse_waivers(pairs: Sequence[tuple[str, str]], actor: Actor) -> list[Waiver]:
     """`--waive GATE --reason TEXT` pairs from a shell, as waivers given by the acting user."""
     return [Waiver(gate=gate, approver=actor.name, reason=reason) for gate, reason in pairs]
-
-
-def report_json(report: GateReport) -> str:
-    return json.dumps(report.to_dict())
