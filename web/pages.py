@@ -17,8 +17,8 @@ from registry.service import lineage as lineage_service
 from registry.service.models import find_model, find_version, holders_by_stage, stages_by_version
 from registry.service.recall import RecalledSource, recalled_upstream
 from registry.store import tables as t
-from registry.store.lineage import utc_iso
 from registry.store.catalogue import Catalogue
+from registry.store.lineage import utc_iso
 from registry.store.unit_of_work import UnitOfWork
 
 RECENT_EVENTS = 25

@@ -10,8 +10,13 @@ import os
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.dataset_commands import (FORMAT_CHOICE, dataset, fingerprint_path, load_schema,
-                                           render_fingerprint)
+from registry.cli.dataset_commands import (
+    FORMAT_CHOICE,
+    dataset,
+    fingerprint_path,
+    load_schema,
+    render_fingerprint,
+)
 from registry.cli.lineage_commands import recall_command
 from registry.cli.output import emit, json_option
 from registry.errors import UserError

@@ -12,8 +12,15 @@ from registry.cli.output import emit, json_option
 from registry.documents import DocumentSummary, read_document
 from registry.documents.pfa import CellSummary
 from registry.errors import UserError
-from registry.features import (FeatureCheck, FeatureDefinitions, FeatureDiff, check_features,
-                               diff_features, features_from_manifest, load_feature_definitions)
+from registry.features import (
+    FeatureCheck,
+    FeatureDefinitions,
+    FeatureDiff,
+    check_features,
+    diff_features,
+    features_from_manifest,
+    load_feature_definitions,
+)
 from registry.schema import Schema, fingerprint, load, to_json
 
 

@@ -18,8 +18,15 @@ from pathlib import Path, PurePosixPath
 from typing import Any
 
 from registry.errors import (
-    AlreadyExists, CatalogueUnavailable, Conflict, Forbidden, LockkeeperError, NotFound, Refusal,
-    Unprocessable, UserError,
+    AlreadyExists,
+    CatalogueUnavailable,
+    Conflict,
+    Forbidden,
+    LockkeeperError,
+    NotFound,
+    Refusal,
+    Unprocessable,
+    UserError,
 )
 from registry.manifest import parse_manifest
 from registry.service.tokens import Unauthenticated

@@ -12,8 +12,12 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 from registry.datasets.errors import EmptyDataset
-from registry.datasets.fingerprint import (DatasetFingerprint, check_columns, fingerprint_source,
-                                           merge_fingerprints)
+from registry.datasets.fingerprint import (
+    DatasetFingerprint,
+    check_columns,
+    fingerprint_source,
+    merge_fingerprints,
+)
 from registry.datasets.readers import Part, open_source
 
 

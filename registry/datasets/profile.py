@@ -13,10 +13,14 @@ from typing import Any
 import numpy as np
 import pyarrow as pa
 
-from registry.datasets.categories import (CATEGORY_CAP, CategoryCounts, counts_of, empty_counts,
-                                          merge_counts)
-from registry.datasets.histogram import (LogHistogram, empty_histogram, merge_histograms,
-                                         quantiles)
+from registry.datasets.categories import (
+    CATEGORY_CAP,
+    CategoryCounts,
+    counts_of,
+    empty_counts,
+    merge_counts,
+)
+from registry.datasets.histogram import LogHistogram, empty_histogram, merge_histograms, quantiles
 from registry.datasets.numeric_columns import HashTarget, summarise_numbers
 from registry.datasets.types import NUMERIC, ValueType
 

@@ -24,8 +24,13 @@ import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
-from registry.datasets.errors import (ColumnsNotMatching, DatasetFileError, EmptyDataset,
-                                      ValueNotParsing, cell)
+from registry.datasets.errors import (
+    ColumnsNotMatching,
+    DatasetFileError,
+    EmptyDataset,
+    ValueNotParsing,
+    cell,
+)
 from registry.datasets.types import RecordType, ValueType, record_type, schema_from_arrow
 from registry.errors import UserError
 

@@ -13,7 +13,13 @@ from typing import Any
 import numpy as np
 
 from registry.evaluation.comparison import (
-    Difference, Matching, PairedRows, check_confidence, compare_paired, pair_rows)
+    Difference,
+    Matching,
+    PairedRows,
+    check_confidence,
+    compare_paired,
+    pair_rows,
+)
 from registry.evaluation.metrics import compute_metrics
 from registry.evaluation.predictions import Predictions, PredictionsError
 

@@ -14,8 +14,7 @@ from typing import Any
 
 from registry.errors import Unprocessable
 from registry.features.definitions import Categories, FeatureDefinitions, NumericRange
-from registry.features.fields import (FLOAT_LIMIT, INTEGER_LIMITS, SchemaField,
-                                      schema_fields)
+from registry.features.fields import FLOAT_LIMIT, INTEGER_LIMITS, SchemaField, schema_fields
 
 
 class UnknownFeatureField(Unprocessable):

@@ -12,12 +12,12 @@ from registry.schema.defaults import check_default
 from registry.schema.errors import SchemaError
 from registry.schema.logical import LOGICAL_ATTRIBUTES, interpret
 from registry.schema.model import (
+    NO_DEFAULT,
     PRIMITIVE_TYPES,
     Array,
     Enum,
     Fixed,
     Map,
-    NO_DEFAULT,
     NamedSchema,
     Primitive,
     Record,

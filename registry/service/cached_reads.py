@@ -17,10 +17,10 @@ from typing import Any
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.pool import QueuePool
 
+from registry.errors import CatalogueUnavailable
 from registry.service import tokens
 from registry.service.actors import Actor
 from registry.service.stage_lookup import StageHolder, read_stage_holder
-from registry.errors import CatalogueUnavailable
 from registry.store.catalogue import SQLITE_BUSY_TIMEOUT_MS, Catalogue, describe
 from registry.store.unit_of_work import utc_now
 

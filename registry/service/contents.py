@@ -12,8 +12,12 @@ from typing import Any
 from registry import schema as avro
 from registry.documents import read_document
 from registry.errors import UserError
-from registry.features import (check_features, parse_feature_file, parse_feature_table,
-                               render_feature_file)
+from registry.features import (
+    check_features,
+    parse_feature_file,
+    parse_feature_table,
+    render_feature_file,
+)
 from registry.manifest import Manifest
 
 

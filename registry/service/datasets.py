@@ -17,8 +17,8 @@ from registry.canonical_json import canonical_json, digest_of
 from registry.errors import AlreadyExists, NotFound, UserError
 from registry.names import check_name
 from registry.service.actors import Actor
-from registry.service.models import find_model
 from registry.service.authorisation import authorise
+from registry.service.models import find_model
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now

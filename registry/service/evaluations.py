@@ -13,9 +13,9 @@ from registry.canonical_json import sha256_hex
 from registry.errors import AlreadyExists, UserError
 from registry.evaluation import Predictions, compute_metrics, slice_metrics
 from registry.service.actors import Actor
+from registry.service.authorisation import authorise
 from registry.service.datasets import find_dataset, load_fingerprint
 from registry.service.models import find_model, find_version
-from registry.service.authorisation import authorise
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now

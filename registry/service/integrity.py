@@ -9,8 +9,8 @@ from dataclasses import dataclass, field
 
 from sqlalchemy import select
 
-from registry.service.registration import registration_record
 from registry.canonical_json import digest_of
+from registry.service.registration import registration_record
 from registry.store import tables as t
 from registry.store.audit import AuditRecord, verify_chain
 from registry.store.catalogue import Catalogue

@@ -22,7 +22,6 @@ from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
 
 
-
 @dataclass(frozen=True)
 class FlaggedVersion:
     model: str

@@ -12,12 +12,12 @@ from registry.errors import NotFound, UserError
 from registry.manifest import Manifest
 from registry.names import check_name
 from registry.service.actors import Actor
+from registry.service.authorisation import authorise
+
 # RegistrationRequest lives with the reading of a registration's contents; named here too
 # because the shells build it as `registration.RegistrationRequest`.
-from registry.service.contents import (RegistrationRequest, VersionContents,
-                                       read_version_contents)
+from registry.service.contents import RegistrationRequest, VersionContents, read_version_contents
 from registry.service.models import find_model
-from registry.service.authorisation import authorise
 from registry.service.stages import enter_first_stage
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue

@@ -15,7 +15,17 @@ from datetime import UTC, datetime
 from typing import Literal
 
 from sqlalchemy import (
-    CTE, Integer, Select, String, and_, func, literal, select, text, union, union_all,
+    CTE,
+    Integer,
+    Select,
+    String,
+    and_,
+    func,
+    literal,
+    select,
+    text,
+    union,
+    union_all,
 )
 from sqlalchemy.orm import Session
 

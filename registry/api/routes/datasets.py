@@ -19,8 +19,13 @@ from registry.api.bodies import NAME, TEXT, json_body, require_media_type, stric
 from registry.api.context import catalogue
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
-from registry.api.uploads import (file_part, form_value, form_values, refuse_unknown_parts,
-                                  saved_upload)
+from registry.api.uploads import (
+    file_part,
+    form_value,
+    form_values,
+    refuse_unknown_parts,
+    saved_upload,
+)
 from registry.errors import UserError
 from registry.service import datasets
 
