@@ -13,7 +13,7 @@ from registry.service import integrity, models, registration
 from registry.service.actors import Actor
 
 
-def _context() -> "CommandContext":  # noqa: F821 - resolved at run time
+def _context() -> CommandContext:  # noqa: F821 - resolved at run time
     return click.get_current_context().obj
 
 

@@ -42,7 +42,7 @@ class CategoryCounts:
                 "total": self.total, "counts": {self.values[i]: self.counts[i] for i in order}}
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "CategoryCounts":
+    def from_dict(cls, data: dict[str, Any]) -> CategoryCounts:
         pairs = sorted((str(v), int(c)) for v, c in data["counts"].items())
         return cls(tuple(v for v, _ in pairs), tuple(c for _, c in pairs),
                    bool(data["exact"]), int(data["total"]), int(data["cap"]))

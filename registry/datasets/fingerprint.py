@@ -81,7 +81,7 @@ class DatasetFingerprint:
         }
 
     @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "DatasetFingerprint":
+    def from_dict(cls, data: Mapping[str, Any]) -> DatasetFingerprint:
         try:
             return cls(
                 rows=int(data["rows"]), content_digest=str(data["content_digest"]),

@@ -41,7 +41,7 @@ class LogHistogram:
                 "buckets": [[int(i), int(c)] for i, c in zip(self.indices, self.counts)]}
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "LogHistogram":
+    def from_dict(cls, data: dict[str, Any]) -> LogHistogram:
         pairs = np.asarray(data["buckets"], dtype=np.int64).reshape(-1, 2)
         return cls(int(data["mantissa_bits"]), pairs[:, 0].copy(), pairs[:, 1].copy())
 

@@ -115,7 +115,7 @@ class ColumnProfile:
         return document
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "ColumnProfile":
+    def from_dict(cls, data: dict[str, Any]) -> ColumnProfile:
         moments = histogram = categories = None
         if "mean" in data:
             moments = Moments(int(data["finite"]), float(data["mean"] or 0.0),

@@ -46,7 +46,7 @@ class BottomKSketch:
                 "hashes": base64.b64encode(self.values.astype("<u8").tobytes()).decode("ascii")}
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "BottomKSketch":
+    def from_dict(cls, data: dict[str, Any]) -> BottomKSketch:
         raw = base64.b64decode(data["hashes"])
         return cls(int(data["k"]), np.frombuffer(raw, dtype="<u8").astype(np.uint64))
 

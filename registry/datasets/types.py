@@ -27,11 +27,11 @@ class ValueType:
     nullable: bool = False
     is_union: bool = False  # written as a union in the schema (["null", T] or [T, "null"])
     symbols: tuple[str, ...] = ()  # enum
-    fields: tuple[tuple[str, "ValueType"], ...] = ()  # record
-    items: "ValueType | None" = None  # array items, map values
+    fields: tuple[tuple[str, ValueType], ...] = ()  # record
+    items: ValueType | None = None  # array items, map values
     default: Any = None
     has_default: bool = False
-    branches: tuple["ValueType", ...] = ()  # a union of several types: its non-null branches
+    branches: tuple[ValueType, ...] = ()  # a union of several types: its non-null branches
     name: str = ""  # the full name of a named type (enum, fixed, record)
     logical: str = ""  # the logical type of a primitive, if any (date, timestamp-millis ...)
 

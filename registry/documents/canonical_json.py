@@ -23,7 +23,6 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from json.decoder import scanstring
 from json.encoder import encode_basestring
-from typing import Union
 
 from registry.errors import UserError
 
@@ -32,7 +31,7 @@ class MalformedJson(UserError):
     """Bytes that are not one well-formed JSON value (RFC 8259), or that repeat an object key."""
 
 
-Path = tuple[Union[str, int], ...]
+Path = tuple[str | int, ...]
 Pattern = tuple[str, ...]  # object keys, "*" matching any key
 
 _WHITESPACE = rb"[ \t\n\r]*"

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Mapping
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from typing import Any
 
 from registry.errors import Unprocessable
@@ -325,7 +325,7 @@ def parse_time(text: str, *, place: str) -> datetime:
         moment = datetime.fromisoformat(text)
     except (TypeError, ValueError):
         raise EvidenceError(f"not an ISO 8601 time: {text!r}", place=place) from None
-    return moment if moment.tzinfo else moment.replace(tzinfo=timezone.utc)
+    return moment if moment.tzinfo else moment.replace(tzinfo=UTC)
 
 
 def to_plain(value: Any) -> Any:
