@@ -84,7 +84,8 @@ def model_create(name: str, description: str, as_json: bool) -> None:
 def model_list(as_json: bool) -> None:
     """List every model with its number of versions and who holds each stage."""
     remote = _context().remote()
-    found = remote.list_models() if remote else {"models": models.list_models(_context().catalogue())}
+    found = (remote.list_models() if remote
+             else {"models": models.list_models(_context().catalogue())})
 
     def text(d):
         if not d["models"]:

@@ -58,7 +58,8 @@ class DatasetSummary:
 
 
 def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
-    dataset = uow.session.execute(select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+    dataset = uow.session.execute(
+        select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
     if dataset is None:
         raise NotFound(f"unknown dataset {name!r}", place="dataset")
     return dataset
@@ -88,7 +89,8 @@ def dataset_registration_digest(name: str, role: str, source_uri: str, content_d
 
 def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
              with_profile: bool = False) -> DatasetSummary:
-    feed_of = uow.session.get(t.Model, dataset.feed_model_id).name if dataset.feed_model_id else None
+    feed_of = (uow.session.get(t.Model, dataset.feed_model_id).name if dataset.feed_model_id
+               else None)
     profile = load_fingerprint(uow, dataset).to_dict().get("profile", {}) if with_profile else {}
     return DatasetSummary(
         name=dataset.name, role=dataset.role, rows=dataset.rows,

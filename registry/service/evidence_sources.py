@@ -27,10 +27,12 @@ def _schema_of(version: t.Version, which: str) -> avro.Schema | None:
     return _parsed(text) if text else None
 
 
-def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version) -> gates.SchemaCheck:
+def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version
+              ) -> gates.SchemaCheck:
     problems = tuple(
         gates.SchemaProblem(path=p.path, rule=p.rule, message=p.message,
-                            witness={k: v for k, v in (p.witness or {}).items() if k in WITNESS_KEYS})
+                            witness={k: v for k, v in (p.witness or {}).items()
+                                     if k in WITNESS_KEYS})
         for p in resolution.problems)
     notes = tuple(f"{n.path}: {n.message}" for n in resolution.notes)
     return gates.SchemaCheck(reader_version=reader.number, writer_version=writer.number,
@@ -126,7 +128,8 @@ def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.F
         return (gates.FeatureChange(field="*", kind="definitions-missing",
                                     classification="needs-review",
                                     message=f"{which} was registered without feature "
-                                            "definitions, so no change of meaning can be ruled out"),)
+                                            "definitions, so no change of meaning can be "
+                                            "ruled out"),)
     found = diff_features(old, _schema_of(incumbent, "input"), new, _schema_of(candidate, "input"))
     return tuple(gates.FeatureChange(field=change.path, kind=change.change,
                                      classification=change.severity, message=change.message)
@@ -182,7 +185,8 @@ def _quality_settings(specs) -> dict[str, dict]:
 
 
 def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Version, specs
-                        ) -> tuple[tuple[gates.PairedComparison, ...], tuple[gates.SliceComparison, ...]]:
+                        ) -> tuple[tuple[gates.PairedComparison, ...],
+                                   tuple[gates.SliceComparison, ...]]:
     """Paired comparisons of candidate and incumbent on every evaluation dataset both were
     evaluated on (same content digest), overall and per slice, with the stored predictions."""
     from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices

@@ -48,8 +48,9 @@ def _threshold() -> float:
     return value
 
 
-@route(VERSION_PATH + "/evaluations", "POST", action="evaluation.add", summary="Compute and store a "
-       "version's metrics on an evaluation dataset from its predictions", tag="evaluations",
+@route(VERSION_PATH + "/evaluations", "POST", action="evaluation.add",
+       summary="Compute and store a version's metrics on an evaluation dataset from its "
+       "predictions", tag="evaluations",
        form=EVALUATION_FORM,
        responses={201: "Created", 200: "This evaluation already exists; nothing changed"})
 def add_evaluation(model: str, version: int):
