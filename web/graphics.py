@@ -171,7 +171,7 @@ def _bars(labels: list[str], counts: list[int]) -> tuple[Bar, ...]:
     slot = CHART_WIDTH / max(len(counts), 1)
     return tuple(Bar(i * slot + 1, CHART_HEIGHT - CHART_HEIGHT * c / peak, max(slot - 2, 1),
                      CHART_HEIGHT * c / peak, label, c)
-                 for i, (label, c) in enumerate(zip(labels, counts)))
+                 for i, (label, c) in enumerate(zip(labels, counts, strict=False)))
 
 
 def _format(value: float) -> str:

@@ -137,7 +137,7 @@ def install_app_problem_handler(app: Flask, prefix: str = "/api/") -> None:
                 return handler
         return None
 
-    for code, exception in ((None, HTTPException), (404, NotFound), (405, MethodNotAllowed)):
+    for code in (None, 404, 405):
         def handle(error: HTTPException, code=code):
             if request.path.startswith(prefix):
                 return _from_http_exception(error)

@@ -34,7 +34,7 @@ class CategoryCounts:
         return (self.total - sum(self.counts)) // (self.cap + 1)
 
     def as_dict(self) -> dict[str, int]:
-        return dict(zip(self.values, self.counts))
+        return dict(zip(self.values, self.counts, strict=True))
 
     def to_dict(self) -> dict[str, Any]:
         order = sorted(range(len(self.values)), key=lambda i: (-self.counts[i], self.values[i]))
@@ -84,6 +84,7 @@ def _reduced(values: pa.Array, tally: np.ndarray, is_exact: bool, total: int,
         is_exact = False
     chosen = np.flatnonzero(keep)
     names = values.take(pa.array(chosen)).to_pylist() if len(chosen) else []
-    pairs = sorted(zip(names, (int(c) for c in tally[chosen])))  # one order, whatever the merges
+    # One order, whatever the merges.
+    pairs = sorted(zip(names, (int(c) for c in tally[chosen]), strict=True))
     return CategoryCounts(tuple(n for n, _ in pairs), tuple(c for _, c in pairs), is_exact,
                           total, cap)

@@ -38,7 +38,8 @@ class LogHistogram:
 
     def to_dict(self) -> dict[str, Any]:
         return {"mantissa_bits": self.mantissa_bits,
-                "buckets": [[int(i), int(c)] for i, c in zip(self.indices, self.counts)]}
+                "buckets": [[int(i), int(c)]
+                            for i, c in zip(self.indices, self.counts, strict=True)]}
 
     @classmethod
     def from_dict(cls, data: dict[str, Any]) -> LogHistogram:

@@ -74,7 +74,7 @@ class ColumnProfile:
 
     def branch_counts(self) -> dict[str, int] | None:
         if self.branch_names:
-            return dict(zip(self.branch_names, self.branch_tally))
+            return dict(zip(self.branch_names, self.branch_tally, strict=True))
         if not self.is_union:
             return None
         return {"null": self.nulls, self.avro_type: self.count - self.nulls}
@@ -91,8 +91,8 @@ class ColumnProfile:
         values = quantiles(self.histogram, np.asarray(QUANTILE_LEVELS),
                            float(self.moments.minimum), float(self.moments.maximum))
         if self.avro_type in ("int", "long"):  # an integer column's quantiles are integers
-            return {f"{q:g}": int(round(v)) for q, v in zip(QUANTILE_LEVELS, values)}
-        return {f"{q:g}": float(v) for q, v in zip(QUANTILE_LEVELS, values)}
+            return {f"{q:g}": int(round(v)) for q, v in zip(QUANTILE_LEVELS, values, strict=True)}
+        return {f"{q:g}": float(v) for q, v in zip(QUANTILE_LEVELS, values, strict=True)}
 
     def to_dict(self) -> dict[str, Any]:
         document: dict[str, Any] = {"type": self.avro_type, "count": self.count,
@@ -178,7 +178,7 @@ def merge_profiles(a: ColumnProfile, b: ColumnProfile) -> ColumnProfile:
         else None,
         categories=merge_counts(a.categories, b.categories) if a.categories is not None
         else None,
-        branch_tally=tuple(x + y for x, y in zip(a.branch_tally, b.branch_tally)))
+        branch_tally=tuple(x + y for x, y in zip(a.branch_tally, b.branch_tally, strict=False)))
 
 
 def is_close_profile(a: ColumnProfile, b: ColumnProfile, rel: float = 1e-9) -> bool:

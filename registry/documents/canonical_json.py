@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import gc
 import hashlib
+import itertools
 import json
 import re
 from collections.abc import Iterable, Sequence
@@ -259,7 +260,7 @@ def _walk(data: bytes, patterns: tuple[Pattern, ...]
         if len(path) not in depths or any(isinstance(part, int) for part in path):
             return False
         return any(len(pattern) == len(path) and all(
-            want == "*" or want == got for want, got in zip(pattern, path))
+            want == "*" or want == got for want, got in zip(pattern, path, strict=True))
             for pattern in patterns)
 
     def fail(message: str, offset: int) -> MalformedJson:
@@ -523,7 +524,7 @@ def _sort_members(frame: _Frame) -> str | None:
     """Sort an object's members in place; return a member name that appears twice, if any."""
     if frame.general is not None:
         frame.general.sort(key=lambda member: member[0])
-        for before, after in zip(frame.general, frame.general[1:]):
+        for before, after in itertools.pairwise(frame.general):
             if before[0] == after[0]:
                 return after[1][1:-1].decode("utf-8")
         return None

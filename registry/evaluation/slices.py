@@ -119,7 +119,7 @@ def compare_slices(candidate: Predictions, baseline: Predictions, slice_column: 
     adjusted: dict[str, dict[str, float | None]] = {}
     for name in metric_names:
         raw = [_p_value(reports[value].differences.get(name)) for value in slice_values]
-        adjusted[name] = dict(zip(slice_values, holm_adjust(raw)))
+        adjusted[name] = dict(zip(slice_values, holm_adjust(raw), strict=True))
 
     values = {}
     for value in slice_values:

@@ -120,7 +120,7 @@ def slice_guard(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> 
         adjusted = holm_adjust([s.p_value for s in slices])
         notes.append(f"p-values Holm-Bonferroni adjusted here across {len(slices)} slices")
     findings, regressions, unproven = [], [], []
-    for piece, adjusted_p in zip(slices, adjusted):
+    for piece, adjusted_p in zip(slices, adjusted, strict=True):
         allowed = margins.get(piece.value, margin)
         worsening = -piece.difference if piece.higher_is_better else piece.difference
         entry = {**to_plain(piece), "adjusted_p_value": adjusted_p, "margin": allowed}

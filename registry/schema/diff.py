@@ -138,7 +138,7 @@ class _Differ:
                 self.change(f"{path}/{i}", "union-branch-added",
                             f"union branch {branch_label(branch)} added",
                             breaks_writers=first_matching_branch(o, branch) is None)
-        for i, branch in enumerate(o.branches):
+        for branch in o.branches:
             if key(branch) not in new_keys:
                 self.change(path, "union-branch-removed",
                             f"union branch {branch_label(branch)} removed",

@@ -81,7 +81,7 @@ def to_json(schema: Schema) -> Any:
                         field_out["doc"] = field.doc
                     field_out.update(field.properties)
                     fields.append(field_out)
-                for field, field_out in reversed(list(zip(current.fields, fields))):
+                for field, field_out in reversed(list(zip(current.fields, fields, strict=True))):
                     stack.append((field.type, own, field_out, "type"))
             elif isinstance(current, Enum):
                 out["symbols"] = list(current.symbols)

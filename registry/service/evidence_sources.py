@@ -201,7 +201,7 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
     confidence = settings.get("no-regression", {}).get("confidence", 0.95)
     comparisons: list[gates.PairedComparison] = []
     slices: list[gates.SliceComparison] = []
-    for evaluation, dataset in mine:
+    for evaluation, _dataset in mine:
         baseline_row = theirs.get(evaluation.dataset_content_digest)
         if baseline_row is None:
             continue
