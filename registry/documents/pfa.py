@@ -120,6 +120,26 @@ def _pointer(*parts: str | int) -> str:
 def _summarise(document: Any, digest: CanonicalDigest) -> PfaSummary:
     if not isinstance(document, dict):
         raise _fail("a PFA document is a JSON object", "/")
+    _check_fields(document)
+    method, name = _check_header(document)
+
+    # Named types declared anywhere are visible to every later reference: one registry for all.
+    names = Names()
+    input_schema = parse(document["input"], names=names, place="/input")
+    output_schema = parse(document["output"], names=names, place="/output")
+    cells = _storage(document, "cells", names, digest)
+    pools = _storage(document, "pools", names, digest)
+    function_count = _functions(document, names)
+    for key in ("begin", "action", "end", "merge"):
+        if key in document:
+            _declared_types(document[key], (key,), names)
+    return PfaSummary(digest=digest.sha256, canonical_size=digest.size, name=name,
+                      method=method, input_schema=input_schema, output_schema=output_schema,
+                      cells=cells, pools=pools, function_count=function_count)
+
+
+def _check_fields(document: dict[str, Any]) -> None:
+    """Only the top-level fields PFA knows, and every required one."""
     allowed = set(REQUIRED_FIELDS) | set(OPTIONAL_FIELDS) | {LOCATOR_MARK}
     unknown = [key for key in document if key not in allowed]
     if unknown:
@@ -131,6 +151,9 @@ def _summarise(document: Any, digest: CanonicalDigest) -> PfaSummary:
             what = "its action" if key == "action" else f"its {key} schema"
             raise _fail(f"missing: every PFA document declares {what}", _pointer(key))
 
+
+def _check_header(document: dict[str, Any]) -> tuple[str, str | None]:
+    """The engine's method and name, and the other header fields checked; (method, name)."""
     method = document.get("method", "map")
     if method not in METHODS:
         raise _fail(f"method must be one of {', '.join(METHODS)}", "/method")
@@ -155,20 +178,7 @@ def _summarise(document: Any, digest: CanonicalDigest) -> PfaSummary:
             raise _fail("metadata values must be strings", _pointer("metadata", key))
     if not isinstance(document.get("options", {}), dict):
         raise _fail("options must be a JSON object", "/options")
-
-    # Named types declared anywhere are visible to every later reference: one registry for all.
-    names = Names()
-    input_schema = parse(document["input"], names=names, place="/input")
-    output_schema = parse(document["output"], names=names, place="/output")
-    cells = _storage(document, "cells", names, digest)
-    pools = _storage(document, "pools", names, digest)
-    function_count = _functions(document, names)
-    for key in ("begin", "action", "end", "merge"):
-        if key in document:
-            _declared_types(document[key], (key,), names)
-    return PfaSummary(digest=digest.sha256, canonical_size=digest.size, name=name,
-                      method=method, input_schema=input_schema, output_schema=output_schema,
-                      cells=cells, pools=pools, function_count=function_count)
+    return method, name
 
 
 def _storage(document: dict[str, Any], section: str, names: Names,
