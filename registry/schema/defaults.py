@@ -53,34 +53,49 @@ def check_default(schema: Schema, value: Any) -> tuple[str, str] | None:
     stack: list[tuple[Schema, Any, str]] = [(schema, value, "")]
     while stack:
         current, datum, at = stack.pop()
-        if isinstance(current, Primitive):
-            message = _primitive_problem(current.kind, datum)
-            if message is not None:
-                return at, message
-        elif isinstance(current, Enum):
-            if datum not in current.symbols:
-                return at, f"{datum!r} is not a symbol of enum {current.name}"
-        elif isinstance(current, Fixed):
-            if not _is_byte_string(datum) or len(datum) != current.size:
-                return at, f"{datum!r} is not a string of {current.size} code points 0-255"
-        elif isinstance(current, Array):
-            if not isinstance(datum, list):
-                return at, f"{datum!r} is not a list"
-            stack.extend((current.items, item, f"{at}/{i}") for i, item in enumerate(datum))
-        elif isinstance(current, Map):
-            if not isinstance(datum, dict):
-                return at, f"{datum!r} is not an object"
-            stack.extend((current.values, item, f"{at}/{_pointer_token(key)}")
-                         for key, item in datum.items())
-        elif isinstance(current, Record):
-            if not isinstance(datum, dict):
-                return at, f"{datum!r} is not an object for record {current.name}"
-            for field in current.fields:
-                if field.name in datum:
-                    stack.append((field.type, datum[field.name], f"{at}/{field.name}"))
-                elif not field.has_default:
-                    return at, f"field {field.name!r} of record {current.name} is missing"
-        elif isinstance(current, Union):
-            if not any(check_default(branch, datum) is None for branch in current.branches):
-                return at, f"{datum!r} fits no branch of the union"
+        if isinstance(current, (Array, Map, Record)):
+            message = _open_container(current, datum, at, stack)
+        else:
+            message = _leaf_problem(current, datum)
+        if message is not None:
+            return at, message
+    return None
+
+
+def _leaf_problem(current: Schema, datum: Any) -> str | None:
+    """What is wrong with `datum` as a value of a schema that holds no fields or items."""
+    if isinstance(current, Primitive):
+        return _primitive_problem(current.kind, datum)
+    if isinstance(current, Enum):
+        if datum not in current.symbols:
+            return f"{datum!r} is not a symbol of enum {current.name}"
+    elif isinstance(current, Fixed):
+        if not _is_byte_string(datum) or len(datum) != current.size:
+            return f"{datum!r} is not a string of {current.size} code points 0-255"
+    elif isinstance(current, Union):
+        if not any(check_default(branch, datum) is None for branch in current.branches):
+            return f"{datum!r} fits no branch of the union"
+    return None
+
+
+def _open_container(current: Array | Map | Record, datum: Any, at: str,
+                    stack: list[tuple[Schema, Any, str]]) -> str | None:
+    """What is wrong with `datum` as an array, map or record; its parts go on the stack."""
+    if isinstance(current, Array):
+        if not isinstance(datum, list):
+            return f"{datum!r} is not a list"
+        stack.extend((current.items, item, f"{at}/{i}") for i, item in enumerate(datum))
+    elif isinstance(current, Map):
+        if not isinstance(datum, dict):
+            return f"{datum!r} is not an object"
+        stack.extend((current.values, item, f"{at}/{_pointer_token(key)}")
+                     for key, item in datum.items())
+    else:
+        if not isinstance(datum, dict):
+            return f"{datum!r} is not an object for record {current.name}"
+        for field in current.fields:
+            if field.name in datum:
+                stack.append((field.type, datum[field.name], f"{at}/{field.name}"))
+            elif not field.has_default:
+                return f"field {field.name!r} of record {current.name} is missing"
     return None
