@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import hashlib
 from datetime import UTC, datetime
-from typing import Any
+from types import TracebackType
+from typing import Any, Literal
 
 from sqlalchemy import select
 from sqlalchemy.exc import DBAPIError, IntegrityError, OperationalError
@@ -126,7 +127,10 @@ class UnitOfWork:
         except BaseException as error:
             raise _translate(error, self.catalogue) from None
 
-    def __exit__(self, exc_type, exc, tb) -> bool:
+    def __exit__(self, exc_type: type[BaseException] | None, exc: BaseException | None,
+                 tb: TracebackType | None) -> Literal[False]:
+        # Literal[False], not bool: the unit of work never swallows an error, so code after a
+        # `with` block that returns inside it is unreachable (and type checkers know it).
         try:
             if self.session.in_transaction():
                 self.session.rollback()
