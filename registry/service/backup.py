@@ -217,7 +217,10 @@ def _check_chain(rows: dict[str, list[dict[str, Any]]], manifest: dict[str, Any]
         raise BadExport("an audit event is incomplete",
                         place="tables/audit_events.jsonl") from None
     head = manifest.get("audit_head") or {}
-    breaks = verify_chain(records, (head.get("sequence"), head.get("hash")))
+    # Unchecked JSON from the export: a missing or wrong head shows as a break of the chain.
+    head_sequence: Any = head.get("sequence")
+    head_hash: Any = head.get("hash")
+    breaks = verify_chain(records, (head_sequence, head_hash))
     heads = rows[t.AuditHead.__tablename__]
     if heads and (heads[0].get("sequence"), heads[0].get("hash")) != (
             head.get("sequence"), head.get("hash")):

@@ -89,7 +89,7 @@ def dataset_registration_digest(name: str, role: str, source_uri: str, content_d
 
 def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
              with_profile: bool = False) -> DatasetSummary:
-    feed_of = (uow.session.get(t.Model, dataset.feed_model_id).name if dataset.feed_model_id
+    feed_of = (uow.session.get_one(t.Model, dataset.feed_model_id).name if dataset.feed_model_id
                else None)
     profile = load_fingerprint(uow, dataset).to_dict().get("profile", {}) if with_profile else {}
     return DatasetSummary(

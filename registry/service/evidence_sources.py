@@ -41,8 +41,10 @@ def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version
 
 def schema_check(reader: t.Version, writer: t.Version, which: str) -> gates.SchemaCheck:
     """`reader`'s schema (input or output) resolving `writer`'s (Avro Schema Resolution)."""
-    return _as_check(avro.resolve(_schema_of(reader, which), _schema_of(writer, which)),
-                     reader, writer)
+    reader_schema, writer_schema = _schema_of(reader, which), _schema_of(writer, which)
+    # Every version has an input schema; output_check asks only when both have an output one.
+    assert reader_schema is not None and writer_schema is not None
+    return _as_check(avro.resolve(reader_schema, writer_schema), reader, writer)
 
 
 def output_check(incumbent: t.Version, candidate: t.Version) -> gates.SchemaCheck | None:
@@ -226,15 +228,15 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
                     continue
                 per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)
                 for value, result in sorted(per_slice.values.items()):
-                    difference = result.differences.get(metric)
-                    if difference is None:
+                    in_slice = result.differences.get(metric)
+                    if in_slice is None:
                         continue
                     slices.append(gates.SliceComparison(
                         column=column, value=str(value), metric=metric,
-                        difference=difference.difference, ci_low=difference.ci_low,
-                        ci_high=difference.ci_high, p_value=difference.p_value,
+                        difference=in_slice.difference, ci_low=in_slice.ci_low,
+                        ci_high=in_slice.ci_high, p_value=in_slice.p_value,
                         higher_is_better=HIGHER_IS_BETTER[metric],
-                        adjusted_p_value=difference.p_value_holm, confidence=confidence,
+                        adjusted_p_value=in_slice.p_value_holm, confidence=confidence,
                         rows=result.n))
     if not comparisons and mine and theirs:
         # Both were evaluated, never on the same data: say so rather than compare.

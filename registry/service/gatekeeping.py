@@ -50,7 +50,7 @@ def past_top_holders(uow: UnitOfWork, model: t.Model, policy: Policy,
         select(t.StageEvent.version_id).where(
             t.StageEvent.model_id == model.id, t.StageEvent.stage == policy.top_stage,
             t.StageEvent.event.in_(("entered", "restored"))).distinct()).scalars().all()
-    return [uow.session.get(t.Version, i) for i in sorted(set(ids) - set(exclude))]
+    return [uow.session.get_one(t.Version, i) for i in sorted(set(ids) - set(exclude))]
 
 
 def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str,

@@ -149,7 +149,7 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
     for dataset in uow.session.execute(select(t.Dataset).order_by(t.Dataset.name)).scalars():
         count += 1
         place = f"dataset/{dataset.name}"
-        feed_of = uow.session.get(t.Model, dataset.feed_model_id).name \
+        feed_of = uow.session.get_one(t.Model, dataset.feed_model_id).name \
             if dataset.feed_model_id else None
         recomputed = dataset_registration_digest(
             dataset.name, dataset.role, dataset.source_uri, dataset.content_digest,

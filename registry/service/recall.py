@@ -145,13 +145,15 @@ def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledS
             if upstream not in came_from:
                 came_from[upstream] = current
                 queue.append(upstream)
-    sources = []
+    sources: list[RecalledSource] = []
     for key in recalled:
-        chain, step = [], key
+        chain: list[str] = []
+        step: walks.NodeKey | None = key
         while step is not None:
             chain.append(node_name(facts[step]))
             step = came_from.get(step)
-        row = uow.session.get(t.Dataset, key.ref)
+        row = uow.session.get_one(t.Dataset, key.ref)
+        assert row.recalled_at is not None  # it is among the recalled datasets
         sources.append(RecalledSource(dataset=row.name, reason=row.recall_reason or "",
                                       recalled_at=walks.utc_iso(row.recalled_at),
                                       recalled_by=row.recalled_by or "", chain=tuple(chain)))
