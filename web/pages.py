@@ -156,7 +156,9 @@ def _gate_results(report: Any) -> tuple[list[GateResultView], bool]:
             continue
         passed, waived = bool(item.get("passed")), bool(item.get("waived"))
         status = "waived" if waived else ("passed" if passed else "failed")
-        notes = item.get("notes") if isinstance(item.get("notes"), list) else []
+        notes = item.get("notes")
+        if not isinstance(notes, list):
+            notes = []
         results.append(GateResultView(gate=str(item.get("gate", "?")), status=status,
                                       summary=str(item.get("summary", "")),
                                       evidence=item.get("evidence"),
@@ -282,8 +284,9 @@ def _slices(document: dict) -> list:
         for value, entry in values.items():
             if not isinstance(entry, dict):
                 continue
-            metrics = entry.get("metrics") if isinstance(entry.get("metrics"), dict) else {
-                k: v for k, v in entry.items() if _number(v) is not None and k != "n"}
+            metrics = entry.get("metrics")
+            if not isinstance(metrics, dict):
+                metrics = {k: v for k, v in entry.items() if _number(v) is not None and k != "n"}
             for metric in metrics:
                 if metric not in names:
                     names.append(str(metric))
@@ -307,7 +310,9 @@ def evaluation_view(dataset: str, row: t.Evaluation) -> EvaluationView:
     document = loads(row.metrics_json)
     if not isinstance(document, dict):
         return EvaluationView(dataset, row.task, None, utc_iso(row.created_at), [], [], False)
-    metrics = document.get("metrics") if isinstance(document.get("metrics"), dict) else {}
+    metrics = document.get("metrics")
+    if not isinstance(metrics, dict):
+        metrics = {}
     listed = [(str(name), value, *_interval(document, name)) for name, value in metrics.items()]
     return EvaluationView(dataset, row.task, document.get("n"), utc_iso(row.created_at), listed,
                           _slices(document), True, _comparisons(document))

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from typing import Any
+from typing import Any, overload
 
 from flask import abort, current_app, render_template, request
 
@@ -38,6 +38,16 @@ def _query_number(name: str, *, low: int, high: int, default: int | None = None)
         abort(400, description=f"the query parameter {name!r} must be one whole number "
                                f"from {low} to {high}")
     return int(values[0])
+
+
+@overload
+def _query_text(name: str, *, pattern: re.Pattern | None = None, default: str,
+                limit: int = 300) -> str: ...
+
+
+@overload
+def _query_text(name: str, *, pattern: re.Pattern | None = None, default: None = None,
+                limit: int = 300) -> str | None: ...
 
 
 def _query_text(name: str, *, pattern: re.Pattern | None = None, default: str | None = None,

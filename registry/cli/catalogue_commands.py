@@ -6,6 +6,7 @@ from pathlib import Path
 
 import click
 
+from registry.cli.context import CommandContext
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
 from registry.manifest import parse_manifest
@@ -13,8 +14,9 @@ from registry.service import integrity, models, registration
 from registry.service.actors import Actor
 
 
-def _context() -> CommandContext:  # noqa: F821 - resolved at run time
-    return click.get_current_context().obj
+def _context() -> CommandContext:
+    context: CommandContext = click.get_current_context().obj
+    return context
 
 
 def _actor() -> Actor:

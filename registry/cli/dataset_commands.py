@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 import os
+import sys
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from typing import Any
@@ -43,7 +44,7 @@ def progress_reporter(label: str, total: int | None) -> Iterator[Callable[[int],
     if not stderr_is_terminal():
         yield None
         return
-    stderr = click.get_text_stream("stderr")
+    stderr = sys.stderr  # not click.get_text_stream, which click deprecates
     if total is None:  # Avro and CSV files do not say how many rows they hold: count them
         done = 0
 

@@ -12,6 +12,7 @@ POST /datasets takes either
 from __future__ import annotations
 
 import json
+from typing import Any
 
 from flask import g, request
 
@@ -36,7 +37,7 @@ DATASET_BODY = strict_object({
                                                                  "maxLength": 100},
 }, ("name", "fingerprint"))
 TEXT_FIELD = {"type": "string"}
-DATASET_FORM = {
+DATASET_FORM: dict[str, Any] = {
     "type": "object",
     "properties": {"file": {"type": "string", "format": "binary"},
                    "schema": {"type": "string", "format": "binary"},

@@ -9,6 +9,7 @@ label, and score | prediction | p_<class>), fields `dataset` (a registered evalu
 from __future__ import annotations
 
 import math
+from typing import Any
 
 from flask import g
 
@@ -27,7 +28,7 @@ from registry.errors import UserError
 from registry.service import evaluations
 
 TEXT_FIELD = {"type": "string"}
-EVALUATION_FORM = {
+EVALUATION_FORM: dict[str, Any] = {
     "type": "object",
     "properties": {"predictions": {"type": "string", "format": "binary"}, "dataset": TEXT_FIELD,
                    "task": {"type": "string", "enum": ["binary", "regression", "multiclass"]},
