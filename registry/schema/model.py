@@ -71,7 +71,7 @@ class Schema:
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
 class Primitive(Schema):
-    kind: str  # type: ignore[misc]  # one of PRIMITIVE_TYPES
+    kind: str  # one of PRIMITIVE_TYPES
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -176,7 +176,7 @@ class Union(Schema):
 
 def _describe_nested(schema: Schema, levels: int = 3) -> str:
     """"array of map of int": a few levels of arrays and maps, then an ellipsis (no recursion)."""
-    words = []
+    words: list[str] = []
     while isinstance(schema, (Array, Map)) and len(words) < levels:
         words.append("array of" if isinstance(schema, Array) else "map of")
         schema = schema.items if isinstance(schema, Array) else schema.values

@@ -253,6 +253,7 @@ class _Parser:
                                       place=f"{place}/fields/{position}/name")
                 if len(known) < 100_000:
                     known.add(field_name)
+            assert isinstance(field_name, str)  # a known name or a valid one, checked above
             if field_name in seen:
                 raise SchemaError(f"duplicate field name {field_name!r} (also field "
                                   f"{seen[field_name]})", place=f"{place}/fields/{position}/name")

@@ -164,7 +164,7 @@ class _Resolver:
                 pair = (id(r), id(w))
                 if pair not in self.visited_pairs:
                     self.visited_pairs.add(pair)
-                    self._named(r, w, rpath, wpath, children)  # type: ignore[arg-type]
+                    self._named(r, w, rpath, wpath, children)
             elif isinstance(r, Array) and isinstance(w, Array):
                 children.append((r.items, w.items, f"{rpath}/items", f"{wpath}/items"))
             elif isinstance(r, Map) and isinstance(w, Map):
