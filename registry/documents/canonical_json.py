@@ -20,10 +20,11 @@ import hashlib
 import itertools
 import json
 import re
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
-from json.decoder import scanstring
+from json.decoder import scanstring  # type: ignore[attr-defined]  # C scanner, not in typeshed
 from json.encoder import encode_basestring
+from typing import cast
 
 from registry.errors import UserError
 
@@ -41,7 +42,8 @@ _NUMBER = rb"-?(?:0|[1-9][0-9]*)(?:\.[0-9]+)?(?:[eE][+-]?[0-9]+)?"
 _STRING = rb'"[^"\\\x00-\x1f]*(?:\\(?:["\\/bfnrt]|u[0-9a-fA-F]{4})[^"\\\x00-\x1f]*)*"'
 _RUN_LENGTH = 4096  # numbers converted per batch; bounds the temporary lists
 
-_skip_whitespace = re.compile(_WHITESPACE).match
+# The pattern matches the empty string too, so this match never fails.
+_skip_whitespace = cast(Callable[[bytes, int], re.Match[bytes]], re.compile(_WHITESPACE).match)
 _WHITESPACE_BYTES = frozenset(b" \t\n\r")
 _match_string = re.compile(_STRING).match
 _match_number = re.compile(_NUMBER).match
@@ -200,6 +202,10 @@ def _string(token: bytes) -> tuple[bytes, str]:
 # --- the streaming walk --------------------------------------------------------------------
 
 
+# A member of an object once names need the general order: (UTF-16 sort key, quoted name, value).
+_Member = tuple[bytes, bytes, bytes | list[bytes]]
+
+
 class _Frame:
     """An open array or object and the canonical text of what it holds so far."""
 
@@ -218,7 +224,7 @@ class _Frame:
         self.entries: list[bytes] = []
         self.ropes: dict[bytes, list[bytes]] = {}
         # Once any other name appears: (UTF-16 sort key, quoted name, value) per member.
-        self.general: list[tuple[bytes, bytes, bytes | list[bytes]]] | None = None
+        self.general: list[_Member] | None = None
         self.key: tuple[bytes, str, bool] | None = None  # quoted name, name, is plain
         self.path = path
         self.start = start
@@ -491,18 +497,20 @@ def _object_pieces(frame: _Frame) -> tuple[list[bytes], int]:
     """The canonical text of a closed object with sorted members, and its size."""
     pieces: list[bytes] = []
     buffer = bytearray(b"{")
-    members = frame.general if frame.general is not None else frame.entries
+    members: Sequence[_Member | bytes] = (
+        frame.general if frame.general is not None else frame.entries)
     for index, member in enumerate(members):
         if index:
             buffer += b","
-        if isinstance(member, tuple):
-            key_text, value = member[1], member[2]
+        value: bytes | list[bytes]
+        if not isinstance(member, bytes):  # (sort key, quoted name, value)
+            _, key_text, value = member
             buffer += key_text
             buffer += b":"
-        elif member[-1:] == b":":
+        elif member[-1:] == b":":  # a plain name whose value is a rope kept aside
             buffer += member
             value = frame.ropes[member[:-1]]
-        else:
+        else:  # "name":value in one piece
             buffer += member
             continue
         if isinstance(value, bytes):
@@ -536,9 +544,9 @@ def _utf16(name: str) -> bytes:
     return name.encode("utf-16-be", "surrogatepass")
 
 
-def _general_members(frame: _Frame) -> list[tuple[bytes, bytes, bytes | list[bytes]]]:
+def _general_members(frame: _Frame) -> list[_Member]:
     """Turn an object's plain-name members into (sort key, quoted name, value) triples."""
-    general: list[tuple[bytes, bytes, bytes | list[bytes]]] = []
+    general: list[_Member] = []
     for entry in frame.entries:
         cut = entry.index(b'"', 1) + 1  # a plain name holds no quote, so this closes it
         key_text, rest = entry[:cut], entry[cut + 1:]
