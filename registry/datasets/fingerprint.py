@@ -115,7 +115,7 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
     leave_out = set(fingerprint.keys) | set(fingerprint.excluded)
     rows = batch.num_rows
     feature_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
-    rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)] if leave_out else None
+    rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)] if leave_out else []
     profiles = {}
     for name in record.names:
         array, value_type = batch.column(name), record.field(name)
@@ -141,6 +141,7 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
     feature = int(fingerprint.feature_digest, 16) + features[2] if leave_out else content
     key_digest = fingerprint.key_digest
     if fingerprint.keys:
+        assert key_digest is not None  # a fingerprint with keys has a key digest
         key_digest = digest_hex(int(key_digest, 16) + hashing.digest_of_lanes(
             *_key_hashes(batch, record, fingerprint.keys)))
     sketch = add_hashes(fingerprint.sketch, full[1])
@@ -179,7 +180,7 @@ def merge_fingerprints(a: DatasetFingerprint, b: DatasetFingerprint) -> DatasetF
         a, rows=a.rows + b.rows,
         content_digest=digest_hex(int(a.content_digest, 16) + int(b.content_digest, 16)),
         feature_digest=digest_hex(int(a.feature_digest, 16) + int(b.feature_digest, 16)),
-        key_digest=None if a.key_digest is None else digest_hex(
+        key_digest=None if a.key_digest is None or b.key_digest is None else digest_hex(
             int(a.key_digest, 16) + int(b.key_digest, 16)),
         profile={name: merge_profiles(column, b.profile[name])
                  for name, column in a.profile.items()},

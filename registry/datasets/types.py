@@ -60,9 +60,10 @@ class ValueType:
             return pa.null()
         if self.avro == "record":
             return pa.struct([pa.field(n, t.arrow_type(), nullable=True) for n, t in self.fields])
-        if self.avro == "array":
-            return pa.list_(self.items.arrow_type())
-        if self.avro == "map":
+        if self.avro in ("array", "map"):
+            assert self.items is not None  # arrays and maps always have an item type
+            if self.avro == "array":
+                return pa.list_(self.items.arrow_type())
             return pa.map_(pa.string(), self.items.arrow_type())
         if self.avro == "union":  # type code 0 holds the nulls, 1.. the branches in order
             children = [pa.field("null", pa.null())] + [
