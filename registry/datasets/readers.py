@@ -14,7 +14,7 @@ import os
 from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass
 from functools import partial
-from typing import Any
+from typing import IO, Any, Literal, cast
 
 import fastavro
 import fastavro.schema
@@ -129,10 +129,15 @@ class _ReadsNoFurtherThanTheEnd:
         return getattr(self._handle, name)
 
 
+def _as_file(handle: IO[bytes]) -> IO[bytes]:
+    """The handle behind a reader that stops at the file's end (fastavro only reads from it)."""
+    return cast(IO[bytes], _ReadsNoFurtherThanTheEnd(handle))
+
+
 def _avro_writer_schema(path: str) -> dict[str, Any]:
     try:
         with open(path, "rb") as handle:
-            return json.loads(fastavro.reader(_ReadsNoFurtherThanTheEnd(handle))
+            return json.loads(fastavro.reader(_as_file(handle))
                               .metadata["avro.schema"])
     except Exception as error:  # fastavro reports a bad header in several ways
         raise DatasetFileError(f"not an Avro container file or its header is damaged ({error})",
@@ -150,7 +155,7 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
     pending_start = 0
     with open(source.path, "rb") as handle:
         try:
-            blocks = fastavro.block_reader(_ReadsNoFurtherThanTheEnd(handle), reader_schema)
+            blocks = fastavro.block_reader(_as_file(handle), reader_schema)
         except fastavro.read.SchemaResolutionError as error:
             raise ColumnsNotMatching(f"the file's records cannot be read with the given "
                                      f"schema ({error})", place=source.path) from error
@@ -177,7 +182,7 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
             if not pending and not converted:
                 pending_start = rows_read
             try:
-                pending.extend(block)
+                pending.extend(cast(Iterator[dict], block))  # records of a record schema
             except fastavro.read.SchemaResolutionError as error:
                 raise ColumnsNotMatching(f"the file's records cannot be read with the given "
                                          f"schema ({error})", place=source.path) from error
@@ -192,12 +197,18 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                 converted_rows += len(pending)
                 pending = []
             if converted_rows >= batch_rows:
-                yield pending_start, pa.concat_batches(converted)
+                yield pending_start, _concatenated(converted)
                 converted, converted_rows = [], 0
     if pending:
         converted.append(_records_to_batch(pending, make_batch, converters))
     if converted:
-        yield pending_start, pa.concat_batches(converted)
+        yield pending_start, _concatenated(converted)
+
+
+def _concatenated(batches: list[pa.RecordBatch]) -> pa.RecordBatch:
+    # pa.concat_batches (pyarrow 19) is newer than the pyarrow stubs.
+    batch: pa.RecordBatch = pa.concat_batches(batches)  # type: ignore[attr-defined]
+    return batch
 
 
 def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
@@ -226,7 +237,7 @@ class _AvroBatchMaker:
                                  if t.avro != "union"])
 
     def __call__(self, records: list[dict]) -> pa.RecordBatch:
-        plain = pa.array(records, type=self.struct)
+        plain = cast(pa.StructArray, pa.array(records, type=self.struct))
         columns = {name: plain.field(name) for name in self.struct.names}
         for name, value_type in self.unions:
             columns[name] = union_array([r[name] for r in records], value_type)
@@ -238,17 +249,18 @@ def union_array(values: list[Any], value_type: ValueType) -> pa.UnionArray:
     """A dense union array: code 0 for null, then the first branch each value fits."""
     codes = np.fromiter((_branch_of(v, value_type.branches) for v in values), dtype=np.int8,
                         count=len(values))
-    children, offsets = [pa.nulls(int(np.count_nonzero(codes == 0)))], np.zeros(len(values),
-                                                                                 np.int32)
+    children: list[pa.Array] = [pa.nulls(int(np.count_nonzero(codes == 0)))]
+    offsets = np.zeros(len(values), np.int32)
     offsets[codes == 0] = np.arange(int(np.count_nonzero(codes == 0)))
     for code, branch in enumerate(value_type.branches, start=1):
         chosen = np.flatnonzero(codes == code)
         offsets[chosen] = np.arange(len(chosen))
         children.append(pa.array([values[i] for i in chosen], type=branch.arrow_type()))
-    union_type = value_type.arrow_type()
-    return pa.UnionArray.from_dense(pa.array(codes, type=pa.int8()), pa.array(offsets), children,
-                                    field_names=[f.name for f in union_type],
-                                    type_codes=list(range(len(children))))
+    union_type = cast(pa.UnionType, value_type.arrow_type())
+    return pa.UnionArray.from_dense(
+        pa.array(codes, type=pa.int8()), pa.array(offsets, type=pa.int32()), children,
+        field_names=[f.name for f in union_type],
+        type_codes=list(range(len(children))))  # type: ignore[arg-type]  # stubs: Int8Array
 
 
 def _branch_of(value: Any, branches: tuple[ValueType, ...]) -> int:
@@ -330,7 +342,7 @@ def _logical_converters(schema_json: Mapping[str, Any]) -> dict[str, Callable[[A
             "timestamp-micros": lambda v: _since_epoch(v, 10**6),
             "local-timestamp-millis": lambda v: _since_epoch(v, 1000),
             "local-timestamp-micros": lambda v: _since_epoch(v, 10**6),
-            "uuid": str,
+            "uuid": lambda v: str(v),
         }.get(logical)
         if logical == "decimal":
             convert = partial(_decimal_bytes, scale=int(kind.get("scale", 0)),
@@ -485,7 +497,7 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
                    parse_text: bool) -> pa.Array:
     target = value_type.arrow_type()
     if pa.types.is_dictionary(array.type):
-        array = array.dictionary_decode()
+        array = cast(pa.DictionaryArray, array).dictionary_decode()
     array = _underlying(array, value_type)
     if parse_text and value_type.avro == "string" and not value_type.nullable:
         array = array.fill_null("")  # an unquoted empty field is the empty string
@@ -518,8 +530,9 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
     return array
 
 
-_TIME_UNITS = {"timestamp-millis": "ms", "timestamp-micros": "us", "local-timestamp-millis": "ms",
-               "local-timestamp-micros": "us", "time-millis": "ms", "time-micros": "us"}
+_TIME_UNITS: dict[str, Literal["ms", "us"]] = {
+    "timestamp-millis": "ms", "timestamp-micros": "us", "local-timestamp-millis": "ms",
+    "local-timestamp-micros": "us", "time-millis": "ms", "time-micros": "us"}
 
 
 def _underlying(array: pa.Array, value_type: ValueType) -> pa.Array:
