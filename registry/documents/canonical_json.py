@@ -353,16 +353,21 @@ class _Walk:
         position, taken = _number_run(data, position, frame)
         return position, _AFTER if taken else _VALUE
 
-    def _string_value(self, position: int) -> tuple[int, int]:
+    def _string_at(self, position: int, what: str) -> tuple[int, bytes, str]:
+        """The end, canonical bytes and text of the string token at `position`."""
         match = _match_string(self.data, position)
         if match is None:
             raise self.fail("unterminated or invalid string", position)
         try:
-            canonical, _ = _string(match.group())
+            canonical, text = _string(match.group())
         except _BadString:
-            raise self.fail("a string that is not valid Unicode", position) from None
-        self._scalar(canonical, position, match.end(), "string")
-        return match.end(), _AFTER
+            raise self.fail(f"{what} that is not valid Unicode", position) from None
+        return match.end(), canonical, text
+
+    def _string_value(self, position: int) -> tuple[int, int]:
+        end, canonical, _ = self._string_at(position, "a string")
+        self._scalar(canonical, position, end, "string")
+        return end, _AFTER
 
     def _number_value(self, position: int) -> tuple[int, int]:
         match = _match_number(self.data, position)
@@ -402,15 +407,9 @@ class _Walk:
             return position + 1, _AFTER
         if byte != 0x22:
             raise self.fail("expected a member name in double quotes", position)
-        match = _match_string(self.data, position)
-        if match is None:
-            raise self.fail("unterminated or invalid string", position)
-        try:
-            key_text, key = _string(match.group())
-        except _BadString:
-            raise self.fail("a member name that is not valid Unicode", position) from None
+        end, key_text, key = self._string_at(position, "a member name")
         top.key = (key_text, key, _PLAIN_NAME(key_text) is not None)
-        return match.end(), _COLON
+        return end, _COLON
 
     def _colon(self, byte: int, position: int) -> tuple[int, int]:
         if byte != 0x3A:
