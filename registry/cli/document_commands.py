@@ -163,7 +163,7 @@ def inspect_command(file: str, manifest_path: str | None, kind: str | None,
         manifest_output = _manifest_schema(manifest, "output_schema", manifest_path)
     summary = read_document(_read_bytes(file), filename=Path(file).name,
                             manifest_input=manifest_input, manifest_output=manifest_output,
-                            kind=kind)  # type: ignore[arg-type]
+                            kind=kind)  # type: ignore[arg-type]  # click.Choice checked it
     emit(_document_report(summary), as_json, _render_document)
 
 

@@ -51,6 +51,7 @@ class LogHistogram:
                 and np.array_equal(self.indices, other.indices)
                 and np.array_equal(self.counts, other.counts))
 
+    # Equal by value over numpy arrays, so not hashable; typeshed wants a method here.
     __hash__ = None  # type: ignore[assignment]
 
 

@@ -54,6 +54,7 @@ class BottomKSketch:
         return (isinstance(other, BottomKSketch) and self.k == other.k
                 and np.array_equal(self.values, other.values))
 
+    # Equal by value over numpy arrays, so not hashable; typeshed wants a method here.
     __hash__ = None  # type: ignore[assignment]
 
 
