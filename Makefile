@@ -7,7 +7,7 @@ PY := $(VENV)/bin/python
 EXTRAS ?= postgres,parquet,test
 DEMO_DB ?= sqlite:///.lockkeeper/demo.db
 
-.PHONY: test demo bench install clean
+.PHONY: test demo bench lint install clean
 
 $(VENV)/.installed: pyproject.toml
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
@@ -27,9 +27,20 @@ demo: $(VENV)/.installed
 	$(VENV)/bin/lockkeeper --db $(DEMO_DB) demo
 	@if [ "$(SERVE)" = yes ]; then $(VENV)/bin/lockkeeper --db $(DEMO_DB) serve; fi
 
+# The house's rules: ruff (style, bugs, complexity), mypy (types) and the import contracts of
+# pyproject.toml. Each fails on any finding.
+$(VENV)/.lint-installed: $(VENV)/.installed
+	$(PY) -m pip install --quiet -e '.[$(EXTRAS),lint]'
+	touch $@
+
+lint: $(VENV)/.lint-installed
+	$(VENV)/bin/ruff check
+	$(VENV)/bin/mypy
+	$(VENV)/bin/lint-imports
+
 bench: $(VENV)/.installed
 	$(PY) -m pip install --quiet -e '.[$(EXTRAS),bench]'
 	$(PY) -m pytest tests/bench -s -p no:cacheprovider $(PYTEST_ARGS)
 
 clean:
-	rm -rf $(VENV) .lockkeeper .pytest_cache .hypothesis
+	rm -rf $(VENV) .lockkeeper .pytest_cache .hypothesis .mypy_cache .ruff_cache

@@ -8,12 +8,15 @@ from __future__ import annotations
 
 import logging
 import threading
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from flask import Flask, Response, render_template, request
 from werkzeug.exceptions import HTTPException, InternalServerError
 
 from registry.errors import LockkeeperError
+
+if TYPE_CHECKING:  # imported at run time where the catalogue is first opened
+    from registry.store.catalogue import Catalogue
 
 CONTENT_SECURITY_POLICY = (
     "default-src 'self'; script-src 'self'; style-src 'self'; img-src 'self' data:; "
@@ -28,10 +31,10 @@ class CatalogueHolder:
 
     def __init__(self, url: str | None) -> None:
         self.url = url
-        self._catalogue = None
+        self._catalogue: Catalogue | None = None
         self._lock = threading.Lock()
 
-    def catalogue(self):
+    def catalogue(self) -> Catalogue:
         with self._lock:
             if self._catalogue is None:
                 from registry.errors import CatalogueUnavailable, UserError

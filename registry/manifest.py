@@ -58,13 +58,15 @@ def parse_manifest(text: str, *, source: str = "manifest") -> Manifest:
         table = tomllib.loads(text)
     except tomllib.TOMLDecodeError as error:
         raise ManifestError(f"not valid TOML: {error}", place=source) from None
-    inline_features = table.pop("features", None) if isinstance(table.get("features"), dict) else None
+    inline_features = (table.pop("features", None) if isinstance(table.get("features"), dict)
+                       else None)
     unknown = sorted(set(table) - KNOWN_KEYS)
     if unknown:
         raise ManifestError(f"unknown key(s) {', '.join(unknown)}; known keys are "
                             f"{', '.join(sorted(KNOWN_KEYS))}", place=source)
     parent = table.get("parent_version")
-    if parent is not None and (not isinstance(parent, int) or isinstance(parent, bool) or parent < 1):
+    if parent is not None and (not isinstance(parent, int) or isinstance(parent, bool)
+                               or parent < 1):
         raise ManifestError("`parent_version` must be a positive version number",
                             place=f"{source}: parent_version")
     return Manifest(

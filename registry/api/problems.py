@@ -8,6 +8,8 @@ The `kind` slugs are those of registry.errors plus the HTTP-only kinds below.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
+from typing import Any
 
 from flask import Blueprint, Flask, Response, request
 from werkzeug.exceptions import HTTPException
@@ -96,8 +98,9 @@ def _from_http_exception(error: HTTPException) -> Response:
     status = error.code or 500
     kind = HTTP_KINDS.get(status, "bad-input" if status < 500 else "server-error")
     headers = {}
-    if status == 405 and getattr(error, "valid_methods", None):
-        headers["Allow"] = ", ".join(error.valid_methods)
+    valid_methods = getattr(error, "valid_methods", None)  # set by werkzeug's MethodNotAllowed
+    if status == 405 and valid_methods:
+        headers["Allow"] = ", ".join(valid_methods)
     return problem_response(kind, status, error.description or error.name, headers=headers)
 
 
@@ -129,7 +132,7 @@ def install_app_problem_handler(app: Flask, prefix: str = "/api/") -> None:
     from werkzeug.exceptions import MethodNotAllowed, NotFound
 
     spec = app.error_handler_spec[None]  # the app-wide handlers, by code (None: by class)
-    mine: dict[int | None, object] = {}
+    mine: dict[int | None, Callable[[HTTPException], Any]] = {}
 
     def theirs(code: int | None):
         for key in (code, None):
@@ -139,7 +142,7 @@ def install_app_problem_handler(app: Flask, prefix: str = "/api/") -> None:
                 return handler
         return None
 
-    for code, exception in ((None, HTTPException), (404, NotFound), (405, MethodNotAllowed)):
+    for code in (None, 404, 405):
         def handle(error: HTTPException, code=code):
             if request.path.startswith(prefix):
                 return _from_http_exception(error)
@@ -148,5 +151,5 @@ def install_app_problem_handler(app: Flask, prefix: str = "/api/") -> None:
 
         mine[code] = handle
     earlier = {code: theirs(code) for code in mine}  # code handlers the app had already
-    for code, handle in mine.items():
-        app.register_error_handler(code or HTTPException, handle)
+    for code, handler in mine.items():
+        app.register_error_handler(code or HTTPException, handler)

@@ -7,8 +7,8 @@ from typing import Any
 
 from flask import Response
 
-from registry.cli.output import to_plain
 from registry.names import check_name
+from registry.plain import to_plain
 
 
 def json_response(document: Any, status: int = 200, headers: dict[str, str] | None = None

@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from flask import Blueprint, g
+from flask.blueprints import BlueprintSetupState
 from werkzeug.routing import IntegerConverter
 
 from registry.api.auth import authenticate
@@ -30,9 +31,14 @@ class NumberConverter(IntegerConverter):
 
 
 api = Blueprint("api", __name__, url_prefix=API_PREFIX)
+
+
+def _add_number_converter(state: BlueprintSetupState) -> None:
+    state.app.url_map.converters.setdefault("number", NumberConverter)
+
+
 # Recorded before any route, so the converter exists when the app binds the rules.
-api.record_once(lambda state: state.app.url_map.converters.setdefault("number",
-                                                                      NumberConverter))
+api.record_once(_add_number_converter)
 install_problem_handlers(api)
 api.before_request(refuse_oversize_body)
 

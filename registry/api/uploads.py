@@ -8,6 +8,7 @@ import tempfile
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path, PurePosixPath, PureWindowsPath
+from typing import overload
 
 from flask import request
 from werkzeug.datastructures import FileStorage
@@ -48,6 +49,14 @@ def saved_upload(upload: FileStorage, fallback: str) -> Iterator[Path]:
 
 def form_values(name: str) -> tuple[str, ...]:
     return tuple(value for value in request.form.getlist(name) if value != "")
+
+
+@overload
+def form_value(name: str) -> str | None: ...
+
+
+@overload
+def form_value(name: str, default: str) -> str: ...
 
 
 def form_value(name: str, default: str | None = None) -> str | None:

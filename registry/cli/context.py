@@ -28,7 +28,7 @@ class CommandContext:
         """The HTTP client of the remote catalogue named by --server, or None to work locally."""
         if not self.server:
             return None
-        from registry.api.client import ApiClient
+        from registry.cli.remote import ApiClient
 
         return ApiClient(self.server, self.token)
 

@@ -2,34 +2,13 @@
 
 from __future__ import annotations
 
-import dataclasses
-import enum
 import json
 from collections.abc import Callable
 from typing import Any
 
 import click
 
-
-def to_plain(value: Any) -> Any:
-    """Turn dataclasses, enums, tuples and sets into JSON-ready lists, dicts and scalars."""
-    if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {f.name: to_plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
-    if isinstance(value, enum.Enum):
-        return to_plain(value.value)
-    if isinstance(value, dict):
-        return {str(k): to_plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [to_plain(v) for v in value]
-    if isinstance(value, (set, frozenset)):
-        return sorted(to_plain(v) for v in value)
-    if isinstance(value, bytes):
-        return value.hex()
-    if hasattr(value, "isoformat"):
-        return value.isoformat()
-    if hasattr(value, "item") and callable(value.item):  # numpy scalars
-        return value.item()
-    return value
+from registry.plain import to_plain
 
 
 def emit(document: Any, as_json: bool, render_text: Callable[[Any], str] | None = None) -> None:

@@ -26,14 +26,14 @@ def _waivers(gates: tuple[str, ...], reasons: tuple[str, ...], actor) -> list:
         reasons = reasons * len(gates)
     if len(reasons) != len(gates):
         raise UserError("give one --reason, or one per --waive", place="--reason")
-    return gatekeeping.parse_waivers(list(zip(gates, reasons)), actor)
+    return gatekeeping.parse_waivers(list(zip(gates, reasons, strict=True)), actor)
 
 
 def _remote_waivers(gates: tuple[str, ...], reasons: tuple[str, ...]) -> list[tuple[str, str]]:
     """(gate, reason) pairs for the API; the server records the token's user as approver."""
     if gates and not reasons:
         raise UserError("a waiver needs a reason: add --reason TEXT", place="--waive")
-    return list(zip(gates, reasons * len(gates) if len(reasons) == 1 else reasons))
+    return list(zip(gates, reasons * len(gates) if len(reasons) == 1 else reasons, strict=False))
 
 
 def _render_outcome(outcome: dict, verb: str) -> str:

@@ -9,7 +9,7 @@ which holds whatever order partitions were merged in.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 import pyarrow as pa
@@ -34,7 +34,7 @@ class CategoryCounts:
         return (self.total - sum(self.counts)) // (self.cap + 1)
 
     def as_dict(self) -> dict[str, int]:
-        return dict(zip(self.values, self.counts))
+        return dict(zip(self.values, self.counts, strict=True))
 
     def to_dict(self) -> dict[str, Any]:
         order = sorted(range(len(self.values)), key=lambda i: (-self.counts[i], self.values[i]))
@@ -42,7 +42,7 @@ class CategoryCounts:
                 "total": self.total, "counts": {self.values[i]: self.counts[i] for i in order}}
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "CategoryCounts":
+    def from_dict(cls, data: dict[str, Any]) -> CategoryCounts:
         pairs = sorted((str(v), int(c)) for v, c in data["counts"].items())
         return cls(tuple(v for v, _ in pairs), tuple(c for _, c in pairs),
                    bool(data["exact"]), int(data["total"]), int(data["cap"]))
@@ -57,7 +57,7 @@ def counts_of(array: pa.Array, cap: int = CATEGORY_CAP) -> CategoryCounts:
     if pa.types.is_boolean(array.type):
         array = pc.if_else(array, "true", "false")
     array = pc.drop_null(array)
-    encoded = array if pa.types.is_dictionary(array.type) else pc.dictionary_encode(array)
+    encoded = _dictionary_encoded(array)
     tally = np.bincount(encoded.indices.to_numpy(zero_copy_only=False),
                         minlength=len(encoded.dictionary))
     return _reduced(encoded.dictionary, tally, True, len(array), cap)
@@ -66,11 +66,17 @@ def counts_of(array: pa.Array, cap: int = CATEGORY_CAP) -> CategoryCounts:
 def merge_counts(a: CategoryCounts, b: CategoryCounts) -> CategoryCounts:
     cap = max(a.cap, b.cap)
     values = pa.array(a.values + b.values, type=pa.string())
-    encoded = pc.dictionary_encode(values)
+    encoded = _dictionary_encoded(values)
     tally = np.bincount(encoded.indices.to_numpy(zero_copy_only=False),
                         weights=np.asarray(a.counts + b.counts, dtype=np.float64),
                         minlength=len(encoded.dictionary)).astype(np.int64)
     return _reduced(encoded.dictionary, tally, a.is_exact and b.is_exact, a.total + b.total, cap)
+
+
+def _dictionary_encoded(array: pa.Array) -> pa.DictionaryArray:
+    if pa.types.is_dictionary(array.type):
+        return cast(pa.DictionaryArray, array)
+    return cast(pa.DictionaryArray, pc.dictionary_encode(array))
 
 
 def _reduced(values: pa.Array, tally: np.ndarray, is_exact: bool, total: int,
@@ -83,7 +89,9 @@ def _reduced(values: pa.Array, tally: np.ndarray, is_exact: bool, total: int,
         keep = tally > 0
         is_exact = False
     chosen = np.flatnonzero(keep)
-    names = values.take(pa.array(chosen)).to_pylist() if len(chosen) else []
-    pairs = sorted(zip(names, (int(c) for c in tally[chosen])))  # one order, whatever the merges
+    # The values are text: the column's own, or "true" and "false" for a boolean column.
+    names = cast(list[str], values.take(chosen).to_pylist()) if len(chosen) else []
+    # One order, whatever the merges.
+    pairs = sorted(zip(names, (int(c) for c in tally[chosen]), strict=True))
     return CategoryCounts(tuple(n for n, _ in pairs), tuple(c for _, c in pairs), is_exact,
                           total, cap)

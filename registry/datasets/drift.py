@@ -9,6 +9,7 @@ MLSys 2019).
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -161,7 +162,9 @@ def column_drift(reference: ColumnProfile, current: ColumnProfile, *,
     if reference.categories is not None and current.categories is not None:
         return _categorical_drift(reference, current)
     if reference.branch_names and current.branch_names:
-        return _shares_drift(reference.branch_counts(), current.branch_counts())
+        ref_counts, cur_counts = reference.branch_counts(), current.branch_counts()
+        if ref_counts is not None and cur_counts is not None:
+            return _shares_drift(ref_counts, cur_counts)
     return None
 
 
@@ -169,6 +172,7 @@ def _numeric_drift(reference: ColumnProfile, current: ColumnProfile,
                    exact_ks_cells: int = EXACT_KS_CELLS) -> ColumnDrift:
     """PSI on deciles of the reference and KS, both read from the shared histogram edges, which
     puts KS within one bucket (2^-m relative width) of its value on the raw records."""
+    assert reference.histogram is not None and current.histogram is not None  # see column_drift
     _, ref_counts, cur_counts = aligned_masses(reference.histogram, current.histogram)
     if ref_counts.sum() == 0 or cur_counts.sum() == 0:
         return ColumnDrift(psi=0.0, level="ok")
@@ -191,6 +195,7 @@ def _numeric_drift(reference: ColumnProfile, current: ColumnProfile,
 
 
 def _categorical_drift(reference: ColumnProfile, current: ColumnProfile) -> ColumnDrift:
+    assert reference.categories is not None and current.categories is not None  # see column_drift
     ref, cur = reference.categories.as_dict(), current.categories.as_dict()
     # what a heavy-hitters summary no longer lists, and nulls, count as bins of their own
     rest = {"ref": reference.categories.total - sum(ref.values()),
@@ -198,8 +203,8 @@ def _categorical_drift(reference: ColumnProfile, current: ColumnProfile) -> Colu
     return _shares_drift(ref, cur, [rest["ref"], reference.nulls], [rest["cur"], current.nulls])
 
 
-def _shares_drift(ref: dict[str, int], cur: dict[str, int], ref_extra: list[int] = (),
-                  cur_extra: list[int] = ()) -> ColumnDrift:
+def _shares_drift(ref: dict[str, int], cur: dict[str, int], ref_extra: Sequence[int] = (),
+                  cur_extra: Sequence[int] = ()) -> ColumnDrift:
     """Drift between two distributions over named categories (or union branches)."""
     names = sorted(set(ref) | set(cur))
     p = np.array([ref.get(n, 0) for n in names] + list(ref_extra), dtype=np.float64)

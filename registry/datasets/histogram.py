@@ -38,10 +38,11 @@ class LogHistogram:
 
     def to_dict(self) -> dict[str, Any]:
         return {"mantissa_bits": self.mantissa_bits,
-                "buckets": [[int(i), int(c)] for i, c in zip(self.indices, self.counts)]}
+                "buckets": [[int(i), int(c)]
+                            for i, c in zip(self.indices, self.counts, strict=True)]}
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "LogHistogram":
+    def from_dict(cls, data: dict[str, Any]) -> LogHistogram:
         pairs = np.asarray(data["buckets"], dtype=np.int64).reshape(-1, 2)
         return cls(int(data["mantissa_bits"]), pairs[:, 0].copy(), pairs[:, 1].copy())
 
@@ -50,6 +51,7 @@ class LogHistogram:
                 and np.array_equal(self.indices, other.indices)
                 and np.array_equal(self.counts, other.counts))
 
+    # Equal by value over numpy arrays, so not hashable; typeshed wants a method here.
     __hash__ = None  # type: ignore[assignment]
 
 

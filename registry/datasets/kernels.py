@@ -142,7 +142,8 @@ def summarise_finite(values, floats, shift, floor_value):
 
     The mean comes first, then the squared deviations from it (the two-pass algorithm, Chan,
     Golub and LeVeque 1983), the range of the values themselves (exact for integers) and the
-    bucket counts. Buckets are histogram.py's: signed index sign * (1 + bits(|x|) >> shift), 0 for zeros.
+    bucket counts. Buckets are histogram.py's: signed index sign * (1 + bits(|x|) >> shift), 0 for
+    zeros.
     Slot `middle` +- k of the table counts the magnitudes whose key is floor_key - 1 + k; slot
     `middle` itself gathers zeros and magnitudes below the floor, which a third pass over just
     those sorts out when there are any.

@@ -68,9 +68,12 @@ def summarise_numbers(array: pa.Array | pa.ChunkedArray,
     if array.type != wanted:
         array = array.cast(wanted)
     dtype = np.float64 if floating else np.int64
-    values = (np.frombuffer(array.buffers()[1], dtype=dtype)[array.offset:
-                                                             array.offset + len(array)]
-              if len(array) else np.zeros(0, dtype))  # a null's slot holds any value
+    values = np.zeros(0, dtype)
+    if len(array):  # a null's slot holds any value
+        data = array.buffers()[1]
+        assert data is not None  # a non-empty numeric array has its data buffer
+        values = np.frombuffer(memoryview(data), dtype=dtype)[array.offset:
+                                                              array.offset + len(array)]
     valid = (pc.is_valid(array).to_numpy(zero_copy_only=False).view(np.uint8)
              if array.null_count else _NO_MASK)
     target = target or _NO_TARGET
@@ -92,5 +95,5 @@ def summarise_numbers(array: pa.Array | pa.ChunkedArray,
                           LogHistogram(MANTISSA_BITS, indices, counts))
 
 
-def _plain(number: object, floating: bool) -> float | int:
+def _plain(number: float | int | np.number, floating: bool) -> float | int:
     return float(number) if floating else int(number)

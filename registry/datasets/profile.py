@@ -8,15 +8,19 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 import pyarrow as pa
 
-from registry.datasets.categories import (CATEGORY_CAP, CategoryCounts, counts_of, empty_counts,
-                                          merge_counts)
-from registry.datasets.histogram import (LogHistogram, empty_histogram, merge_histograms,
-                                         quantiles)
+from registry.datasets.categories import (
+    CATEGORY_CAP,
+    CategoryCounts,
+    counts_of,
+    empty_counts,
+    merge_counts,
+)
+from registry.datasets.histogram import LogHistogram, empty_histogram, merge_histograms, quantiles
 from registry.datasets.numeric_columns import HashTarget, summarise_numbers
 from registry.datasets.types import NUMERIC, ValueType
 
@@ -44,6 +48,9 @@ def merge_moments(a: Moments, b: Moments) -> Moments:
         return b
     if b.count == 0:
         return a
+    # A summary of at least one value has its range.
+    assert a.minimum is not None and a.maximum is not None
+    assert b.minimum is not None and b.maximum is not None
     count = a.count + b.count
     delta = b.mean - a.mean
     # Chan, Golub and LeVeque (1979), equation 2.1b
@@ -70,7 +77,7 @@ class ColumnProfile:
 
     def branch_counts(self) -> dict[str, int] | None:
         if self.branch_names:
-            return dict(zip(self.branch_names, self.branch_tally))
+            return dict(zip(self.branch_names, self.branch_tally, strict=True))
         if not self.is_union:
             return None
         return {"null": self.nulls, self.avro_type: self.count - self.nulls}
@@ -84,11 +91,12 @@ class ColumnProfile:
     def quantiles(self) -> dict[str, float] | None:
         if self.histogram is None or self.moments is None or self.moments.count == 0:
             return None
-        values = quantiles(self.histogram, np.asarray(QUANTILE_LEVELS),
-                           float(self.moments.minimum), float(self.moments.maximum))
+        low, high = self.moments.minimum, self.moments.maximum
+        assert low is not None and high is not None  # a summary of at least one value
+        values = quantiles(self.histogram, np.asarray(QUANTILE_LEVELS), float(low), float(high))
         if self.avro_type in ("int", "long"):  # an integer column's quantiles are integers
-            return {f"{q:g}": int(round(v)) for q, v in zip(QUANTILE_LEVELS, values)}
-        return {f"{q:g}": float(v) for q, v in zip(QUANTILE_LEVELS, values)}
+            return {f"{q:g}": int(round(v)) for q, v in zip(QUANTILE_LEVELS, values, strict=True)}
+        return {f"{q:g}": float(v) for q, v in zip(QUANTILE_LEVELS, values, strict=True)}
 
     def to_dict(self) -> dict[str, Any]:
         document: dict[str, Any] = {"type": self.avro_type, "count": self.count,
@@ -111,7 +119,7 @@ class ColumnProfile:
         return document
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "ColumnProfile":
+    def from_dict(cls, data: dict[str, Any]) -> ColumnProfile:
         moments = histogram = categories = None
         if "mean" in data:
             moments = Moments(int(data["finite"]), float(data["mean"] or 0.0),
@@ -151,7 +159,8 @@ def profile_of(array: pa.Array, value_type: ValueType,
         array = array.combine_chunks()
     base = empty_profile(value_type)
     if value_type.avro == "union":  # unions hold their nulls in branch 0, not a validity bitmap
-        tally = np.bincount(np.asarray(array.type_codes), minlength=len(base.branch_names))
+        tally = np.bincount(np.asarray(cast(pa.UnionArray, array).type_codes),
+                            minlength=len(base.branch_names))
         return replace(base, count=len(array), nulls=int(tally[0]),
                        branch_tally=tuple(int(c) for c in tally))
     parts: dict[str, Any] = {"count": len(array), "nulls": array.null_count}
@@ -168,13 +177,14 @@ def profile_of(array: pa.Array, value_type: ValueType,
 def merge_profiles(a: ColumnProfile, b: ColumnProfile) -> ColumnProfile:
     return replace(
         a, count=a.count + b.count, nulls=a.nulls + b.nulls,
-        moments=merge_moments(a.moments, b.moments) if a.moments is not None else None,
+        moments=(merge_moments(a.moments, b.moments)
+                 if a.moments is not None and b.moments is not None else None),
         non_finite=a.non_finite + b.non_finite,
-        histogram=merge_histograms(a.histogram, b.histogram) if a.histogram is not None
-        else None,
-        categories=merge_counts(a.categories, b.categories) if a.categories is not None
-        else None,
-        branch_tally=tuple(x + y for x, y in zip(a.branch_tally, b.branch_tally)))
+        histogram=(merge_histograms(a.histogram, b.histogram)
+                   if a.histogram is not None and b.histogram is not None else None),
+        categories=(merge_counts(a.categories, b.categories)
+                    if a.categories is not None and b.categories is not None else None),
+        branch_tally=tuple(x + y for x, y in zip(a.branch_tally, b.branch_tally, strict=False)))
 
 
 def is_close_profile(a: ColumnProfile, b: ColumnProfile, rel: float = 1e-9) -> bool:

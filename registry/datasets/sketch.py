@@ -46,7 +46,7 @@ class BottomKSketch:
                 "hashes": base64.b64encode(self.values.astype("<u8").tobytes()).decode("ascii")}
 
     @classmethod
-    def from_dict(cls, data: dict[str, Any]) -> "BottomKSketch":
+    def from_dict(cls, data: dict[str, Any]) -> BottomKSketch:
         raw = base64.b64decode(data["hashes"])
         return cls(int(data["k"]), np.frombuffer(raw, dtype="<u8").astype(np.uint64))
 
@@ -54,6 +54,7 @@ class BottomKSketch:
         return (isinstance(other, BottomKSketch) and self.k == other.k
                 and np.array_equal(self.values, other.values))
 
+    # Equal by value over numpy arrays, so not hashable; typeshed wants a method here.
     __hash__ = None  # type: ignore[assignment]
 
 

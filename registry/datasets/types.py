@@ -28,11 +28,11 @@ class ValueType:
     nullable: bool = False
     is_union: bool = False  # written as a union in the schema (["null", T] or [T, "null"])
     symbols: tuple[str, ...] = ()  # enum
-    fields: tuple[tuple[str, "ValueType"], ...] = ()  # record
-    items: "ValueType | None" = None  # array items, map values
+    fields: tuple[tuple[str, ValueType], ...] = ()  # record
+    items: ValueType | None = None  # array items, map values
     default: Any = None
     has_default: bool = False
-    branches: tuple["ValueType", ...] = ()  # a union of several types: its non-null branches
+    branches: tuple[ValueType, ...] = ()  # a union of several types: its non-null branches
     name: str = ""  # the full name of a named type (enum, fixed, record)
     logical: str = ""  # the logical type of a primitive, if any (date, timestamp-millis ...)
 
@@ -61,9 +61,10 @@ class ValueType:
             return pa.null()
         if self.avro == "record":
             return pa.struct([pa.field(n, t.arrow_type(), nullable=True) for n, t in self.fields])
-        if self.avro == "array":
-            return pa.list_(self.items.arrow_type())
-        if self.avro == "map":
+        if self.avro in ("array", "map"):
+            assert self.items is not None  # arrays and maps always have an item type
+            if self.avro == "array":
+                return pa.list_(self.items.arrow_type())
             return pa.map_(pa.string(), self.items.arrow_type())
         if self.avro == "union":  # type code 0 holds the nulls, 1.. the branches in order
             children = [pa.field("null", pa.null())] + [

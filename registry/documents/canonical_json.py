@@ -17,13 +17,14 @@ from __future__ import annotations
 
 import gc
 import hashlib
+import itertools
 import json
 import re
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
-from json.decoder import scanstring
+from json.decoder import scanstring  # type: ignore[attr-defined]  # C scanner, not in typeshed
 from json.encoder import encode_basestring
-from typing import Union
+from typing import cast
 
 from registry.errors import UserError
 
@@ -32,7 +33,7 @@ class MalformedJson(UserError):
     """Bytes that are not one well-formed JSON value (RFC 8259), or that repeat an object key."""
 
 
-Path = tuple[Union[str, int], ...]
+Path = tuple[str | int, ...]
 Pattern = tuple[str, ...]  # object keys, "*" matching any key
 
 _WHITESPACE = rb"[ \t\n\r]*"
@@ -41,7 +42,8 @@ _NUMBER = rb"-?(?:0|[1-9][0-9]*)(?:\.[0-9]+)?(?:[eE][+-]?[0-9]+)?"
 _STRING = rb'"[^"\\\x00-\x1f]*(?:\\(?:["\\/bfnrt]|u[0-9a-fA-F]{4})[^"\\\x00-\x1f]*)*"'
 _RUN_LENGTH = 4096  # numbers converted per batch; bounds the temporary lists
 
-_skip_whitespace = re.compile(_WHITESPACE).match
+# The pattern matches the empty string too, so this match never fails.
+_skip_whitespace = cast(Callable[[bytes, int], re.Match[bytes]], re.compile(_WHITESPACE).match)
 _WHITESPACE_BYTES = frozenset(b" \t\n\r")
 _match_string = re.compile(_STRING).match
 _match_number = re.compile(_NUMBER).match
@@ -200,6 +202,10 @@ def _string(token: bytes) -> tuple[bytes, str]:
 # --- the streaming walk --------------------------------------------------------------------
 
 
+# A member of an object once names need the general order: (UTF-16 sort key, quoted name, value).
+_Member = tuple[bytes, bytes, bytes | list[bytes]]
+
+
 class _Frame:
     """An open array or object and the canonical text of what it holds so far."""
 
@@ -218,7 +224,7 @@ class _Frame:
         self.entries: list[bytes] = []
         self.ropes: dict[bytes, list[bytes]] = {}
         # Once any other name appears: (UTF-16 sort key, quoted name, value) per member.
-        self.general: list[tuple[bytes, bytes, bytes | list[bytes]]] | None = None
+        self.general: list[_Member] | None = None
         self.key: tuple[bytes, str, bool] | None = None  # quoted name, name, is plain
         self.path = path
         self.start = start
@@ -253,247 +259,277 @@ MAX_NESTING = 1_000
 
 def _walk(data: bytes, patterns: tuple[Pattern, ...]
           ) -> tuple[bytes | list[bytes], dict[Path, MeasuredValue]]:
-    depths = {len(pattern) for pattern in patterns}
+    return _Walk(data, patterns).run()
 
-    def selected(path: Path) -> bool:
+
+# The states of the walk: expecting a value; after a value (a comma or a close); an object's
+# member name; the colon after it.
+_VALUE, _AFTER, _KEY, _COLON = 0, 1, 2, 3
+_LITERALS = (b"true", b"false", b"null")
+
+
+class _Walk:
+    """One pass over a document's bytes: a state machine with one method per state.
+
+    Each state method takes the byte at `position` (never whitespace) and returns the next
+    position and state; finished values travel up the stack of open containers.
+    """
+
+    def __init__(self, data: bytes, patterns: tuple[Pattern, ...]) -> None:
+        self.data = data
+        self.patterns = patterns
+        self.depths = {len(pattern) for pattern in patterns}
+        self.measured: dict[Path, MeasuredValue] = {}
+        self.stack: list[_Frame] = []
+        self.result: list[bytes | list[bytes]] = []
+
+    def run(self) -> tuple[bytes | list[bytes], dict[Path, MeasuredValue]]:
+        data = self.data
+        length = len(data)
+        # A UTF-8 byte order mark is allowed.
+        position = 3 if data.startswith(b"\xef\xbb\xbf") else 0
+        steps = (self._value, self._after, self._key, self._colon)
+        state = _VALUE
+        while True:
+            if position < length and data[position] in _WHITESPACE_BYTES:
+                position = _skip_whitespace(data, position).end()
+            if position >= length:
+                break
+            position, state = steps[state](data[position], position)
+        if self.stack:
+            raise self.fail("the document ends inside an array or object", length)
+        if not self.result:
+            raise self.fail("no JSON value", position)
+        return self.result[0], self.measured
+
+    def fail(self, message: str, offset: int) -> MalformedJson:
+        return MalformedJson(f"not valid JSON: {message}", place=_position(self.data, offset))
+
+    def selected(self, path: Path) -> bool:
         # Patterns name object members only; array elements are never measured.
-        if len(path) not in depths or any(isinstance(part, int) for part in path):
+        if len(path) not in self.depths or any(isinstance(part, int) for part in path):
             return False
         return any(len(pattern) == len(path) and all(
-            want == "*" or want == got for want, got in zip(pattern, path))
-            for pattern in patterns)
+            want == "*" or want == got for want, got in zip(pattern, path, strict=True))
+            for pattern in self.patterns)
 
-    def fail(message: str, offset: int) -> MalformedJson:
-        return MalformedJson(f"not valid JSON: {message}", place=_position(data, offset))
-
-    measured: dict[Path, MeasuredValue] = {}
-    stack: list[_Frame] = []
-    result: list[bytes | list[bytes]] = []
-    length = len(data)
-    position = 3 if data.startswith(b"\xef\xbb\xbf") else 0  # a UTF-8 byte order mark is allowed
-
-    def child_path() -> Path:
-        if not stack:
+    def child_path(self) -> Path:
+        if not self.stack:
             return ()
-        top = stack[-1]
+        top = self.stack[-1]
         return (*top.path, top.key[1] if top.is_object and top.key else top.count)
 
-    def deliver(value: bytes | list[bytes], size: int) -> None:
+    # --- the states ----------------------------------------------------------------------
+
+    def _value(self, byte: int, position: int) -> tuple[int, int]:
+        if byte == 0x7B or byte == 0x5B:  # { or [
+            return self._open(byte == 0x7B, position)
+        if byte == 0x22:  # "
+            return self._string_value(position)
+        if byte == 0x2D or 0x30 <= byte <= 0x39:  # - or a digit
+            return self._number_value(position)
+        for literal in _LITERALS:
+            if self.data.startswith(literal, position):
+                end = position + len(literal)
+                self._scalar(literal, position, end, literal.decode("ascii"))
+                return end, _AFTER
+        raise self.fail("expected a value", position)
+
+    def _open(self, is_object: bool, position: int) -> tuple[int, int]:
+        if len(self.stack) >= MAX_NESTING:
+            raise self.fail(f"values nest deeper than {MAX_NESTING:,} levels", position)
+        path = self.child_path() if self.patterns else ()  # paths matter only to patterns
+        frame = _Frame(is_object, path, position, bool(self.patterns) and self.selected(path))
+        self.stack.append(frame)
+        position += 1
+        if is_object:
+            return position, _KEY
+        data = self.data
+        position = _skip_whitespace(data, position).end()
+        if position < len(data) and data[position] == 0x5D:  # empty array
+            self.stack.pop()
+            self._close(frame, position + 1)
+            return position + 1, _AFTER
+        position, taken = _number_run(data, position, frame)
+        return position, _AFTER if taken else _VALUE
+
+    def _string_at(self, position: int, what: str) -> tuple[int, bytes, str]:
+        """The end, canonical bytes and text of the string token at `position`."""
+        match = _match_string(self.data, position)
+        if match is None:
+            raise self.fail("unterminated or invalid string", position)
+        try:
+            canonical, text = _string(match.group())
+        except _BadString:
+            raise self.fail(f"{what} that is not valid Unicode", position) from None
+        return match.end(), canonical, text
+
+    def _string_value(self, position: int) -> tuple[int, int]:
+        end, canonical, _ = self._string_at(position, "a string")
+        self._scalar(canonical, position, end, "string")
+        return end, _AFTER
+
+    def _number_value(self, position: int) -> tuple[int, int]:
+        match = _match_number(self.data, position)
+        if match is None:
+            raise self.fail("invalid number", position)
+        try:
+            text = _number_text(match.group()).encode("ascii")
+        except _NumberTooLarge:
+            shown = match.group().decode()
+            shown = shown if len(shown) <= 24 else f"{shown[:20]}..."
+            raise self.fail(f"number {shown} is too large for a double", position) from None
+        self._scalar(text, position, match.end(), "number")
+        return match.end(), _AFTER
+
+    def _after(self, byte: int, position: int) -> tuple[int, int]:
+        if not self.stack:
+            raise self.fail("more data after the JSON value", position)
+        top = self.stack[-1]
+        if byte == 0x2C:  # ,
+            position += 1
+            if top.is_object:
+                return position, _KEY
+            position, taken = _number_run(self.data, position, top)
+            return position, _AFTER if taken else _VALUE
+        if byte == (0x7D if top.is_object else 0x5D):
+            self.stack.pop()
+            self._close(top, position + 1)
+            return position + 1, _AFTER
+        expected = "',' or '}'" if top.is_object else "',' or ']'"
+        raise self.fail(f"expected {expected}", position)
+
+    def _key(self, byte: int, position: int) -> tuple[int, int]:
+        top = self.stack[-1]
+        if byte == 0x7D and top.key is None and top.count == 0:  # an empty object
+            self.stack.pop()
+            self._close(top, position + 1)
+            return position + 1, _AFTER
+        if byte != 0x22:
+            raise self.fail("expected a member name in double quotes", position)
+        end, key_text, key = self._string_at(position, "a member name")
+        top.key = (key_text, key, _PLAIN_NAME(key_text) is not None)
+        return end, _COLON
+
+    def _colon(self, byte: int, position: int) -> tuple[int, int]:
+        if byte != 0x3A:
+            raise self.fail("expected ':'", position)
+        return position + 1, _VALUE
+
+    # --- finished values -----------------------------------------------------------------
+
+    def _scalar(self, value: bytes, start: int, end: int, kind: str) -> None:
+        if self.patterns:
+            path = self.child_path()
+            if self.selected(path):
+                self.measured[path] = MeasuredValue(path, start, end, len(value), None, kind)
+        self._deliver(value, len(value))
+
+    def _deliver(self, value: bytes | list[bytes], size: int) -> None:
         """Hand a finished value (one bytes object, or a rope of chunks) to its container."""
-        if not stack:
-            result.append(value)
+        if not self.stack:
+            self.result.append(value)
             return
-        top = stack[-1]
+        top = self.stack[-1]
         if top.is_object:
-            assert top.key is not None
-            key_text, key, is_plain = top.key
-            if top.general is None and is_plain:
-                if isinstance(value, bytes):
-                    top.entries.append(key_text + b":" + value)
-                else:
-                    top.entries.append(key_text + b":")  # a value never ends in ":"
-                    top.ropes[key_text] = value
-            else:
-                if top.general is None:
-                    top.general = _general_members(top)
-                top.general.append((_utf16(key), key_text, value))
-            top.size += len(key_text) + 1 + size
-            top.key = None
+            _add_member(top, value, size)
         else:
-            if top.count:
-                top.pending += b","
-                top.size += 1
-            if isinstance(value, bytes):
-                top.pending += value
-                if len(top.pending) >= _SMALL:
-                    top.chunks.append(bytes(top.pending))
-                    top.pending.clear()
-            else:
-                if top.pending:
-                    top.chunks.append(bytes(top.pending))
-                    top.pending.clear()
-                top.chunks.extend(value)
-            top.size += size
+            _add_element(top, value, size)
         top.count += 1
 
-    def finish_scalar(value: bytes, start: int, end: int, kind: str) -> None:
-        if patterns:
-            path = child_path()
-            if selected(path):
-                measured[path] = MeasuredValue(path, start, end, len(value), None, kind)
-        deliver(value, len(value))
-
-    def close(frame: _Frame, end: int) -> None:
-        pieces: list[bytes] = []
-        buffer = bytearray()
+    def _close(self, frame: _Frame, end: int) -> None:
         if frame.is_object:
-            buffer += b"{"
             duplicate = _sort_members(frame)
             if duplicate is not None:
-                raise fail(f"the member name {duplicate!r} appears twice in this object",
-                           frame.start)
-            members = frame.general if frame.general is not None else frame.entries
-            for index, member in enumerate(members):
-                if index:
-                    buffer += b","
-                if isinstance(member, tuple):
-                    key_text, value = member[1], member[2]
-                    buffer += key_text
-                    buffer += b":"
-                elif member[-1:] == b":":
-                    buffer += member
-                    value = frame.ropes[member[:-1]]
-                else:
-                    buffer += member
-                    continue
-                if isinstance(value, bytes):
-                    buffer += value
-                else:
-                    pieces.append(bytes(buffer))
-                    buffer.clear()
-                    pieces.extend(value)
-            buffer += b"}"
-            size = frame.size + 2 + max(frame.count - 1, 0)
+                raise self.fail(f"the member name {duplicate!r} appears twice in this object",
+                                frame.start)
+            pieces, size = _object_pieces(frame)
         else:
-            buffer += b"["
-            pieces.append(bytes(buffer))
-            buffer.clear()
-            pieces.extend(frame.chunks)
-            if frame.pending:
-                pieces.append(bytes(frame.pending))
-            buffer += b"]"
-            size = frame.size + 2
-        pieces.append(bytes(buffer))
+            pieces, size = _array_pieces(frame)
         frame.entries = []
         frame.ropes = {}
         frame.general = None
         frame.chunks.clear()
         value: bytes | list[bytes] = b"".join(pieces) if size < _SMALL else pieces
         if frame.measured:
-            measured[frame.path] = MeasuredValue(frame.path, frame.start, end, size,
-                                                 frame.count,
-                                                 "object" if frame.is_object else "array")
-        deliver(value, size)
+            self.measured[frame.path] = MeasuredValue(frame.path, frame.start, end, size,
+                                                      frame.count,
+                                                      "object" if frame.is_object else "array")
+        self._deliver(value, size)
 
-    # States: expecting a value; after a value (a comma or a close); an object key; a colon.
-    VALUE, AFTER, KEY, COLON = 0, 1, 2, 3
-    state = VALUE
-    while True:
-        if position < length and data[position] in _WHITESPACE_BYTES:
-            position = _skip_whitespace(data, position).end()
-        if position >= length:
-            break
-        byte = data[position]
-        if state == VALUE:
-            if byte == 0x7B or byte == 0x5B:  # { or [
-                if len(stack) >= MAX_NESTING:
-                    raise fail(f"values nest deeper than {MAX_NESTING:,} levels", position)
-                path = child_path() if patterns else ()  # paths matter only to patterns
-                frame = _Frame(byte == 0x7B, path, position,
-                               bool(patterns) and selected(path))
-                stack.append(frame)
-                position += 1
-                state = KEY if frame.is_object else VALUE
-                if not frame.is_object:
-                    position = _skip_whitespace(data, position).end()
-                    if position < length and data[position] == 0x5D:  # empty array
-                        stack.pop()
-                        close(frame, position + 1)
-                        position += 1
-                        state = AFTER
-                    else:
-                        position, taken = _number_run(data, position, frame)
-                        state = AFTER if taken else VALUE
-                continue
-            if byte == 0x22:  # "
-                match = _match_string(data, position)
-                if match is None:
-                    raise fail("unterminated or invalid string", position)
-                try:
-                    canonical, _ = _string(match.group())
-                except _BadString:
-                    raise fail("a string that is not valid Unicode", position) from None
-                finish_scalar(canonical, position, match.end(), "string")
-                position = match.end()
-                state = AFTER
-                continue
-            if byte == 0x2D or 0x30 <= byte <= 0x39:  # - or a digit
-                match = _match_number(data, position)
-                if match is None:
-                    raise fail("invalid number", position)
-                try:
-                    text = _number_text(match.group()).encode("ascii")
-                except _NumberTooLarge:
-                    shown = match.group().decode()
-                    shown = shown if len(shown) <= 24 else f"{shown[:20]}..."
-                    raise fail(f"number {shown} is too large for a double", position) from None
-                finish_scalar(text, position, match.end(), "number")
-                position = match.end()
-                state = AFTER
-                continue
-            for literal in (b"true", b"false", b"null"):
-                if data.startswith(literal, position):
-                    finish_scalar(literal, position, position + len(literal),
-                                  literal.decode("ascii"))
-                    position += len(literal)
-                    state = AFTER
-                    break
-            else:
-                raise fail("expected a value", position)
+
+def _add_member(frame: _Frame, value: bytes | list[bytes], size: int) -> None:
+    assert frame.key is not None
+    key_text, key, is_plain = frame.key
+    if frame.general is None and is_plain:
+        if isinstance(value, bytes):
+            frame.entries.append(key_text + b":" + value)
+        else:
+            frame.entries.append(key_text + b":")  # a value never ends in ":"
+            frame.ropes[key_text] = value
+    else:
+        if frame.general is None:
+            frame.general = _general_members(frame)
+        frame.general.append((_utf16(key), key_text, value))
+    frame.size += len(key_text) + 1 + size
+    frame.key = None
+
+
+def _add_element(frame: _Frame, value: bytes | list[bytes], size: int) -> None:
+    if frame.count:
+        frame.pending += b","
+        frame.size += 1
+    if isinstance(value, bytes):
+        frame.pending += value
+        if len(frame.pending) >= _SMALL:
+            frame.chunks.append(bytes(frame.pending))
+            frame.pending.clear()
+    else:
+        if frame.pending:
+            frame.chunks.append(bytes(frame.pending))
+            frame.pending.clear()
+        frame.chunks.extend(value)
+    frame.size += size
+
+
+def _object_pieces(frame: _Frame) -> tuple[list[bytes], int]:
+    """The canonical text of a closed object with sorted members, and its size."""
+    pieces: list[bytes] = []
+    buffer = bytearray(b"{")
+    members: Sequence[_Member | bytes] = (
+        frame.general if frame.general is not None else frame.entries)
+    for index, member in enumerate(members):
+        if index:
+            buffer += b","
+        value: bytes | list[bytes]
+        if not isinstance(member, bytes):  # (sort key, quoted name, value)
+            _, key_text, value = member
+            buffer += key_text
+            buffer += b":"
+        elif member[-1:] == b":":  # a plain name whose value is a rope kept aside
+            buffer += member
+            value = frame.ropes[member[:-1]]
+        else:  # "name":value in one piece
+            buffer += member
             continue
-        if state == AFTER:
-            if not stack:
-                raise fail("more data after the JSON value", position)
-            top = stack[-1]
-            if byte == 0x2C:  # ,
-                position += 1
-                if top.is_object:
-                    state = KEY
-                else:
-                    position, taken = _number_run(data, position, top)
-                    state = AFTER if taken else VALUE
-                continue
-            closer = 0x7D if top.is_object else 0x5D
-            if byte == closer:
-                stack.pop()
-                close(top, position + 1)
-                position += 1
-                state = AFTER
-                continue
-            expected = "',' or '}'" if top.is_object else "',' or ']'"
-            raise fail(f"expected {expected}", position)
-        if state == KEY:
-            top = stack[-1]
-            if byte == 0x7D and top.key is None and top.count == 0:
-                stack.pop()
-                close(top, position + 1)
-                position += 1
-                state = AFTER
-                continue
-            if byte != 0x22:
-                raise fail("expected a member name in double quotes", position)
-            match = _match_string(data, position)
-            if match is None:
-                raise fail("unterminated or invalid string", position)
-            try:
-                key_text, key = _string(match.group())
-            except _BadString:
-                raise fail("a member name that is not valid Unicode", position) from None
-            top.key = (key_text, key, _PLAIN_NAME(key_text) is not None)
-            position = match.end()
-            state = COLON
-            continue
-        if state == COLON:
-            if byte != 0x3A:
-                raise fail("expected ':'", position)
-            position += 1
-            state = VALUE
-            continue
-    if stack:
-        raise fail("the document ends inside an array or object", length)
-    if not result:
-        raise fail("no JSON value", position)
-    return result[0], measured
+        if isinstance(value, bytes):
+            buffer += value
+        else:
+            pieces.append(bytes(buffer))
+            buffer.clear()
+            pieces.extend(value)
+    buffer += b"}"
+    pieces.append(bytes(buffer))
+    return pieces, frame.size + 2 + max(frame.count - 1, 0)
+
+
+def _array_pieces(frame: _Frame) -> tuple[list[bytes], int]:
+    """The canonical text of a closed array, and its size."""
+    pieces = [b"[", *frame.chunks]
+    if frame.pending:
+        pieces.append(bytes(frame.pending))
+    pieces.append(b"]")
+    return pieces, frame.size + 2
 
 
 # A quoted name of ASCII characters above '"' and without a backslash: its canonical text,
@@ -507,9 +543,9 @@ def _utf16(name: str) -> bytes:
     return name.encode("utf-16-be", "surrogatepass")
 
 
-def _general_members(frame: _Frame) -> list[tuple[bytes, bytes, bytes | list[bytes]]]:
+def _general_members(frame: _Frame) -> list[_Member]:
     """Turn an object's plain-name members into (sort key, quoted name, value) triples."""
-    general: list[tuple[bytes, bytes, bytes | list[bytes]]] = []
+    general: list[_Member] = []
     for entry in frame.entries:
         cut = entry.index(b'"', 1) + 1  # a plain name holds no quote, so this closes it
         key_text, rest = entry[:cut], entry[cut + 1:]
@@ -524,7 +560,7 @@ def _sort_members(frame: _Frame) -> str | None:
     """Sort an object's members in place; return a member name that appears twice, if any."""
     if frame.general is not None:
         frame.general.sort(key=lambda member: member[0])
-        for before, after in zip(frame.general, frame.general[1:]):
+        for before, after in itertools.pairwise(frame.general):
             if before[0] == after[0]:
                 return after[1][1:-1].decode("utf-8")
         return None

@@ -86,7 +86,7 @@ def _agree(declared: Schema | None, own: Schema, key: str, where: str) -> None:
     declared_form, own_form = canonical_form(declared), canonical_form(own)
     if declared_form == own_form:
         return
-    at = next((i for i, (a, b) in enumerate(zip(declared_form, own_form)) if a != b),
+    at = next((i for i, (a, b) in enumerate(zip(declared_form, own_form, strict=False)) if a != b),
               min(len(declared_form), len(own_form)))
     start = max(at - 30, 0)
     raise SchemaContradiction(

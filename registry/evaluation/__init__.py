@@ -2,17 +2,38 @@
 
 from registry.evaluation.bootstrap import BootstrapResult, paired_bootstrap, resample_weights
 from registry.evaluation.comparison import (
-    ComparisonReport, Difference, Matching, compare, pair_rows)
+    ComparisonReport,
+    Difference,
+    Matching,
+    compare,
+    pair_rows,
+)
 from registry.evaluation.delong import auc_covariance, auc_standard_error, delong_difference
 from registry.evaluation.mcnemar import mcnemar_exact_p_value
 from registry.evaluation.metrics import (
-    HIGHER_IS_BETTER, METRIC_NAMES, CalibrationBin, MetricReport, compute_metrics)
+    HIGHER_IS_BETTER,
+    METRIC_NAMES,
+    CalibrationBin,
+    MetricReport,
+    compute_metrics,
+)
 from registry.evaluation.predictions import (
-    Predictions, PredictionsError, UndefinedMetric, build_predictions, check_row_ids,
-    read_predictions)
+    Predictions,
+    PredictionsError,
+    UndefinedMetric,
+    build_predictions,
+    check_row_ids,
+    read_predictions,
+)
 from registry.evaluation.report import EvaluationReport, evaluate, evaluate_file
 from registry.evaluation.slices import (
-    SliceDifference, SliceReport, SliceResult, compare_slices, holm_adjust, slice_metrics)
+    SliceDifference,
+    SliceReport,
+    SliceResult,
+    compare_slices,
+    holm_adjust,
+    slice_metrics,
+)
 
 __all__ = [
     "BootstrapResult", "CalibrationBin", "ComparisonReport", "Difference", "EvaluationReport",

@@ -199,6 +199,7 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
             if walking is not None:
                 walking.result()
             if ranked:
+                assert by_row is not None  # filled by the blocks above whenever ranked
                 walking = worker.submit(_walk_ranked, ranked, by_row, collected)
         if walking is not None:
             walking.result()
@@ -206,11 +207,11 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
     results = {}
     totals = columns.sum(axis=0, keepdims=True)
     for name in names:
-        st = statistics[name]
-        if isinstance(st, LinearStatistic):
-            point = float(st.finish(totals[:, spans[name]], totals[:, -1])[0])
+        statistic = statistics[name]
+        if isinstance(statistic, LinearStatistic):
+            point = float(statistic.finish(totals[:, spans[name]], totals[:, -1])[0])
         else:
-            point = st.point
+            point = statistic.point
         results[name] = summarise(point, np.concatenate(collected[name]), confidence)
     return results
 
@@ -271,9 +272,9 @@ def difference_statistic(name: str, candidate: Predictions, baseline: Prediction
     if name == "average_precision":
         first = _weighted_average_precision(labels, candidate.scores)
         second = _weighted_average_precision(labels, baseline.scores)
-        point = [m.average_precision(labels, p.scores) for p in (candidate, baseline)]
+        ours, theirs = (m.average_precision(labels, p.scores) for p in (candidate, baseline))
         return RankedStatistic(
-            math.nan if None in point else point[0] - point[1],
+            math.nan if ours is None or theirs is None else ours - theirs,
             lambda weights: first(weights) - second(weights))
     if name == "log_loss":
         if candidate.task == "binary":

@@ -372,22 +372,21 @@ def _csv_columns(data: bytes, path: Path) -> dict[str, list[str]]:
         raise PredictionsError(f"malformed CSV: {error}", place=f"row {len(rows) + 1}") from None
     if not rows:
         return {name: [] for name in header}
-    return {name: [value.strip() for value in values] for name, values in zip(header, zip(*rows))}
+    columns = zip(*rows, strict=True)  # every row has the header's length, checked above
+    return {name: [value.strip() for value in values]
+            for name, values in zip(header, columns, strict=True)}
 
 
 def _parquet_columns(data: bytes, path: Path) -> dict[str, Any]:
-    try:
-        import pyarrow as pa
-        import pyarrow.parquet as pq
-    except ImportError:  # pragma: no cover - pyarrow is in the parquet extra
-        raise PredictionsError("reading Parquet needs pyarrow (the `parquet` extra)",
-                               place=str(path)) from None
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
     try:
         table = pq.read_table(pa.BufferReader(data))
     except (pa.ArrowException, OSError) as error:
         raise PredictionsError(f"not a readable Parquet file: {error}", place=str(path)) from None
     columns: dict[str, Any] = {}
-    for name, column in zip(table.column_names, table.columns):
+    for name, column in zip(table.column_names, table.columns, strict=True):
         if pa.types.is_floating(column.type) or pa.types.is_integer(column.type) \
                 or pa.types.is_boolean(column.type):
             values = column.to_numpy(zero_copy_only=False)

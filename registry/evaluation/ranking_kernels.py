@@ -64,7 +64,8 @@ def weighted_average_precision(weights, order, is_positive, closes_group):
     total = np.zeros(resamples, np.float64)
     last = rows - 1
     for position in range(rows):
-        _prefetch_row(weights, order[min(position + READ_AHEAD, last)])
+        # A numba intrinsic: numba passes the typing context its declaration begins with.
+        _prefetch_row(weights, order[min(position + READ_AHEAD, last)])  # type: ignore[call-arg]
         row = weights[order[position]]
         if is_positive[position]:
             for r in range(resamples):

@@ -13,7 +13,13 @@ from typing import Any
 import numpy as np
 
 from registry.evaluation.comparison import (
-    Difference, Matching, PairedRows, check_confidence, compare_paired, pair_rows)
+    Difference,
+    Matching,
+    PairedRows,
+    check_confidence,
+    compare_paired,
+    pair_rows,
+)
 from registry.evaluation.metrics import compute_metrics
 from registry.evaluation.predictions import Predictions, PredictionsError
 
@@ -113,7 +119,7 @@ def compare_slices(candidate: Predictions, baseline: Predictions, slice_column: 
     adjusted: dict[str, dict[str, float | None]] = {}
     for name in metric_names:
         raw = [_p_value(reports[value].differences.get(name)) for value in slice_values]
-        adjusted[name] = dict(zip(slice_values, holm_adjust(raw)))
+        adjusted[name] = dict(zip(slice_values, holm_adjust(raw), strict=True))
 
     values = {}
     for value in slice_values:

@@ -1,17 +1,27 @@
 """Feature definitions: what each input field means, and how that meaning changes."""
 
-from registry.features.definitions import (Categories, FeatureDefinition,
-                                           FeatureDefinitionError, FeatureDefinitions,
-                                           NumericRange, Source, load_feature_definitions,
-                                           features_from_manifest, parse_feature_file,
-                                           render_feature_file,
-                                           parse_feature_table)
+from registry.features.definitions import (
+    Categories,
+    FeatureDefinition,
+    FeatureDefinitionError,
+    FeatureDefinitions,
+    NumericRange,
+    Source,
+    features_from_manifest,
+    load_feature_definitions,
+    parse_feature_file,
+    parse_feature_table,
+    render_feature_file,
+)
 from registry.features.diff import FeatureChange, FeatureDiff, diff_features
 from registry.features.fields import SchemaField, schema_fields
-from registry.features.rules import (FeatureCheck, FeatureProblem, UnknownFeatureField,
-                                     check_features)
-from registry.features.units import (Unit, UnitComparison, UnknownUnit, compare_units,
-                                     parse_unit)
+from registry.features.rules import (
+    FeatureCheck,
+    FeatureProblem,
+    UnknownFeatureField,
+    check_features,
+)
+from registry.features.units import Unit, UnitComparison, UnknownUnit, compare_units, parse_unit
 
 __all__ = [
     "Categories", "FeatureChange", "FeatureCheck", "FeatureDefinition",

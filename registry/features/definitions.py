@@ -13,7 +13,7 @@ import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Union
+from typing import Any
 
 from registry.errors import UserError
 from registry.features.units import parse_unit
@@ -41,7 +41,7 @@ class Categories:
     values: tuple[str | int, ...]
 
 
-Domain = Union[NumericRange, Categories]
+Domain = NumericRange | Categories
 
 
 @dataclass(frozen=True)

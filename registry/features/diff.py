@@ -26,8 +26,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any, Literal
 
-from registry.features.definitions import (Categories, FeatureDefinition, FeatureDefinitions,
-                                           NumericRange)
+from registry.features.definitions import (
+    Categories,
+    FeatureDefinition,
+    FeatureDefinitions,
+    NumericRange,
+)
 from registry.features.fields import SchemaField, schema_fields
 from registry.features.rules import UnknownFeatureField
 from registry.features.units import compare_units

@@ -14,8 +14,7 @@ from typing import Any
 
 from registry.errors import Unprocessable
 from registry.features.definitions import Categories, FeatureDefinitions, NumericRange
-from registry.features.fields import (FLOAT_LIMIT, INTEGER_LIMITS, SchemaField,
-                                      schema_fields)
+from registry.features.fields import FLOAT_LIMIT, INTEGER_LIMITS, SchemaField, schema_fields
 
 
 class UnknownFeatureField(Unprocessable):
@@ -62,9 +61,9 @@ def check_features(definitions: FeatureDefinitions, schema: Any) -> FeatureCheck
         problems.append(FeatureProblem(path, "missing-definition",
                                        "this leaf field of the input schema has no definition"))
     for field in fields:
-        definition = definitions.get(field.path)
-        if definition is not None:
-            problems.extend(_consistency(definition, field))
+        defined = definitions.get(field.path)
+        if defined is not None:
+            problems.extend(_consistency(defined, field))
     return FeatureCheck(passed=not problems, fields=len(fields),
                         defined=len(fields) - len(missing), missing=missing,
                         problems=tuple(problems))
@@ -151,11 +150,12 @@ def _category_problems(domain: Categories, field: SchemaField) -> list[FeaturePr
         return []
     numeric = field.numeric_type
     if numeric in INTEGER_LIMITS:
-        if not all(isinstance(value, int) for value in values):
+        integers = [value for value in values if isinstance(value, int)]
+        if len(integers) != len(values):
             return [FeatureProblem(field.path, "domain-vs-type",
                                    f"categories of an {numeric} field must be integers")]
         low, high = INTEGER_LIMITS[numeric]
-        outside = [value for value in values if not low <= value <= high]
+        outside = [value for value in integers if not low <= value <= high]
         if outside:
             return [FeatureProblem(field.path, "domain-vs-type",
                                    f"categories {', '.join(map(str, outside))} do not fit in "

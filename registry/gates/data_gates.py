@@ -51,7 +51,8 @@ def fresh_data(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> G
     if not training:
         return GateResult(gate, False, False, "the version names no training dataset",
                           {"max_age_days": limit})
-    findings, failures = [], []
+    findings: list[dict[str, Any]] = []
+    failures: list[str] = []
     for dataset in training:
         stamp = dataset.data_as_of or dataset.registered_at
         if stamp is None:

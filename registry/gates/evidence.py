@@ -1,7 +1,7 @@
 """The evidence the gates judge: plain, frozen records that the service layer fills in.
 
 Every field is a str, int, float, bool, None, a tuple of these records, or a dict of plain values,
-so `to_plain` gives a JSON-ready document and `from_plain` reads one back. Times are ISO 8601
+so `to_plain` gives a JSON-ready document. Times are ISO 8601
 strings with a UTC offset (`2026-11-30T09:00:00Z`). Datasets are named as in the catalogue
 (`brackwater-training-set`); dataset fingerprints are their content digests.
 """
@@ -9,11 +9,9 @@ strings with a UTC offset (`2026-11-30T09:00:00Z`). Datasets are named as in the
 from __future__ import annotations
 
 import dataclasses
-import types
-import typing
 from collections.abc import Mapping
-from datetime import datetime, timezone
-from typing import Any, Union
+from datetime import UTC, datetime
+from typing import Any
 
 from registry.errors import Unprocessable
 
@@ -398,7 +396,7 @@ def parse_time(text: str, *, place: str) -> datetime:
         moment = datetime.fromisoformat(text)
     except (TypeError, ValueError):
         raise EvidenceError(f"not an ISO 8601 time: {text!r}", place=place) from None
-    return moment if moment.tzinfo else moment.replace(tzinfo=timezone.utc)
+    return moment if moment.tzinfo else moment.replace(tzinfo=UTC)
 
 
 def to_plain(value: Any) -> Any:
@@ -409,55 +407,4 @@ def to_plain(value: Any) -> Any:
         return [to_plain(item) for item in value]
     if isinstance(value, Mapping):
         return {str(key): to_plain(item) for key, item in value.items()}
-    return value
-
-
-def from_plain(record_type: type, document: Any, *, place: str = "evidence") -> Any:
-    """Read a record of `record_type` back from what `to_plain` made of it."""
-    return _build(record_type, document, place)
-
-
-def _build(hint: Any, value: Any, place: str) -> Any:
-    origin = typing.get_origin(hint)
-    if hint is Any:
-        return value
-    if origin in (Union, types.UnionType):
-        options = typing.get_args(hint)
-        if value is None and type(None) in options:
-            return None
-        (inner,) = [option for option in options if option is not type(None)]
-        return _build(inner, value, place)
-    if dataclasses.is_dataclass(hint):
-        if not isinstance(value, Mapping):
-            raise EvidenceError(f"expected an object for {hint.__name__}", place=place)
-        hints = typing.get_type_hints(hint)
-        names = {f.name for f in dataclasses.fields(hint)}
-        unknown = set(value) - names
-        if unknown:
-            raise EvidenceError(f"unknown key {sorted(unknown)[0]!r} in {hint.__name__}",
-                                place=place)
-        try:
-            return hint(**{name: _build(hints[name], item, f"{place}.{name}")
-                           for name, item in value.items()})
-        except TypeError as error:
-            raise EvidenceError(str(error), place=place) from None
-    if origin is tuple:
-        if not isinstance(value, (list, tuple)):
-            raise EvidenceError("expected a list", place=place)
-        inner = typing.get_args(hint)[0]
-        return tuple(_build(inner, item, f"{place}[{i}]") for i, item in enumerate(value))
-    if origin in (Mapping, dict) or hint in (Mapping, dict):
-        if not isinstance(value, Mapping):
-            raise EvidenceError("expected an object", place=place)
-        args = typing.get_args(hint)
-        inner = args[1] if args else Any
-        return {str(key): _build(inner, item, f"{place}.{key}") for key, item in value.items()}
-    if hint is float:
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise EvidenceError("expected a number", place=place)
-        return float(value)
-    if hint in (int, str, bool):
-        if not isinstance(value, hint) or (hint is int and isinstance(value, bool)):
-            raise EvidenceError(f"expected {hint.__name__}", place=place)
-        return value
     return value

@@ -114,13 +114,14 @@ def slice_guard(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> 
                           f"{metric}: no slice comparison with version "
                           f"{evidence.incumbent_version} was supplied", {"metric": metric})
     notes = []
-    if all(s.adjusted_p_value is not None for s in slices):
-        adjusted = tuple(float(s.adjusted_p_value) for s in slices)
+    given = [s.adjusted_p_value for s in slices if s.adjusted_p_value is not None]
+    if len(given) == len(slices):
+        adjusted = tuple(float(p) for p in given)
     else:
         adjusted = holm_adjust([s.p_value for s in slices])
         notes.append(f"p-values Holm-Bonferroni adjusted here across {len(slices)} slices")
     findings, regressions, unproven = [], [], []
-    for piece, adjusted_p in zip(slices, adjusted):
+    for piece, adjusted_p in zip(slices, adjusted, strict=True):
         allowed = margins.get(piece.value, margin)
         worsening = -piece.difference if piece.higher_is_better else piece.difference
         entry = {**to_plain(piece), "adjusted_p_value": adjusted_p, "margin": allowed}

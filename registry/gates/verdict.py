@@ -15,8 +15,12 @@ from registry.gates.feature_gate import feature_meaning
 from registry.gates.policy import Policy
 from registry.gates.regression_gates import no_regression, slice_guard
 from registry.gates.report import GateReport, GateResult
-from registry.gates.schema_gates import (live_data_check, output_readable, reads_live_feed,
-                                         rollback_safe)
+from registry.gates.schema_gates import (
+    live_data_check,
+    output_readable,
+    reads_live_feed,
+    rollback_safe,
+)
 from registry.gates.settings import GATES
 from registry.suggest import did_you_mean
 

@@ -46,6 +46,6 @@ __all__ = [
     "IgnoredLogicalType", "LeafField", "LogicalType", "Map", "NamedSchema", "Names", "Note",
     "Primitive", "Problem", "Record", "Resolution", "Schema", "SchemaDiff", "SchemaError", "Union",
     "canonical_form", "check_against_all", "check_backward", "check_both", "check_forward",
-    "crc64_avro", "diff", "fingerprint", "leaf_fields", "load", "parse", "reads", "resolution_document", "resolve",
-    "to_json",
+    "crc64_avro", "diff", "fingerprint", "leaf_fields", "load", "parse", "reads",
+    "resolution_document", "resolve", "to_json",
 ]

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import json
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 from registry.schema.model import (
     Array,
@@ -125,7 +125,7 @@ class _Differ:
                                "be read differently", o, n)
 
     def _unions(self, o: Union, n: Union, path: str,
-                children: list[tuple[Schema, Schema, str]]) -> None:
+                children: list[tuple[Any, ...]]) -> None:
         def key(schema: Schema) -> str:
             return schema.simple_name if isinstance(schema, NamedSchema) else schema.kind
 
@@ -138,14 +138,14 @@ class _Differ:
                 self.change(f"{path}/{i}", "union-branch-added",
                             f"union branch {branch_label(branch)} added",
                             breaks_writers=first_matching_branch(o, branch) is None)
-        for i, branch in enumerate(o.branches):
+        for branch in o.branches:
             if key(branch) not in new_keys:
                 self.change(path, "union-branch-removed",
                             f"union branch {branch_label(branch)} removed",
                             breaks_readers=first_matching_branch(n, branch) is None)
 
     def _named(self, o: NamedSchema, n: NamedSchema, path: str,
-               children: list[tuple[Schema, Schema, str]]) -> None:
+               children: list[tuple[Any, ...]]) -> None:
         if o.name != n.name:
             self.change(path, "renamed", f"{o.kind} {o.name} renamed to {n.name}",
                         breaks_readers=not names_match(n, o), breaks_writers=not names_match(o, n))
@@ -196,7 +196,7 @@ class _Differ:
         return None
 
     def _records(self, o: Record, n: Record, path: str,
-                 children: list[tuple[Schema, Schema, str]]) -> None:
+                 children: list[tuple[Any, ...]]) -> None:
         new_names = {f.name for f in n.fields}
         matched_old: set[str] = set()
         for field in n.fields:

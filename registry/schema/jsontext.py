@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import json
 import re
-from json.decoder import scanstring  # type: ignore[attr-defined]
+from json.decoder import scanstring  # type: ignore[attr-defined]  # C scanner, not in typeshed
 from typing import Any
 
 from registry.schema.errors import SchemaError
@@ -58,6 +58,7 @@ class _Decoder:
         self.pos = 0
 
     def skip(self) -> None:
+        # The pattern matches the empty string too, so the match never fails.
         self.pos = _WHITESPACE.match(self.text, self.pos).end()  # type: ignore[union-attr]
 
     def scalar(self) -> Any:

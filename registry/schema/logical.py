@@ -7,7 +7,7 @@ underlying type used; here it is kept as `IgnoredLogicalType` so the reports can
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import Any, TypeGuard
 
 from registry.schema.model import IgnoredLogicalType, LogicalType
 
@@ -38,7 +38,7 @@ def max_decimal_precision(size: int) -> int:
     return int(math.floor(math.log10(2 ** (8 * size - 1) - 1))) if size > 0 else 0
 
 
-def _is_count(value: Any) -> bool:
+def _is_count(value: Any) -> TypeGuard[int]:
     return isinstance(value, int) and not isinstance(value, bool)
 
 

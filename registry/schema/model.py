@@ -10,7 +10,6 @@ from dataclasses import dataclass
 from typing import Any
 
 PRIMITIVE_TYPES = ("null", "boolean", "int", "long", "float", "double", "bytes", "string")
-NAMED_KINDS = ("record", "enum", "fixed")
 
 
 class _NoDefault:
@@ -61,10 +60,6 @@ class Schema:
 
     kind = "schema"
 
-    @property
-    def is_named(self) -> bool:
-        return self.kind in NAMED_KINDS
-
     def __repr__(self) -> str:
         return f"{type(self).__name__}({self.describe()})"
 
@@ -76,7 +71,7 @@ class Schema:
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
 class Primitive(Schema):
-    kind: str  # type: ignore[misc]  # one of PRIMITIVE_TYPES
+    kind: str  # one of PRIMITIVE_TYPES
 
 
 @dataclass(frozen=True, eq=False, repr=False, kw_only=True)
@@ -181,7 +176,7 @@ class Union(Schema):
 
 def _describe_nested(schema: Schema, levels: int = 3) -> str:
     """"array of map of int": a few levels of arrays and maps, then an ellipsis (no recursion)."""
-    words = []
+    words: list[str] = []
     while isinstance(schema, (Array, Map)) and len(words) < levels:
         words.append("array of" if isinstance(schema, Array) else "map of")
         schema = schema.items if isinstance(schema, Array) else schema.values

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Iterator
+from typing import TypeGuard
 
 from registry.schema.errors import SchemaError
 from registry.schema.model import PRIMITIVE_TYPES, NamedSchema
@@ -15,7 +16,7 @@ from registry.schema.model import PRIMITIVE_TYPES, NamedSchema
 NAME_PATTERN = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 
 
-def is_valid_name(text: object) -> bool:
+def is_valid_name(text: object) -> TypeGuard[str]:
     return isinstance(text, str) and NAME_PATTERN.fullmatch(text) is not None
 
 

@@ -12,12 +12,12 @@ from registry.schema.defaults import check_default
 from registry.schema.errors import SchemaError
 from registry.schema.logical import LOGICAL_ATTRIBUTES, interpret
 from registry.schema.model import (
+    NO_DEFAULT,
     PRIMITIVE_TYPES,
     Array,
     Enum,
     Fixed,
     Map,
-    NO_DEFAULT,
     NamedSchema,
     Primitive,
     Record,
@@ -253,6 +253,7 @@ class _Parser:
                                       place=f"{place}/fields/{position}/name")
                 if len(known) < 100_000:
                     known.add(field_name)
+            assert isinstance(field_name, str)  # a known name or a valid one, checked above
             if field_name in seen:
                 raise SchemaError(f"duplicate field name {field_name!r} (also field "
                                   f"{seen[field_name]})", place=f"{place}/fields/{position}/name")

@@ -127,8 +127,9 @@ class _Resolver:
                 witness = {"writer_field": field_name}
         self.problems.append(Problem(path or "/", rule, message, writer_path or "/", witness))
 
-    def note(self, path: str, rule: str, message: str, severity: str = "info") -> None:
-        self.notes.append(Note(path or "/", rule, message, severity))  # type: ignore[arg-type]
+    def note(self, path: str, rule: str, message: str,
+             severity: Literal["info", "warning"] = "info") -> None:
+        self.notes.append(Note(path or "/", rule, message, severity))
 
     def run(self, reader: Schema, writer: Schema) -> Resolution:
         # Items: (reader, writer, reader path, writer path), or ("emit", deferred finding).
@@ -164,7 +165,7 @@ class _Resolver:
                 pair = (id(r), id(w))
                 if pair not in self.visited_pairs:
                     self.visited_pairs.add(pair)
-                    self._named(r, w, rpath, wpath, children)  # type: ignore[arg-type]
+                    self._named(r, w, rpath, wpath, children)
             elif isinstance(r, Array) and isinstance(w, Array):
                 children.append((r.items, w.items, f"{rpath}/items", f"{wpath}/items"))
             elif isinstance(r, Map) and isinstance(w, Map):

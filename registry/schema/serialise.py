@@ -12,6 +12,7 @@ from typing import Any
 from registry.schema.model import (
     Array,
     Enum,
+    Field,
     Fixed,
     Map,
     NamedSchema,
@@ -45,6 +46,43 @@ def _naming(schema: NamedSchema, enclosing: str) -> dict[str, Any]:
     return out
 
 
+def _field_json(field: Field) -> dict[str, Any]:
+    """A record field's attributes; its type (None here) is filled in by the walk."""
+    out: dict[str, Any] = {"name": field.name, "type": None}
+    if field.has_default:
+        out["default"] = field.default
+    if field.aliases:
+        out["aliases"] = list(field.aliases)
+    if field.order != "ascending":
+        out["order"] = field.order
+    if field.doc is not None:
+        out["doc"] = field.doc
+    out.update(field.properties)
+    return out
+
+
+def _named_json(current: NamedSchema, enclosing: str,
+                stack: list[tuple[Schema, str, Any, Any]]) -> dict[str, Any]:
+    """A record, enum or fixed written in full; a record's field types go on the stack."""
+    out = _naming(current, enclosing)
+    if isinstance(current, Record):
+        if current.is_error:
+            out["type"] = "error"
+        fields = [_field_json(field) for field in current.fields]
+        out["fields"] = fields
+        for field, field_out in reversed(list(zip(current.fields, fields, strict=True))):
+            stack.append((field.type, current.namespace, field_out, "type"))
+    elif isinstance(current, Enum):
+        out["symbols"] = list(current.symbols)
+        if current.default is not None:
+            out["default"] = current.default
+    elif isinstance(current, Fixed):
+        out["size"] = current.size
+    out.update(_logical_attributes(current))
+    out.update(current.properties)
+    return out
+
+
 def to_json(schema: Schema) -> Any:
     """A normalised JSON form of `schema`: full names, all attributes, plain primitive names."""
     written: set[int] = set()
@@ -62,35 +100,7 @@ def to_json(schema: Schema) -> Any:
             out = {"type": current.kind, **extra} if extra else current.kind
         elif isinstance(current, NamedSchema):
             written.add(id(current))
-            out = _naming(current, enclosing)
-            own = current.namespace
-            if isinstance(current, Record):
-                if current.is_error:
-                    out["type"] = "error"
-                fields: list[Any] = []
-                out["fields"] = fields
-                for field in current.fields:
-                    field_out: dict[str, Any] = {"name": field.name, "type": None}
-                    if field.has_default:
-                        field_out["default"] = field.default
-                    if field.aliases:
-                        field_out["aliases"] = list(field.aliases)
-                    if field.order != "ascending":
-                        field_out["order"] = field.order
-                    if field.doc is not None:
-                        field_out["doc"] = field.doc
-                    field_out.update(field.properties)
-                    fields.append(field_out)
-                for field, field_out in reversed(list(zip(current.fields, fields))):
-                    stack.append((field.type, own, field_out, "type"))
-            elif isinstance(current, Enum):
-                out["symbols"] = list(current.symbols)
-                if current.default is not None:
-                    out["default"] = current.default
-            elif isinstance(current, Fixed):
-                out["size"] = current.size
-            out.update(_logical_attributes(current))
-            out.update(current.properties)
+            out = _named_json(current, enclosing, stack)
         elif isinstance(current, Array):
             out = {"type": "array", "items": None, **_logical_attributes(current),
                    **dict(current.properties)}

@@ -17,10 +17,10 @@ from typing import Any
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.pool import QueuePool
 
+from registry.errors import CatalogueUnavailable
 from registry.service import tokens
 from registry.service.actors import Actor
 from registry.service.stage_lookup import StageHolder, read_stage_holder
-from registry.errors import CatalogueUnavailable
 from registry.store.catalogue import SQLITE_BUSY_TIMEOUT_MS, Catalogue, describe
 from registry.store.unit_of_work import utc_now
 
@@ -97,17 +97,18 @@ class CachedReads:
                 # Wait for a late enough read under way, or for room to start one that every
                 # request waiting by then will share.
                 self._flight.wait()
-        value = None
+        fresh: int | None = None
         try:
-            value = self._read_head()
+            fresh = self._read_head()
         finally:
             with self._flight:
                 self._in_flight.discard(mine)
-                if value is not None and mine > self._newest_read[0]:
-                    self._newest_read = (mine, value)
-                    self._forget_if_moved(value)
+                if fresh is not None and mine > self._newest_read[0]:
+                    self._newest_read = (mine, fresh)
+                    self._forget_if_moved(fresh)
                 self._flight.notify_all()
-        return value
+        assert fresh is not None  # otherwise the read's error is on its way up
+        return fresh
 
     def _read_head(self) -> int:
         # Connections for this read are kept out of the pool, on an idle list of their own: a

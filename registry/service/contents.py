@@ -7,16 +7,31 @@ from __future__ import annotations
 
 import json
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from registry import schema as avro
 from registry.documents import read_document
 from registry.errors import UserError
-from registry.features import (check_features, parse_feature_file, parse_feature_table,
-                               render_feature_file)
+from registry.features import (
+    check_features,
+    parse_feature_file,
+    parse_feature_table,
+    render_feature_file,
+)
+from registry.manifest import Manifest
 
-if TYPE_CHECKING:
-    from registry.service.registration import RegistrationRequest
+
+@dataclass(frozen=True)
+class RegistrationRequest:
+    """Everything a registration needs, already read from files or an upload."""
+
+    model: str
+    document: bytes
+    document_name: str
+    manifest: Manifest
+    input_schema_text: str | None = None
+    output_schema_text: str | None = None
+    features_text: str | None = None
 
 
 @dataclass(frozen=True)

@@ -19,8 +19,8 @@ from registry.errors import AlreadyExists, NotFound, UserError
 from registry.moments import utc_iso
 from registry.names import check_name
 from registry.service.actors import Actor
-from registry.service.models import find_model
 from registry.service.authorisation import authorise
+from registry.service.models import find_model
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -64,7 +64,8 @@ class DatasetSummary:
 
 
 def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
-    dataset = uow.session.execute(select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+    dataset = uow.session.execute(
+        select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
     if dataset is None:
         raise NotFound(f"unknown dataset {name!r}{did_you_mean(name, uow.names.datasets())}",
                        place="dataset")
@@ -121,7 +122,8 @@ def check_sources(sources: Sequence[Any]) -> tuple[tuple[str, int, str], ...]:
 
 def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
              with_profile: bool = False) -> DatasetSummary:
-    feed_of = uow.session.get(t.Model, dataset.feed_model_id).name if dataset.feed_model_id else None
+    feed_of = (uow.session.get_one(t.Model, dataset.feed_model_id).name if dataset.feed_model_id
+               else None)
     profile = load_fingerprint(uow, dataset).to_dict().get("profile", {}) if with_profile else {}
     return DatasetSummary(
         name=dataset.name, role=dataset.role, rows=dataset.rows,

@@ -8,7 +8,6 @@ blobs and the pure results of the schema, feature, dataset and evaluation packag
 from __future__ import annotations
 
 import dataclasses
-import json
 from collections.abc import Sequence
 from datetime import UTC, datetime
 
@@ -18,6 +17,7 @@ from registry import gates
 from registry.gates import GateReport, Policy, Waiver
 from registry.service import evidence_sources as sources
 from registry.service.actors import Actor
+from registry.service.policies import policy_of
 from registry.store import tables as t
 from registry.store.unit_of_work import UnitOfWork, utc_now
 
@@ -25,14 +25,6 @@ __all__ = ["GateReport", "Policy", "Waiver", "is_guarded", "policy_of", "run_gat
            "run_rollback_gates", "SCHEMA_GATES"]
 
 SCHEMA_GATES = ("reads-live-feed", "rollback-safe", "output-readable", "live-data-check")
-
-
-def policy_of(model: t.Model) -> Policy:
-    """The model's own policy laid over the catalogue-wide default, or the default alone."""
-    if model.policy_toml:
-        return gates.load_policy(model.policy_toml, source=f"policy of {model.name}",
-                                 base=gates.default_policy())
-    return gates.default_policy()
 
 
 def is_guarded(policy: Policy, stage: str) -> bool:
@@ -58,7 +50,7 @@ def past_top_holders(uow: UnitOfWork, model: t.Model, policy: Policy,
         select(t.StageEvent.version_id).where(
             t.StageEvent.model_id == model.id, t.StageEvent.stage == policy.top_stage,
             t.StageEvent.event.in_(("entered", "restored"))).distinct()).scalars().all()
-    return [uow.session.get(t.Version, i) for i in sorted(set(ids) - set(exclude))]
+    return [uow.session.get_one(t.Version, i) for i in sorted(set(ids) - set(exclude))]
 
 
 def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str,
@@ -145,7 +137,3 @@ def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, hol
 def parse_waivers(pairs: Sequence[tuple[str, str]], actor: Actor) -> list[Waiver]:
     """`--waive GATE --reason TEXT` pairs from a shell, as waivers given by the acting user."""
     return [Waiver(gate=gate, approver=actor.name, reason=reason) for gate, reason in pairs]
-
-
-def report_json(report: GateReport) -> str:
-    return json.dumps(report.to_dict())

@@ -102,7 +102,8 @@ def create_model(catalogue: Catalogue, name: str, description: str, actor: Actor
     check_name(name, what="model")
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "model.create")
-        existing = uow.session.execute(select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
+        existing = uow.session.execute(
+            select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
         if existing is not None:
             raise AlreadyExists(f"a model named {name!r} already exists", place="model")
         model = t.Model(name=name, description=description, created_at=utc_now(),

@@ -14,13 +14,13 @@ from sqlalchemy import select
 from registry.errors import NotFound, UserError
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
-from registry.service.lineage import dataset_id, version_id
+from registry.service.lineage import dataset_id, node_name, version_id
+from registry.service.policies import policy_of
 from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
 from registry.suggest import did_you_mean
-
 
 
 @dataclass(frozen=True)
@@ -115,8 +115,6 @@ def _flagged_through_feeds(uow: UnitOfWork, dataset: t.Dataset,
 
 def _resting_stages(uow: UnitOfWork, model: str) -> tuple[str, ...]:
     """Stages from which nothing is served: the first rung of the ladder, and retired."""
-    from registry.service.gatekeeping import policy_of
-
     line = uow.session.execute(select(t.Model).where(t.Model.name == model)).scalar_one()
     return (policy_of(line).ladder[0], "retired")
 
@@ -188,15 +186,15 @@ def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledS
             if upstream not in came_from:
                 came_from[upstream] = current
                 queue.append(upstream)
-    from registry.service.lineage import node_name
-
-    sources = []
+    sources: list[RecalledSource] = []
     for key in recalled:
-        chain, step = [], key
+        chain: list[str] = []
+        step: walks.NodeKey | None = key
         while step is not None:
             chain.append(node_name(facts[step]))
             step = came_from.get(step)
-        row = uow.session.get(t.Dataset, key.ref)
+        row = uow.session.get_one(t.Dataset, key.ref)
+        assert row.recalled_at is not None  # it is among the recalled datasets
         sources.append(RecalledSource(dataset=row.name, reason=row.recall_reason or "",
                                       recalled_at=walks.utc_iso(row.recalled_at),
                                       recalled_by=row.recalled_by or "", chain=tuple(chain)))

@@ -12,26 +12,16 @@ from registry.errors import NotFound, UserError
 from registry.manifest import Manifest
 from registry.names import check_name
 from registry.service.actors import Actor
-from registry.service.contents import VersionContents, read_version_contents
-from registry.service.models import find_model
 from registry.service.authorisation import authorise
+
+# RegistrationRequest lives with the reading of a registration's contents; named here too
+# because the shells build it as `registration.RegistrationRequest`.
+from registry.service.contents import RegistrationRequest, VersionContents, read_version_contents
+from registry.service.models import find_model
 from registry.service.stages import enter_first_stage
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
-
-
-@dataclass(frozen=True)
-class RegistrationRequest:
-    """Everything a registration needs, already read from files or an upload."""
-
-    model: str
-    document: bytes
-    document_name: str
-    manifest: Manifest
-    input_schema_text: str | None = None
-    output_schema_text: str | None = None
-    features_text: str | None = None
 
 
 @dataclass(frozen=True)
@@ -76,10 +66,12 @@ def registration_record(model: str, document_digest: str, document_kind: str,
 def _lineage_datasets(uow: UnitOfWork, names: tuple[str, ...], relation: str) -> list[t.Dataset]:
     found = []
     for name in names:
-        dataset = uow.session.execute(select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+        dataset = uow.session.execute(
+            select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
         if dataset is None:
             raise NotFound(f"unknown dataset {name!r} named in the manifest's "
-                           f"{relation.replace('-', '_')}; register it with `lockkeeper dataset add`",
+                           f"{relation.replace('-', '_')}; register it with "
+                           "`lockkeeper dataset add`",
                            place="manifest")
         found.append(dataset)
     return found
@@ -113,7 +105,8 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
             select(func.max(t.Version.number)).where(t.Version.model_id == model.id)
         ).scalar_one()
         number = (last or 0) + 1
-        if request.manifest.parent_version is not None and request.manifest.parent_version >= number:
+        parent = request.manifest.parent_version
+        if parent is not None and parent >= number:
             raise UserError(f"parent_version {request.manifest.parent_version} does not exist yet "
                             f"(this registration would be version {number})", place="manifest")
         stored_blob_digest = uow.blobs.put(contents.stored_document)
@@ -128,7 +121,8 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
             features_json=contents.features_json,
             description=request.manifest.description,
             code_revision=request.manifest.code_revision, author=request.manifest.author,
-            parent_number=request.manifest.parent_version, registration_digest=digest, created_at=utc_now(), created_by=actor.name)
+            parent_number=request.manifest.parent_version, registration_digest=digest,
+            created_at=utc_now(), created_by=actor.name)
         uow.session.add(version)
         uow.session.flush()
         for relation, datasets in (("trained-on", trained), ("evaluated-on", evaluated)):

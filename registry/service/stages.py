@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import dataclasses
 import json
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -55,7 +56,7 @@ def holders(uow: UnitOfWork, model: t.Model, stage: str) -> list[t.StageHolding]
 
 
 def _numbers(uow: UnitOfWork, holdings: list[t.StageHolding]) -> tuple[int, ...]:
-    return tuple(sorted(uow.session.get(t.Version, h.version_id).number for h in holdings))
+    return tuple(sorted(uow.session.get_one(t.Version, h.version_id).number for h in holdings))
 
 
 def snapshot(catalogue: Catalogue, model: str, stage: str) -> HolderSnapshot:
@@ -108,7 +109,7 @@ def _place(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, is_e
         for holding in holders(uow, model, stage):
             if holding.version_id == version.id:
                 continue
-            displaced = uow.session.get(t.Version, holding.version_id)
+            displaced = uow.session.get_one(t.Version, holding.version_id)
             displaced_number, displaced_id = displaced.number, displaced.id
             if previous_version_id is not None:
                 displaced_id = previous_version_id
@@ -145,7 +146,7 @@ def enter_first_stage(uow: UnitOfWork, model: t.Model, version: t.Version, actor
 
 
 def check(catalogue: Catalogue, model: str, number: int, stage: str, actor: Actor,
-          waivers: list[gatekeeping.Waiver] = ()) -> StageOutcome:
+          waivers: Sequence[gatekeeping.Waiver] = ()) -> StageOutcome:
     """The gates of a stage for a version, as a dry run: nothing is written."""
     with UnitOfWork(catalogue, write=False) as uow:
         line = find_model(uow, model)
@@ -158,7 +159,7 @@ def check(catalogue: Catalogue, model: str, number: int, stage: str, actor: Acto
 
 
 def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Actor,
-            waivers: list[gatekeeping.Waiver] = (), expected: HolderSnapshot | None = None
+            waivers: Sequence[gatekeeping.Waiver] = (), expected: HolderSnapshot | None = None
             ) -> StageOutcome:
     """Move a version into a stage if its gates allow; store the attempt's report either way."""
     check_name(stage, what="stage")
@@ -199,7 +200,7 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
 
 
 def _authorise_waivers(uow: UnitOfWork, actor: Actor, version: t.Version,
-                       waivers: list[gatekeeping.Waiver]) -> None:
+                       waivers: Sequence[gatekeeping.Waiver]) -> None:
     if waivers:
         authorise(uow, actor, "gate.waive", authors=(version.author, version.created_by),
                   place=f"waiver of {waivers[0].gate}")
@@ -235,7 +236,7 @@ def approve(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
 
 
 def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
-             waivers: list[gatekeeping.Waiver] = ()) -> StageOutcome:
+             waivers: Sequence[gatekeeping.Waiver] = ()) -> StageOutcome:
     """Give an exclusive stage back to the version its holder displaced, in one transaction,
     after re-running the schema gates against the feed the current holder reads."""
     with UnitOfWork(catalogue) as uow:
@@ -252,11 +253,11 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
             raise UserError(f"no version holds {stage!r}; there is nothing to roll back",
                             place="--stage")
         holding = current[0]
-        holder = uow.session.get(t.Version, holding.version_id)
+        holder = uow.session.get_one(t.Version, holding.version_id)
         if holding.previous_version_id is None:
             raise UserError(f"v{holder.number} was the first version to hold {stage!r}; there is "
                             "no earlier holder to restore", place="--stage")
-        previous = uow.session.get(t.Version, holding.previous_version_id)
+        previous = uow.session.get_one(t.Version, holding.previous_version_id)
         _authorise_waivers(uow, actor, previous, waivers)
         if "retired" in stages_of(uow, previous):
             raise UserError(f"v{previous.number}, the previous holder, is retired",
@@ -351,7 +352,7 @@ def history(catalogue: Catalogue, model: str) -> dict[str, Any]:
                 .where(t.StageEvent.model_id == line.id).order_by(t.StageEvent.id)):
             report = None
             if event.report_id is not None:
-                row = uow.session.get(t.GateReportRow, event.report_id)
+                row = uow.session.get_one(t.GateReportRow, event.report_id)
                 report = json.loads(row.report_json)
             events.append({"at": utc_iso(event.created_at), "version": number,
                            "stage": event.stage, "event": event.event, "by": event.created_by,

@@ -14,7 +14,18 @@ from dataclasses import dataclass
 from typing import Literal
 
 from sqlalchemy import (
-    CTE, Integer, Select, String, and_, func, literal, select, text, union, union_all,
+    CTE,
+    CompoundSelect,
+    Integer,
+    Select,
+    String,
+    and_,
+    func,
+    literal,
+    select,
+    text,
+    union,
+    union_all,
 )
 from sqlalchemy.orm import Session
 
@@ -96,6 +107,7 @@ def _anchor(parts: list[Select], name: str) -> CTE | None:
 def _recursive(anchor_parts: list[Select], name: str, step) -> CTE:
     """A recursive CTE (id, depth) from its anchor rows and a function giving the step."""
     start = _anchor(anchor_parts, f"{name}_start")
+    assert start is not None  # called only with anchor rows
     walked = select(start.c.id, start.c.depth).cte(name, recursive=True)
     return walked.union(step(walked))
 
@@ -122,7 +134,7 @@ def _stage_seed_rows(seed) -> Select:
                   literal(0, Integer).label("depth"))
 
 
-def _downstream(seeds: Seeds, max_depth: int | None) -> Select:
+def _downstream(seeds: Seeds, max_depth: int | None) -> Select | CompoundSelect:
     edge = t.DatasetParent.__table__
     link = t.VersionDataset.__table__
     parent = t.Version.__table__.alias("parent_version")
@@ -172,7 +184,7 @@ def _downstream(seeds: Seeds, max_depth: int | None) -> Select:
     return union_all(*parts) if len(parts) > 1 else parts[0]
 
 
-def _upstream(seeds: Seeds, max_depth: int | None) -> Select:
+def _upstream(seeds: Seeds, max_depth: int | None) -> Select | CompoundSelect:
     edge = t.DatasetParent.__table__
     link = t.VersionDataset.__table__
     child = t.Version.__table__.alias("child_version")
@@ -278,10 +290,10 @@ def links_among(session: Session, keys: Iterable[NodeKey]) -> list[Link]:
                        t.VersionDataset.relation).where(t.VersionDataset.version_id.in_(chunk))):
             if dataset in datasets:
                 links.add(Link(NodeKey("version", version), NodeKey("dataset", dataset), relation))
-        for version, model, number, parent in session.execute(
+        for version, model, number, parent_number in session.execute(
                 select(t.Version.id, t.Version.model_id, t.Version.number, t.Version.parent_number)
                 .where(t.Version.id.in_(chunk))):
-            number_of[version] = (model, number, parent)
+            number_of[version] = (model, number, parent_number)
         held = set(session.execute(
             select(t.StageHolding.version_id, t.StageHolding.model_id, t.StageHolding.stage)
             .where(t.StageHolding.version_id.in_(chunk))).all())
@@ -296,8 +308,9 @@ def links_among(session: Session, keys: Iterable[NodeKey]) -> list[Link]:
                 links.add(Link(NodeKey("stage", model, stage), NodeKey("version", version),
                                "was-held-by"))
     by_number = {(model, number): version for version, (model, number, _) in number_of.items()}
-    for version, (model, _number, parent) in number_of.items():
-        parent_id = by_number.get((model, parent)) if parent is not None else None
+    for version, (model, _number, parent_number) in number_of.items():
+        parent_id = (by_number.get((model, parent_number)) if parent_number is not None
+                     else None)
         if parent_id is not None:
             links.add(Link(NodeKey("version", version), NodeKey("version", parent_id),
                            "parent-version"))

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import pytest
 
-from registry.api.client import ApiClient, RemoteError
+from registry.cli.remote import ApiClient, RemoteError
 from registry.errors import AlreadyExists, CatalogueUnavailable, Forbidden, NotFound
 from registry.service.tokens import Unauthenticated
 

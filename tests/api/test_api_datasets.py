@@ -7,7 +7,7 @@ import json
 
 import pytest
 
-from registry.api.client import ApiClient
+from registry.cli.remote import ApiClient
 from registry.datasets import fingerprint_file
 from registry.demo import BRACKWATER
 

@@ -1,4 +1,4 @@
-"""The gate report: JSON round trip, audit summary, plain text, refusal; evidence round trip."""
+"""The gate report: JSON round trip, audit summary, plain text, refusal."""
 
 import json
 
@@ -6,8 +6,7 @@ import pytest
 
 from gates_helpers import TOMAS, passing_evidence, waive
 from registry.errors import Refusal
-from registry.gates import (Evidence, EvidenceError, FeatureChange, GateReport, SchemaProblem,
-                            default_policy, evaluate, from_plain, render_report, to_plain)
+from registry.gates import (FeatureChange, GateReport, default_policy, evaluate, render_report)
 
 UNIT_CHANGED = FeatureChange("mean_pressure_psi", "unit-changed", "breaking",
                              "unit changed from kPa to [psi]")
@@ -76,36 +75,3 @@ def test_malformed_report_document_is_a_user_error():
     with pytest.raises(Exception) as caught:
         GateReport.from_dict({"model": "main-burst-risk"})
     assert getattr(caught.value, "exit_code", None) == 2
-
-
-def test_evidence_round_trips_through_json():
-    evidence = passing_evidence()
-    document = json.loads(json.dumps(to_plain(evidence)))
-    assert from_plain(Evidence, document) == evidence
-
-
-def test_evidence_document_with_an_unknown_key_is_an_evidence_error():
-    document = to_plain(passing_evidence())
-    document["feed"]["compatibel"] = True
-    with pytest.raises(EvidenceError) as caught:
-        from_plain(Evidence, document)
-    assert caught.value.place == "evidence.feed"
-
-
-def test_evidence_document_with_a_wrong_type_is_an_evidence_error():
-    document = to_plain(passing_evidence())
-    document["version"] = "two"
-    with pytest.raises(EvidenceError) as caught:
-        from_plain(Evidence, document)
-    assert caught.value.place == "evidence.version"
-
-
-def test_feature_change_with_an_unknown_classification_is_an_evidence_error():
-    with pytest.raises(EvidenceError):
-        FeatureChange("diameter_mm", "type-changed", "dangerous", "int to string")
-
-
-def test_schema_problem_with_an_unknown_witness_key_is_an_evidence_error():
-    with pytest.raises(EvidenceError):
-        SchemaProblem("/fields/pipe_material/type", "enum-symbol-missing", "x",
-                      witness={"symbol": "PVC"})

@@ -14,7 +14,7 @@ from sqlalchemy import text
 from werkzeug.serving import make_server
 
 from registry.api import create_api_app
-from registry.api.client import ApiClient
+from registry.cli.remote import ApiClient
 from registry.errors import LockkeeperError
 from tests.api.api_helpers import make_tokens
 from tests.catalogue.helpers import write_version_files

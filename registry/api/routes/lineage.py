@@ -6,6 +6,8 @@ GET /lineage?node=NODE&direction=up|down|both[&depth=N][&format=json|prov-json],
 
 from __future__ import annotations
 
+from typing import Any
+
 from flask import g, request
 
 from registry.api.bodies import TEXT, json_body, strict_object
@@ -17,7 +19,7 @@ from registry.errors import UserError
 from registry.service import lineage as lineage_service
 from registry.service import recall as recall_service
 
-LINEAGE_QUERY = (
+LINEAGE_QUERY: tuple[dict[str, Any], ...] = (
     {"name": "node", "in": "query", "required": True,
      "schema": {"type": "string", "maxLength": 300}},
     {"name": "direction", "in": "query", "required": True,

@@ -41,8 +41,9 @@ def show_policy(model: str):
     return json_response(policies.show_policy(catalogue(), path_name(model, "model")))
 
 
-@route("/models/<model>/policy", "PUT", action="model.set-policy", summary="Give a model its own policy "
-       "(TOML text, laid over the default)", tag="models", body=SET_POLICY_BODY)
+@route("/models/<model>/policy", "PUT", action="model.set-policy",
+       summary="Give a model its own policy (TOML text, laid over the default)", tag="models",
+       body=SET_POLICY_BODY)
 def set_policy(model: str):
     body = json_body(SET_POLICY_BODY)
     return json_response(policies.set_policy(catalogue(), path_name(model, "model"),

@@ -19,16 +19,16 @@ def list_users():
     return json_response({"users": roles.list_roles(catalogue())})
 
 
-@route("/users/<user>/roles", "POST", action="role.grant", summary="Give a user a role", tag="users",
-       body=GRANT_BODY)
+@route("/users/<user>/roles", "POST", action="role.grant", summary="Give a user a role",
+       tag="users", body=GRANT_BODY)
 def grant_role(user: str):
     body = json_body(GRANT_BODY)
     return json_response(roles.grant_role(catalogue(), path_name(user, "user"), body["role"],
                                           g.actor))
 
 
-@route("/users/<user>/roles/<role>", "DELETE", action="role.revoke", summary="Take a role away from a "
-       "user", tag="users")
+@route("/users/<user>/roles/<role>", "DELETE", action="role.revoke",
+       summary="Take a role away from a user", tag="users")
 def revoke_role(user: str, role: str):
     return json_response(roles.revoke_role(catalogue(), path_name(user, "user"),
                                            path_name(role, "role"), g.actor))

@@ -41,8 +41,9 @@ def check_version(model: str, version: int):
     return json_response({**outcome.report, "would_move": outcome.report["passed"]})
 
 
-@route(VERSION_PATH + "/promote", "POST", action="stage.promote", summary="Move a version into a stage "
-       "if its gates allow (guarded stages and waivers need an approver)", tag="stages",
+@route(VERSION_PATH + "/promote", "POST", action="stage.promote",
+       summary="Move a version into a stage if its gates allow (guarded stages and waivers need "
+       "an approver)", tag="stages",
        body=PROMOTE_BODY)
 def promote_version(model: str, version: int):
     body = json_body(PROMOTE_BODY)
@@ -56,8 +57,9 @@ def promote_version(model: str, version: int):
     return json_response(outcome)
 
 
-@route(VERSION_PATH + "/approve", "POST", action="version.approve", summary="Record an approval of a "
-       "version for a stage (never by its author)", tag="stages", body=APPROVE_BODY)
+@route(VERSION_PATH + "/approve", "POST", action="version.approve",
+       summary="Record an approval of a version for a stage (never by its author)", tag="stages",
+       body=APPROVE_BODY)
 def approve_version(model: str, version: int):
     body = json_body(APPROVE_BODY)
     return json_response(stages.approve(catalogue(), path_name(model, "model"), version,
@@ -65,16 +67,17 @@ def approve_version(model: str, version: int):
                                         body.get("note", "")))
 
 
-@route(VERSION_PATH + "/retire", "POST", action="version.retire", summary="Take a version out of service",
-       tag="stages", body=RETIRE_BODY, body_required=False)
+@route(VERSION_PATH + "/retire", "POST", action="version.retire",
+       summary="Take a version out of service", tag="stages", body=RETIRE_BODY,
+       body_required=False)
 def retire_version(model: str, version: int):
     body = json_body(RETIRE_BODY, required=False)
     return json_response(stages.retire(catalogue(), path_name(model, "model"), version, g.actor,
                                        body.get("reason", "")))
 
 
-@route("/models/<model>/stages/<stage>/rollback", "POST", action="stage.rollback", summary="Give an "
-       "exclusive stage back to the version its holder displaced", tag="stages",
+@route("/models/<model>/stages/<stage>/rollback", "POST", action="stage.rollback",
+       summary="Give an exclusive stage back to the version its holder displaced", tag="stages",
        body=ROLLBACK_BODY, body_required=False)
 def roll_back_stage(model: str, stage: str):
     body = json_body(ROLLBACK_BODY, required=False)

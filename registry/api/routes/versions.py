@@ -26,7 +26,6 @@ from registry.errors import UserError
 from registry.manifest import parse_manifest
 from registry.service import registration
 
-EXPLICIT_PARTS = ("input_schema", "output_schema", "features")
 BINARY = {"type": "string", "format": "binary"}
 REGISTER_FORM = {
     "type": "object",
