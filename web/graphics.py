@@ -9,10 +9,9 @@ label passes through Jinja's autoescaping.
 
 from __future__ import annotations
 
-from itertools import permutations
-
 from collections.abc import Mapping
 from dataclasses import dataclass
+from itertools import permutations
 
 from registry.service.lineage import LineageGraph, LineageNode
 

@@ -8,12 +8,11 @@ from flask import Response, abort, current_app, render_template, request
 
 from registry.errors import UserError
 from registry.names import NAME_PATTERN
-from registry.service import queries
+from registry.service import queries, releases
 from registry.service.lineage import normalise_node
 from registry.service.queries.catalogue import DATASET_STATES, MODEL_STATES
 from registry.store.page_reads import EventFilter
 from web import blueprint, charts, graphics, timeline
-from registry.service import releases
 
 # Deep enough that a source dataset's graph reaches the stages its versions hold:
 # extract -> training set -> version -> stage.

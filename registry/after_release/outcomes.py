@@ -18,8 +18,13 @@ import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
 from registry.after_release.row_ids import hash_row_ids
-from registry.datasets.errors import ColumnsNotMatching, DatasetFileError, EmptyDataset, \
-    ValueNotParsing, cell
+from registry.datasets.errors import (
+    ColumnsNotMatching,
+    DatasetFileError,
+    EmptyDataset,
+    ValueNotParsing,
+    cell,
+)
 from registry.datasets.readers import guess_format
 from registry.errors import UserError
 

@@ -26,8 +26,13 @@ from registry.after_release.timeline import Spell
 from registry.after_release.windows import iso, window_starts
 from registry.datasets.errors import ColumnsNotMatching, ValueNotParsing, cell
 from registry.datasets.profile import profile_of
-from registry.datasets.readers import (_avro_writer_schema, _first_failure, guess_format,
-                                       open_source, read_batches)
+from registry.datasets.readers import (
+    _avro_writer_schema,
+    _first_failure,
+    guess_format,
+    open_source,
+    read_batches,
+)
 from registry.datasets.types import RecordType, ValueType
 from registry.errors import UserError
 

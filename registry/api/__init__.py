@@ -29,10 +29,9 @@ def register_api(app: Flask) -> None:
     pages. Without LOCKKEEPER_DB in app.config the API uses the catalogue of registry.app's
     holder when there is one (one engine per process)."""
     from registry.api import routes  # noqa: F401 - registers every route on the blueprint
+    from registry.api.complete_bodies import CompleteBodies
     from registry.api.problems import install_app_problem_handler
     from registry.api.routing import api
-
-    from registry.api.complete_bodies import CompleteBodies
 
     # Flask's own defaults hold MAX_CONTENT_LENGTH = None, so setdefault would never set it.
     if app.config.get("MAX_CONTENT_LENGTH") is None:

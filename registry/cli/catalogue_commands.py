@@ -15,11 +15,11 @@ from registry.cli.params import FilePath, SuggestingChoice
 # and the stage and dataset commands import the helpers here without needing all of it.
 
 
-def _context() -> "CommandContext":  # noqa: F821 - resolved at run time
+def _context() -> CommandContext:  # noqa: F821 - resolved at run time
     return click.get_current_context().obj
 
 
-def _actor() -> "Actor":  # noqa: F821 - registry.service.actors.Actor
+def _actor() -> Actor:  # noqa: F821 - registry.service.actors.Actor
     from registry.service.roles import load_actor
 
     context = _context()
@@ -154,7 +154,7 @@ def render_registration(o: dict) -> str:
 
 
 def registration_request(model_name: str, document: str, manifest_path: str,
-                         features_path: str | None) -> "RegistrationRequest":  # noqa: F821
+                         features_path: str | None) -> RegistrationRequest:  # noqa: F821
     """Read every file a registration names; paths in the manifest are relative to it."""
     from registry.manifest import parse_manifest
     from registry.service import registration

@@ -10,8 +10,14 @@ import os
 import click
 
 from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.dataset_commands import (FORMAT_CHOICE, Work, fingerprint_paths, load_schema,
-                                           render_fingerprint, work_options)
+from registry.cli.dataset_commands import (
+    FORMAT_CHOICE,
+    Work,
+    fingerprint_paths,
+    load_schema,
+    render_fingerprint,
+    work_options,
+)
 from registry.cli.output import emit, json_option, short_time
 from registry.cli.params import FilePath
 

@@ -16,8 +16,15 @@ from registry.cli.schema_commands import read_schema
 from registry.documents import DocumentSummary, read_document
 from registry.documents.pfa import CellSummary
 from registry.errors import UserError
-from registry.features import (FeatureCheck, FeatureDefinitions, FeatureDiff, check_features,
-                               diff_features, features_from_manifest, load_feature_definitions)
+from registry.features import (
+    FeatureCheck,
+    FeatureDefinitions,
+    FeatureDiff,
+    check_features,
+    diff_features,
+    features_from_manifest,
+    load_feature_definitions,
+)
 from registry.schema import Schema, fingerprint, to_json
 
 

@@ -10,8 +10,8 @@ from __future__ import annotations
 import hashlib
 import os
 import tempfile
-from contextlib import nullcontext
 from collections.abc import Iterable
+from contextlib import nullcontext
 from pathlib import Path
 
 import click

@@ -24,8 +24,7 @@ def progress_bar(label: str, total: int | None = None, unit: str = "rows"
         yield None
         return
     from rich.console import Console
-    from rich.progress import (BarColumn, MofNCompleteColumn, Progress, TextColumn,
-                               TimeElapsedColumn)
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
     counted = MofNCompleteColumn() if total else TextColumn(f"{{task.completed:,.0f}} {unit}")
     with Progress(TextColumn("{task.description}"), BarColumn(), counted, TimeElapsedColumn(),
@@ -46,7 +45,7 @@ class DatasetProgress:
 
     def __init__(self, label: str) -> None:
         from rich.console import Console
-        from rich.progress import (BarColumn, Progress, TextColumn, TimeRemainingColumn)
+        from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
         self.label = label
         self.bar = Progress(TextColumn("{task.description}"), BarColumn(),

@@ -12,8 +12,7 @@ import click
 from registry.cli.files import read_file_bytes
 from registry.cli.output import emit, json_option
 from registry.errors import NotFound, UserError
-from registry.signing.release_check import (check_release, load_public_key, read_envelope,
-                                            superseded)
+from registry.signing.release_check import check_release, load_public_key, read_envelope, superseded
 from registry.signing.statements import MalformedStatement, parse_statement
 
 

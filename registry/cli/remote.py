@@ -17,8 +17,16 @@ from pathlib import Path, PurePosixPath
 from typing import Any
 
 from registry.errors import (
-    AlreadyExists, CatalogueUnavailable, Conflict, Forbidden, LockkeeperError, NotFound, Refusal,
-    StageNotHeld, Unprocessable, UserError,
+    AlreadyExists,
+    CatalogueUnavailable,
+    Conflict,
+    Forbidden,
+    LockkeeperError,
+    NotFound,
+    Refusal,
+    StageNotHeld,
+    Unprocessable,
+    UserError,
 )
 from registry.manifest import parse_manifest
 from registry.service.tokens import Unauthenticated
@@ -64,11 +72,11 @@ def encode_multipart(parts: Sequence[tuple[str, str, bytes]],
     chunks = []
     for name, text in fields:
         chunks.append(f'--{boundary}\r\nContent-Disposition: form-data; name="{_quoted(name)}"'
-                      f"\r\n\r\n{text}\r\n".encode("utf-8"))
+                      f"\r\n\r\n{text}\r\n".encode())
     for name, filename, content in parts:
         chunks.append(f'--{boundary}\r\nContent-Disposition: form-data; name="{_quoted(name)}"; '
                       f'filename="{_quoted(filename)}"\r\nContent-Type: application/octet-stream'
-                      "\r\n\r\n".encode("utf-8"))
+                      "\r\n\r\n".encode())
         chunks.append(content)
         chunks.append(b"\r\n")
     chunks.append(f"--{boundary}--\r\n".encode("ascii"))

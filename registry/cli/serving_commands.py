@@ -9,8 +9,8 @@ import click
 
 from registry.cli.catalogue_commands import _actor, _context
 from registry.cli.dataset_commands import FORMAT_CHOICE, load_schema
-from registry.cli.progress import progress_bar
 from registry.cli.output import emit, json_option
+from registry.cli.progress import progress_bar
 
 
 @click.group("serving")

@@ -23,12 +23,16 @@ import pyarrow.compute as pc
 from fastavro.schema import to_parsing_canonical_form
 
 from registry.datasets import hashing
-from registry.datasets.profile import (ColumnProfile, empty_profile, merge_profiles,
-                                       profile_of)
 from registry.datasets.numeric_columns import is_plain_number_column
+from registry.datasets.profile import ColumnProfile, empty_profile, merge_profiles, profile_of
 from registry.datasets.readers import Part, Source, read_batches
-from registry.datasets.sketch import (DEFAULT_K, BottomKSketch, add_hashes, empty_sketch,
-                                      merge_sketches)
+from registry.datasets.sketch import (
+    DEFAULT_K,
+    BottomKSketch,
+    add_hashes,
+    empty_sketch,
+    merge_sketches,
+)
 from registry.datasets.types import NUMERIC, RecordType, ValueType, value_type_of
 from registry.errors import UserError
 
@@ -77,7 +81,7 @@ class DatasetFingerprint:
         }
 
     @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "DatasetFingerprint":
+    def from_dict(cls, data: Mapping[str, Any]) -> DatasetFingerprint:
         try:
             return cls(
                 rows=int(data["rows"]), content_digest=str(data["content_digest"]),

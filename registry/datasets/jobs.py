@@ -11,8 +11,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from registry.datasets.errors import DatasetFileError, EmptyDataset
-from registry.datasets.fingerprint import (DatasetFingerprint, empty_fingerprint,
-                                           fingerprint_source)
+from registry.datasets.fingerprint import DatasetFingerprint, empty_fingerprint, fingerprint_source
 from registry.datasets.plan import Job, JobSettings, located
 from registry.datasets.readers import open_source
 from registry.datasets.types import record_type

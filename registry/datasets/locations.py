@@ -45,7 +45,7 @@ class SourceFile:
         return {"path": self.relative_path, "size": self.size, "sha256": self.sha256}
 
     @classmethod
-    def from_dict(cls, data: dict) -> "SourceFile":
+    def from_dict(cls, data: dict) -> SourceFile:
         try:
             return cls(str(data["path"]), int(data["size"]), str(data["sha256"]))
         except (KeyError, TypeError, ValueError) as error:

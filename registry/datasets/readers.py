@@ -24,8 +24,13 @@ import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
-from registry.datasets.errors import (ColumnsNotMatching, DatasetFileError, EmptyDataset,
-                                      ValueNotParsing, cell)
+from registry.datasets.errors import (
+    ColumnsNotMatching,
+    DatasetFileError,
+    EmptyDataset,
+    ValueNotParsing,
+    cell,
+)
 from registry.datasets.types import RecordType, ValueType, record_type, schema_from_arrow
 from registry.errors import UserError
 
@@ -317,12 +322,12 @@ def _records_to_batch(records: list[dict], make_batch: _AvroBatchMaker,
 
 
 _EPOCH_DATE = datetime.date(1970, 1, 1)
-_EPOCH = datetime.datetime(1970, 1, 1, tzinfo=datetime.timezone.utc)
+_EPOCH = datetime.datetime(1970, 1, 1, tzinfo=datetime.UTC)
 
 
 def _since_epoch(value: datetime.datetime, unit: int) -> int:
     if value.tzinfo is None:  # local-timestamp-*: no zone, counted on the same clock
-        value = value.replace(tzinfo=datetime.timezone.utc)
+        value = value.replace(tzinfo=datetime.UTC)
     delta = value - _EPOCH
     return (delta.days * 86_400 + delta.seconds) * unit + delta.microseconds * unit // 10**6
 

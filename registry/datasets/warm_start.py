@@ -6,7 +6,6 @@ cache) while the worker would otherwise wait for its first job to arrive.
 
 from __future__ import annotations
 
-import numpy as np
 import pyarrow as pa
 
 from registry.datasets import jobs  # noqa: F401 - what the workers run

@@ -10,16 +10,15 @@ from __future__ import annotations
 
 import multiprocessing
 import threading
-from collections.abc import Callable, Sequence
 from collections import deque
+from collections.abc import Callable, Mapping, Sequence
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
-from typing import Any, Mapping
+from typing import Any
 
 from registry.datasets.errors import EmptyDataset
-from registry.datasets.fingerprint import (DatasetFingerprint, empty_fingerprint,
-                                           merge_fingerprints)
+from registry.datasets.fingerprint import DatasetFingerprint, empty_fingerprint, merge_fingerprints
 from registry.datasets.jobs import JobResult, run_job
 from registry.datasets.locations import SourceFile
 from registry.datasets.plan import FingerprintPlan, Job, plan_fingerprint

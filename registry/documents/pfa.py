@@ -17,8 +17,8 @@ from typing import Any
 from registry.documents.canonical_json import CanonicalDigest, MeasuredValue, canonical_digest
 from registry.errors import Unprocessable, UserError
 from registry.schema import Names, Schema, SchemaError, parse
-from registry.schema.model import Array, Enum, Fixed, Primitive, Union
 from registry.schema.defaults import check_json_encoded
+from registry.schema.model import Array, Enum, Fixed, Primitive, Union
 
 
 class InvalidPfaDocument(Unprocessable):

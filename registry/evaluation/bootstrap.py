@@ -27,8 +27,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from registry.evaluation import metrics as m
 from registry import progress
+from registry.evaluation import metrics as m
 from registry.evaluation.predictions import Predictions
 from registry.lazy_import import lazy_import
 

@@ -1,14 +1,41 @@
 """Promotion gates: policy loading and pure functions from evidence to a gate report."""
 
-from registry.gates.evidence import (APPROVER, Acknowledgement, Actor, Approval, ColumnCounts,
-                                     ConsumerCheck, FeedSchemaCheck,
-                                     ContainmentEstimate, DatasetRecord, Evidence, EvidenceError,
-                                     FeatureChange, PairedComparison, RecalledDataset,
-                                     SampleProfile, SchemaCheck, SchemaProblem, ShadowAgreement,
-                                     SliceComparison, Waiver, from_plain, to_plain)
-from registry.gates.policy import (RETIRED, GateSpec, Policy, PolicyError, StageRule,
-                                   TransitionError, UnknownStage, default_policy,
-                                   default_policy_text, load_policy)
+from registry.gates.evidence import (
+                                     APPROVER,
+                                     Acknowledgement,
+                                     Actor,
+                                     Approval,
+                                     ColumnCounts,
+                                     ConsumerCheck,
+                                     ContainmentEstimate,
+                                     DatasetRecord,
+                                     Evidence,
+                                     EvidenceError,
+                                     FeatureChange,
+                                     FeedSchemaCheck,
+                                     PairedComparison,
+                                     RecalledDataset,
+                                     SampleProfile,
+                                     SchemaCheck,
+                                     SchemaProblem,
+                                     ShadowAgreement,
+                                     SliceComparison,
+                                     Waiver,
+                                     from_plain,
+                                     to_plain,
+)
+from registry.gates.policy import (
+                                     RETIRED,
+                                     GateSpec,
+                                     Policy,
+                                     PolicyError,
+                                     StageRule,
+                                     TransitionError,
+                                     UnknownStage,
+                                     default_policy,
+                                     default_policy_text,
+                                     load_policy,
+)
 from registry.gates.regression_gates import holm_adjust
 from registry.gates.report import GateReport, GateResult, render_report
 from registry.gates.settings import GATES

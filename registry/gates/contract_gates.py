@@ -9,8 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from registry.gates.evidence import (ConsumerCheck, Evidence, FeedSchemaCheck, SchemaCheck,
-                                     to_plain)
+from registry.gates.evidence import ConsumerCheck, Evidence, FeedSchemaCheck, SchemaCheck, to_plain
 from registry.gates.report import GateResult
 
 

@@ -4,7 +4,7 @@ complete lineage with nothing upstream recalled."""
 from __future__ import annotations
 
 from collections.abc import Mapping
-from datetime import timezone
+from datetime import UTC
 from typing import Any
 
 from registry.gates.evidence import Evidence, parse_time, to_plain
@@ -109,5 +109,5 @@ def lineage_complete(evidence: Evidence, settings: Mapping[str, Any], stage: str
 
 def _to_the_second(iso_time: str) -> str:
     """`2026-12-04 15:30:03Z`: a stored time as people read it, in UTC with its offset."""
-    moment = parse_time(iso_time, place="recalled_at").astimezone(timezone.utc)
+    moment = parse_time(iso_time, place="recalled_at").astimezone(UTC)
     return moment.strftime("%Y-%m-%d %H:%M:%SZ")

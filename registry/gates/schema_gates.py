@@ -6,11 +6,14 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from registry.gates.contract_gates import consumers_read_output
+from registry.gates.contract_gates import (
+    consumers_read_output,
+    declared_feed_check,
+    reads_declared_feed,
+    rollback_reads_declared_feed,
+)
 from registry.gates.contract_gates import first_problem as _first_problem
-from registry.gates.contract_gates import (declared_feed_check, reads_declared_feed,
-                                           rollback_reads_declared_feed)
-from registry.gates.evidence import Evidence, SampleProfile, SchemaCheck, SchemaProblem, to_plain
+from registry.gates.evidence import Evidence, SampleProfile, SchemaProblem, to_plain
 from registry.gates.report import GateResult
 
 NO_INCUMBENT = "no incumbent: nothing to compare against"

@@ -164,7 +164,6 @@ def containment(uow: UnitOfWork, version: t.Version) -> tuple[gates.ContainmentE
 def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
     """The newest live sample registered as taken from this model's feed, with the counts of
     enum symbols, union branches and nulls per column from its profile."""
-    from registry.service.datasets import load_fingerprint
 
     sample = uow.session.execute(
         select(t.Dataset).where(t.Dataset.feed_model_id == model.id,

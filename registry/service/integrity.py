@@ -13,11 +13,11 @@ from typing import Any
 
 from sqlalchemy import select
 
-from registry.service.contract_integrity import contract_findings, contract_record_key
+from registry.canonical_json import digest_of
 from registry.errors import UserError
+from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
-from registry.canonical_json import digest_of
 from registry.signing.checkpoints import SignedCheckpoint, from_document, is_signed_by
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, AuditRecord, verify_chain

@@ -20,8 +20,13 @@ from registry.names import check_name
 from registry.service.document_fetch import find_document
 from registry.service.models import find_model, find_version
 from registry.signing import dsse
-from registry.signing.statements import (PAYLOAD_TYPE, Approval, GateStatus, ReleaseStatement,
-                                         WaiverRecord)
+from registry.signing.statements import (
+    PAYLOAD_TYPE,
+    Approval,
+    GateStatus,
+    ReleaseStatement,
+    WaiverRecord,
+)
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.release_repository import StoredRelease

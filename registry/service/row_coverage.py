@@ -16,8 +16,14 @@ from typing import Any
 
 from sqlalchemy import Table
 
-from registry.store.row_digests import column_digests, covered_tables, is_covered, key_of
-from registry.store.row_digests import key_columns, row_digest
+from registry.store.row_digests import (
+    column_digests,
+    covered_tables,
+    is_covered,
+    key_columns,
+    key_of,
+    row_digest,
+)
 
 RowKey = tuple[Any, ...]
 

@@ -24,10 +24,9 @@ from registry.after_release.windows import iso
 from registry.errors import UserError
 from registry.service import gatekeeping
 from registry.service.actors import Actor
-from registry.service.models import find_model
 from registry.service.authorisation import authorise
-from registry.service.serving_evidence import (classes_of_columns, refresh_figures,
-                                               serving_context)
+from registry.service.models import find_model
+from registry.service.serving_evidence import classes_of_columns, refresh_figures, serving_context
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now

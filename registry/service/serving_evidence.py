@@ -13,9 +13,15 @@ from registry import gates
 from registry.after_release import compact
 from registry.after_release.agreement import agreement, shared_rows
 from registry.after_release.quality import DEFAULT_METRIC
-from registry.after_release.report import (Reference, ReportSettings, WindowRowsOf,
-                                           build_report, merge_windows, predictions_matrix,
-                                           window_figures)
+from registry.after_release.report import (
+    Reference,
+    ReportSettings,
+    WindowRowsOf,
+    build_report,
+    merge_windows,
+    predictions_matrix,
+    window_figures,
+)
 from registry.after_release.served_batch import CLASS_PREFIX, ServingContext, VersionFacts
 from registry.after_release.summaries import WindowSummary
 from registry.after_release.timeline import Spell, serving_spells

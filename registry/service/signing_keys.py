@@ -15,7 +15,10 @@ from registry.errors import UserError
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.signing.keys import (
-    ALGORITHM, SigningKey, create_signing_key_file, load_signing_key,
+    ALGORITHM,
+    SigningKey,
+    create_signing_key_file,
+    load_signing_key,
 )
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue

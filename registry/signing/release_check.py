@@ -17,8 +17,12 @@ from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
 from registry.errors import UserError
 from registry.signing import dsse
 from registry.signing.keys import key_id_of
-from registry.signing.statements import (PAYLOAD_TYPE, MalformedStatement, ReleaseStatement,
-                                         parse_statement)
+from registry.signing.statements import (
+    PAYLOAD_TYPE,
+    MalformedStatement,
+    ReleaseStatement,
+    parse_statement,
+)
 
 # Reasons a statement does not vouch for a document (exit 1), in the order they are checked.
 REASONS = {

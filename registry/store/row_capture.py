@@ -13,8 +13,7 @@ from sqlalchemy import event, inspect
 from sqlalchemy.orm import ORMExecuteState, Session
 
 from registry.store import tables as t
-from registry.store.row_digests import column_digests, key_of, plain_value, read_row
-from registry.store.row_digests import is_covered
+from registry.store.row_digests import column_digests, is_covered, key_of, plain_value, read_row
 
 
 class UncoveredWrite(RuntimeError):

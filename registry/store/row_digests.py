@@ -49,7 +49,7 @@ def key_columns(table: Table) -> list[str]:
 _DATETIME, _BOOLEAN, _OTHER = "datetime", "boolean", "other"
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def _kinds(table: Table) -> dict[str, str]:
     kinds = {}
     for column in table.columns:
@@ -102,7 +102,7 @@ def encoded_value(value: Any) -> bytes:
 
 @functools.lru_cache(maxsize=4096)
 def _prefix(table: str, column: str) -> bytes:
-    return f"{table}\x1f{column}\x1f".encode("utf-8")
+    return f"{table}\x1f{column}\x1f".encode()
 
 
 def column_digest(table: str, column: str, value: Any) -> str:

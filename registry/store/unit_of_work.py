@@ -8,8 +8,8 @@ audit chain never forks. Database errors leave as the typed errors of registry.e
 from __future__ import annotations
 
 import hashlib
-from datetime import UTC, datetime
 from collections.abc import Iterator
+from datetime import datetime
 from typing import Any
 
 from sqlalchemy import select
@@ -23,19 +23,19 @@ from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.audit_repository import AuditEventRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
-from registry.store.consumer_repository import ConsumerRepository
 from registry.store.checkpoint_repository import CheckpointRepository
-from registry.store.document_repository import DocumentRepository
-from registry.store.keys_repository import KeyRepository
-from registry.store.release_repository import ReleaseRepository
-from registry.store.row_capture import RowCapture
-from registry.store.row_digests import RowReader
+from registry.store.consumer_repository import ConsumerRepository
 from registry.store.dataset_sources_repository import DatasetSourceRepository
+from registry.store.document_repository import DocumentRepository
 from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.feed_repository import FeedRepository
+from registry.store.keys_repository import KeyRepository
 from registry.store.name_repository import NameRepository
 from registry.store.page_reads import PageReads
+from registry.store.release_repository import ReleaseRepository
 from registry.store.role_repository import RoleRepository
+from registry.store.row_capture import RowCapture
+from registry.store.row_digests import RowReader
 from registry.store.serving_repository import ServingRepository
 from registry.store.token_repository import TokenRepository
 

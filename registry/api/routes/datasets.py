@@ -16,8 +16,7 @@ import os
 
 from flask import g, request
 
-from registry.api.bodies import (NAME, TEXT, check_form, json_body, require_media_type,
-                                 strict_object)
+from registry.api.bodies import NAME, check_form, json_body, require_media_type, strict_object
 from registry.api.context import catalogue
 from registry.api.rendering import json_response, path_name
 from registry.api.routing import route

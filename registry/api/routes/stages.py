@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import json
 
-from flask import Response, g, request
+from flask import Response, g
 
 from registry.api.bodies import NAME, TEXT, WAIVERS, json_body, strict_object
 from registry.api.context import cached_reads, catalogue

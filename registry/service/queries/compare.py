@@ -10,7 +10,10 @@ from typing import Any
 from registry.errors import UserError
 from registry.service.queries.common import number
 from registry.service.queries.schemas import (
-    FeatureDifference, SchemaComparison, compare_features, compare_schemas,
+    FeatureDifference,
+    SchemaComparison,
+    compare_features,
+    compare_schemas,
 )
 from registry.service.queries.versions import VersionPage, version_page
 from registry.store.catalogue import Catalogue

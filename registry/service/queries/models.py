@@ -13,7 +13,10 @@ from registry.service.gatekeeping import policy_of
 from registry.service.queries.common import loads, moment
 from registry.service.queries.recalls import RecallNotice, recall_notices, recalled_names
 from registry.service.queries.reports import (
-    ApprovalView, GateReportView, approval_view, report_view,
+    ApprovalView,
+    GateReportView,
+    approval_view,
+    report_view,
 )
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue

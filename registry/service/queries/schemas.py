@@ -21,7 +21,7 @@ class SchemaNode:
     type_label: str
     doc: str = ""
     details: tuple[str, ...] = ()
-    children: tuple["SchemaNode", ...] = ()
+    children: tuple[SchemaNode, ...] = ()
 
 
 def _type_label(schema: Any) -> str:

@@ -11,7 +11,12 @@ from registry.service.queries.common import loads, moment, number
 from registry.service.queries.models import Refusal, refusal_of
 from registry.service.queries.recalls import recalled_sources
 from registry.service.queries.reports import (
-    ApprovalView, EvidenceItem, GateReportView, approval_view, evidence_items, report_view,
+    ApprovalView,
+    EvidenceItem,
+    GateReportView,
+    approval_view,
+    evidence_items,
+    report_view,
 )
 from registry.service.queries.schemas import FeatureRow, SchemaNode, feature_rows, schema_tree
 from registry.service.recall import RecalledSource
