@@ -124,9 +124,9 @@ def test_the_consumer_gate_reports_every_failing_consumer():
     result = consumers_read_output(_evidence(consumer_checks=checks))
     assert not result.passed and "a-board" in result.summary
     assert any("b-board" in note for note in result.notes)
-    # The evidence round-trips as plain JSON like every other gate evidence.
+    # The evidence is plain JSON in the gate report, like every other gate evidence.
     plain = gates.to_plain(_evidence(consumer_checks=checks))
-    assert gates.from_plain(gates.Evidence, plain).consumer_checks == checks
+    assert [c["consumer"] for c in plain["consumer_checks"]] == ["a-board", "b-board"]
 
 
 def test_live_data_check_weighs_the_break_of_the_declared_feed():
