@@ -137,7 +137,7 @@ def drift_chart(version: int, dates: list[str], drift: dict[str, list[float | No
     x, x_ticks = _x_axis(dates)
     y, y_ticks = _y_axis(0.0, top)
     series = []
-    for k, (name, psis) in enumerate(sorted(drift.items())):
+    for name, psis in sorted(drift.items()):
         points = [(x(i), y(v)) for i, v in enumerate(psis) if v is not None]
         worst = max((v for v in psis if v is not None), default=0.0)
         css = "alarm" if worst >= PSI_ALARM else "warn" if worst >= PSI_WARN else "quiet"

@@ -420,7 +420,7 @@ def _add_groups(groups, batch, record, task, inputs, context, versions, starts, 
                 if len(chosen) == 0:
                     continue
             pick = (lambda values: values) if chosen is None else (
-                lambda values: values[chosen])
+                lambda values, chosen=chosen: values[chosen])
             part = batch if chosen is None else batch.take(pa.array(chosen))
             times = pick(micros)
             summary = WindowSummary(

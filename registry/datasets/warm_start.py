@@ -25,7 +25,7 @@ def _warm() -> None:
               "float": [0.5, 1.5, 2.5, 3.5], "string": ["a", "b", "a", "c"],
               "boolean": [True, False, True, True]}
     columns = []
-    for name, value_type in record.fields:
+    for _name, value_type in record.fields:
         column = values.get(value_type.avro, ["A", "B", "A", "B"])
         if value_type.nullable:
             column = column[:3] + [None]
