@@ -142,9 +142,9 @@ def _switch_neighbours(by_column: dict[int, list[LineageNode]], graph: LineageGr
                        columns: dict[str, int]) -> None:
     """Refine the sweeps: reorder one column at a time to the order with the fewest crossings
     (edges between the same two columns), the others held still, until no column improves. Small
-    columns try every order (one-sided crossing minimisation, exact for up to EXACT_COLUMN nodes), larger
-    ones swap neighbours greedily (Eades and Kelly 1986). Barycentres alone leave crossings where
-    a node's neighbours pull both ways (a feed read by several versions, say)."""
+    columns try every order (one-sided crossing minimisation, exact for up to EXACT_COLUMN nodes),
+    larger ones swap neighbours greedily (Eades and Kelly 1986). Barycentres alone leave crossings
+    where a node's neighbours pull both ways (a feed read by several versions, say)."""
     links = [(e.source, e.target) for e in graph.edges
              if e.source in columns and e.target in columns
              and columns[e.source] != columns[e.target]]
