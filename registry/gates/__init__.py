@@ -21,7 +21,6 @@ from registry.gates.evidence import (
                                      ShadowAgreement,
                                      SliceComparison,
                                      Waiver,
-                                     from_plain,
                                      to_plain,
 )
 from registry.gates.policy import (
@@ -48,6 +47,6 @@ __all__ = [
     "GateReport", "GateResult", "GateSpec", "PairedComparison", "Policy", "PolicyError",
     "RecalledDataset", "SampleProfile", "SchemaCheck", "SchemaProblem", "ShadowAgreement",
     "SliceComparison", "StageRule", "TransitionError", "UnknownStage", "Waiver", "check_waivers",
-    "default_policy", "default_policy_text", "evaluate", "from_plain", "holm_adjust",
+    "default_policy", "default_policy_text", "evaluate", "holm_adjust",
     "load_policy", "render_report", "to_plain",
 ]
