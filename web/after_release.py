@@ -194,12 +194,12 @@ def quality_chart(version: int, dates: list[str], rows: list[dict[str, Any]], me
     y, y_ticks = _y_axis(low, high)
     line = [(x(i), y(r["value"])) for i, r in known]
     with_band = [(i, r) for i, r in known if r.get("ci_low") is not None]
-    areas = ()
+    areas: tuple[tuple[str, str, str], ...] = ()
     if with_band:
         upper = [(x(i), y(r["ci_high"])) for i, r in with_band]
         lower = [(x(i), y(r["ci_low"])) for i, r in reversed(with_band)]
         areas = ((_polyline(upper + lower), "interval", "95% interval of the live value"),)
-    rules = ()
+    rules: tuple[Rule, ...] = ()
     if evaluation is not None:
         rules = (Rule(y(evaluation), "evaluation", f"evaluation {evaluation:.3f}"),
                  Rule(y(evaluation - margin if metric != "mae" else evaluation + margin),
@@ -300,6 +300,7 @@ def after_release_states(model_name: str) -> dict[str, dict[str, Any]]:
     try:
         catalogue = current_app.extensions["lockkeeper"].catalogue()
         with UnitOfWork(catalogue, write=False) as uow:
-            return states_in(uow, find_model(uow, model_name))
+            states = states_in(uow, find_model(uow, model_name))
     except LockkeeperError:
         return {}
+    return states
