@@ -233,12 +233,18 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                 converted_rows += len(pending)
                 pending = []
             if converted_rows >= batch_rows:
-                yield pending_start, pa.concat_batches(converted)  # type: ignore[attr-defined]  # in pyarrow, not in its stubs
+                yield pending_start, _concatenated(converted)
                 converted, converted_rows = [], 0
     if pending:
         converted.append(_records_to_batch(pending, make_batch, converters))
     if converted:
-        yield pending_start, pa.concat_batches(converted)  # type: ignore[attr-defined]  # in pyarrow, not in its stubs
+        yield pending_start, _concatenated(converted)
+
+
+
+def _concatenated(batches: list[pa.RecordBatch]) -> pa.RecordBatch:
+    """The batches' rows, in order, as one batch."""
+    return pa.concat_batches(batches)  # type: ignore[attr-defined]  # not in pyarrow's stubs
 
 
 def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
