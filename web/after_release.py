@@ -137,7 +137,7 @@ def drift_chart(version: int, dates: list[str], drift: dict[str, list[float | No
     x, x_ticks = _x_axis(dates)
     y, y_ticks = _y_axis(0.0, top)
     series = []
-    for k, (name, psis) in enumerate(sorted(drift.items())):
+    for name, psis in sorted(drift.items()):
         points = [(x(i), y(v)) for i, v in enumerate(psis) if v is not None]
         worst = max((v for v in psis if v is not None), default=0.0)
         css = "alarm" if worst >= PSI_ALARM else "warn" if worst >= PSI_WARN else "quiet"
@@ -194,12 +194,12 @@ def quality_chart(version: int, dates: list[str], rows: list[dict[str, Any]], me
     y, y_ticks = _y_axis(low, high)
     line = [(x(i), y(r["value"])) for i, r in known]
     with_band = [(i, r) for i, r in known if r.get("ci_low") is not None]
-    areas = ()
+    areas: tuple[tuple[str, str, str], ...] = ()
     if with_band:
         upper = [(x(i), y(r["ci_high"])) for i, r in with_band]
         lower = [(x(i), y(r["ci_low"])) for i, r in reversed(with_band)]
         areas = ((_polyline(upper + lower), "interval", "95% interval of the live value"),)
-    rules = ()
+    rules: tuple[Rule, ...] = ()
     if evaluation is not None:
         rules = (Rule(y(evaluation), "evaluation", f"evaluation {evaluation:.3f}"),
                  Rule(y(evaluation - margin if metric != "mae" else evaluation + margin),
@@ -300,6 +300,7 @@ def after_release_states(model_name: str) -> dict[str, dict[str, Any]]:
     try:
         catalogue = current_app.extensions["lockkeeper"].catalogue()
         with UnitOfWork(catalogue, write=False) as uow:
-            return states_in(uow, find_model(uow, model_name))
+            states = states_in(uow, find_model(uow, model_name))
     except LockkeeperError:
         return {}
+    return states

@@ -107,7 +107,7 @@ def _columns(d: Distribution) -> Picture:
                        f"L{x(d.edges[i + 1]):.1f},{y(share):.1f}"]
         points.append(f"L{x(d.edges[-1]):.1f},{bottom:.1f}")
         outline = " ".join(points)
-    if d.integer and all(high - low == 1 for low, high in zip(d.edges, d.edges[1:])):
+    if d.integer and all(high - low == 1 for low, high in zip(d.edges, d.edges[1:], strict=False)):
         every = -(-(len(d.edges) - 1) // (2 * X_TICKS))  # at most ten labelled values
         x_ticks = tuple(Tick(x(d.edges[i] + 0.5), _edge_label(d.edges[i], True))
                         for i in range(0, len(d.edges) - 1, every))

@@ -126,7 +126,8 @@ def _ordered(graph: LineageGraph, columns: dict[str, int]) -> dict[int, list[Lin
         for column in (order[1:] if sweep % 2 == 0 else list(reversed(order))[1:]):
             members = by_column[column]
 
-            def centre(node: LineageNode, members: list[LineageNode] = members) -> float:
+            def centre(node: LineageNode, members: list[LineageNode] = members,
+                       position: dict[str, int] = position, column: int = column) -> float:
                 near = [position[m] for m in neighbours[node.id]
                         if columns[m] != column and m in position]
                 return sum(near) / len(near) if near else members.index(node)
@@ -140,12 +141,13 @@ def _ordered(graph: LineageGraph, columns: dict[str, int]) -> dict[int, list[Lin
 def _switch_neighbours(by_column: dict[int, list[LineageNode]], graph: LineageGraph,
                        columns: dict[str, int]) -> None:
     """Refine the sweeps: reorder one column at a time to the order with the fewest crossings
-    (edges between the same two columns), the others held still, until no column improves. Small columns
-    try every order (one-sided crossing minimisation, exact for up to EXACT_COLUMN nodes), larger
-    ones swap neighbours greedily (Eades and Kelly 1986). Barycentres alone leave crossings where
-    a node's neighbours pull both ways (a feed read by several versions, say)."""
+    (edges between the same two columns), the others held still, until no column improves. Small
+    columns try every order (one-sided crossing minimisation, exact for up to EXACT_COLUMN nodes),
+    larger ones swap neighbours greedily (Eades and Kelly 1986). Barycentres alone leave crossings
+    where a node's neighbours pull both ways (a feed read by several versions, say)."""
     links = [(e.source, e.target) for e in graph.edges
-             if e.source in columns and e.target in columns and columns[e.source] != columns[e.target]]
+             if e.source in columns and e.target in columns
+             and columns[e.source] != columns[e.target]]
 
     def count() -> int:
         position = {n.id: i for members in by_column.values() for i, n in enumerate(members)}

@@ -9,6 +9,7 @@ not refused: they may belong to rows served before the retention or elsewhere.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any, cast
 
 import fastavro
 import numpy as np
@@ -102,7 +103,9 @@ def _read_table(path: str, format: str) -> pa.Table:
             return pq.read_table(path)
         if format == "avro":
             with open(path, "rb") as handle:
-                return pa.Table.from_pylist(list(fastavro.reader(handle)))
+                # an outcome batch's Avro schema is a record, so every datum is a dict
+                records = cast("list[dict[str, Any]]", list(fastavro.reader(handle)))
+                return pa.Table.from_pylist(records)
         options = pacsv.ConvertOptions(column_types={n: pa.string() for n in COLUMNS},
                                        strings_can_be_null=True, null_values=[""])
         return pacsv.read_csv(path, convert_options=options)

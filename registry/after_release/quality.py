@@ -58,9 +58,11 @@ def live_quality(task: str, labels: np.ndarray, scores: np.ndarray, classes: tup
     z = _z(confidence)
     try:
         if metric == "roc_auc" and task == "binary":
-            error = auc_standard_error(labels, scores)
-            return LiveQuality(rows, metrics, metric, value, value - z * error,
-                               value + z * error, "delong")
+            # raises unless both classes occur, so the AUC itself is known below
+            standard_error = auc_standard_error(labels, scores)
+            if value is not None:
+                return LiveQuality(rows, metrics, metric, value, value - z * standard_error,
+                                   value + z * standard_error, "delong")
     except UndefinedMetric as error:
         return LiveQuality(rows, metrics, metric, value, notes=(error.message,))
     if metric == "accuracy" and value is not None:

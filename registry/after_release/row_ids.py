@@ -7,9 +7,10 @@ ids share a hash with probability about n^2 / 2^65 (1 in 370,000 for ten million
 
 from __future__ import annotations
 
+from typing import cast
+
 import numpy as np
 import pyarrow as pa
-import pyarrow.compute as pc
 
 from registry.lazy_import import lazy_import
 
@@ -21,9 +22,9 @@ def as_text(array: pa.Array | pa.ChunkedArray) -> pa.Array:
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
     if pa.types.is_dictionary(array.type):
-        array = array.dictionary_decode()
+        array = cast(pa.DictionaryArray, array).dictionary_decode()
     if not (pa.types.is_string(array.type) or pa.types.is_large_string(array.type)):
-        array = pc.cast(array, pa.string())
+        array = array.cast(pa.string())
     return array
 
 
@@ -34,9 +35,11 @@ def hash_row_ids(array: pa.Array | pa.ChunkedArray) -> np.ndarray:
     if len(array) == 0:
         return out
     offset_type = np.int64 if pa.types.is_large_string(array.type) else np.int32
-    buffers = array.buffers()
-    offsets = np.frombuffer(buffers[1], offset_type)[array.offset:array.offset + len(array) + 1]
-    data = (np.frombuffer(buffers[2], np.uint8) if buffers[2] is not None
+    offsets_buffer, data_buffer = array.buffers()[1:3]
+    assert offsets_buffer is not None  # a string array always has its offsets
+    offsets = np.frombuffer(memoryview(offsets_buffer), offset_type)[
+        array.offset:array.offset + len(array) + 1]
+    data = (np.frombuffer(memoryview(data_buffer), np.uint8) if data_buffer is not None
             else np.zeros(0, np.uint8))
     kernels.hash_strings(offsets, data, out)
     return out

@@ -419,8 +419,10 @@ def _add_groups(groups, batch, record, task, inputs, context, versions, starts, 
                 chosen = np.flatnonzero((versions == number) & (starts == start))
                 if len(chosen) == 0:
                     continue
-            pick = (lambda values: values) if chosen is None else (
-                lambda values: values[chosen])
+
+            def pick(values: np.ndarray, chosen: np.ndarray | None = chosen) -> np.ndarray:
+                return values if chosen is None else values[chosen]
+
             part = batch if chosen is None else batch.take(pa.array(chosen))
             times = pick(micros)
             summary = WindowSummary(

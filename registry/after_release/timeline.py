@@ -64,8 +64,8 @@ def _joined(spells: list[Spell]) -> tuple[Spell, ...]:
     at the same moment."""
     joined: list[Spell] = []
     for spell in spells:
-        if joined and joined[-1].end is not None and joined[-1].end >= spell.start:
-            last = joined[-1]
+        last = joined[-1] if joined else None
+        if last is not None and last.end is not None and last.end >= spell.start:
             end = None if spell.end is None else max(last.end, spell.end)
             joined[-1] = Spell(last.start, end, last.stages + spell.stages)
         else:

@@ -115,7 +115,8 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
     leave_out = set(fingerprint.keys) | set(fingerprint.excluded)
     rows = batch.num_rows
     feature_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)]
-    rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)] if leave_out else None
+    # the left-out columns' sums; empty (and never read) when no column is left out
+    rest_sums = [np.zeros(rows, np.uint64), np.zeros(rows, np.uint64)] if leave_out else []
     profiles = {}
     for name in record.names:
         array, value_type = batch.column(name), record.field(name)
@@ -141,6 +142,7 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
     feature = int(fingerprint.feature_digest, 16) + features[2] if leave_out else content
     key_digest = fingerprint.key_digest
     if fingerprint.keys:
+        assert key_digest is not None  # a fingerprint with keys has a key digest
         key_digest = digest_hex(int(key_digest, 16) + hashing.digest_of_lanes(
             *_key_hashes(batch, record, fingerprint.keys)))
     sketch = add_hashes(fingerprint.sketch, full[1])
@@ -175,12 +177,15 @@ def merge_fingerprints(a: DatasetFingerprint, b: DatasetFingerprint) -> DatasetF
     if (a.schema_fingerprint, a.keys, a.excluded) != (b.schema_fingerprint, b.keys, b.excluded):
         raise UserError("only fingerprints of one schema with the same key and excluded "
                         "columns merge")
+    key_digest = None
+    if a.key_digest is not None:
+        assert b.key_digest is not None  # the same keys, so both have a key digest
+        key_digest = digest_hex(int(a.key_digest, 16) + int(b.key_digest, 16))
     return replace(
         a, rows=a.rows + b.rows,
         content_digest=digest_hex(int(a.content_digest, 16) + int(b.content_digest, 16)),
         feature_digest=digest_hex(int(a.feature_digest, 16) + int(b.feature_digest, 16)),
-        key_digest=None if a.key_digest is None else digest_hex(
-            int(a.key_digest, 16) + int(b.key_digest, 16)),
+        key_digest=key_digest,
         profile={name: merge_profiles(column, b.profile[name])
                  for name, column in a.profile.items()},
         sketch=merge_sketches(a.sketch, b.sketch),
@@ -232,7 +237,8 @@ def fingerprint_batches(batches: Iterable[pa.RecordBatch], record: RecordType,
 def fingerprint_source(source: Source, keys: Sequence[str] = (), exclude: Sequence[str] = (),
                        progress: Callable[[int], None] | None = None,
                        part: Part = (0, 1), threads: bool = True) -> DatasetFingerprint:
-    batches = (batch for _, batch in read_batches(replace(source, threads=threads), part))
+    batches: Iterator[pa.RecordBatch] = (
+        batch for _, batch in read_batches(replace(source, threads=threads), part))
     if threads:
         batches = read_ahead(batches)
     return fingerprint_batches(batches, source.record, keys, exclude, progress, threads)

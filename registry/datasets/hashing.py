@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 from functools import lru_cache
+from typing import cast
 
 import numpy as np
 import pyarrow as pa
@@ -96,9 +97,11 @@ def contributions(array: pa.Array, value_type: ValueType,
     if isinstance(array, pa.ChunkedArray):
         array = array.combine_chunks()
     if value_type.avro == "union":
-        return _union_contributions(array, value_type, name)
+        return _union_contributions(cast(pa.UnionArray, array), value_type, name)
     kind = KIND_OF_AVRO[value_type.avro]
     w0, w1 = words(array, value_type)
+    k0: np.uint64 | np.ndarray  # one key for the column, or one per row once nulls are keyed
+    k1: np.uint64 | np.ndarray
     k0, k1 = field_key(kind, name)
     one_word = w1 is w0
     valid = _validity(array) if array.null_count else None
@@ -170,7 +173,8 @@ def words(array: pa.Array, value_type: ValueType) -> tuple[np.ndarray, np.ndarra
     if avro == "record":
         sums = (np.zeros(len(array), np.uint64), np.zeros(len(array), np.uint64))
         for index, (child_name, child_type) in enumerate(value_type.fields):
-            c0, c1 = contributions(array.field(index), child_type, child_name)
+            c0, c1 = contributions(cast(pa.StructArray, array).field(index), child_type,
+                                   child_name)
             sums[0][:] += c0
             sums[1][:] += c1
         return _zero_nulls(finish(sums, RECORD), array)
@@ -191,8 +195,9 @@ def byte_string_words(array: pa.Array) -> tuple[np.ndarray, np.ndarray]:
     """W(s) = mix64((len XOR B) + sum_i mix64(w_i XOR (B + (i+1)*GOLDEN))) per lane, with
     B = K(kind, "") and w_i the zero-padded 8-byte words of the string's bytes."""
     if pa.types.is_dictionary(array.type):
-        d0, d1 = byte_string_words(array.dictionary)
-        indices = array.indices.fill_null(0).to_numpy(zero_copy_only=False)
+        encoded = cast(pa.DictionaryArray, array)
+        d0, d1 = byte_string_words(encoded.dictionary)
+        indices = encoded.indices.fill_null(0).to_numpy(zero_copy_only=False)
         if len(d0) == 0:  # every value is null; the words of nulls are placeholders
             return np.zeros(len(indices), d0.dtype), np.zeros(len(indices), d1.dtype)
         return d0[indices], d1[indices]
@@ -207,10 +212,11 @@ def byte_string_words(array: pa.Array) -> tuple[np.ndarray, np.ndarray]:
     if array.null_count:
         array = array.fill_null(b"")
     offsets_type = np.int64 if pa.types.is_large_binary(array.type) else np.int32
-    buffers = array.buffers()
-    offsets = np.frombuffer(buffers[1], dtype=offsets_type)[
+    offsets_buffer, data_buffer = array.buffers()[1:3]
+    assert offsets_buffer is not None  # a binary array always has its offsets
+    offsets = np.frombuffer(memoryview(offsets_buffer), dtype=offsets_type)[
         array.offset:array.offset + len(array) + 1].astype(np.int64)
-    data = (np.frombuffer(buffers[2], dtype=np.uint8) if buffers[2] is not None
+    data = (np.frombuffer(memoryview(data_buffer), dtype=np.uint8) if data_buffer is not None
             else np.zeros(0, np.uint8))
     lengths = np.diff(offsets)
     word_counts = (lengths + 7) // 8
@@ -237,22 +243,26 @@ def byte_string_words(array: pa.Array) -> tuple[np.ndarray, np.ndarray]:
 
 def _collection_words(array: pa.Array, value_type: ValueType) -> tuple[np.ndarray, np.ndarray]:
     """Arrays hash as the multiset of records {index, item}; maps as the multiset {key, value}."""
-    offsets = array.offsets.to_numpy(zero_copy_only=False).astype(np.int64)
+    offsets = cast(pa.ListArray, array).offsets.to_numpy(zero_copy_only=False).astype(np.int64)
     start, end = int(offsets[0]), int(offsets[-1])
     lengths = np.diff(offsets)
+    first: pa.Array
     if value_type.avro == "array":
         first = pa.array(np.arange(end - start, dtype=np.int64) -
                          np.repeat(offsets[:-1] - start, lengths))
         first_type, first_name = ValueType(avro="long"), "index"
-        second = array.values.slice(start, end - start)
+        second = cast(pa.ListArray, array).values.slice(start, end - start)
         second_name = "item"
     else:
-        first = array.keys.slice(start, end - start)
+        entries = cast(pa.MapArray, array)
+        first = entries.keys.slice(start, end - start)
         first_type, first_name = ValueType(avro="string"), "key"
-        second = array.items.slice(start, end - start)
+        second = entries.items.slice(start, end - start)
         second_name = "value"
+    items = value_type.items
+    assert items is not None  # an array's or a map's type always names its items
     a0, a1 = contributions(first, first_type, first_name)
-    b0, b1 = contributions(second, value_type.items, second_name)
+    b0, b1 = contributions(second, items, second_name)
     e0, e1 = finish((a0 + b0, a1 + b1), RECORD)
     ends = offsets[1:] - start
     starts = offsets[:-1] - start

@@ -104,7 +104,7 @@ def plan_fingerprint(arguments: Sequence[str], schema_json: Mapping[str, Any] | 
     settings = JobSettings(dict(schema_json), tuple(keys), tuple(exclude), names_files)
     jobs: list[Job] = []
     total_rows: int | None = 0
-    for index, (data_file, file_format) in enumerate(zip(files, formats)):
+    for index, (data_file, file_format) in enumerate(zip(files, formats, strict=True)):
         with naming(data_file, names_files):
             partition = _typed_partition(data_file, record)
             source = open_source(data_file.path, schema_json, file_format, partition)
@@ -163,11 +163,11 @@ def _schema_the_files_share(files: Sequence[DataFile], formats: Sequence[str],
     """Without --schema, every file's own schema must be the first file's; the partition
     keys the files lack join it as strings."""
     schemas = []
-    for data_file, file_format in zip(files, formats):
+    for data_file, file_format in zip(files, formats, strict=True):
         with naming(data_file, names_files):
             schemas.append(dict(open_source(data_file.path, None, file_format).schema_json))
     first = schemas[0]
-    for data_file, schema in zip(files[1:], schemas[1:]):
+    for data_file, schema in zip(files[1:], schemas[1:], strict=True):
         _check_agreement(files[0], first, data_file, schema)
     names = {field["name"] for field in first["fields"]}
     added = [{"name": key, "type": "string"} for key in partition_keys if key not in names]

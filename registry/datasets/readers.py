@@ -11,10 +11,10 @@ import csv
 import datetime
 import json
 import os
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from functools import cached_property, partial
-from typing import Any
+from typing import IO, Any, cast
 
 import fastavro
 import fastavro.schema
@@ -78,6 +78,7 @@ def open_source(path: str, schema_json: Mapping[str, Any] | None = None,
 
     With a partition, the schema (required then) holds the partition's fields too."""
     if partition:
+        assert schema_json is not None  # a partitioned file is always read with a schema
         source = open_source(path, without_fields(schema_json, dict(partition)), format)
         return Source(path, source.format, record_type(schema_json), source.total_rows,
                       partition)
@@ -137,7 +138,8 @@ def with_partition(batch: pa.RecordBatch, source: Source) -> pa.RecordBatch:
     if not source.partition:
         return batch
     values = dict(source.partition)
-    columns = [pa.repeat(pa.scalar(values[name], type=value_type.arrow_type()), batch.num_rows)
+    columns = [pa.repeat(  # type: ignore[call-overload]  # any scalar repeats; stubs list some
+                   pa.scalar(values[name], type=value_type.arrow_type()), batch.num_rows)
                if name in values else batch.column(name)
                for name, value_type in source.record.fields]
     return pa.RecordBatch.from_arrays(columns, schema=source.record.arrow_schema())
@@ -162,10 +164,15 @@ class _ReadsNoFurtherThanTheEnd:
         return getattr(self._handle, name)
 
 
+def _bounded(handle: IO[bytes]) -> IO[bytes]:
+    """`handle` with its reads bounded by the file's end; every other call goes to `handle`."""
+    return cast(IO[bytes], _ReadsNoFurtherThanTheEnd(handle))
+
+
 def _avro_writer_schema(path: str) -> dict[str, Any]:
     try:
         with open(path, "rb") as handle:
-            return json.loads(fastavro.reader(_ReadsNoFurtherThanTheEnd(handle))
+            return json.loads(fastavro.reader(_bounded(handle))
                               .metadata["avro.schema"])
     except Exception as error:  # fastavro reports a bad header in several ways
         raise DatasetFileError(f"not an Avro container file or its header is damaged ({error})",
@@ -183,7 +190,7 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
     pending_start = 0
     with open(source.path, "rb") as handle:
         try:
-            blocks = fastavro.block_reader(_ReadsNoFurtherThanTheEnd(handle), reader_schema)
+            blocks = fastavro.block_reader(_bounded(handle), reader_schema)
         except fastavro.read.SchemaResolutionError as error:
             raise ColumnsNotMatching(f"the file's records cannot be read with the given "
                                      f"schema ({error})", place=source.path) from error
@@ -210,7 +217,8 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
             if not pending and not converted:
                 pending_start = rows_read
             try:
-                pending.extend(block)
+                # the file's schema is a record, so every decoded datum is a dict
+                pending.extend(cast(Iterable[dict], block))
             except fastavro.read.SchemaResolutionError as error:
                 raise ColumnsNotMatching(f"the file's records cannot be read with the given "
                                          f"schema ({error})", place=source.path) from error
@@ -225,12 +233,18 @@ def _avro_batches(source: Source, part: Part, batch_rows: int):
                 converted_rows += len(pending)
                 pending = []
             if converted_rows >= batch_rows:
-                yield pending_start, pa.concat_batches(converted)
+                yield pending_start, _concatenated(converted)
                 converted, converted_rows = [], 0
     if pending:
         converted.append(_records_to_batch(pending, make_batch, converters))
     if converted:
-        yield pending_start, pa.concat_batches(converted)
+        yield pending_start, _concatenated(converted)
+
+
+
+def _concatenated(batches: list[pa.RecordBatch]) -> pa.RecordBatch:
+    """The batches' rows, in order, as one batch."""
+    return pa.concat_batches(batches)  # type: ignore[attr-defined]  # not in pyarrow's stubs
 
 
 def _avro_reader_schema(source: Source) -> dict[str, Any] | None:
@@ -259,7 +273,7 @@ class _AvroBatchMaker:
                                  if t.avro != "union"])
 
     def __call__(self, records: list[dict]) -> pa.RecordBatch:
-        plain = pa.array(records, type=self.struct)
+        plain = cast(pa.StructArray, pa.array(records, type=self.struct))
         columns = {name: plain.field(name) for name in self.struct.names}
         for name, value_type in self.unions:
             columns[name] = union_array([r[name] for r in records], value_type)
@@ -271,17 +285,18 @@ def union_array(values: list[Any], value_type: ValueType) -> pa.UnionArray:
     """A dense union array: code 0 for null, then the first branch each value fits."""
     codes = np.fromiter((_branch_of(v, value_type.branches) for v in values), dtype=np.int8,
                         count=len(values))
-    children, offsets = [pa.nulls(int(np.count_nonzero(codes == 0)))], np.zeros(len(values),
-                                                                                 np.int32)
+    children: list[pa.Array] = [pa.nulls(int(np.count_nonzero(codes == 0)))]
+    offsets = np.zeros(len(values), np.int32)
     offsets[codes == 0] = np.arange(int(np.count_nonzero(codes == 0)))
     for code, branch in enumerate(value_type.branches, start=1):
         chosen = np.flatnonzero(codes == code)
         offsets[chosen] = np.arange(len(chosen))
         children.append(pa.array([values[i] for i in chosen], type=branch.arrow_type()))
-    union_type = value_type.arrow_type()
-    return pa.UnionArray.from_dense(pa.array(codes, type=pa.int8()), pa.array(offsets), children,
-                                    field_names=[f.name for f in union_type],
-                                    type_codes=list(range(len(children))))
+    union_type = cast(pa.UnionType, value_type.arrow_type())
+    return pa.UnionArray.from_dense(
+        pa.array(codes, type=pa.int8()), pa.array(offsets, type=pa.int32()), children,
+        field_names=[f.name for f in union_type],
+        type_codes=list(range(len(children))))  # type: ignore[arg-type]  # a list of ints works
 
 
 def _branch_of(value: Any, branches: tuple[ValueType, ...]) -> int:
@@ -355,7 +370,7 @@ def _logical_converters(schema_json: Mapping[str, Any]) -> dict[str, Callable[[A
         if not isinstance(kind, dict) or "logicalType" not in kind:
             continue
         logical = kind["logicalType"]
-        convert: Callable[[Any], Any] | None = {
+        by_logical: dict[str, Callable[[Any], Any]] = {
             "date": lambda v: (v - _EPOCH_DATE).days,
             "time-millis": lambda v: _time_of_day(v, 1000),
             "time-micros": lambda v: _time_of_day(v, 10**6),
@@ -364,7 +379,8 @@ def _logical_converters(schema_json: Mapping[str, Any]) -> dict[str, Callable[[A
             "local-timestamp-millis": lambda v: _since_epoch(v, 1000),
             "local-timestamp-micros": lambda v: _since_epoch(v, 10**6),
             "uuid": str,
-        }.get(logical)
+        }
+        convert: Callable[[Any], Any] | None = by_logical.get(logical)
         if logical == "decimal":
             convert = partial(_decimal_bytes, scale=int(kind.get("scale", 0)),
                               size=kind.get("size"))
@@ -521,7 +537,7 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
                    parse_text: bool) -> pa.Array:
     target = value_type.arrow_type()
     if pa.types.is_dictionary(array.type):
-        array = array.dictionary_decode()
+        array = cast(pa.DictionaryArray, array).dictionary_decode()
     array = _underlying(array, value_type)
     if parse_text and value_type.avro == "string" and not value_type.nullable:
         array = array.fill_null("")  # an unquoted empty field is the empty string
@@ -568,7 +584,7 @@ def _underlying(array: pa.Array, value_type: ValueType) -> pa.Array:
     if pa.types.is_timestamp(kind):
         return array.cast(pa.timestamp(unit, kind.tz), safe=False).cast(pa.int64())
     if pa.types.is_time(kind):
-        wanted = pa.time32(unit) if unit == "ms" else pa.time64(unit)
+        wanted = pa.time32("ms") if unit == "ms" else pa.time64("us")  # the units _TIME_UNITS has
         return array.cast(wanted, safe=False).cast(pa.int64())
     return array
 

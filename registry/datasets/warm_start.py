@@ -21,11 +21,12 @@ def _warm() -> None:
     fields += [{"name": f"nullable_{i}", "type": ["null", t if isinstance(t, str) else "Warm"]}
                for i, t in enumerate(_TYPES)]
     record = record_type({"type": "record", "name": "WarmStart", "fields": fields})
-    values = {"double": [0.5, 1.5, 2.5, 3.5], "long": [1, 2, 3, 4], "int": [1, 2, 3, 4],
-              "float": [0.5, 1.5, 2.5, 3.5], "string": ["a", "b", "a", "c"],
-              "boolean": [True, False, True, True]}
+    values: dict[str, list[object]] = {
+        "double": [0.5, 1.5, 2.5, 3.5], "long": [1, 2, 3, 4], "int": [1, 2, 3, 4],
+        "float": [0.5, 1.5, 2.5, 3.5], "string": ["a", "b", "a", "c"],
+        "boolean": [True, False, True, True]}
     columns = []
-    for name, value_type in record.fields:
+    for _name, value_type in record.fields:
         column = values.get(value_type.avro, ["A", "B", "A", "B"])
         if value_type.nullable:
             column = column[:3] + [None]

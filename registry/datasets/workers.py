@@ -70,7 +70,7 @@ def assemble(plan: FingerprintPlan, results: Sequence[JobResult]) -> DatasetRun:
     settings = plan.settings
     whole = empty_fingerprint(plan.record, settings.keys, settings.exclude)
     digests: dict[int, str] = {}
-    for job, result in zip(plan.jobs, results):
+    for job, result in zip(plan.jobs, results, strict=True):
         whole = merge_fingerprints(whole, result.fingerprint)
         if result.sha256 is not None:
             digests[job.file] = result.sha256
@@ -130,8 +130,9 @@ def run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[
         done, _ = wait(futures, timeout=None if block else 0, return_when=FIRST_COMPLETED)
         for future in done:
             index = futures.pop(future)
-            results[index] = future.result()  # raises the job's error, as it was raised
-            tally.finished(plan.jobs[index], results[index].fingerprint.rows)
+            result = future.result()  # raises the job's error, as it was raised
+            results[index] = result
+            tally.finished(plan.jobs[index], result.fingerprint.rows)
 
     try:
         feed()

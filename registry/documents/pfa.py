@@ -122,43 +122,10 @@ def _pointer(*parts: str | int) -> str:
 
 
 def _summarise(document: Any, digest: CanonicalDigest, data: bytes) -> PfaSummary:
-    if not isinstance(document, dict):
-        raise _fail("a PFA document is a JSON object", "/")
-    allowed = set(REQUIRED_FIELDS) | set(OPTIONAL_FIELDS) | {LOCATOR_MARK}
-    unknown = [key for key in document if key not in allowed]
-    if unknown:
-        raise _fail(f"unknown top-level field{'s' if len(unknown) > 1 else ''} "
-                    f"{', '.join(repr(key) for key in unknown)}; PFA allows "
-                    f"{', '.join(REQUIRED_FIELDS + OPTIONAL_FIELDS)}", _pointer(unknown[0]))
-    for key in REQUIRED_FIELDS:
-        if key not in document:
-            what = "its action" if key == "action" else f"its {key} schema"
-            raise _fail(f"missing: every PFA document declares {what}", _pointer(key))
-
-    method = document.get("method", "map")
-    if method not in METHODS:
-        raise _fail(f"method must be one of {', '.join(METHODS)}", "/method")
-    if method == "fold":
-        for key in ("zero", "merge"):
-            if key not in document:
-                raise _fail(f"missing: a fold engine needs {key}", _pointer(key))
-    name = document.get("name")
-    if name is not None and not (isinstance(name, str) and NAME_PATTERN.fullmatch(name)):
-        raise _fail("name must match [A-Za-z_][A-Za-z0-9_]*", "/name")
-    for key in ("version", "randseed"):
-        value = document.get(key)
-        if value is not None and (not isinstance(value, int) or isinstance(value, bool)):
-            raise _fail(f"{key} must be an integer", _pointer(key))
-    if "doc" in document and not isinstance(document["doc"], str):
-        raise _fail("doc must be a string", "/doc")
-    metadata = document.get("metadata", {})
-    if not isinstance(metadata, dict):
-        raise _fail("metadata must be a JSON object of strings", "/metadata")
-    for key, value in metadata.items():
-        if not isinstance(value, str):
-            raise _fail("metadata values must be strings", _pointer("metadata", key))
-    if not isinstance(document.get("options", {}), dict):
-        raise _fail("options must be a JSON object", "/options")
+    _check_top_level_fields(document)
+    method = _method_of(document)
+    name = _name_of(document)
+    _check_plain_fields(document)
 
     # Named types declared anywhere are visible to every later reference: one registry for all.
     names = Names()
@@ -173,6 +140,59 @@ def _summarise(document: Any, digest: CanonicalDigest, data: bytes) -> PfaSummar
     return PfaSummary(digest=digest.sha256, canonical_size=digest.size, name=name,
                       method=method, input_schema=input_schema, output_schema=output_schema,
                       cells=cells, pools=pools, function_count=function_count)
+
+
+def _check_top_level_fields(document: Any) -> None:
+    """A JSON object with every required field and no field PFA does not know."""
+    if not isinstance(document, dict):
+        raise _fail("a PFA document is a JSON object", "/")
+    allowed = set(REQUIRED_FIELDS) | set(OPTIONAL_FIELDS) | {LOCATOR_MARK}
+    unknown = [key for key in document if key not in allowed]
+    if unknown:
+        raise _fail(f"unknown top-level field{'s' if len(unknown) > 1 else ''} "
+                    f"{', '.join(repr(key) for key in unknown)}; PFA allows "
+                    f"{', '.join(REQUIRED_FIELDS + OPTIONAL_FIELDS)}", _pointer(unknown[0]))
+    for key in REQUIRED_FIELDS:
+        if key not in document:
+            what = "its action" if key == "action" else f"its {key} schema"
+            raise _fail(f"missing: every PFA document declares {what}", _pointer(key))
+
+
+def _method_of(document: dict[str, Any]) -> str:
+    """The engine's method (map by default); a fold engine must declare zero and merge."""
+    method: str = document.get("method", "map")
+    if method not in METHODS:
+        raise _fail(f"method must be one of {', '.join(METHODS)}", "/method")
+    if method == "fold":
+        for key in ("zero", "merge"):
+            if key not in document:
+                raise _fail(f"missing: a fold engine needs {key}", _pointer(key))
+    return method
+
+
+def _name_of(document: dict[str, Any]) -> str | None:
+    name = document.get("name")
+    if name is not None and not (isinstance(name, str) and NAME_PATTERN.fullmatch(name)):
+        raise _fail("name must match [A-Za-z_][A-Za-z0-9_]*", "/name")
+    return name
+
+
+def _check_plain_fields(document: dict[str, Any]) -> None:
+    """version, randseed, doc, metadata and options: their JSON types."""
+    for key in ("version", "randseed"):
+        value = document.get(key)
+        if value is not None and (not isinstance(value, int) or isinstance(value, bool)):
+            raise _fail(f"{key} must be an integer", _pointer(key))
+    if "doc" in document and not isinstance(document["doc"], str):
+        raise _fail("doc must be a string", "/doc")
+    metadata = document.get("metadata", {})
+    if not isinstance(metadata, dict):
+        raise _fail("metadata must be a JSON object of strings", "/metadata")
+    for key, value in metadata.items():
+        if not isinstance(value, str):
+            raise _fail("metadata values must be strings", _pointer("metadata", key))
+    if not isinstance(document.get("options", {}), dict):
+        raise _fail("options must be a JSON object", "/options")
 
 
 def _storage(document: dict[str, Any], section: str, names: Names,

@@ -138,7 +138,8 @@ def count_line(report: GateReport) -> str:
               for status in ("passed", "waived", "failed")}
     shown = [f"{counts['passed']} passed"] + [f"{n} {status}" for status, n in counts.items()
                                               if n and status != "passed"]
-    return f"{', '.join(shown)} of {len(report.results)} gate{'s' if len(report.results) != 1 else ''}"
+    plural = "s" if len(report.results) != 1 else ""
+    return f"{', '.join(shown)} of {len(report.results)} gate{plural}"
 
 
 def render_report(report: GateReport) -> str:

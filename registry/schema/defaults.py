@@ -73,42 +73,70 @@ def _check(schema: Schema, value: Any, *, tagged_unions: bool) -> tuple[str, str
     stack: list[tuple[Schema, Any, str]] = [(schema, value, "")]
     while stack:
         current, datum, at = stack.pop()
-        if isinstance(current, Primitive):
-            message = _primitive_problem(current.kind, datum)
-            if message is not None:
-                return at, message
-        elif isinstance(current, Enum):
-            if datum not in current.symbols:
-                return at, f"{datum!r} is not a symbol of enum {current.name}"
-        elif isinstance(current, Fixed):
-            if not _is_byte_string(datum) or len(datum) != current.size:
-                return at, f"{datum!r} is not a string of {current.size} code points 0-255"
-        elif isinstance(current, Array):
-            if not isinstance(datum, list):
-                return at, f"{datum!r} is not a list"
-            stack.extend((current.items, item, f"{at}/{i}") for i, item in enumerate(datum))
-        elif isinstance(current, Map):
-            if not isinstance(datum, dict):
-                return at, f"{datum!r} is not an object"
-            stack.extend((current.values, item, f"{at}/{_pointer_token(key)}")
-                         for key, item in datum.items())
-        elif isinstance(current, Record):
-            if not isinstance(datum, dict):
-                return at, f"{datum!r} is not an object for record {current.name}"
-            for field in current.fields:
-                if field.name in datum:
-                    stack.append((field.type, datum[field.name], f"{at}/{field.name}"))
-                elif not field.has_default:
-                    return at, f"field {field.name!r} of record {current.name} is missing"
-        elif isinstance(current, Union) and tagged_unions and datum is not None:
-            names = {_branch_name(branch): branch for branch in current.branches}
-            if not (isinstance(datum, dict) and len(datum) == 1 and next(iter(datum)) in names):
-                return at, (f"a union value is null or an object naming its branch, one of "
-                            f"{', '.join(names)}")
-            (name, inner), = datum.items()
-            stack.append((names[name], inner, f"{at}/{_pointer_token(name)}"))
-        elif isinstance(current, Union):
-            if not any(_check(branch, datum, tagged_unions=tagged_unions) is None
-                       for branch in current.branches):
-                return at, f"{datum!r} fits no branch of the union"
+        message = _problem_here(current, datum, at, stack, tagged_unions=tagged_unions)
+        if message is not None:
+            return at, message
+    return None
+
+
+def _problem_here(current: Schema, datum: Any, at: str, stack: list[tuple[Schema, Any, str]],
+                  *, tagged_unions: bool) -> str | None:
+    """What is wrong with `datum` itself, if anything; its parts go on `stack` to check later."""
+    if isinstance(current, (Primitive, Enum, Fixed)):
+        return _leaf_problem(current, datum)
+    if isinstance(current, (Array, Map, Record)):
+        return _container_problem(current, datum, at, stack)
+    if isinstance(current, Union):
+        return _union_problem(current, datum, at, stack, tagged_unions=tagged_unions)
+    return None
+
+
+def _leaf_problem(current: Primitive | Enum | Fixed, datum: Any) -> str | None:
+    if isinstance(current, Primitive):
+        return _primitive_problem(current.kind, datum)
+    if isinstance(current, Enum):
+        if datum not in current.symbols:
+            return f"{datum!r} is not a symbol of enum {current.name}"
+        return None
+    if not _is_byte_string(datum) or len(datum) != current.size:
+        return f"{datum!r} is not a string of {current.size} code points 0-255"
+    return None
+
+
+def _container_problem(current: Array | Map | Record, datum: Any, at: str,
+                       stack: list[tuple[Schema, Any, str]]) -> str | None:
+    if isinstance(current, Array):
+        if not isinstance(datum, list):
+            return f"{datum!r} is not a list"
+        stack.extend((current.items, item, f"{at}/{i}") for i, item in enumerate(datum))
+        return None
+    if isinstance(current, Map):
+        if not isinstance(datum, dict):
+            return f"{datum!r} is not an object"
+        stack.extend((current.values, item, f"{at}/{_pointer_token(key)}")
+                     for key, item in datum.items())
+        return None
+    if not isinstance(datum, dict):
+        return f"{datum!r} is not an object for record {current.name}"
+    for field in current.fields:
+        if field.name in datum:
+            stack.append((field.type, datum[field.name], f"{at}/{field.name}"))
+        elif not field.has_default:
+            return f"field {field.name!r} of record {current.name} is missing"
+    return None
+
+
+def _union_problem(current: Union, datum: Any, at: str, stack: list[tuple[Schema, Any, str]],
+                   *, tagged_unions: bool) -> str | None:
+    if tagged_unions and datum is not None:
+        names = {_branch_name(branch): branch for branch in current.branches}
+        if not (isinstance(datum, dict) and len(datum) == 1 and next(iter(datum)) in names):
+            return (f"a union value is null or an object naming its branch, one of "
+                    f"{', '.join(names)}")
+        (name, inner), = datum.items()
+        stack.append((names[name], inner, f"{at}/{_pointer_token(name)}"))
+        return None
+    if not any(_check(branch, datum, tagged_unions=tagged_unions) is None
+               for branch in current.branches):
+        return f"{datum!r} fits no branch of the union"
     return None

@@ -15,6 +15,7 @@ class SchemaError(Unprocessable):
     """
 
     kind = "invalid-schema"
+    place: str  # always set: "/" when no narrower place is given
 
     def __init__(self, message: str, *, place: str | None = None, source: str = "",
                  line: int | None = None, column: int | None = None) -> None:
