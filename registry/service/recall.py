@@ -15,7 +15,7 @@ from registry.errors import NotFound, UserError
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.lineage import dataset_id, node_name, version_id
-from registry.service.policies import policy_of
+from registry.service.model_policy import policy_of
 from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue

@@ -29,9 +29,9 @@ from registry.after_release.windows import MICROS, parse_since, window_seconds
 from registry.datasets.profile import profile_of
 from registry.datasets.types import ValueType, record_type
 from registry.errors import UserError
-from registry.service import gatekeeping
 from registry.service.datasets import load_fingerprint
 from registry.service.evaluations import evaluations_of, stored_predictions
+from registry.service.model_policy import policy_of
 from registry.service.models import find_model, find_version
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
@@ -52,7 +52,7 @@ def _evaluation(uow: UnitOfWork, version: t.Version) -> tuple[t.Evaluation, t.Da
 
 def serving_context(uow: UnitOfWork, model: t.Model) -> ServingContext:
     """What the row checks of a served batch need to know of each version of the model."""
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     spells = spells_of(uow, model, policy.serving_stages)
     facts = {}
     for version in uow.serving.versions(model.id):
@@ -176,7 +176,7 @@ def _incumbents(spells: dict[int, tuple[Spell, ...]], starts: set[int],
 
 
 def _settings(model: t.Model, task: str | None, seconds: int) -> ReportSettings:
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     metric = policy.serving.quality_metric or DEFAULT_METRIC.get(task or "binary", "roc_auc")
     return ReportSettings(seconds, metric, policy.serving.quality_margin,
                           policy.serving.confidence)
@@ -194,7 +194,7 @@ def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
     outcomes: the slow way, used when rows arrive and for windows longer than the policy's."""
     if not summaries:
         return {}
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     task = _task_of(summaries.values())
     settings = _settings(model, task, seconds)
     numbers = {number for number, _ in summaries}
@@ -239,7 +239,7 @@ def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int]) -> None:
     or an outcome touched them), so that reports only read them."""
     if not starts:
         return
-    seconds = gatekeeping.policy_of(model).serving.window_seconds
+    seconds = policy_of(model).serving.window_seconds
     found = uow.serving.windows_at(model.id, seconds, sorted(starts))
     summaries = {(number, w.window_start): WindowSummary.from_dict(json.loads(w.summary_json))
                  for w, number in found}
@@ -251,7 +251,7 @@ def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int]) -> None:
 
 def report_in(uow: UnitOfWork, model: t.Model, *, version: int | None = None,
               since: str | None = None, window: str | None = None) -> dict[str, Any]:
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     stored = policy.serving.window_seconds
     seconds = window_seconds(window) if window else stored
     if seconds % stored:
