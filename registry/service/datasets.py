@@ -165,7 +165,8 @@ def _differences(uow: UnitOfWork, existing: t.Dataset, request: DatasetRequest,
         found.append(change("feed of", feed_before, feed_model and feed_model.name))
     if existing.source_uri != request.source_uri:
         found.append(change("source", existing.source_uri, request.source_uri))
-    files_before, files_now = uow.dataset_sources.of(existing.id), list(check_sources(request.sources))
+    files_before = uow.dataset_sources.of(existing.id)
+    files_now = list(check_sources(request.sources))
     if files_before != files_now:
         found.append(change("source files", f"{len(files_before)} files",
                             f"{len(files_now)} files, other names, sizes or contents"))

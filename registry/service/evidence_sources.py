@@ -35,7 +35,8 @@ def output_schema(version: t.Version) -> avro.Schema | None:
     return _schema_of(version, "output")
 
 
-def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version) -> gates.SchemaCheck:
+def _as_check(resolution: avro.Resolution, reader: t.Version,
+              writer: t.Version) -> gates.SchemaCheck:
     return gates.SchemaCheck(reader_version=reader.number, writer_version=writer.number,
                              compatible=resolution.compatible, problems=problems_of(resolution),
                              notes=notes_of(resolution))
@@ -132,7 +133,8 @@ def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.F
         return (gates.FeatureChange(field="*", kind="definitions-missing",
                                     classification="needs-review",
                                     message=f"{which} was registered without feature "
-                                            "definitions, so no change of meaning can be ruled out"),)
+                                            "definitions, so no change of meaning can be "
+                                            "ruled out"),)
     found = diff_features(old, _schema_of(incumbent, "input"), new, _schema_of(candidate, "input"))
     return tuple(gates.FeatureChange(field=change.path, kind=change.change,
                                      classification=change.severity, message=change.message)
@@ -191,8 +193,12 @@ def _quality_settings(specs) -> dict[str, dict]:
             if spec.gate in ("no-regression", "slice-guard")}
 
 
+QualityComparisons = tuple[tuple[gates.PairedComparison, ...],
+                           tuple[gates.SliceComparison, ...]]
+
+
 def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Version, specs
-                        ) -> tuple[tuple[gates.PairedComparison, ...], tuple[gates.SliceComparison, ...]]:
+                        ) -> QualityComparisons:
     """Paired comparisons of candidate and incumbent on every evaluation dataset both were
     evaluated on (same content digest), overall and per slice, with the stored predictions."""
     from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
@@ -207,7 +213,7 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
     confidence = settings.get("no-regression", {}).get("confidence", 0.95)
     comparisons: list[gates.PairedComparison] = []
     slices: list[gates.SliceComparison] = []
-    for evaluation, dataset in mine:
+    for evaluation, _dataset in mine:
         baseline_row = theirs.get(evaluation.dataset_content_digest)
         if baseline_row is None:
             continue
@@ -279,7 +285,7 @@ def in_flight(schemas: list[t.FeedSchema], retain_days: int, now: datetime
     if not schemas:
         return []
     oldest = now - timedelta(days=retain_days)
-    kept = [schema for schema, successor in zip(schemas, schemas[1:])
+    kept = [schema for schema, successor in zip(schemas, schemas[1:], strict=False)
             if _aware(successor.published_at) > oldest]
     return kept + [schemas[-1]]
 
