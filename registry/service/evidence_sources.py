@@ -27,7 +27,15 @@ def _schema_of(version: t.Version, which: str) -> avro.Schema | None:
     return _parsed(text) if text else None
 
 
-def input_schema(version: t.Version) -> avro.Schema:
+def _present_schema(version: t.Version, which: str) -> avro.Schema:
+    """A schema a check relies on: every version has an input schema, and output schemas are
+    compared only when both versions have one."""
+    schema = _schema_of(version, which)
+    assert schema is not None, f"version {version.number} has no {which} schema"
+    return schema
+
+
+def input_schema(version: t.Version) -> avro.Schema | None:
     return _schema_of(version, "input")
 
 
@@ -44,8 +52,8 @@ def _as_check(resolution: avro.Resolution, reader: t.Version,
 
 def schema_check(reader: t.Version, writer: t.Version, which: str) -> gates.SchemaCheck:
     """`reader`'s schema (input or output) resolving `writer`'s (Avro Schema Resolution)."""
-    return _as_check(avro.resolve(_schema_of(reader, which), _schema_of(writer, which)),
-                     reader, writer)
+    return _as_check(avro.resolve(_present_schema(reader, which),
+                                  _present_schema(writer, which)), reader, writer)
 
 
 def output_check(incumbent: t.Version, candidate: t.Version) -> gates.SchemaCheck | None:
@@ -238,15 +246,15 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
                     continue
                 per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)
                 for value, result in sorted(per_slice.values.items()):
-                    difference = result.differences.get(metric)
-                    if difference is None:
+                    in_slice = result.differences.get(metric)
+                    if in_slice is None:
                         continue
                     slices.append(gates.SliceComparison(
                         column=column, value=str(value), metric=metric,
-                        difference=difference.difference, ci_low=difference.ci_low,
-                        ci_high=difference.ci_high, p_value=difference.p_value,
+                        difference=in_slice.difference, ci_low=in_slice.ci_low,
+                        ci_high=in_slice.ci_high, p_value=in_slice.p_value,
                         higher_is_better=HIGHER_IS_BETTER[metric],
-                        adjusted_p_value=difference.p_value_holm, confidence=confidence,
+                        adjusted_p_value=in_slice.p_value_holm, confidence=confidence,
                         rows=result.n))
     if not comparisons and mine and theirs:
         # Both were evaluated, never on the same data: say so rather than compare.
@@ -296,7 +304,7 @@ def feed_checks(uow: UnitOfWork, feed: t.Feed, reader: t.Version, now: datetime
     schemas = uow.feeds.schemas(feed)
     flying = in_flight(schemas, feed.retain_days, now)
     current = schemas[-1].number if schemas else None
-    reader_schema = _schema_of(reader, "input")
+    reader_schema = _present_schema(reader, "input")
     checks = []
     for schema in reversed(flying):
         resolution = avro.resolve(reader_schema, _parsed(schema.schema_json))

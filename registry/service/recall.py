@@ -96,7 +96,7 @@ def _flagged_through_feeds(uow: UnitOfWork, dataset: t.Dataset,
     downstream of either."""
     from registry.store import contract_lineage as contracts
 
-    start = {r.key: None for r in walks.walk(
+    start: dict[walks.NodeKey, int | None] = {r.key: None for r in walks.walk(
         uow.session, walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")}
     reached = contracts.expand(uow.session, start, "down")
     extra = [k for k in reached if k not in start]
