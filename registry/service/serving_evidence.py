@@ -5,7 +5,7 @@ and the shadow agreement the gates judge."""
 from __future__ import annotations
 
 import json
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -37,6 +37,9 @@ from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 
+if TYPE_CHECKING:
+    import pyarrow as pa
+
 SCORE = ValueType("double")
 
 
@@ -57,7 +60,8 @@ def serving_context(uow: UnitOfWork, model: t.Model) -> ServingContext:
     facts = {}
     for version in uow.serving.versions(model.id):
         evaluated = _evaluation(uow, version)
-        task, classes = None, ()
+        task: str | None = None
+        classes: tuple[str, ...] = ()
         if evaluated is not None:
             task = evaluated[0].task
             if task == "multiclass":
@@ -106,6 +110,13 @@ def _as_array(values: np.ndarray):
 
 # --- compact rows ------------------------------------------------------------------------------
 
+def _joined(contents: list[bytes]) -> pa.Table:
+    """One table of several compact parts; callers pass at least one, so there is a table."""
+    table = compact.concatenated(contents)
+    assert table is not None
+    return table
+
+
 def _columns_of(table) -> list[str]:
     return [c for c in table.column_names if c != "row_hash"]
 
@@ -118,6 +129,7 @@ def prediction_rows(uow: UnitOfWork, model: t.Model, window: int, *, since: int 
     for rows, number in uow.serving.rows(model.id, "predictions", since=since, until=until):
         if versions is not None and number not in versions:
             continue
+        assert number is not None  # served predictions always name their version
         parts.setdefault((number, rows.window_start - rows.window_start % window),
                          []).append(rows.content)
     return {key: compact.concatenated(contents) for key, contents in parts.items()}
@@ -132,7 +144,7 @@ def outcome_labels(uow: UnitOfWork, model: t.Model, window: int, *, since: int |
         parts.setdefault(rows.window_start - rows.window_start % window, []).append(rows.content)
     joined = {}
     for start, contents in parts.items():
-        table = compact.concatenated(contents)
+        table = _joined(contents)
         hashes = table.column("row_hash").to_numpy()
         labels = table.column("label").to_numpy()
         # keep the last outcome of each row: unique over the reversed order
@@ -162,7 +174,7 @@ def _with_labels(table, outcomes: tuple[np.ndarray, np.ndarray] | None) -> Windo
 def _incumbents(spells: dict[int, tuple[Spell, ...]], starts: set[int],
                 window: int) -> dict[int, int | None]:
     """Per window: the version that held the top stage at its middle (or at its start)."""
-    found = {}
+    found: dict[int, int | None] = {}
     for start in starts:
         found[start] = None
         for moment in ((start + window // 2) * MICROS, start * MICROS,
@@ -354,7 +366,7 @@ def shadow_agreement(uow: UnitOfWork, model: t.Model, candidate: t.Version,
             theirs.append(rows.content)
     if not mine or not theirs:
         return None
-    a, b = compact.concatenated(mine), compact.concatenated(theirs)
+    a, b = _joined(mine), _joined(theirs)
     columns = _columns_of(a)
     task = ("binary" if columns == ["score"] else "regression" if columns == ["prediction"]
             else "multiclass")
