@@ -39,7 +39,8 @@ def read_audit_log(catalogue: Catalogue, wanted: AuditFilter) -> dict[str, Any]:
 
             find_dataset(uow, wanted.dataset)
         events = uow.audit_events.newest(wanted)
-        if not events and wanted.actor is not None and wanted.actor not in uow.audit_events.actors():
+        if (not events and wanted.actor is not None
+                and wanted.actor not in uow.audit_events.actors()):
             raise NotFound(f"no event by {wanted.actor!r}"
                            f"{did_you_mean(wanted.actor, uow.audit_events.actors())}",
                            place="--actor")

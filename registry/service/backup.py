@@ -356,7 +356,9 @@ def _reset_sequences(uow: UnitOfWork) -> None:
 def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSummary:
     """Insert a checked export into an empty catalogue, in one transaction, keeping every id."""
     with UnitOfWork(catalogue) as uow:
-        uow.capture.allow_bulk = True  # the imported chain itself backs every imported row
+        capture = uow.capture
+        assert capture is not None  # a writing unit of work captures its rows
+        capture.allow_bulk = True  # the imported chain itself backs every imported row
         _require_empty(uow)
         for table in _tables():
             if export.rows[table.name]:

@@ -165,7 +165,9 @@ class CachedReads:
 
     def connections_in_use(self) -> int:
         """Reading connections checked out now, not counting the idle ones kept for the head."""
-        return self.engine.pool.checkedout() - self._idle_connections.qsize()
+        pool = self.engine.pool
+        assert isinstance(pool, QueuePool)  # read_engine pools every connection it makes
+        return pool.checkedout() - self._idle_connections.qsize()
 
     def close(self) -> None:
         while not self._idle_connections.empty():

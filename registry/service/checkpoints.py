@@ -30,5 +30,6 @@ def newest_checkpoint(catalogue: Catalogue, actor: Actor) -> dict[str, Any]:
         newest = uow.checkpoints.newest()
         if newest is None or newest.sequence != head[0] or newest.key_id != key.key_id:
             newest = sign_head(uow)
+            assert newest is not None  # current key and a non-empty log, both checked above
             uow.commit()
         return to_document(newest, current.public_key_pem)

@@ -91,10 +91,11 @@ def dataset_registration_digest(name: str, role: str, source_uri: str, content_d
     """What makes two dataset registrations the same; recomputed by `audit verify`. The
     source files count only when recorded, so digests of datasets registered without them
     stay as they were."""
-    identity = {"name": name, "role": role, "source_uri": source_uri,
-                "content_digest": content_digest, "schema_fingerprint": schema_fingerprint,
-                "fingerprint_digest": fingerprint_digest, "derived_from": sorted(parents),
-                "feed_of": feed_of}
+    identity: dict[str, object] = {
+        "name": name, "role": role, "source_uri": source_uri,
+        "content_digest": content_digest, "schema_fingerprint": schema_fingerprint,
+        "fingerprint_digest": fingerprint_digest, "derived_from": sorted(parents),
+        "feed_of": feed_of}
     if sources:
         identity["sources"] = [list(source) for source in sources]
     return digest_of(identity)
@@ -165,7 +166,8 @@ def _differences(uow: UnitOfWork, existing: t.Dataset, request: DatasetRequest,
         found.append(change("feed of", feed_before, feed_model and feed_model.name))
     if existing.source_uri != request.source_uri:
         found.append(change("source", existing.source_uri, request.source_uri))
-    files_before, files_now = uow.dataset_sources.of(existing.id), list(check_sources(request.sources))
+    files_before = uow.dataset_sources.of(existing.id)
+    files_now = list(check_sources(request.sources))
     if files_before != files_now:
         found.append(change("source files", f"{len(files_before)} files",
                             f"{len(files_now)} files, other names, sizes or contents"))

@@ -27,7 +27,15 @@ def _schema_of(version: t.Version, which: str) -> avro.Schema | None:
     return _parsed(text) if text else None
 
 
-def input_schema(version: t.Version) -> avro.Schema:
+def _present_schema(version: t.Version, which: str) -> avro.Schema:
+    """A schema a check relies on: every version has an input schema, and output schemas are
+    compared only when both versions have one."""
+    schema = _schema_of(version, which)
+    assert schema is not None, f"version {version.number} has no {which} schema"
+    return schema
+
+
+def input_schema(version: t.Version) -> avro.Schema | None:
     return _schema_of(version, "input")
 
 
@@ -35,7 +43,8 @@ def output_schema(version: t.Version) -> avro.Schema | None:
     return _schema_of(version, "output")
 
 
-def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version) -> gates.SchemaCheck:
+def _as_check(resolution: avro.Resolution, reader: t.Version,
+              writer: t.Version) -> gates.SchemaCheck:
     return gates.SchemaCheck(reader_version=reader.number, writer_version=writer.number,
                              compatible=resolution.compatible, problems=problems_of(resolution),
                              notes=notes_of(resolution))
@@ -43,8 +52,8 @@ def _as_check(resolution: avro.Resolution, reader: t.Version, writer: t.Version)
 
 def schema_check(reader: t.Version, writer: t.Version, which: str) -> gates.SchemaCheck:
     """`reader`'s schema (input or output) resolving `writer`'s (Avro Schema Resolution)."""
-    return _as_check(avro.resolve(_schema_of(reader, which), _schema_of(writer, which)),
-                     reader, writer)
+    return _as_check(avro.resolve(_present_schema(reader, which),
+                                  _present_schema(writer, which)), reader, writer)
 
 
 def output_check(incumbent: t.Version, candidate: t.Version) -> gates.SchemaCheck | None:
@@ -132,7 +141,8 @@ def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.F
         return (gates.FeatureChange(field="*", kind="definitions-missing",
                                     classification="needs-review",
                                     message=f"{which} was registered without feature "
-                                            "definitions, so no change of meaning can be ruled out"),)
+                                            "definitions, so no change of meaning can be "
+                                            "ruled out"),)
     found = diff_features(old, _schema_of(incumbent, "input"), new, _schema_of(candidate, "input"))
     return tuple(gates.FeatureChange(field=change.path, kind=change.change,
                                      classification=change.severity, message=change.message)
@@ -191,8 +201,12 @@ def _quality_settings(specs) -> dict[str, dict]:
             if spec.gate in ("no-regression", "slice-guard")}
 
 
+QualityComparisons = tuple[tuple[gates.PairedComparison, ...],
+                           tuple[gates.SliceComparison, ...]]
+
+
 def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Version, specs
-                        ) -> tuple[tuple[gates.PairedComparison, ...], tuple[gates.SliceComparison, ...]]:
+                        ) -> QualityComparisons:
     """Paired comparisons of candidate and incumbent on every evaluation dataset both were
     evaluated on (same content digest), overall and per slice, with the stored predictions."""
     from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
@@ -207,7 +221,7 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
     confidence = settings.get("no-regression", {}).get("confidence", 0.95)
     comparisons: list[gates.PairedComparison] = []
     slices: list[gates.SliceComparison] = []
-    for evaluation, dataset in mine:
+    for evaluation, _dataset in mine:
         baseline_row = theirs.get(evaluation.dataset_content_digest)
         if baseline_row is None:
             continue
@@ -232,15 +246,15 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
                     continue
                 per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)
                 for value, result in sorted(per_slice.values.items()):
-                    difference = result.differences.get(metric)
-                    if difference is None:
+                    in_slice = result.differences.get(metric)
+                    if in_slice is None:
                         continue
                     slices.append(gates.SliceComparison(
                         column=column, value=str(value), metric=metric,
-                        difference=difference.difference, ci_low=difference.ci_low,
-                        ci_high=difference.ci_high, p_value=difference.p_value,
+                        difference=in_slice.difference, ci_low=in_slice.ci_low,
+                        ci_high=in_slice.ci_high, p_value=in_slice.p_value,
                         higher_is_better=HIGHER_IS_BETTER[metric],
-                        adjusted_p_value=difference.p_value_holm, confidence=confidence,
+                        adjusted_p_value=in_slice.p_value_holm, confidence=confidence,
                         rows=result.n))
     if not comparisons and mine and theirs:
         # Both were evaluated, never on the same data: say so rather than compare.
@@ -279,7 +293,7 @@ def in_flight(schemas: list[t.FeedSchema], retain_days: int, now: datetime
     if not schemas:
         return []
     oldest = now - timedelta(days=retain_days)
-    kept = [schema for schema, successor in zip(schemas, schemas[1:])
+    kept = [schema for schema, successor in zip(schemas, schemas[1:], strict=False)
             if _aware(successor.published_at) > oldest]
     return kept + [schemas[-1]]
 
@@ -290,7 +304,7 @@ def feed_checks(uow: UnitOfWork, feed: t.Feed, reader: t.Version, now: datetime
     schemas = uow.feeds.schemas(feed)
     flying = in_flight(schemas, feed.retain_days, now)
     current = schemas[-1].number if schemas else None
-    reader_schema = _schema_of(reader, "input")
+    reader_schema = _present_schema(reader, "input")
     checks = []
     for schema in reversed(flying):
         resolution = avro.resolve(reader_schema, _parsed(schema.schema_json))

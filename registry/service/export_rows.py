@@ -116,7 +116,7 @@ def check_keys(tables: dict[str, TableRows]) -> None:
                 if None in value and columns != _key(table):
                     continue  # NULLs never collide
                 if value in first_seen:
-                    described = ", ".join(f"{c}={v}" for c, v in zip(columns, value))
+                    described = ", ".join(f"{c}={v}" for c, v in zip(columns, value, strict=True))
                     raise BadExport(f"duplicate key ({described}), first on line "
                                     f"{parsed.lines[first_seen[value]]}",
                                     place=parsed.place(index))

@@ -17,7 +17,8 @@ from registry import gates
 from registry.gates import GateReport, Policy, Waiver
 from registry.service import evidence_sources as sources
 from registry.service.actors import Actor
-from registry.service.policies import policy_of
+from registry.service.model_policy import policy_of
+from registry.service.serving_evidence import shadow_agreement
 from registry.store import tables as t
 from registry.store.unit_of_work import UnitOfWork, utc_now
 
@@ -98,8 +99,6 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
                                                           policy.gates_for(stage))
         evidence = dataclasses.replace(evidence, comparisons=comparisons, slices=slices)
     if any(spec.gate == "shadow-agreement" for spec in policy.gates_for(stage)):
-        from registry.service.serving_evidence import shadow_agreement
-
         evidence = dataclasses.replace(
             evidence, agreement=shadow_agreement(uow, model, candidate, incumbent))
     return evidence

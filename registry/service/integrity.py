@@ -246,6 +246,13 @@ def _document_findings(uow: UnitOfWork, version: t.Version, place: str) -> list[
     return []
 
 
+def _model_name(uow: UnitOfWork, model_id: int) -> str:
+    """The name of a model a row refers to; the foreign key keeps the model there."""
+    model = uow.session.get(t.Model, model_id)
+    assert model is not None, f"no model with id {model_id}"
+    return model.name
+
+
 def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int, list[Finding]]:
     from registry.service.datasets import dataset_registration_digest, parents_of
 
@@ -254,8 +261,7 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
     for dataset in uow.session.execute(select(t.Dataset).order_by(t.Dataset.name)).scalars():
         count += 1
         place = f"dataset/{dataset.name}"
-        feed_of = uow.session.get(t.Model, dataset.feed_model_id).name \
-            if dataset.feed_model_id else None
+        feed_of = _model_name(uow, dataset.feed_model_id) if dataset.feed_model_id else None
         recomputed = dataset_registration_digest(
             dataset.name, dataset.role, dataset.source_uri, dataset.content_digest,
             dataset.schema_fingerprint, dataset.fingerprint_digest, parents_of(uow, dataset),

@@ -132,11 +132,11 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
         return node, walks.NodeKey("version", found)
     if m := _CONTRACT_ID.match(node):
         kind, name = m.group(1), m.group(2)
-        found = (contracts.feed_key if kind == "feed" else contracts.consumer_key)(uow.session,
-                                                                                 name)
-        if found is None:
+        contract = (contracts.feed_key if kind == "feed" else contracts.consumer_key)(uow.session,
+                                                                                    name)
+        if contract is None:
             raise NotFound(f"unknown {kind} {name!r}", place="NODE")
-        return node, found
+        return node, contract
     m = _STAGE_ID.match(node)
     assert m is not None
     model_id = _model_id(uow, m.group(1))
@@ -176,7 +176,8 @@ def check_depth(depth: int | None) -> int | None:
 
 def flagged_keys(uow: UnitOfWork) -> set[walks.NodeKey]:
     """Every node downstream of a recalled dataset, the recalled datasets included."""
-    walked = {r.key: None for r in walks.walk(uow.session, walks.recalled_seeds(), "down")}
+    walked: dict[walks.NodeKey, int | None] = {
+        r.key: None for r in walks.walk(uow.session, walks.recalled_seeds(), "down")}
     if not walked:
         return set()
     # A feed built from a recalled dataset flags its readers and their consumers too.

@@ -11,6 +11,7 @@ from registry.moments import utc_iso
 from registry.names import check_name
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
+from registry.service.recall import recalled_names_upstream
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
@@ -123,8 +124,6 @@ def list_models(catalogue: Catalogue) -> list[ModelSummary]:
 
 
 def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
-    from registry.service.recall import recalled_names_upstream
-
     with UnitOfWork(catalogue, write=False) as uow:
         model = find_model(uow, name)
         held = stages_by_version(uow, model)

@@ -5,18 +5,10 @@ from __future__ import annotations
 from registry import gates
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
+from registry.service.model_policy import policy_of
 from registry.service.models import find_model
-from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
-
-
-def policy_of(model: t.Model) -> gates.Policy:
-    """The model's own policy laid over the catalogue-wide default, or the default alone."""
-    if model.policy_toml:
-        return gates.load_policy(model.policy_toml, source=f"policy of {model.name}",
-                                 base=gates.default_policy())
-    return gates.default_policy()
 
 
 def show_policy(catalogue: Catalogue, model: str) -> dict:

@@ -15,7 +15,7 @@ from registry.errors import NotFound, UserError
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.lineage import dataset_id, node_name, version_id
-from registry.service.policies import policy_of
+from registry.service.model_policy import policy_of
 from registry.store import lineage as walks
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
@@ -96,7 +96,7 @@ def _flagged_through_feeds(uow: UnitOfWork, dataset: t.Dataset,
     downstream of either."""
     from registry.store import contract_lineage as contracts
 
-    start = {r.key: None for r in walks.walk(
+    start: dict[walks.NodeKey, int | None] = {r.key: None for r in walks.walk(
         uow.session, walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")}
     reached = contracts.expand(uow.session, start, "down")
     extra = [k for k in reached if k not in start]

@@ -55,7 +55,9 @@ def moving_event(uow: UnitOfWork) -> tuple[int, str]:
     quote. Each statement then appends an event of its own, so the move's event is never the
     transaction's last one, the one rehashed at commit with the row digests: the hash quoted
     is final."""
-    return uow.audit.last_sequence, uow.audit.last_hash
+    sequence, digest = uow.audit.last_sequence, uow.audit.last_hash
+    assert sequence is not None and digest is not None  # the move's event was just appended
+    return sequence, digest
 
 
 def record_move(uow: UnitOfWork, actor: str, model: t.Model, version: t.Version, stage: str, *,

@@ -166,6 +166,7 @@ def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *
             created_at=utc_now(), created_by=actor.name))
         per_window = []
         for start in np.unique(windows[joined]).tolist():
+            assert labels is not None  # rows joined, so they have a task (refused above if not)
             mine = windows == start
             columns = {"row_hash": outcomes.hashes[mine],
                        "label": labels[mine].astype(np.float64)}
@@ -191,7 +192,8 @@ def _served_windows_of(uow: UnitOfWork, model: t.Model, outcomes: OutcomeBatch
     """For each outcome, the window its row was first served in (-1 when never served within
     the retention), the task of those rows and their classes."""
     windows = np.full(len(outcomes.hashes), -1, dtype=np.int64)
-    task, classes = None, ()
+    task: str | None = None
+    classes: tuple[str, ...] = ()
     for rows, _ in uow.serving.rows(model.id, "predictions"):
         table = compact.decode(rows.content)
         hit = np.isin(outcomes.hashes, table.column("row_hash").to_numpy()) & (windows < 0)

@@ -5,7 +5,7 @@ and the shadow agreement the gates judge."""
 from __future__ import annotations
 
 import json
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -29,13 +29,16 @@ from registry.after_release.windows import MICROS, parse_since, window_seconds
 from registry.datasets.profile import profile_of
 from registry.datasets.types import ValueType, record_type
 from registry.errors import UserError
-from registry.service import gatekeeping
 from registry.service.datasets import load_fingerprint
 from registry.service.evaluations import evaluations_of, stored_predictions
+from registry.service.model_policy import policy_of
 from registry.service.models import find_model, find_version
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
+
+if TYPE_CHECKING:
+    import pyarrow as pa
 
 SCORE = ValueType("double")
 
@@ -52,12 +55,13 @@ def _evaluation(uow: UnitOfWork, version: t.Version) -> tuple[t.Evaluation, t.Da
 
 def serving_context(uow: UnitOfWork, model: t.Model) -> ServingContext:
     """What the row checks of a served batch need to know of each version of the model."""
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     spells = spells_of(uow, model, policy.serving_stages)
     facts = {}
     for version in uow.serving.versions(model.id):
         evaluated = _evaluation(uow, version)
-        task, classes = None, ()
+        task: str | None = None
+        classes: tuple[str, ...] = ()
         if evaluated is not None:
             task = evaluated[0].task
             if task == "multiclass":
@@ -106,6 +110,13 @@ def _as_array(values: np.ndarray):
 
 # --- compact rows ------------------------------------------------------------------------------
 
+def _joined(contents: list[bytes]) -> pa.Table:
+    """One table of several compact parts; callers pass at least one, so there is a table."""
+    table = compact.concatenated(contents)
+    assert table is not None
+    return table
+
+
 def _columns_of(table) -> list[str]:
     return [c for c in table.column_names if c != "row_hash"]
 
@@ -118,6 +129,7 @@ def prediction_rows(uow: UnitOfWork, model: t.Model, window: int, *, since: int 
     for rows, number in uow.serving.rows(model.id, "predictions", since=since, until=until):
         if versions is not None and number not in versions:
             continue
+        assert number is not None  # served predictions always name their version
         parts.setdefault((number, rows.window_start - rows.window_start % window),
                          []).append(rows.content)
     return {key: compact.concatenated(contents) for key, contents in parts.items()}
@@ -132,7 +144,7 @@ def outcome_labels(uow: UnitOfWork, model: t.Model, window: int, *, since: int |
         parts.setdefault(rows.window_start - rows.window_start % window, []).append(rows.content)
     joined = {}
     for start, contents in parts.items():
-        table = compact.concatenated(contents)
+        table = _joined(contents)
         hashes = table.column("row_hash").to_numpy()
         labels = table.column("label").to_numpy()
         # keep the last outcome of each row: unique over the reversed order
@@ -162,7 +174,7 @@ def _with_labels(table, outcomes: tuple[np.ndarray, np.ndarray] | None) -> Windo
 def _incumbents(spells: dict[int, tuple[Spell, ...]], starts: set[int],
                 window: int) -> dict[int, int | None]:
     """Per window: the version that held the top stage at its middle (or at its start)."""
-    found = {}
+    found: dict[int, int | None] = {}
     for start in starts:
         found[start] = None
         for moment in ((start + window // 2) * MICROS, start * MICROS,
@@ -176,7 +188,7 @@ def _incumbents(spells: dict[int, tuple[Spell, ...]], starts: set[int],
 
 
 def _settings(model: t.Model, task: str | None, seconds: int) -> ReportSettings:
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     metric = policy.serving.quality_metric or DEFAULT_METRIC.get(task or "binary", "roc_auc")
     return ReportSettings(seconds, metric, policy.serving.quality_margin,
                           policy.serving.confidence)
@@ -194,7 +206,7 @@ def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
     outcomes: the slow way, used when rows arrive and for windows longer than the policy's."""
     if not summaries:
         return {}
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     task = _task_of(summaries.values())
     settings = _settings(model, task, seconds)
     numbers = {number for number, _ in summaries}
@@ -239,7 +251,7 @@ def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int]) -> None:
     or an outcome touched them), so that reports only read them."""
     if not starts:
         return
-    seconds = gatekeeping.policy_of(model).serving.window_seconds
+    seconds = policy_of(model).serving.window_seconds
     found = uow.serving.windows_at(model.id, seconds, sorted(starts))
     summaries = {(number, w.window_start): WindowSummary.from_dict(json.loads(w.summary_json))
                  for w, number in found}
@@ -251,7 +263,7 @@ def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int]) -> None:
 
 def report_in(uow: UnitOfWork, model: t.Model, *, version: int | None = None,
               since: str | None = None, window: str | None = None) -> dict[str, Any]:
-    policy = gatekeeping.policy_of(model)
+    policy = policy_of(model)
     stored = policy.serving.window_seconds
     seconds = window_seconds(window) if window else stored
     if seconds % stored:
@@ -354,7 +366,7 @@ def shadow_agreement(uow: UnitOfWork, model: t.Model, candidate: t.Version,
             theirs.append(rows.content)
     if not mine or not theirs:
         return None
-    a, b = compact.concatenated(mine), compact.concatenated(theirs)
+    a, b = _joined(mine), _joined(theirs)
     columns = _columns_of(a)
     task = ("binary" if columns == ["score"] else "regression" if columns == ["prediction"]
             else "multiclass")
