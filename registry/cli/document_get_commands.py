@@ -39,7 +39,8 @@ def write_checked(chunks: Iterable[bytes], target: Path, expected_sha256: str,
     temporary = Path(handle.name)
     try:
         # A bar only for large documents, and only when a person watches (registry.cli.progress).
-        bar = progress_bar("fetching", size, unit="bytes") if (size or 0) >= LARGE else nullcontext()
+        bar = (progress_bar("fetching", size, unit="bytes") if (size or 0) >= LARGE
+               else nullcontext())
         with handle, bar as advance:
             for chunk in chunks:
                 handle.write(chunk)

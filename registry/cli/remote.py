@@ -32,7 +32,8 @@ from registry.manifest import parse_manifest
 from registry.service.tokens import Unauthenticated
 
 ERRORS_BY_KIND: dict[str, type[LockkeeperError]] = {
-    "not-found": NotFound, "stage-not-held": StageNotHeld, "already-exists": AlreadyExists, "forbidden": Forbidden,
+    "not-found": NotFound, "stage-not-held": StageNotHeld, "already-exists": AlreadyExists,
+    "forbidden": Forbidden,
     "conflict": Conflict, "refused": Refusal, "invalid-content": Unprocessable,
     "invalid-schema": Unprocessable, "unauthenticated": Unauthenticated,
     "catalogue-unavailable": CatalogueUnavailable,

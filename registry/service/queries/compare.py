@@ -83,7 +83,7 @@ def _gate_comparisons(a: VersionPage, b: VersionPage) -> tuple[GateComparison, .
                         continue
                     columns = item.table.columns
                     for row in item.table.rows:
-                        cell = dict(zip(columns, row))
+                        cell = dict(zip(columns, row, strict=True))
                         subject = cell.get("metric", "")
                         if cell.get("value"):
                             subject = f"{cell.get('column', '')} = {cell['value']}: {subject}"

@@ -93,7 +93,7 @@ def distribution(reference: ColumnProfile, current: ColumnProfile | None = None
         names = sorted(totals, key=lambda n: (-totals[n], n))
         shown, rest = names[:MAX_CATEGORIES], names[MAX_CATEGORIES:]
         shares = []
-        for found, profile in zip(counts, both):
+        for found, profile in zip(counts, both, strict=True):
             row = [found.get(n, 0) for n in shown]
             if rest:
                 row.append(sum(found.get(n, 0) for n in rest))
