@@ -79,7 +79,8 @@ def document_get(model_name: str, version: str | None, stage: str | None, output
     if remote:
         path = remote.document_path(model, version=number, stage=stage)
         chunks = remote.stream(path)
-        first_headers, first = next(chunks, ({}, b""))
+        no_headers: dict[str, str] = {}
+        first_headers, first = next(chunks, (no_headers, b""))
         expected = first_headers.get("ETag", "").strip('"')
         size = int(first_headers.get("Content-Length", "0")) or None
         found_version = int(first_headers.get("Lockkeeper-Version", number or 0)) or number

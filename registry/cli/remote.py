@@ -283,8 +283,9 @@ class ApiClient:
                                 source_uri: str = "", sources: Sequence[dict] = ()) -> dict:
         """Register a dataset from a fingerprint computed here (`dataset fingerprint --json`),
         with the files it was made from ({"path", "size", "sha256"} each)."""
-        body = {"name": name, "fingerprint": fingerprint, "role": role,
-                "derived_from": list(derived_from), "feed_of": feed_of, "source_uri": source_uri}
+        body: dict[str, Any] = {"name": name, "fingerprint": fingerprint, "role": role,
+                                "derived_from": list(derived_from), "feed_of": feed_of,
+                                "source_uri": source_uri}
         if sources:
             body["sources"] = list(sources)
         return self._post("/datasets", body)

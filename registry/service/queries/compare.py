@@ -59,7 +59,9 @@ def metric_differences(a: VersionPage, b: VersionPage) -> tuple[MetricDifference
     found = []
     for evaluation in b.evaluations:
         before = before_by_dataset.get(evaluation.dataset)
-        for name, value in evaluation.metrics if before is not None else ():
+        if before is None:
+            continue
+        for name, value in evaluation.metrics:
             if name in before:
                 old = before[name]
                 found.append(MetricDifference(
