@@ -10,8 +10,8 @@ from functools import lru_cache
 from typing import Any
 
 from flask import current_app, request
-from jsonschema import Draft202012Validator
-from jsonschema.exceptions import ValidationError
+from jsonschema import Draft202012Validator  # type: ignore[import-untyped]  # no type info
+from jsonschema.exceptions import ValidationError  # type: ignore[import-untyped]  # no type info
 
 from registry.api.problems import ApiError
 from registry.nesting import nesting_depth

@@ -27,7 +27,8 @@ CONTRACTS = "registry.cli.contract_commands"
 # name -> where the command lives and the line `--help` shows for it. Add a command here.
 COMMANDS: dict[str, Lazy | LazyGroup] = {
     "init": Lazy(f"{CATALOGUE}:init", "Create the catalogue, or bring it up to the newest schema."),
-    "demo": Lazy(f"{CATALOGUE}:demo", "Build a fresh demo catalogue and play the Brackwater story."),
+    "demo": Lazy(f"{CATALOGUE}:demo",
+                 "Build a fresh demo catalogue and play the Brackwater story."),
     "serve": Lazy("registry.cli.serve_commands:serve", "Serve the lineage browser and the API."),
     "model": lazy_group("model", "Create and look at model lines.", {
         "create": Lazy(f"{CATALOGUE}:model_create", "Create a model line NAME."),
@@ -66,7 +67,8 @@ COMMANDS: dict[str, Lazy | LazyGroup] = {
     }),
     "schema": Lazy("registry.cli.schema_commands:schema_group",
                    "Check, compare and fingerprint Avro schemas (no catalogue needed)."),
-    "document": Lazy(f"{DOCUMENTS}:document_group", "Inspect model documents (no catalogue needed)."),
+    "document": Lazy(f"{DOCUMENTS}:document_group",
+                     "Inspect model documents (no catalogue needed)."),
     "features": Lazy(f"{DOCUMENTS}:features_group",
                      "Check and compare feature definitions (no catalogue needed)."),
     "metrics": Lazy("registry.cli.metrics_commands:metrics_command",

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import click
 
@@ -11,15 +12,22 @@ from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option, short_time
 from registry.cli.params import FilePath, SuggestingChoice
 
+if TYPE_CHECKING:
+    from registry.cli.context import CommandContext
+    from registry.service.actors import Actor
+    from registry.service.contents import RegistrationRequest
+
 # The service modules are imported inside each command: importing them loads the database layer,
 # and the stage and dataset commands import the helpers here without needing all of it.
 
+ROLE_NAMES = ["reader", "publisher", "approver", "admin"]
 
-def _context() -> CommandContext:  # noqa: F821 - resolved at run time
+
+def _context() -> CommandContext:
     return click.get_current_context().obj
 
 
-def _actor() -> Actor:  # noqa: F821 - registry.service.actors.Actor
+def _actor() -> Actor:
     from registry.service.roles import load_actor
 
     context = _context()
@@ -81,7 +89,8 @@ def model_list(as_json: bool) -> None:
     from registry.service import models
 
     remote = _context().remote()
-    found = remote.list_models() if remote else {"models": models.list_models(_context().catalogue())}
+    found = (remote.list_models() if remote
+             else {"models": models.list_models(_context().catalogue())})
 
     def text(d):
         if not d["models"]:
@@ -154,7 +163,7 @@ def render_registration(o: dict) -> str:
 
 
 def registration_request(model_name: str, document: str, manifest_path: str,
-                         features_path: str | None) -> RegistrationRequest:  # noqa: F821
+                         features_path: str | None) -> RegistrationRequest:
     """Read every file a registration names; paths in the manifest are relative to it."""
     from registry.manifest import parse_manifest
     from registry.service import registration
@@ -237,7 +246,7 @@ def user() -> None:
 
 @user.command("grant")
 @click.argument("name")
-@click.argument("role", metavar="ROLE", type=SuggestingChoice(["reader", "publisher", "approver", "admin"]))
+@click.argument("role", metavar="ROLE", type=SuggestingChoice(ROLE_NAMES))
 @json_option
 def user_grant(name: str, role: str, as_json: bool) -> None:
     """Give user NAME a ROLE (needs admin, except for a catalogue's first admin)."""
@@ -252,7 +261,7 @@ def user_grant(name: str, role: str, as_json: bool) -> None:
 
 @user.command("revoke")
 @click.argument("name")
-@click.argument("role", metavar="ROLE", type=SuggestingChoice(["reader", "publisher", "approver", "admin"]))
+@click.argument("role", metavar="ROLE", type=SuggestingChoice(ROLE_NAMES))
 @json_option
 def user_revoke(name: str, role: str, as_json: bool) -> None:
     """Take a ROLE away from user NAME (needs admin)."""

@@ -381,15 +381,15 @@ def model_and_version(model_name: str, version: str | None) -> tuple[str, int]:
 def impact(model_name: str, version: str | None, stage: str, as_json: bool) -> None:
     """What changes if VERSION enters STAGE: feeds, consumers, features, metrics, slices and
     datasets. Changes nothing. VERSION is N or vN; MODEL@N names both."""
-    model_name, version = model_and_version(model_name, version)
+    model_name, number = model_and_version(model_name, version)
     remote = _remote()
     if remote:
-        found = remote._get(_path("models", model_name, "versions", str(version), "impact")
+        found = remote._get(_path("models", model_name, "versions", str(number), "impact")
                             + "?stage=" + quote(stage, safe=""))
     else:
         from registry.service.impact import impact_of
 
-        found = impact_of(_context().catalogue(), model_name, version, stage)
+        found = impact_of(_context().catalogue(), model_name, number, stage)
     emit(found, as_json, render_impact)
 
 

@@ -124,8 +124,10 @@ def dataset_list(as_json: bool) -> None:
     from registry.service.datasets import list_datasets
 
     remote = _context().remote()
-    found = remote.list_datasets() if remote else {"datasets": list_datasets(_context().catalogue())}
+    found = (remote.list_datasets() if remote
+             else {"datasets": list_datasets(_context().catalogue())})
     emit(found, as_json, lambda d: "\n".join(
-        f"{s['name']:<32} {s['role']:<12} {s['rows']:>8} rows{'  RECALLED' if s['recalled'] else ''}"
+        f"{s['name']:<32} {s['role']:<12} {s['rows']:>8} rows"
+        f"{'  RECALLED' if s['recalled'] else ''}"
         for s in d["datasets"]) or "no datasets yet")
 

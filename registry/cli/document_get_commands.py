@@ -39,7 +39,8 @@ def write_checked(chunks: Iterable[bytes], target: Path, expected_sha256: str,
     temporary = Path(handle.name)
     try:
         # A bar only for large documents, and only when a person watches (registry.cli.progress).
-        bar = progress_bar("fetching", size, unit="bytes") if (size or 0) >= LARGE else nullcontext()
+        bar = (progress_bar("fetching", size, unit="bytes") if (size or 0) >= LARGE
+               else nullcontext())
         with handle, bar as advance:
             for chunk in chunks:
                 handle.write(chunk)
@@ -78,7 +79,8 @@ def document_get(model_name: str, version: str | None, stage: str | None, output
     if remote:
         path = remote.document_path(model, version=number, stage=stage)
         chunks = remote.stream(path)
-        first_headers, first = next(chunks, ({}, b""))
+        no_headers: dict[str, str] = {}
+        first_headers, first = next(chunks, (no_headers, b""))
         expected = first_headers.get("ETag", "").strip('"')
         size = int(first_headers.get("Content-Length", "0")) or None
         found_version = int(first_headers.get("Lockkeeper-Version", number or 0)) or number

@@ -30,9 +30,9 @@ from registry.evaluation.metrics import HIGHER_IS_BETTER
 @click.option("--resamples", type=click.IntRange(min=100), default=1000, show_default=True,
               help="Bootstrap resamples.")
 @json_option
-def metrics_command(predictions: str, task: str | None, baseline: str | None, slice_column: str | None,
-                    threshold: float, confidence: float, seed: int, resamples: int,
-                    as_json: bool) -> None:
+def metrics_command(predictions: str, task: str | None, baseline: str | None,
+                    slice_column: str | None, threshold: float, confidence: float, seed: int,
+                    resamples: int, as_json: bool) -> None:
     """Metrics of PREDICTIONS (CSV or Parquet); with --baseline, candidate - baseline."""
     from registry.evaluation.predictions import infer_task
 

@@ -7,8 +7,12 @@ import sys
 import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
+from typing import TYPE_CHECKING, Any
 
 from registry.progress import listening
+
+if TYPE_CHECKING:
+    from rich.progress import TaskID
 
 
 def stderr_is_terminal() -> bool:
@@ -54,7 +58,7 @@ class DatasetProgress:
                             console=Console(stderr=True), transient=False,
                             auto_refresh=False)  # no drawing thread: workers may then fork
         self.drawn = 0.0
-        self.task = None
+        self.task: TaskID | None = None
         self.by_rows = False
         self.total_files = self.files = self.rows = 0
         self.started = time.monotonic()
@@ -78,7 +82,7 @@ class DatasetProgress:
             self.bar.refresh()
             self.drawn = now
 
-    def _fields(self) -> dict[str, str]:
+    def _fields(self) -> dict[str, Any]:  # rich takes a task's fields as **Any
         elapsed = max(time.monotonic() - self.started, 1e-6)
         return {"files": f"{self.files}/{self.total_files} files",
                 "rows": f"{self.rows:,} rows", "speed": f"{self.rows / elapsed:,.0f} rows/s"}

@@ -114,10 +114,10 @@ def release_verify(document: str, envelope_file: str, key_file: str, model: str 
     context = click.get_current_context().obj
     server = server or context.server
     current = None
-    if server and verdict.verified:
-        from registry.api.client import ApiClient
+    statement = verdict.statement  # a verified verdict always carries its statement
+    if server and verdict.verified and statement is not None:
+        from registry.cli.remote import ApiClient
 
-        statement = verdict.statement
         try:
             served = ApiClient(server, context.token).release_envelope(statement.model,
                                                                        statement.stage)

@@ -32,7 +32,8 @@ from registry.manifest import parse_manifest
 from registry.service.tokens import Unauthenticated
 
 ERRORS_BY_KIND: dict[str, type[LockkeeperError]] = {
-    "not-found": NotFound, "stage-not-held": StageNotHeld, "already-exists": AlreadyExists, "forbidden": Forbidden,
+    "not-found": NotFound, "stage-not-held": StageNotHeld, "already-exists": AlreadyExists,
+    "forbidden": Forbidden,
     "conflict": Conflict, "refused": Refusal, "invalid-content": Unprocessable,
     "invalid-schema": Unprocessable, "unauthenticated": Unauthenticated,
     "catalogue-unavailable": CatalogueUnavailable,
@@ -282,8 +283,9 @@ class ApiClient:
                                 source_uri: str = "", sources: Sequence[dict] = ()) -> dict:
         """Register a dataset from a fingerprint computed here (`dataset fingerprint --json`),
         with the files it was made from ({"path", "size", "sha256"} each)."""
-        body = {"name": name, "fingerprint": fingerprint, "role": role,
-                "derived_from": list(derived_from), "feed_of": feed_of, "source_uri": source_uri}
+        body: dict[str, Any] = {"name": name, "fingerprint": fingerprint, "role": role,
+                                "derived_from": list(derived_from), "feed_of": feed_of,
+                                "source_uri": source_uri}
         if sources:
             body["sources"] = list(sources)
         return self._post("/datasets", body)

@@ -110,7 +110,7 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
         waivers = _waivers(waive_gates, reasons, actor)
         if expect_holder is None:
             expected = stages.snapshot(catalogue, model_name, stage)
-        elif expect_holder == "none":
+        elif holder is None:  # --expect-holder none
             expected = stages.HolderSnapshot(stage, ())
         else:
             expected = stages.HolderSnapshot(stage, (holder,))

@@ -34,7 +34,7 @@ class ConsumerRepository:
 
     def model_name(self, consumer: t.Consumer) -> str:
         """The name of the model whose output the consumer reads."""
-        return self._session.get(t.Model, consumer.model_id).name
+        return self._session.get_one(t.Model, consumer.model_id).name
 
     def schemas(self, consumer: t.Consumer) -> list[t.ConsumerSchema]:
         return list(self._session.execute(
@@ -44,7 +44,7 @@ class ConsumerRepository:
     def current_schema(self, consumer: t.Consumer) -> t.ConsumerSchema:
         return self._session.execute(
             select(t.ConsumerSchema).where(t.ConsumerSchema.consumer_id == consumer.id)
-            .order_by(t.ConsumerSchema.number.desc())).scalars().first()
+            .order_by(t.ConsumerSchema.number.desc()).limit(1)).scalar_one()
 
     def next_schema_number(self, consumer: t.Consumer) -> int:
         last = self._session.execute(

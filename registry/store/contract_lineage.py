@@ -10,7 +10,7 @@ until nothing new turns up. A catalogue without feeds or consumers costs one que
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session
@@ -132,29 +132,33 @@ def _hops(session: Session, frontier: dict[NodeKey, int | None], direction: str
     return hops
 
 
-def expand(session: Session, reached: dict[NodeKey, int | None], direction: str,
+def _offer(reached: dict[NodeKey, int | None], found: dict[NodeKey, int | None],
+           max_depth: int | None, key: NodeKey, depth: int | None) -> None:
+    """Record `key` at `depth` in both `reached` and `found`, unless it lies past `max_depth`
+    or `reached` already holds it at that depth or less."""
+    if max_depth is not None and depth is not None and depth > max_depth:
+        return
+    if key in reached:
+        held = reached[key]
+        if depth is None or held is None or held <= depth:
+            return
+    reached[key] = depth
+    found[key] = depth
+
+
+def expand(session: Session, reached: Mapping[NodeKey, int | None], direction: walks.Direction,
            max_depth: int | None = None) -> dict[NodeKey, int | None]:
     """`reached` (a walk's result, node -> depth) grown by the contract edges and the walks
     beyond them, each node at its smallest depth (None throughout when there is no limit)."""
+    grown = dict(reached)
     if not has_contracts(session):
-        return reached
-    reached = dict(reached)
+        return grown
     frontier = dict(reached)
     while frontier:
         found: dict[NodeKey, int | None] = {}
-
-        def offer(key: NodeKey, depth: int | None) -> None:
-            if max_depth is not None and depth is not None and depth > max_depth:
-                return
-            if key in reached and (depth is None or reached[key] is None
-                                   or reached[key] <= depth):
-                return
-            reached[key] = depth
-            found[key] = depth
-
         for source, target in _hops(session, frontier, direction):
             base = frontier.get(source)
-            offer(target, None if base is None else base + 1)
+            _offer(grown, found, max_depth, target, None if base is None else base + 1)
         # Walk on from the datasets and versions the contract edges reached.
         by_depth: dict[tuple[str, int | None], list[int]] = {}
         for key, depth in list(found.items()):
@@ -163,10 +167,10 @@ def expand(session: Session, reached: dict[NodeKey, int | None], direction: str,
         for (kind, depth), ids in by_depth.items():
             left = None if max_depth is None or depth is None else max_depth - depth
             for item in walks.walk(session, _seeds(kind, ids), direction, left):
-                offer(item.key, None if depth is None or item.depth is None
-                      else depth + item.depth)
+                _offer(grown, found, max_depth, item.key,
+                       None if depth is None or item.depth is None else depth + item.depth)
         frontier = found
-    return reached
+    return grown
 
 
 def contract_links(session: Session, keys: Iterable[NodeKey]) -> list[Link]:

@@ -10,11 +10,17 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, cast
 
 from sqlalchemy import Engine, select
 from sqlalchemy.orm import Session
 
 from registry.store import tables as t
+
+if TYPE_CHECKING:
+    import sqlite3
+
+    import psycopg
 
 CHUNK_SIZE = 1024 * 1024
 SQLITE_MMAP_BYTES = 1 << 30  # address space, not memory: the kernel pages it in and out
@@ -71,7 +77,8 @@ def _sqlite_chunks(engine: Engine, digest: str, start: int, end: int,
                    chunk_size: int) -> Iterator[bytes]:
     connection = engine.raw_connection()
     try:
-        raw = connection.dbapi_connection
+        # The pool hands out the driver's own connection, open until `close` below.
+        raw = cast("sqlite3.Connection", connection.dbapi_connection)
         # Read pages straight from a memory map rather than copying each through the page
         # cache: several times faster for a large blob, and this connection only reads.
         raw.execute(f"PRAGMA mmap_size = {SQLITE_MMAP_BYTES}")
@@ -97,7 +104,8 @@ def _substring_chunks(engine: Engine, digest: str, start: int, end: int,
     query = "SELECT substring(content FROM %s FOR %s) FROM blobs WHERE digest = %s"
     connection = engine.raw_connection()
     try:
-        cursor = connection.dbapi_connection.cursor(binary=True)
+        raw = cast("psycopg.Connection[Any]", connection.dbapi_connection)
+        cursor = raw.cursor(binary=True)
         position = start
         while position < end:
             length = min(chunk_size, end - position)

@@ -139,7 +139,8 @@ class FeedRepository:
                 select(t.Dataset).where(t.Dataset.feed_model_id.in_(ids),
                                         t.Dataset.role == "live-sample")
                 .order_by(t.Dataset.created_at, t.Dataset.id)).scalars():
-            newest[dataset.feed_model_id] = dataset
+            if dataset.feed_model_id is not None:  # always: the query asks for it
+                newest[dataset.feed_model_id] = dataset
         return newest
 
 

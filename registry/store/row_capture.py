@@ -64,11 +64,11 @@ class RowCapture:
         for table_name, key in sorted(self.touched, key=_sort_key):
             table = t.Base.metadata.tables[table_name]
             names = [column.name for column in table.primary_key.columns]
-            stored = read_row(self._session, table, dict(zip(names, key)))
+            stored = read_row(self._session, table, dict(zip(names, key, strict=True)))
             if stored is None:
                 rows.append({"table": table_name, "deleted": True,
                              "key": [plain_value(table, name, value)
-                                     for name, value in zip(names, key)]})
+                                     for name, value in zip(names, key, strict=True)]})
             else:
                 rows.append({"table": table_name, "key": list(key_of(table, stored)),
                              "columns": column_digests(table, stored)})

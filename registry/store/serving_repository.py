@@ -33,11 +33,12 @@ class ServingRepository:
 
     def stage_events(self, model_id: int) -> list[tuple[int, str, str, datetime]]:
         """(version number, stage, event, when) of every stage event of a model, oldest first."""
-        return [tuple(row) for row in self._session.execute(
+        rows = self._session.execute(
             select(t.Version.number, t.StageEvent.stage, t.StageEvent.event,
                    t.StageEvent.created_at)
             .join(t.Version, t.Version.id == t.StageEvent.version_id)
-            .where(t.StageEvent.model_id == model_id).order_by(t.StageEvent.id))]
+            .where(t.StageEvent.model_id == model_id).order_by(t.StageEvent.id))
+        return [(number, stage, event, when) for number, stage, event, when in rows]
 
     def versions(self, model_id: int) -> list[t.Version]:
         return list(self._session.execute(

@@ -90,7 +90,8 @@ class Dataset(Base):
     content_digest: Mapped[str] = mapped_column(String(64))
     schema_fingerprint: Mapped[str] = mapped_column(String(64))
     schema_json: Mapped[str] = mapped_column(Text)
-    fingerprint_digest: Mapped[str] = mapped_column(ForeignKey("blobs.digest"))  # full fingerprint JSON
+    # The full fingerprint JSON.
+    fingerprint_digest: Mapped[str] = mapped_column(ForeignKey("blobs.digest"))
     # For a live sample: the model whose feed it was taken from.
     feed_model_id: Mapped[int | None] = mapped_column(ForeignKey("models.id"), nullable=True)
     registration_digest: Mapped[str] = mapped_column(String(64))

@@ -10,7 +10,8 @@ from __future__ import annotations
 import hashlib
 from collections.abc import Iterator
 from datetime import datetime
-from typing import Any
+from types import TracebackType
+from typing import Any, Literal
 
 from sqlalchemy import select
 from sqlalchemy.exc import DBAPIError, IntegrityError, OperationalError
@@ -106,7 +107,7 @@ class AuditLog:
         last.hash = event_hash(last.sequence, last.occurred_at, last.actor, last.action,
                                last.subject, _json_loads(last.details_json), last.previous_hash,
                                _json_loads(rows_json))
-        head = self._session.get(t.AuditHead, 1)
+        head = self._session.get_one(t.AuditHead, 1)
         head.hash = last.hash
         self._session.flush()
 
@@ -223,7 +224,8 @@ class UnitOfWork:
         except BaseException as error:
             raise _translate(error, self.catalogue) from None
 
-    def __exit__(self, exc_type, exc, tb) -> bool:
+    def __exit__(self, exc_type: type[BaseException] | None, exc: BaseException | None,
+                 tb: TracebackType | None) -> Literal[False]:
         try:
             if self.session.in_transaction():
                 self.session.rollback()

@@ -42,8 +42,10 @@ def _threshold() -> float:
     return value
 
 
-@route(VERSION_PATH + "/evaluations", "POST", action="evaluation.add", summary="Compute and store a "
-       "version's metrics on an evaluation dataset from its predictions", tag="evaluations",
+@route(VERSION_PATH + "/evaluations", "POST", action="evaluation.add",
+       summary=("Compute and store a version's metrics on an evaluation dataset "
+                "from its predictions"),
+       tag="evaluations",
        form=EVALUATION_FORM,
        responses={201: "Created", 200: "This evaluation already exists; nothing changed"})
 def add_evaluation(model: str, version: int):
@@ -55,7 +57,8 @@ def add_evaluation(model: str, version: int):
     dataset = path_name(form_value("dataset") or "", "dataset")
     threshold = _threshold()
     with saved_upload(file_part("predictions"), "predictions.csv") as path:
-        predictions = read_predictions(path, form_value("task") or infer_task(path, place="predictions"))
+        task = form_value("task") or infer_task(path, place="predictions")
+        predictions = read_predictions(path, task)
     summary = evaluations.add_evaluation(catalogue(), evaluations.EvaluationRequest(
         model=path_name(model, "model"), version=version, dataset=dataset,
         predictions=predictions, slice_columns=form_values("slice"), threshold=threshold),

@@ -59,7 +59,9 @@ def metric_differences(a: VersionPage, b: VersionPage) -> tuple[MetricDifference
     found = []
     for evaluation in b.evaluations:
         before = before_by_dataset.get(evaluation.dataset)
-        for name, value in evaluation.metrics if before is not None else ():
+        if before is None:
+            continue
+        for name, value in evaluation.metrics:
             if name in before:
                 old = before[name]
                 found.append(MetricDifference(
@@ -83,7 +85,7 @@ def _gate_comparisons(a: VersionPage, b: VersionPage) -> tuple[GateComparison, .
                         continue
                     columns = item.table.columns
                     for row in item.table.rows:
-                        cell = dict(zip(columns, row))
+                        cell = dict(zip(columns, row, strict=True))
                         subject = cell.get("metric", "")
                         if cell.get("value"):
                             subject = f"{cell.get('column', '')} = {cell['value']}: {subject}"

@@ -56,8 +56,9 @@ def _shares(counts: np.ndarray) -> tuple[float, ...]:
 
 
 def _range(*profiles: ColumnProfile) -> tuple[float, float] | None:
-    lows = [p.moments.minimum for p in profiles if p.moments and p.moments.count]
-    highs = [p.moments.maximum for p in profiles if p.moments and p.moments.count]
+    counted = [p.moments for p in profiles if p.moments and p.moments.count]
+    lows = [m.minimum for m in counted if m.minimum is not None]
+    highs = [m.maximum for m in counted if m.maximum is not None]
     if not lows or not highs:
         return None
     return float(min(lows)), float(max(highs))
@@ -73,16 +74,18 @@ def distribution(reference: ColumnProfile, current: ColumnProfile | None = None
                  ) -> Distribution | None:
     """One column's distribution, or two on shared bins; None when nothing is stored to draw."""
     both = (reference,) if current is None else (reference, current)
-    if all(p.histogram is not None for p in both):
+    histograms = [p.histogram for p in both if p.histogram is not None]
+    if len(histograms) == len(both):
         bounds = _range(*both)
         if bounds is None:
             return None
         integer = reference.avro_type in INTEGER_TYPES
         edges = _edges(*bounds, integer)
-        shares = [_shares(_rebinned(p.histogram, edges)) for p in both]
+        shares = [_shares(_rebinned(histogram, edges)) for histogram in histograms]
         return Distribution("numeric", tuple(float(e) for e in edges), (), shares[0],
                             shares[1] if current is not None else (), integer)
-    if all(p.categories is not None for p in both):
+    categories = [p.categories for p in both if p.categories is not None]
+    if len(categories) == len(both):
         counts = [_category_counts(p) for p in both]
         totals: dict[str, int] = {}
         for found in counts:
@@ -93,11 +96,11 @@ def distribution(reference: ColumnProfile, current: ColumnProfile | None = None
         names = sorted(totals, key=lambda n: (-totals[n], n))
         shown, rest = names[:MAX_CATEGORIES], names[MAX_CATEGORIES:]
         shares = []
-        for found, profile in zip(counts, both):
+        for found, category_counts in zip(counts, categories, strict=True):
             row = [found.get(n, 0) for n in shown]
             if rest:
                 row.append(sum(found.get(n, 0) for n in rest))
-            total = max(profile.categories.total, sum(row)) or 1
+            total = max(category_counts.total, sum(row)) or 1
             shares.append(tuple(c / total for c in row))
         labels = tuple(shown) + (("other",) if rest else ())
         return Distribution("categories", (), labels, shares[0],

@@ -72,7 +72,7 @@ def in_words(action: str, subject: str, details: Any) -> str:
     stage = d.get("stage", "")
     waived = [w.get("gate", "") for w in d.get("waivers", []) if isinstance(w, dict)]
     stage_name = m.group(2) if (m := _STAGE.match(subject)) else stage
-    summary = d.get("summary") if isinstance(d.get("summary"), dict) else {}
+    summary: dict[str, Any] = d["summary"] if isinstance(d.get("summary"), dict) else {}
     failed = list(summary.get("failed", {})) if isinstance(summary.get("failed"), dict) else []
     words = {
         "role.grant": lambda: f"granted the {d.get('role', '')} role to {user}",

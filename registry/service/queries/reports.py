@@ -153,7 +153,7 @@ class GateReportView:
 def _problem_paths(evidence: Any) -> list[str]:
     if not isinstance(evidence, dict):
         return []
-    checks = evidence.get("checks") if isinstance(evidence.get("checks"), list) else []
+    checks: list[Any] = evidence["checks"] if isinstance(evidence.get("checks"), list) else []
     if isinstance(evidence.get("check"), dict):
         checks = [*checks, evidence["check"]]
     paths = []
@@ -179,7 +179,7 @@ def _result(item: dict) -> GateResultView:
     status = "waived" if waived else "passed" if passed else "failed"
     summary = str(item.get("summary", ""))
     waiver = item.get("waiver")
-    notes = item.get("notes") if isinstance(item.get("notes"), list) else []
+    notes: list[Any] = item["notes"] if isinstance(item.get("notes"), list) else []
     place = place_of(summary, item.get("evidence")) if status != "passed" else ""
     return GateResultView(
         gate=str(item.get("gate", "unnamed gate")), status=status, summary=summary, place=place,

@@ -218,8 +218,8 @@ def _rows_of_definitions(definitions: Any) -> list[FeatureRow]:
             if getattr(d, key, None):
                 other.append((key, str(getattr(d, key))))
         rows.append(FeatureRow(name=d.path, description=d.description, unit=d.unit or "",
-                               domain=_domain_text(d.domain), nullable="yes" if d.nullable else "no",
-                               other=tuple(other)))
+                               domain=_domain_text(d.domain),
+                               nullable="yes" if d.nullable else "no", other=tuple(other)))
     return rows
 
 

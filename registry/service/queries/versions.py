@@ -108,9 +108,10 @@ def _slices(document: dict) -> tuple[SliceTable, ...]:
         for value, entry in values.items():
             if not isinstance(entry, dict):
                 continue
-            metrics = entry.get("metrics") if isinstance(entry.get("metrics"), dict) else {}
+            figures: dict[str, Any] = (entry["metrics"] if isinstance(entry.get("metrics"), dict)
+                                       else {})
             rows.append((str(value), number(entry.get("n")),
-                         tuple(number(metrics.get(m)) for m in names)))
+                         tuple(number(figures.get(m)) for m in names)))
         tables.append(SliceTable(str(report.get("column", column)), tuple(names), tuple(rows)))
     return tuple(tables)
 
@@ -128,7 +129,8 @@ def evaluation_view(dataset: str, row: t.Evaluation) -> EvaluationView:
     document = loads(row.metrics_json)
     if not isinstance(document, dict):
         return EvaluationView(dataset, row.task, None, moment(row.created_at), (), (), (), False)
-    metrics = document.get("metrics") if isinstance(document.get("metrics"), dict) else {}
+    metrics: dict[str, Any] = (document["metrics"] if isinstance(document.get("metrics"), dict)
+                               else {})
     return EvaluationView(dataset, row.task, number(document.get("n")), moment(row.created_at),
                           tuple((str(k), number(v)) for k, v in metrics.items()),
                           _slices(document), _comparisons(document), True)
