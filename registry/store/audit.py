@@ -48,8 +48,11 @@ class ChainBreak:
     problem: str
 
 
-def verify_chain(records: Iterable[AuditRecord], head: tuple[int, str] | None) -> list[ChainBreak]:
-    """Recompute every link; return the breaks in order (the first one is what to look at)."""
+def verify_chain(records: Iterable[AuditRecord],
+                 head: tuple[int | None, str | None] | None) -> list[ChainBreak]:
+    """Recompute every link; return the breaks in order (the first one is what to look at).
+    `head` is where the chain claims to end; a claim with a missing part never matches, so an
+    export whose manifest lacks it reports a break."""
     breaks: list[ChainBreak] = []
     expected_previous = GENESIS_HASH
     expected_sequence = 1
@@ -76,7 +79,7 @@ def verify_chain(records: Iterable[AuditRecord], head: tuple[int, str] | None) -
         last_sequence = last.sequence if last else 0
         last_hash = last.hash if last else GENESIS_HASH
         if (head_sequence, head_hash) != (last_sequence, last_hash):
-            breaks.append(ChainBreak(head_sequence,
+            breaks.append(ChainBreak(head_sequence if head_sequence is not None else last_sequence,
                                      f"the chain head names event {head_sequence} but the "
                                      f"newest stored event is {last_sequence}: events were "
                                      "removed or added behind the log's back"))
