@@ -114,7 +114,7 @@ def test_history_names_the_report_of_a_refusal_and_report_show_opens_it(run):
     assert (report["id"], report["version"], report["stage"], report["passed"]) == (
         report_id, 2, "canary", False)
     shown = run("report", "show", str(report_id)).stdout
-    assert "refused (9 passed, 1 failed of 10 gates)" in shown
+    assert "refused (10 passed, 1 failed of 11 gates)" in shown
     assert_one_line_error(run("report", "show", "999"), "no gate report 999")
 
 
@@ -123,7 +123,7 @@ def test_a_waived_gate_is_counted_as_waived_not_passed(run):
     waived = [a for a in history["attempts"] if a["passed"] and a["version"] == 2
               and a["stage"] == "canary"]
     shown = run("report", "show", str(waived[0]["id"])).stdout
-    assert "allowed (9 passed, 1 waived of 10 gates)" in shown
+    assert "allowed (10 passed, 1 waived of 11 gates)" in shown
 
 
 def test_audit_log_reads_newest_first_with_filters(run):

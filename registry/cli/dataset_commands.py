@@ -86,13 +86,18 @@ def fingerprint_paths(paths: Sequence[str], schema_json: dict[str, Any] | None,
             progress=progress, on_plan=progress.start if progress else None)
 
 
+def is_saved_fingerprint(path: str) -> bool:
+    """A .json file written by `dataset fingerprint --json`, rather than data."""
+    return path.lower().endswith(".json") and os.path.isfile(path)
+
+
 def fingerprint_path(path: str, schema_json: dict[str, Any] | None, file_format: str | None,
                      keys: tuple[str, ...] = (), exclude: tuple[str, ...] = (),
                      work: Work = Work()):
     """A dataset's fingerprint; a .json file written by `dataset fingerprint --json` is loaded."""
     from registry.datasets import load_fingerprint
 
-    if path.lower().endswith(".json") and os.path.isfile(path):
+    if is_saved_fingerprint(path):
         given = [option for option, value in (("--schema", schema_json), ("--format", file_format),
                                               ("--key", keys), ("--exclude", exclude)) if value]
         if given:  # a saved fingerprint was made with its own; these would be silently ignored
@@ -136,6 +141,10 @@ def fingerprint_command(paths: tuple[str, ...], schema_path: str | None,
 
     PATH is a file, a folder (every data file below it; `key=value` folders give fields), or a
     quoted glob; several may be given."""
+    if len(paths) == 1 and is_saved_fingerprint(paths[0]):  # shown again, with its checks
+        saved = fingerprint_path(paths[0], load_schema(schema_path), file_format, keys, exclude)
+        emit(saved.to_dict(), as_json, render_fingerprint)
+        return
     run = fingerprint_paths(paths, load_schema(schema_path), file_format, keys, exclude,
                             Work(workers, cluster, cluster_timeout))
     document = run.fingerprint.to_dict()

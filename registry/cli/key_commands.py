@@ -67,3 +67,7 @@ def key_list(as_json: bool) -> None:
     emit(found, as_json, text)
 
 
+# `key public` lives with the release commands, which are what a serving side verifies with.
+from registry.cli.release_commands import key_public  # noqa: E402
+
+key.add_command(key_public)

@@ -170,13 +170,3 @@ def key_public(key_id: str | None, output: str | None) -> None:
         Path(output).write_text(pem, encoding="ascii")
     else:
         click.echo(pem.rstrip("\n"))
-
-
-def _attach_to_key_group() -> None:
-    from registry.cli.key_commands import key
-
-    key.add_command(key_public)
-
-
-_attach_to_key_group()
-

@@ -4,7 +4,9 @@ made the way an attacker with write access to the database would, around the cat
 
 from __future__ import annotations
 
+import tempfile
 from datetime import UTC, datetime, timedelta
+from pathlib import Path
 from typing import Any
 
 from click.testing import CliRunner
@@ -13,7 +15,7 @@ from sqlalchemy import Boolean, DateTime, Integer, LargeBinary
 from registry import demo
 from registry.cli import main
 from registry.store import tables as t
-
+from tests.catalogue.helpers import write_version_files
 from tests.conftest import Cli
 
 ADMIN = "mara.kowalczyk"
@@ -35,6 +37,12 @@ def build_story_catalogue(url: str) -> None:
                        user=ADMIN)
     cli.json("token", "revoke", str(revoked["token"]["id"]), user=ADMIN)
     cli.json("key", "rotate", user=ADMIN)
+    # A version whose own manifest names the feed it reads (the story declares it on the model).
+    cli.json("model", "create", "feed-reader", user=ADMIN)
+    folder = Path(tempfile.mkdtemp(prefix="feed-reader-"))
+    document, manifest = write_version_files(folder, manifest_extra='feed = "segment-features"\n')
+    cli.json("register", "feed-reader", str(document), "--manifest", str(manifest),
+             user="ines.okafor")
 
 
 class RawDatabase:
@@ -84,6 +92,10 @@ def one_byte_edit(table: str, column: str, value: Any) -> Any:
         return "evaluated-on" if value == "trained-on" else "trained-on"
     if table == t.ReleaseStatementRow.__tablename__ and column == "move":
         return "left" if value == "entered" else "entered"  # its CHECK allows only these two
+    if table == t.ServedBatch.__tablename__ and column == "kind":
+        return "outcomes" if value == "served" else "served"  # its CHECK allows only these two
+    if table == t.ServedRows.__tablename__ and column == "kind":
+        return "outcomes" if value == "predictions" else "predictions"  # likewise
     if value is None:
         if isinstance(column_type, DateTime):
             return datetime(2026, 1, 1, tzinfo=UTC)
