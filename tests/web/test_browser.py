@@ -200,6 +200,8 @@ DEMO_PAGES = {
     "lineage": f"/lineage?node={TELEMETRY}",
     "dataset-recalled": "/datasets/brackwater-telemetry-extract",
     "dataset-drift": "/datasets/brackwater-live-sample?against=brackwater-training-set",
+    "impact": "/models/main-burst-risk/versions/2/impact",
+    "after-release": "/models/main-burst-risk/after-release",
     "not-found": "/models/no-such-model",
 }
 SERIOUS = ("serious", "critical")
