@@ -25,8 +25,8 @@ ARC_ROOM = 40
 LINE_CHARACTERS = 30  # what fits on one line of a box at the label's size
 SWEEPS = 4
 EXACT_COLUMN = 6  # columns this small try every order of their nodes
-RELATIONS = ("derived-from", "trained-on", "evaluated-on", "parent-version", "held-by",
-             "was-held-by")
+RELATIONS = ("derived-from", "built-from", "trained-on", "evaluated-on", "reads-feed",
+             "parent-version", "held-by", "was-held-by", "reads-output-of")
 
 
 @dataclass(frozen=True)
