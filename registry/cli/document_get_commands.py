@@ -17,8 +17,8 @@ from pathlib import Path
 import click
 
 from registry.cli.output import emit, json_option
+from registry.cli.params import split_model_optional_version
 from registry.cli.progress import progress_bar
-from registry.cli.version_names import model_and_version
 from registry.errors import Refusal, UserError
 
 LARGE = 8 * 1024 * 1024  # bytes: smaller documents arrive too fast for a bar to help
@@ -70,7 +70,7 @@ def document_get(model_name: str, version: str | None, stage: str | None, output
                  as_json: bool) -> None:
     """Fetch a version's document (MODEL VERSION, or MODEL@N), or that of a stage's holder
     (MODEL --stage live), byte for byte as registered."""
-    model, number = model_and_version(model_name, version)
+    model, number = split_model_optional_version(model_name, version)
     if (number is None) == (stage is None):
         raise UserError("give a VERSION or --stage, not both", place="--stage")
     context = click.get_current_context().obj

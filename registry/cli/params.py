@@ -24,6 +24,14 @@ def parse_version_number(text: str, *, place: str = "VERSION") -> int:
     return int(match.group(1))
 
 
+def split_model_optional_version(model: str, version: str | None) -> tuple[str, int | None]:
+    """As split_model_version, for commands where the version may be left out (a stage names
+    the version instead)."""
+    if "@" not in model and version is None:
+        return model, None
+    return split_model_version(model, version)
+
+
 def split_model_version(model: str, version: str | None) -> tuple[str, int]:
     """MODEL and VERSION from `MODEL VERSION`, `MODEL vN` or `MODEL@N`."""
     name, at, number = model.partition("@")
