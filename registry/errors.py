@@ -90,3 +90,10 @@ class CatalogueUnavailable(UserError):
 
     http_status = 503
     kind = "catalogue-unavailable"
+
+
+class Unauthenticated(LockkeeperError):
+    """No token, or one the catalogue does not accept (unknown, expired, revoked)."""
+
+    http_status = 401
+    kind = "unauthenticated"

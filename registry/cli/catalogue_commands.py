@@ -7,15 +7,15 @@ from typing import TYPE_CHECKING
 
 import click
 
-from registry.cli.files import read_file_bytes, read_file_text
+from registry.cli.files import read_file_text
 from registry.cli.lazy_group import LazyGroup
 from registry.cli.output import emit, json_option, short_time
 from registry.cli.params import FilePath, SuggestingChoice
 
 if TYPE_CHECKING:
+    from registry.cli.client import CatalogueClient
     from registry.cli.context import CommandContext
     from registry.service.actors import Actor
-    from registry.service.contents import RegistrationRequest
 
 # The service modules are imported inside each command: importing them loads the database layer,
 # and the stage and dataset commands import the helpers here without needing all of it.
@@ -27,7 +27,12 @@ def _context() -> CommandContext:
     return click.get_current_context().obj
 
 
+def _client() -> CatalogueClient:
+    return _context().client()
+
+
 def _actor() -> Actor:
+    """The acting user, for the commands that work on a local catalogue only."""
     from registry.service.roles import load_actor
 
     context = _context()
@@ -36,10 +41,6 @@ def _actor() -> Actor:
 
 def read_text(path: str, *, what: str) -> str:
     return read_file_text(path, what)
-
-
-def read_bytes(path: str, *, what: str) -> bytes:
-    return read_file_bytes(path, what)
 
 
 @click.command()
@@ -74,23 +75,14 @@ def init(as_json: bool) -> None:
 @json_option
 def model_create(name: str, description: str, as_json: bool) -> None:
     """Create a model line NAME."""
-    from registry.service import models
-
-    remote = _context().remote()
-    summary = (remote.create_model(name, description) if remote
-               else models.create_model(_context().catalogue(), name, description, _actor()))
-    emit(summary, as_json, lambda s: f"created model {s['name']}")
+    emit(_client().create_model(name, description), as_json, lambda s: f"created model {s['name']}")
 
 
 @click.command("list")
 @json_option
 def model_list(as_json: bool) -> None:
     """List every model with its number of versions and who holds each stage."""
-    from registry.service import models
-
-    remote = _context().remote()
-    found = (remote.list_models() if remote
-             else {"models": models.list_models(_context().catalogue())})
+    found = _client().list_models()
 
     def text(d):
         if not d["models"]:
@@ -110,10 +102,7 @@ def model_list(as_json: bool) -> None:
 @json_option
 def model_show(name: str, as_json: bool) -> None:
     """Show a model line and its versions."""
-    from registry.service import models
-
-    remote = _context().remote()
-    detail = remote.show_model(name) if remote else models.show_model(_context().catalogue(), name)
+    detail = _client().show_model(name)
 
     def text(d):
         model = d["model"]
@@ -141,14 +130,7 @@ def model_show(name: str, as_json: bool) -> None:
 def register(model_name: str, document: str, manifest_path: str, features_path: str | None,
              as_json: bool) -> None:
     """Register DOCUMENT as the next version of MODEL."""
-    remote = _context().remote()
-    if remote:
-        outcome = remote.register(model_name, document, manifest_path, features_path)
-    else:
-        from registry.service import registration
-
-        request = registration_request(model_name, document, manifest_path, features_path)
-        outcome = registration.register_version(_context().catalogue(), request, _actor())
+    outcome = _client().register(model_name, document, manifest_path, features_path)
     emit(outcome, as_json, render_registration)
 
 
@@ -162,30 +144,6 @@ def render_registration(o: dict) -> str:
     return text
 
 
-def registration_request(model_name: str, document: str, manifest_path: str,
-                         features_path: str | None) -> RegistrationRequest:
-    """Read every file a registration names; paths in the manifest are relative to it."""
-    from registry.manifest import parse_manifest
-    from registry.service import registration
-
-    manifest_text = read_text(manifest_path, what="--manifest")
-    document_bytes = read_bytes(document, what="DOCUMENT")
-    manifest = parse_manifest(manifest_text, source=manifest_path)
-    base = Path(manifest_path).parent
-
-    def named(relative: str | None, what: str) -> str | None:
-        return read_text(str(base / relative), what=what) if relative else None
-
-    features_text = (read_text(features_path, what="--features") if features_path
-                     else named(manifest.features, "features"))
-    return registration.RegistrationRequest(
-        model=model_name, document=document_bytes, document_name=Path(document).name,
-        manifest=manifest,
-        input_schema_text=named(manifest.input_schema, "input_schema"),
-        output_schema_text=named(manifest.output_schema, "output_schema"),
-        features_text=features_text)
-
-
 @click.command("verify")
 @click.option("--against", "against_path", type=click.Path(dir_okay=False), default=None,
               metavar="CHECKPOINT.json",
@@ -194,16 +152,7 @@ def registration_request(model_name: str, document: str, manifest_path: str,
 def audit_verify(against_path: str | None, as_json: bool) -> None:
     """Recompute the audit chain and every stored digest, compare every deciding row with the
     chain, check the signed checkpoints; name the first difference."""
-    remote = _context().remote()
-    if remote and against_path is None:
-        document = remote.verify_audit()
-    else:
-        from registry.service import integrity
-
-        _context().local_only("audit verify --against")
-        against = (integrity.read_external_checkpoint(Path(against_path))
-                   if against_path else None)
-        document = integrity.verify_catalogue(_context().catalogue(), against).to_dict()
+    verdict = _client().verify_audit(Path(against_path) if against_path else None)
 
     def text(d):
         if d["ok"]:
@@ -217,8 +166,8 @@ def audit_verify(against_path: str | None, as_json: bool) -> None:
         return "\n".join([f"BROKEN at {d['first_broken_link']}"] +
                          [f"  {f['place']}: {f['problem']}" for f in d["findings"]])
 
-    emit(document, as_json, text)
-    if not document["ok"]:
+    emit(verdict, as_json, text)
+    if not verdict.ok:
         click.get_current_context().exit(1)
 
 
@@ -250,11 +199,7 @@ def user() -> None:
 @json_option
 def user_grant(name: str, role: str, as_json: bool) -> None:
     """Give user NAME a ROLE (needs admin, except for a catalogue's first admin)."""
-    from registry.service.roles import grant_role
-
-    remote = _context().remote()
-    outcome = (remote.grant_role(name, role) if remote
-               else grant_role(_context().catalogue(), name, role, _actor()))
+    outcome = _client().grant_role(name, role)
     emit(outcome, as_json, lambda o: f"{o['user']} is now {o['role']}" if o["granted"]
          else f"{o['user']} already was {o['role']}")
 
@@ -265,12 +210,7 @@ def user_grant(name: str, role: str, as_json: bool) -> None:
 @json_option
 def user_revoke(name: str, role: str, as_json: bool) -> None:
     """Take a ROLE away from user NAME (needs admin)."""
-    from registry.service.roles import revoke_role
-
-    remote = _context().remote()
-    outcome = (remote.revoke_role(name, role) if remote
-               else revoke_role(_context().catalogue(), name, role, _actor()))
-    emit(outcome, as_json,
+    emit(_client().revoke_role(name, role), as_json,
          lambda o: f"{o['user']} is no longer {o['role']}")
 
 
@@ -278,11 +218,7 @@ def user_revoke(name: str, role: str, as_json: bool) -> None:
 @json_option
 def user_list(as_json: bool) -> None:
     """Every user with a role, and the roles."""
-    from registry.service.roles import list_roles
-
-    remote = _context().remote()
-    users = remote.list_users() if remote else {"users": list_roles(_context().catalogue())}
-    emit(users, as_json, lambda d: "\n".join(
+    emit(_client().list_users(), as_json, lambda d: "\n".join(
         f"{name}: {', '.join(roles)}" for name, roles in d["users"].items()) or "no roles granted")
 
 

@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import getpass
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from registry.cli.client import CatalogueClient
 
 
 @dataclass
@@ -14,6 +17,7 @@ class CommandContext:
     server: str | None = None
     token: str | None = field(default=None, repr=False)
     _catalogue: Any = field(default=None, repr=False)
+    _client: CatalogueClient | None = field(default=None, repr=False)
 
     @property
     def user(self) -> str:
@@ -24,13 +28,20 @@ class CommandContext:
         except Exception:  # no login name in some containers
             return "unknown"
 
-    def remote(self) -> Any:
-        """The HTTP client of the remote catalogue named by --server, or None to work locally."""
-        if not self.server:
-            return None
-        from registry.cli.remote import ApiClient
+    def client(self) -> CatalogueClient:
+        """The catalogue the commands act on: the server named by --server, or the local
+        catalogue (opened on first use). Chosen once, here; no command asks which it got."""
+        if self._client is None:
+            if self.server:
+                from registry.cli.remote import ApiClient
+                from registry.cli.remote_catalogue import RemoteCatalogue
 
-        return ApiClient(self.server, self.token)
+                self._client = RemoteCatalogue(ApiClient(self.server, self.token))
+            else:
+                from registry.cli.local import LocalCatalogue
+
+                self._client = LocalCatalogue(self.catalogue, self.user)
+        return self._client
 
     def local_only(self, command: str) -> None:
         if self.server:

@@ -3,29 +3,11 @@ model's output), `model set-feed`, and `impact` (what changes if a version enter
 
 from __future__ import annotations
 
-import json
-from urllib.parse import quote
-
 import click
 
-from registry.cli.catalogue_commands import _actor, _context, read_text
+from registry.cli.catalogue_commands import _client, read_text
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
-
-
-def _remote():
-    return _context().remote()
-
-
-def _schema_body(text: str, place: str):
-    try:
-        return json.loads(text)
-    except json.JSONDecodeError as error:
-        raise UserError(f"not valid JSON: {error}", place=place) from None
-
-
-def _path(*parts: str) -> str:
-    return "/" + "/".join(quote(part, safe="") for part in parts)
 
 
 def _fail_unless(passed: bool) -> None:
@@ -70,16 +52,8 @@ def _render_feed(d: dict) -> str:
 @json_option
 def feed_create(name: str, description: str, retain_days: int, built_from, as_json: bool) -> None:
     """Create the feed NAME (no schema yet: publish one next)."""
-    remote = _remote()
-    if remote:
-        found = remote._post("/feeds", {"name": name, "description": description,
-                                        "retain_days": retain_days,
-                                        "built_from": list(built_from)})
-    else:
-        from registry.service.feeds import create_feed
-
-        found = create_feed(_context().catalogue(), name, _actor(), description=description,
-                            retain_days=retain_days, built_from=built_from)
+    found = _client().create_feed(name, description=description, retain_days=retain_days,
+                                  built_from=built_from)
     emit(found, as_json, lambda d: f"created {_render_feed(d)}")
 
 
@@ -123,18 +97,9 @@ def feed_publish(name: str, schema_path: str, note: str, waive: bool, reason: st
     if reason is not None and not waive:
         raise UserError("--reason goes with --waive", place="--reason")
     text = read_text(schema_path, what="SCHEMA")
-    remote = _remote()
-    if remote:
-        body = {"schema": _schema_body(text, "SCHEMA"), "note": note}
-        if waive:
-            body["waiver_reason"] = reason
-        outcome = remote._post(_path("feeds", name, "schemas"), body)
-    else:
-        from registry.service.feeds import publish_feed_schema
-
-        outcome = publish_feed_schema(_context().catalogue(), name, text, _actor(), note=note,
-                                      waiver_reason=reason if waive else None,
-                                      place=schema_path)
+    outcome = _client().publish_feed_schema(name, text, note=note,
+                                            waiver_reason=reason if waive else None,
+                                            place=schema_path)
 
     def render(d: dict) -> str:
         if d["refused"]:
@@ -142,7 +107,7 @@ def feed_publish(name: str, schema_path: str, note: str, waive: bool, reason: st
         return d["summary"] + ("\n" + _render_verdict(d["check"]) if d.get("check") else "")
 
     emit(outcome, as_json, render)
-    _fail_unless(not outcome["refused"])
+    _fail_unless(not outcome.refused)
 
 
 @feed.command("check")
@@ -153,16 +118,9 @@ def feed_check(name: str, schema_path: str, as_json: bool) -> None:
     """Who could not read NEW_SCHEMA if it were published: every version holding a stage that
     reads the feed, exclusive stages first. Changes nothing."""
     text = read_text(schema_path, what="NEW_SCHEMA")
-    remote = _remote()
-    if remote:
-        verdict = remote._post(_path("feeds", name, "check"),
-                               {"schema": _schema_body(text, "NEW_SCHEMA")})
-    else:
-        from registry.service.feeds import check_feed_schema
-
-        verdict = check_feed_schema(_context().catalogue(), name, text, place=schema_path)
+    verdict = _client().check_feed_schema(name, text, place=schema_path)
     emit(verdict, as_json, lambda d: _render_verdict(d, "WOULD BE REFUSED"))
-    _fail_unless(verdict["passed"])
+    _fail_unless(verdict.passed)
 
 
 @feed.command("show")
@@ -170,28 +128,15 @@ def feed_check(name: str, schema_path: str, as_json: bool) -> None:
 @json_option
 def feed_show(name: str, as_json: bool) -> None:
     """A feed with every published schema, which are in flight, and who reads it."""
-    remote = _remote()
-    if remote:
-        found = remote._get(_path("feeds", name))
-    else:
-        from registry.service.feeds import show_feed
-
-        found = show_feed(_context().catalogue(), name)
-    emit(found, as_json, _render_feed)
+    emit(_client().show_feed(name), as_json, _render_feed)
 
 
 @feed.command("list")
 @json_option
 def feed_list(as_json: bool) -> None:
     """Every feed with its current schema version."""
-    remote = _remote()
-    if remote:
-        found = remote._get("/feeds")
-    else:
-        from registry.service.feeds import list_feeds
-
-        found = list_feeds(_context().catalogue())
-    emit(found, as_json, lambda d: "\n".join(_render_feed(f) for f in d["feeds"]) or "no feeds")
+    emit(_client().list_feeds(), as_json,
+         lambda d: "\n".join(_render_feed(f) for f in d["feeds"]) or "no feeds")
 
 
 @click.command("set-feed")
@@ -200,14 +145,7 @@ def feed_list(as_json: bool) -> None:
 @json_option
 def model_set_feed(model_name: str, feed_name: str, as_json: bool) -> None:
     """Declare that MODEL reads FEED (a version's manifest may name its own `feed`)."""
-    remote = _remote()
-    if remote:
-        outcome = remote.request("PUT", _path("models", model_name, "feed"),
-                                 body={"feed": feed_name})[2]
-    else:
-        from registry.service.feeds import set_model_feed
-
-        outcome = set_model_feed(_context().catalogue(), model_name, feed_name, _actor())
+    outcome = _client().set_model_feed(model_name, feed_name)
     emit(outcome, as_json, lambda d: f"{d['model']} reads feed {d['feed']}"
                                      + ("" if d["changed"] else " (unchanged)"))
 
@@ -236,15 +174,7 @@ def _render_consumer(d: dict) -> str:
 def consumer_add(name: str, model_name: str, schema_path: str, owner: str, as_json: bool) -> None:
     """Declare the consumer NAME of a model's output."""
     text = read_text(schema_path, what="--schema")
-    remote = _remote()
-    if remote:
-        found = remote._post("/consumers", {"name": name, "model": model_name, "owner": owner,
-                                            "schema": _schema_body(text, "--schema")})
-    else:
-        from registry.service.consumers import add_consumer
-
-        found = add_consumer(_context().catalogue(), name, model_name, text, _actor(),
-                             owner=owner, place=schema_path)
+    found = _client().add_consumer(name, model_name, text, owner=owner, place=schema_path)
     emit(found, as_json, lambda d: f"declared {_render_consumer(d)}")
 
 
@@ -257,15 +187,7 @@ def consumer_add(name: str, model_name: str, schema_path: str, owner: str, as_js
 def consumer_update(name: str, schema_path: str, note: str, as_json: bool) -> None:
     """Record the consumer's next reader schema."""
     text = read_text(schema_path, what="--schema")
-    remote = _remote()
-    if remote:
-        found = remote._post(_path("consumers", name, "schemas"),
-                             {"schema": _schema_body(text, "--schema"), "note": note})
-    else:
-        from registry.service.consumers import update_consumer
-
-        found = update_consumer(_context().catalogue(), name, text, _actor(), note=note,
-                                place=schema_path)
+    found = _client().update_consumer(name, text, note=note, place=schema_path)
     emit(found, as_json, lambda d: (_render_consumer(d) if d["changed"] else d["summary"]))
 
 
@@ -274,13 +196,7 @@ def consumer_update(name: str, schema_path: str, note: str, as_json: bool) -> No
 @json_option
 def consumer_remove(name: str, as_json: bool) -> None:
     """Remove a declared consumer (the audit log keeps what it was)."""
-    remote = _remote()
-    if remote:
-        found = remote.request("DELETE", _path("consumers", name))[2]
-    else:
-        from registry.service.consumers import remove_consumer
-
-        found = remove_consumer(_context().catalogue(), name, _actor())
+    found = _client().remove_consumer(name)
     emit(found, as_json, lambda d: f"removed consumer {d['consumer']} of {d['model']}")
 
 
@@ -288,13 +204,7 @@ def consumer_remove(name: str, as_json: bool) -> None:
 @json_option
 def consumer_list(as_json: bool) -> None:
     """Every declared consumer with the model it reads and its current reader schema."""
-    remote = _remote()
-    if remote:
-        found = remote._get("/consumers")
-    else:
-        from registry.service.consumers import list_consumers
-
-        found = list_consumers(_context().catalogue())
+    found = _client().list_consumers()
     emit(found, as_json, lambda d: "\n".join(_render_consumer(c) for c in d["consumers"])
          or "no consumers declared")
 
@@ -306,14 +216,7 @@ def consumer_list(as_json: bool) -> None:
 def consumer_check(name: str, schema_path: str, as_json: bool) -> None:
     """The versions in each stage whose output NEW_READER could not read. Changes nothing."""
     text = read_text(schema_path, what="NEW_READER")
-    remote = _remote()
-    if remote:
-        verdict = remote._post(_path("consumers", name, "check"),
-                               {"schema": _schema_body(text, "NEW_READER")})
-    else:
-        from registry.service.consumers import check_consumer_schema
-
-        verdict = check_consumer_schema(_context().catalogue(), name, text, place=schema_path)
+    verdict = _client().check_consumer_schema(name, text, place=schema_path)
 
     def render(d: dict) -> str:
         lines = [("PASSES" if d["passed"] else "BREAKS") + f": {d['summary']}"]
@@ -325,7 +228,7 @@ def consumer_check(name: str, schema_path: str, as_json: bool) -> None:
         return "\n".join(lines)
 
     emit(verdict, as_json, render)
-    _fail_unless(verdict["passed"])
+    _fail_unless(verdict.passed)
 
 
 # --- impact --------------------------------------------------------------------------------
@@ -382,14 +285,6 @@ def impact(model_name: str, version: str | None, stage: str, as_json: bool) -> N
     """What changes if VERSION enters STAGE: feeds, consumers, features, metrics, slices and
     datasets. Changes nothing. VERSION is N or vN; MODEL@N names both."""
     model_name, number = model_and_version(model_name, version)
-    remote = _remote()
-    if remote:
-        found = remote._get(_path("models", model_name, "versions", str(number), "impact")
-                            + "?stage=" + quote(stage, safe=""))
-    else:
-        from registry.service.impact import impact_of
-
-        found = impact_of(_context().catalogue(), model_name, number, stage)
-    emit(found, as_json, render_impact)
+    emit(_client().impact(model_name, number, stage), as_json, render_impact)
 
 

@@ -9,7 +9,7 @@ import os
 
 import click
 
-from registry.cli.catalogue_commands import _actor, _context
+from registry.cli.catalogue_commands import _client
 from registry.cli.dataset_commands import (
     FORMAT_CHOICE,
     Work,
@@ -50,27 +50,14 @@ def dataset_add(name: str, paths: tuple[str, ...], schema_path: str | None,
                 cluster_timeout: float, as_json: bool) -> None:
     """Fingerprint PATH (a file, a folder, a quoted glob, or several) and register it as
     dataset NAME, with the list of files it was made from."""
-    from registry.service.datasets import DatasetRequest, add_dataset
-
     work = Work(workers, cluster, cluster_timeout)
     source_uri = source_uri or " ".join(os.path.abspath(p) for p in paths)
-    remote = _context().remote()
-    if remote:  # fingerprint here, so only the fingerprint crosses the network
-        run = fingerprint_paths(paths, load_schema(schema_path), file_format, keys, exclude,
-                                work)
-        summary = remote.add_dataset_fingerprint(
-            name, run.fingerprint.to_dict(), role=role, derived_from=derived_from,
-            feed_of=feed_of, source_uri=source_uri,
-            sources=[source.to_dict() for source in run.sources])
-        emit(summary, as_json, _render_added)
-        return
-    catalogue = _context().catalogue()  # fail on a bad catalogue before a long fingerprint
+    client = _client()
+    client.ping()  # fail on a catalogue out of reach before a long fingerprint
     run = fingerprint_paths(paths, load_schema(schema_path), file_format, keys, exclude, work)
-    request = DatasetRequest(name=name, role=role, fingerprint=run.fingerprint,
-                             source_uri=source_uri, derived_from=derived_from, feed_of=feed_of,
-                             sources=tuple((s.relative_path, s.size, s.sha256)
-                                           for s in run.sources))
-    summary = add_dataset(catalogue, request, _actor())
+    summary = client.add_dataset(name, run.fingerprint, run.sources, role=role,
+                                 derived_from=derived_from, feed_of=feed_of,
+                                 source_uri=source_uri)
     emit(summary, as_json, _render_added)
 
 
@@ -97,10 +84,7 @@ def _render_added(s: dict) -> str:
 @json_option
 def dataset_show(name: str, as_json: bool) -> None:
     """Show a registered dataset: lineage, fingerprint and profile."""
-    from registry.service.datasets import fingerprint_of, show_dataset
-
-    remote = _context().remote()
-    summary = remote.show_dataset(name) if remote else show_dataset(_context().catalogue(), name)
+    summary = _client().show_dataset(name)
 
     def text(s):
         recalled = f"  RECALLED: {s['recall_reason']}" if s["recalled"] else ""
@@ -109,10 +93,9 @@ def dataset_show(name: str, as_json: bool) -> None:
                 f"source              {s['source_uri']}",
                 f"registered          {short_time(s['created_at'])} by {s['created_by']}",
                 *render_sources(s.get("sources") or [])]
-        if remote:
+        if summary.fingerprint is None:  # the remote door sends the summary only
             return "\n".join(head)
-        return "\n".join(head) + "\n" + render_fingerprint(
-            fingerprint_of(_context().catalogue(), name).to_dict())
+        return "\n".join(head) + "\n" + render_fingerprint(dict(summary.fingerprint))
 
     emit(summary, as_json, text)
 
@@ -121,12 +104,7 @@ def dataset_show(name: str, as_json: bool) -> None:
 @json_option
 def dataset_list(as_json: bool) -> None:
     """Every registered dataset."""
-    from registry.service.datasets import list_datasets
-
-    remote = _context().remote()
-    found = (remote.list_datasets() if remote
-             else {"datasets": list_datasets(_context().catalogue())})
-    emit(found, as_json, lambda d: "\n".join(
+    emit(_client().list_datasets(), as_json, lambda d: "\n".join(
         f"{s['name']:<32} {s['role']:<12} {s['rows']:>8} rows"
         f"{'  RECALLED' if s['recalled'] else ''}"
         for s in d["datasets"]) or "no datasets yet")

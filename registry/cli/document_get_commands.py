@@ -75,35 +75,12 @@ def document_get(model_name: str, version: str | None, stage: str | None, output
         raise UserError("give a VERSION or --stage, not both", place="--stage")
     context = click.get_current_context().obj
     target = Path(output)
-    remote = context.remote()
-    if remote:
-        path = remote.document_path(model, version=number, stage=stage)
-        chunks = remote.stream(path)
-        no_headers: dict[str, str] = {}
-        first_headers, first = next(chunks, (no_headers, b""))
-        expected = first_headers.get("ETag", "").strip('"')
-        size = int(first_headers.get("Content-Length", "0")) or None
-        found_version = int(first_headers.get("Lockkeeper-Version", number or 0)) or number
-        written = write_checked(_chain(first, chunks), target, expected, size)
-    else:
-        from registry.service.document_fetch import document_chunks, find_document
-
-        catalogue = context.catalogue()
-        document = find_document(catalogue, model, version=number, stage=stage)
-        expected, found_version = document.sha256, document.version
-        written = write_checked(document_chunks(catalogue, document), target, expected,
-                                document.size)
-    result = {"model": model, "version": found_version, "stage": stage, "sha256": expected,
+    found = context.client().document(model, version=number, stage=stage)
+    written = write_checked(found.chunks, target, found.sha256, found.size)
+    result = {"model": model, "version": found.version, "stage": stage, "sha256": found.sha256,
               "size": written, "path": str(target)}
     emit(result, as_json, lambda r: f"wrote {r['size']} bytes of {r['model']}"
          + (f" v{r['version']}" if r["version"] else f" ({r['stage']})")
          + f" to {r['path']} (sha256 {r['sha256']})")
-
-
-def _chain(first: bytes, rest) -> Iterable[bytes]:
-    if first:
-        yield first
-    for _, chunk in rest:
-        yield chunk
 
 

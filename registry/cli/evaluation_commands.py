@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from registry.cli.catalogue_commands import _actor, _context
+from registry.cli.catalogue_commands import _client
 from registry.cli.output import emit, json_option
 from registry.cli.params import FilePath, model_version_arguments
 
@@ -26,21 +26,8 @@ def evaluate(model_name: str, version: int, dataset_name: str, predictions_path:
              task: str | None, slice_columns: tuple[str, ...], threshold: float,
              as_json: bool) -> None:
     """Compute and store the metrics of a version's predictions on an evaluation dataset."""
-    from registry.evaluation import read_predictions
-    from registry.evaluation.predictions import infer_task
-    from registry.service.evaluations import EvaluationRequest, add_evaluation
-
-    remote = _context().remote()
-    if remote:
-        summary = remote.evaluate(model_name, version, dataset_name, predictions_path,
-                                  task=task, slices=slice_columns, threshold=threshold)
-    else:
-        predictions = read_predictions(predictions_path,
-                                       task or infer_task(predictions_path, place="--predictions"))
-        request = EvaluationRequest(model=model_name, version=version, dataset=dataset_name,
-                                    predictions=predictions, slice_columns=slice_columns,
-                                    threshold=threshold)
-        summary = add_evaluation(_context().catalogue(), request, _actor())
+    summary = _client().evaluate(model_name, version, dataset_name, predictions_path,
+                                 task=task, slices=slice_columns, threshold=threshold)
 
     def text(s):
         shown = ", ".join(f"{name} {value:.4f}" for name, value in s["metrics"].items()

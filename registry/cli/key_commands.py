@@ -52,10 +52,7 @@ def key_rotate(as_json: bool) -> None:
 @json_option
 def key_list(as_json: bool) -> None:
     """Every public key the catalogue has had, the current one last."""
-    from registry.service.signing_keys import list_keys
-
-    remote = _context().remote()
-    found = remote.list_keys() if remote else list_keys(_context().catalogue())
+    found = _context().client().list_keys()
 
     def text(d):
         if not d["keys"]:

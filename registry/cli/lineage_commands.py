@@ -7,23 +7,10 @@ import re
 
 import click
 
+from registry.cli.catalogue_commands import _client
 from registry.cli.output import emit, json_option
 from registry.errors import UserError
-from registry.service import lineage as lineage_service
-from registry.service import recall as recall_service
-from registry.service.actors import Actor
-
-
-def _context():
-    return click.get_current_context().obj
-
-
-def _actor() -> Actor:
-    from registry.service.roles import load_actor
-
-    context = _context()
-    return load_actor(context.catalogue(), context.user)
-
+from registry.service.lineage import MAX_DEPTH
 
 _VERSION_NODE = re.compile(r"model/([^/]+)/version/([0-9]+)")
 
@@ -60,7 +47,7 @@ def _render_graph(graph: dict) -> str:
 @click.argument("node")
 @click.option("--up", "walk_up", is_flag=True, help="What went into NODE.")
 @click.option("--down", "walk_down", is_flag=True, help="What came of NODE (both: the two ways).")
-@click.option("--depth", type=click.IntRange(0, lineage_service.MAX_DEPTH), default=None,
+@click.option("--depth", type=click.IntRange(0, MAX_DEPTH), default=None,
               help="Follow at most this many edges (default: all).")
 @click.option("--format", "output_format", type=click.Choice(["text", "json", "prov-json"]),
               default=None, help="text (default), json, or W3C PROV-JSON.")
@@ -76,23 +63,13 @@ def lineage(node: str, walk_up: bool, walk_down: bool, depth: int | None,
         raise UserError(f"--json and --format {output_format} ask for different documents; "
                         "give one of them", place="--format")
     output_format = output_format or ("json" if as_json else "text")
-    remote = _context().remote()
-    if remote:
-        document = remote.lineage(node, direction, depth=depth,
-                                  output_format="prov-json" if output_format == "prov-json"
-                                  else "json")
-        if output_format == "prov-json":
-            click.echo(json.dumps(document, indent=2, sort_keys=True))
-        else:
-            emit(document, output_format == "json", _render_graph)
-        return
-    catalogue = _context().catalogue()
+    document = _client().lineage(node, direction, depth=depth,
+                                 output_format="prov-json" if output_format == "prov-json"
+                                 else "json")
     if output_format == "prov-json":
-        document = lineage_service.provenance_of(catalogue, node, direction, depth)
-        click.echo(json.dumps(document, indent=2, sort_keys=True))
-        return
-    graph = lineage_service.lineage_of(catalogue, node, direction, depth)
-    emit(graph, output_format == "json", _render_graph)
+        click.echo(json.dumps(document.to_json(), indent=2, sort_keys=True))
+    else:
+        emit(document, output_format == "json", _render_graph)
 
 
 def _render_recall(outcome: dict) -> str:
@@ -127,7 +104,4 @@ def _render_recall(outcome: dict) -> str:
 @json_option
 def recall_command(name: str, reason: str, as_json: bool) -> None:
     """Recall dataset NAME: flag everything downstream and block it from promotion."""
-    remote = _context().remote()
-    outcome = (remote.recall(name, reason) if remote else
-               recall_service.recall_dataset(_context().catalogue(), name, reason, _actor()))
-    emit(outcome, as_json, _render_recall)
+    emit(_client().recall(name, reason), as_json, _render_recall)

@@ -15,7 +15,10 @@ def emit(document: Any, as_json: bool, render_text: Callable[[Any], str] | None 
     """Print one report: the JSON document, or its text rendering for a person.
 
     The renderer always gets the plain JSON form, so a report fetched from a remote catalogue
-    renders exactly like one computed here."""
+    renders exactly like one computed here. An answer of the catalogue client
+    (registry.cli.answers) prints its document."""
+    if callable(getattr(document, "to_json", None)):
+        document = document.to_json()
     plain = to_plain(document)
     if as_json:
         click.echo(json.dumps(plain, indent=2, sort_keys=False, allow_nan=False, default=str))

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from registry.cli.catalogue_commands import _context
+from registry.cli.catalogue_commands import _client, _context
 from registry.cli.output import emit, json_option, listing, short_time
 
 
@@ -15,14 +15,7 @@ def report_show(report_id: int, as_json: bool) -> None:
     """Show gate report ID (as `history` names it): every gate of one attempt and its evidence."""
     from registry.gates import GateReport, render_report
 
-    remote = _context().remote()
-    if remote:
-        report = remote.report(report_id)
-    else:
-        from registry.service.stages import find_report
-
-        report = find_report(_context().catalogue(), report_id)
-    emit({"id": report_id, **report}, as_json,
+    emit(_client().report(report_id), as_json,
          lambda d: f"gate report {report_id}, {short_time(d['evaluated_at'])} by {d['actor']}\n"
                    + render_report(GateReport.from_dict(d)))
 

@@ -55,13 +55,7 @@ def _describe(envelope_bytes: bytes) -> dict:
 def release_show(model_name: str, stage: str, output: str | None, as_json: bool) -> None:
     """The current release statement of a stage. With --json, the DSSE envelope itself."""
     context = click.get_current_context().obj
-    remote = context.remote()
-    if remote:
-        envelope_bytes = remote.release_envelope(model_name, stage)
-    else:
-        from registry.service.releases import current_release
-
-        envelope_bytes = current_release(context.catalogue(), model_name, stage).envelope
+    envelope_bytes = context.client().release_envelope(model_name, stage)
     if output:
         Path(output).write_bytes(envelope_bytes)
     if as_json:
@@ -117,10 +111,11 @@ def release_verify(document: str, envelope_file: str, key_file: str, model: str 
     statement = verdict.statement  # a verified verdict always carries its statement
     if server and verdict.verified and statement is not None:
         from registry.cli.remote import ApiClient
+        from registry.cli.remote_catalogue import RemoteCatalogue
 
         try:
-            served = ApiClient(server, context.token).release_envelope(statement.model,
-                                                                       statement.stage)
+            served = RemoteCatalogue(ApiClient(server, context.token)).release_envelope(
+                statement.model, statement.stage)
         except NotFound:  # nobody holds the stage now, or its holder has no statement
             current = False
         else:
@@ -149,13 +144,7 @@ def key_public(key_id: str | None, output: str | None) -> None:
     """The public half of the catalogue's current signing key (or of KEY_ID), as PEM: what
     `release verify --key` takes."""
     context = click.get_current_context().obj
-    remote = context.remote()
-    if remote:
-        keys = remote.list_keys()["keys"]
-    else:
-        from registry.service.signing_keys import list_keys
-
-        keys = list_keys(context.catalogue())["keys"]
+    keys = context.client().list_keys().keys
     if key_id is None:
         chosen = [k for k in keys if k["retired_at"] is None][-1:]
         if not chosen:

@@ -1,4 +1,5 @@
-"""A small HTTP client for the API (standard library only), one method per use case.
+"""A small HTTP client for the API (standard library only), one method per use case: the wire
+beneath registry.cli.remote_catalogue, which turns its documents into answers.
 
 Each method returns the JSON document the API returns; a problem document comes back as the
 matching error of registry.errors (NotFound, Forbidden, Conflict ...), so a shell renders a
@@ -25,11 +26,11 @@ from registry.errors import (
     NotFound,
     Refusal,
     StageNotHeld,
+    Unauthenticated,
     Unprocessable,
     UserError,
 )
 from registry.manifest import parse_manifest
-from registry.service.tokens import Unauthenticated
 
 ERRORS_BY_KIND: dict[str, type[LockkeeperError]] = {
     "not-found": NotFound, "stage-not-held": StageNotHeld, "already-exists": AlreadyExists,

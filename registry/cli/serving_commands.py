@@ -7,8 +7,8 @@ from typing import Any
 
 import click
 
-from registry.cli.catalogue_commands import _actor, _context
-from registry.cli.dataset_commands import FORMAT_CHOICE, load_schema
+from registry.cli.catalogue_commands import _client
+from registry.cli.dataset_commands import FORMAT_CHOICE
 from registry.cli.output import emit, json_option
 from registry.cli.progress import progress_bar
 
@@ -37,18 +37,9 @@ def _total_rows(path: str) -> int | None:
 def record(model_name: str, file: str, schema_path: str | None, file_format: str | None,
            as_json: bool) -> None:
     """Record a batch of served rows: row_id, served_at, version, the prediction, inputs."""
-    from registry.service.serving import record_served
-
-    remote = _context().remote()
-    if remote:
-        outcome = remote.record_served(model_name, file, schema=schema_path,
-                                       file_format=file_format)
-    else:
-        schema_json = load_schema(schema_path)
-        with progress_bar(os.path.basename(file), _total_rows(file)) as progress:
-            outcome = record_served(_context().catalogue(), model_name, file, _actor(),
-                                    format=file_format, schema_json=schema_json,
-                                    progress=progress)
+    with progress_bar(os.path.basename(file), _total_rows(file)) as progress:
+        outcome = _client().record_served(model_name, file, schema=schema_path,
+                                          file_format=file_format, progress=progress)
 
     def text(o: dict[str, Any]) -> str:
         if not o["recorded"]:
@@ -69,14 +60,7 @@ def record(model_name: str, file: str, schema_path: str | None, file_format: str
 @json_option
 def outcomes(model_name: str, file: str, file_format: str | None, as_json: bool) -> None:
     """Record outcomes (row_id, label, optionally observed_at) of rows served earlier."""
-    from registry.service.serving import record_outcomes
-
-    remote = _context().remote()
-    if remote:
-        outcome = remote.record_outcomes(model_name, file, file_format=file_format)
-    else:
-        outcome = record_outcomes(_context().catalogue(), model_name, file, _actor(),
-                                  format=file_format)
+    outcome = _client().record_outcomes(model_name, file, file_format=file_format)
 
     def text(o: dict[str, Any]) -> str:
         if not o["recorded"]:
@@ -98,16 +82,8 @@ def outcomes(model_name: str, file: str, file_format: str | None, as_json: bool)
 def report(model_name: str, version: str | None, since: str | None, window: str | None,
            as_json: bool) -> None:
     """Per window and version: rows, drift, shadow agreement, live quality and the state."""
-    from registry.service.serving_evidence import serving_report
-
     number = _version_number(version) if version is not None else None
-    remote = _context().remote()
-    if remote:
-        document = remote.serving_report(model_name, version=number, since=since,
-                                         window=window)
-    else:
-        document = serving_report(_context().catalogue(), model_name, version=number,
-                                  since=since, window=window)
+    document = _client().serving_report(model_name, version=number, since=since, window=window)
     emit(document, as_json, render_report)
 
 

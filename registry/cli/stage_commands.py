@@ -5,17 +5,18 @@ from __future__ import annotations
 
 import click
 
-from registry.cli.catalogue_commands import _actor, _context, read_text
+from registry.cli.catalogue_commands import _client, read_text
+from registry.cli.client import WHOEVER_HOLDS_IT
 from registry.cli.lazy_group import LazyGroup
-from registry.cli.output import emit, json_option, short_time, to_plain
+from registry.cli.output import emit, json_option, short_time
 from registry.cli.params import FilePath, model_version_arguments, parse_version_number
 from registry.cli.progress import progress_bar
 from registry.errors import UserError
 from registry.gates import GateReport, render_report
-from registry.service import gatekeeping, stages
 
 
-def _waivers(gates: tuple[str, ...], reasons: tuple[str, ...], actor) -> list:
+def _waivers(gates: tuple[str, ...], reasons: tuple[str, ...]) -> list[tuple[str, str]]:
+    """(gate, reason) pairs; the catalogue records the acting user as the one who waived."""
     if not gates:
         if reasons:
             raise UserError("--reason goes with --waive GATE", place="--reason")
@@ -26,14 +27,7 @@ def _waivers(gates: tuple[str, ...], reasons: tuple[str, ...], actor) -> list:
         reasons = reasons * len(gates)
     if len(reasons) != len(gates):
         raise UserError("give one --reason, or one per --waive", place="--reason")
-    return gatekeeping.parse_waivers(list(zip(gates, reasons, strict=True)), actor)
-
-
-def _remote_waivers(gates: tuple[str, ...], reasons: tuple[str, ...]) -> list[tuple[str, str]]:
-    """(gate, reason) pairs for the API; the server records the token's user as approver."""
-    if gates and not reasons:
-        raise UserError("a waiver needs a reason: add --reason TEXT", place="--waive")
-    return list(zip(gates, reasons * len(gates) if len(reasons) == 1 else reasons, strict=False))
+    return list(zip(gates, reasons, strict=True))
 
 
 def _render_outcome(outcome: dict, verb: str) -> str:
@@ -69,20 +63,13 @@ def with_waive_options(function):
 @json_option
 def check(model_name: str, version: int, stage: str, waive_gates, reasons, as_json: bool) -> None:
     """Run the gates of a stage for a version, as a dry run: nothing changes."""
-    remote = _context().remote()
-    if remote:
-        report = remote.check(model_name, version, stage, _remote_waivers(waive_gates, reasons))
-        report = report.get("report", report)
-    else:
-        actor = _actor()
-        with progress_bar("gathering evidence", unit="resamples"):
-            report = stages.check(_context().catalogue(), model_name, version, stage, actor,
-                                  _waivers(waive_gates, reasons, actor)).report
-    passed = report["passed"]
-    emit({**report, "would_move": passed}, as_json,
-         lambda d: ("WOULD PASS" if passed else "WOULD BE REFUSED") + "\n" +
-         render_report(GateReport.from_dict(report)))
-    if not passed:
+    waivers = _waivers(waive_gates, reasons)
+    with progress_bar("gathering evidence", unit="resamples"):
+        verdict = _client().check(model_name, version, stage, waivers)
+    emit(verdict, as_json,
+         lambda d: ("WOULD PASS" if d["passed"] else "WOULD BE REFUSED") + "\n" +
+         render_report(GateReport.from_dict(d)))
+    if not verdict.passed:
         click.get_current_context().exit(1)
 
 
@@ -99,27 +86,12 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
     """Move a version into a stage if the stage's gates allow it."""
     holder = (None if expect_holder in (None, "none")
               else parse_version_number(expect_holder, place="--expect-holder"))
-    remote = _context().remote()
-    if remote:
-        extra = {} if expect_holder is None else {"expect_holder": holder}
-        outcome = remote.promote(model_name, version, stage,
-                                 _remote_waivers(waive_gates, reasons), **extra)
-    else:
-        catalogue = _context().catalogue()
-        actor = _actor()
-        waivers = _waivers(waive_gates, reasons, actor)
-        if expect_holder is None:
-            expected = stages.snapshot(catalogue, model_name, stage)
-        elif holder is None:  # --expect-holder none
-            expected = stages.HolderSnapshot(stage, ())
-        else:
-            expected = stages.HolderSnapshot(stage, (holder,))
-        with progress_bar("gathering evidence", unit="resamples"):
-            outcome = stages.promote(catalogue, model_name, version, stage, actor, waivers,
-                                     expected)
-    outcome = to_plain(outcome)
+    waivers = _waivers(waive_gates, reasons)
+    with progress_bar("gathering evidence", unit="resamples"):
+        outcome = _client().promote(model_name, version, stage, waivers,
+                                    WHOEVER_HOLDS_IT if expect_holder is None else holder)
     emit(outcome, as_json, lambda o: _render_outcome(o, "PROMOTED"))
-    if not outcome["moved"]:
+    if not outcome.moved:
         click.get_current_context().exit(1)
 
 
@@ -130,9 +102,7 @@ def promote(model_name: str, version: int, stage: str, expect_holder: str | None
 @json_option
 def approve(model_name: str, version: int, stage: str, note: str, as_json: bool) -> None:
     """Record your approval of a version for a stage (approvers; never your own version)."""
-    remote = _context().remote()
-    outcome = (remote.approve(model_name, version, stage, note) if remote else
-               stages.approve(_context().catalogue(), model_name, version, stage, _actor(), note))
+    outcome = _client().approve(model_name, version, stage, note)
     emit(outcome, as_json, lambda o: f"{o['approver']} approved {o['model']} v{o['version']} for "
                                      f"{o['stage']} ({o['approvals']} approval(s))")
 
@@ -144,15 +114,9 @@ def approve(model_name: str, version: int, stage: str, note: str, as_json: bool)
 @json_option
 def rollback(model_name: str, stage: str, waive_gates, reasons, as_json: bool) -> None:
     """Give a stage back to the version its holder displaced, after re-running the schema gates."""
-    remote = _context().remote()
-    if remote:
-        outcome = remote.rollback(model_name, stage, _remote_waivers(waive_gates, reasons))
-    else:
-        actor = _actor()
-        outcome = to_plain(stages.rollback(_context().catalogue(), model_name, stage, actor,
-                                           _waivers(waive_gates, reasons, actor)))
+    outcome = _client().rollback(model_name, stage, _waivers(waive_gates, reasons))
     emit(outcome, as_json, lambda o: _render_outcome(o, "ROLLED BACK"))
-    if not outcome["moved"]:
+    if not outcome.moved:
         click.get_current_context().exit(1)
 
 
@@ -162,9 +126,7 @@ def rollback(model_name: str, stage: str, waive_gates, reasons, as_json: bool) -
 @json_option
 def retire(model_name: str, version: int, reason: str, as_json: bool) -> None:
     """Take a version out of service: it leaves every stage and enters `retired`."""
-    remote = _context().remote()
-    outcome = (remote.retire(model_name, version, reason) if remote else
-               stages.retire(_context().catalogue(), model_name, version, _actor(), reason))
+    outcome = _client().retire(model_name, version, reason)
     emit(outcome, as_json, lambda o: f"retired {o['model']} v{o['version']}" + (
         f" (left {', '.join(o['left_stages'])})" if o["left_stages"] else ""))
 
@@ -181,13 +143,11 @@ def status(model_name: str, watch: bool, changes: int | None, as_json: bool) -> 
     if watch:
         from registry.cli.status_watch import watch_status
 
-        watch_status(_context(), model_name, as_json, changes)
+        watch_status(_client(), model_name, as_json, changes)
         return
     if changes is not None:
         raise UserError("--changes goes with --watch", place="--changes")
-    remote = _context().remote()
-    document = (remote.status(model_name) if remote
-                else stages.status(_context().catalogue(), model_name))
+    document = _client().status(model_name)
 
     def text(d):
         lines = [f"{d['model']}:"]
@@ -217,9 +177,7 @@ def _after_release_mark(found: dict | None) -> str:
 @json_option
 def history(model_name: str, as_json: bool) -> None:
     """Every stage event of MODEL, oldest first, with the gate report of each attempt."""
-    remote = _context().remote()
-    document = (remote.history(model_name) if remote
-                else stages.history(_context().catalogue(), model_name))
+    document = _client().history(model_name)
 
     def text(d):
         lines = [f"{d['model']}: {len(d['events'])} stage event(s)"]
@@ -245,12 +203,7 @@ def policy_group() -> None:
 @json_option
 def policy_show(model_name: str, as_json: bool) -> None:
     """Show the policy in force for MODEL (its own laid over the default)."""
-    from registry.service.policies import show_policy
-
-    remote = _context().remote()
-    document = (remote.show_policy(model_name) if remote
-                else show_policy(_context().catalogue(), model_name))
-    emit(document, as_json, lambda d: d["text"])
+    emit(_client().show_policy(model_name), as_json, lambda d: d["text"])
 
 
 @policy_group.command("set")
@@ -259,11 +212,7 @@ def policy_show(model_name: str, as_json: bool) -> None:
 @json_option
 def policy_set(model_name: str, policy_file: str, as_json: bool) -> None:
     """Give MODEL its own policy (TOML, laid over the default; admins only)."""
-    from registry.service.policies import set_policy
-
     text = read_text(policy_file, what="POLICY")
-    remote = _context().remote()
-    outcome = (remote.set_policy(model_name, text) if remote else
-               set_policy(_context().catalogue(), model_name, text, _actor(), source=policy_file))
+    outcome = _client().set_policy(model_name, text, source=policy_file)
     emit(outcome, as_json, lambda o: f"{o['model']} now follows {policy_file}")
 

@@ -1,50 +1,20 @@
 """`lockkeeper status MODEL --watch`: print who holds each stage, then each change as it
 happens.
 
-Locally it reads the audit head a few times a second (every change moves it) and reads the
-status only when the head moved; against a server it holds one request open at a time with
-`?wait=` until the status changes.
+How the changes are noticed is the catalogue client's business (CatalogueClient.watch_status):
+here they are filtered to moves of a stage and printed.
 """
 
 from __future__ import annotations
 
 import json
-import time
-from collections.abc import Iterator
 from datetime import UTC, datetime
+from typing import TYPE_CHECKING
 
 import click
 
-LOCAL_POLL_INTERVAL = 0.25  # seconds
-SERVER_WAIT = 55            # seconds a request is held open, within the server's 60
-
-
-def _local_changes(context, model: str) -> Iterator[dict]:
-    from registry.service import stages
-    from registry.service.cached_reads import CachedReads
-
-    catalogue = context.catalogue()
-    reads = CachedReads(catalogue)
-    try:
-        seen_at = reads.generation()
-        yield stages.status(catalogue, model)
-        while True:
-            time.sleep(LOCAL_POLL_INTERVAL)
-            head = reads.generation()
-            if head != seen_at:
-                seen_at = head
-                yield stages.status(catalogue, model)
-    finally:
-        reads.close()
-
-
-def _remote_changes(remote, model: str) -> Iterator[dict]:
-    document, etag = remote.status_when_changed(model, None, 0)
-    yield document
-    while True:
-        changed, etag = remote.status_when_changed(model, etag, SERVER_WAIT)
-        if changed is not None:
-            yield changed
+if TYPE_CHECKING:
+    from registry.cli.client import CatalogueClient
 
 
 def _moves(before: dict, after: dict) -> list[str]:
@@ -60,13 +30,13 @@ def _held(numbers: list[int]) -> str:
     return ", ".join(f"v{n}" for n in numbers) or "-"
 
 
-def watch_status(context, model: str, as_json: bool, changes: int | None) -> None:
-    remote = context.remote()
-    documents = _remote_changes(remote, model) if remote else _local_changes(context, model)
+def watch_status(client: CatalogueClient, model: str, as_json: bool,
+                 changes: int | None) -> None:
     previous = None
     printed = 0
     try:
-        for document in documents:
+        for answer in client.watch_status(model):
+            document = answer.to_json()
             if previous is not None and document["stages"] == previous["stages"]:
                 continue  # something else changed in the catalogue
             at = datetime.now(UTC).isoformat(timespec="seconds").replace("+00:00", "Z")

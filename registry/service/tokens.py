@@ -13,7 +13,7 @@ import secrets
 from dataclasses import dataclass
 from datetime import UTC, datetime
 
-from registry.errors import LockkeeperError, NotFound, UserError
+from registry.errors import NotFound, Unauthenticated, UserError
 from registry.moments import parse_moment, utc_iso
 from registry.names import check_name
 from registry.service.actors import ROLES, Actor
@@ -24,13 +24,6 @@ from registry.store.unit_of_work import UnitOfWork, utc_now
 
 # The prefix makes a leaked secret easy to recognise in logs and secret scanners.
 SECRET_PREFIX = "lkt_"
-
-
-class Unauthenticated(LockkeeperError):
-    """No token, or one the catalogue does not accept (unknown, expired, revoked)."""
-
-    http_status = 401
-    kind = "unauthenticated"
 
 
 @dataclass(frozen=True)

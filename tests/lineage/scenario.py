@@ -85,7 +85,7 @@ def register(catalogue: Catalogue, model: str, folder: Path, number: int,
     """Through the registration use case, from the seed manifest (with a parent version)."""
     import dataclasses
 
-    from registry.cli.catalogue_commands import registration_request
+    from registry.cli.local import registration_request
 
     request = registration_request(model, str(folder / "documents" / f"{model}-v{number}.pfa.json"),
                                    str(folder / "manifests" / f"{model}-v{number}.toml"), None)

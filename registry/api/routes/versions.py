@@ -61,7 +61,7 @@ def _text(parts: dict[str, tuple[bytes, str | None]], name: str) -> str:
 
 def registration_request(model: str, parts: dict[str, tuple[bytes, str | None]]
                          ) -> registration.RegistrationRequest:
-    """The same request registry.cli.catalogue_commands.registration_request builds from files."""
+    """The same request registry.cli.local.registration_request builds from files."""
     for required in ("document", "manifest"):
         if required not in parts:
             raise UserError(f"the upload has no {required!r} part", place=required)
