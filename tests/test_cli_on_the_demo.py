@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from registry import demo
+from registry.cli import demo
 from registry.cli import main
 from tests.cli_errors import assert_one_line_error
 from tests.conftest import BACKENDS, fresh_catalogue_url

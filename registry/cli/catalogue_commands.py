@@ -225,7 +225,7 @@ def user_list(as_json: bool) -> None:
 @click.command()
 def demo() -> None:
     """Build a fresh demo catalogue from seed_data/ and play the Brackwater story."""
-    from registry import demo as story
+    from registry.cli import demo as story
 
     context = _context()
     context.local_only("demo")

@@ -4,7 +4,7 @@ list of files; the API checks that list."""
 from __future__ import annotations
 
 from registry.datasets import fingerprint_dataset
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 from tests.api.api_helpers import problem
 from tests.api.test_remote_cli import remote  # noqa: F401 - the remote server fixture

@@ -9,7 +9,7 @@ import pytest
 
 from registry.cli.remote import ApiClient
 from registry.datasets import fingerprint_file
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 from tests.api.api_helpers import problem
 from tests.api.test_api_client import live  # noqa: F401 - the live server fixture

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from registry.datasets import fingerprint_file
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 from tests.api.api_helpers import problem, set_up_model
 from tests.catalogue.helpers import write_version_files

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import pytest
 
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 from tests.api.api_helpers import HOLDERS, problem, set_up_model
 

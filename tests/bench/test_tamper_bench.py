@@ -19,7 +19,7 @@ import pytest
 from click.testing import CliRunner
 from sqlalchemy import insert
 
-from registry import demo
+from registry.cli import demo
 from registry.canonical_json import canonical_json, digest_of
 from registry.cli import main
 from registry.service.actors import Actor

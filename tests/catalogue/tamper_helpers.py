@@ -12,7 +12,7 @@ from typing import Any
 from click.testing import CliRunner
 from sqlalchemy import Boolean, DateTime, Integer, LargeBinary
 
-from registry import demo
+from registry.cli import demo
 from registry.cli import main
 from registry.store import tables as t
 from tests.catalogue.helpers import write_version_files

@@ -9,7 +9,7 @@ import shutil
 from sqlalchemy import text
 
 from registry.app import create_app
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 TELEMETRY = BRACKWATER / "datasets" / "brackwater-telemetry-extract"
 SCHEMA = BRACKWATER / "schemas" / "brackwater-telemetry-extract.avsc"

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 DATA, SCHEMAS, PREDICTIONS = BRACKWATER / "datasets", BRACKWATER / "schemas", BRACKWATER / "predictions"
 

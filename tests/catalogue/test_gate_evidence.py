@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 from tests.catalogue.stage_helpers import set_up_model
 

@@ -6,7 +6,7 @@ import json
 
 from click.testing import CliRunner
 
-from registry import demo
+from registry.cli import demo
 from registry.cli import main
 
 

@@ -85,7 +85,7 @@ def test_impact_has_exactly_the_keys_of_the_issue_and_changes_nothing(cli, tmp_p
 def test_impact_on_the_demo_shows_metrics_and_slices_that_move(catalogue_url, cli):
     from click.testing import CliRunner
 
-    from registry import demo
+    from registry.cli import demo
     from registry.cli import main
 
     def run(arguments, user):

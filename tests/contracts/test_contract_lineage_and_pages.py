@@ -8,7 +8,7 @@ import json
 import pytest
 from click.testing import CliRunner
 
-from registry import demo
+from registry.cli import demo
 from registry.cli import main
 
 

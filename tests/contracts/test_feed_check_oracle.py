@@ -11,7 +11,7 @@ import warnings
 import fastavro
 import pytest
 
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 from tests.catalogue.stage_helpers import register
 from tests.contracts.contract_helpers import APPROVER, set_up_contracts
 

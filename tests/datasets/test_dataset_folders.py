@@ -20,7 +20,7 @@ from dataset_files import SEGMENT_SCHEMA, segment_records, write_avro, write_par
 
 from registry.datasets import fingerprint_dataset, fingerprint_file
 from registry.datasets.profile import is_close_profile
-from registry.demo import BRACKWATER
+from registry.cli.demo import BRACKWATER
 
 NAMES = [field["name"] for field in SEGMENT_SCHEMA["fields"]]
 

@@ -44,7 +44,7 @@ def client(populated_url):
 
 def build_demo(url: str) -> None:
     """The demo story, played in-process by the command line, as `lockkeeper demo` plays it."""
-    from registry.demo import play, run_in_process
+    from registry.cli.demo import play, run_in_process
 
     play(url, run_in_process, lambda line: None)
 

@@ -10,7 +10,7 @@ import re
 
 import pytest
 
-from registry.demo import SALTMARSH_WAIVER
+from registry.cli.demo import SALTMARSH_WAIVER
 from registry.app import create_app
 from tests.conftest import run_cli
 from tests.web.conftest import build_demo

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from datetime import UTC, datetime, timedelta
 
-from registry.demo import AUTHOR, BRACKWATER, Step
+from registry.cli.demo.scenario import AUTHOR, BRACKWATER, Step
 
 STORY_START = datetime(2026, 10, 26, 8, 0, tzinfo=UTC)  # v1 goes live the week before day 1
 FIRST_DAY = datetime(2026, 11, 2, tzinfo=UTC)

@@ -1,41 +1,37 @@
 """`lockkeeper demo`: build a fresh catalogue from seed_data/ and play the Brackwater story.
 
 Every step is a real `lockkeeper` command run in-process, printed as a person would type it, so
-the demo doubles as a tour of the command line. All of its data is invented.
+the demo doubles as a tour of the command line. Each step goes through a door
+(registry.cli.demo.doors): the local catalogue, or a server holding it, reached through the
+same catalogue client. All of its data is invented.
 """
 
 from __future__ import annotations
 
 import shlex
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
-from datetime import datetime
 from pathlib import Path
 
 import click
 
+from registry.cli.demo.after_release import STORY_START, after_release_steps
+from registry.cli.demo.scenario import (
+    ADMIN,
+    APPROVER,
+    AUTHOR,
+    BRACKWATER,
+    NIGHT_FLOW,
+    SECOND_APPROVER,
+    SEED,
+    SERVING_SYSTEM,
+    TELEMETRY,
+    Step,
+)
 from registry.errors import UserError
 
-SEED = Path(__file__).resolve().parents[1] / "seed_data"
-BRACKWATER = SEED / "brackwater"
-NIGHT_FLOW = SEED / "night_flow"
-
-ADMIN, AUTHOR, APPROVER, SECOND_APPROVER = ("mara.kowalczyk", "ines.okafor", "tomas.lindqvist",
-                                            "priya.raman")
-
-
-@dataclass(frozen=True)
-class Step:
-    """One command of the story, who runs it, and the exit code the story expects. A step
-    with an `action` does something a person would do outside lockkeeper instead (its
-    arguments are what the story prints for it)."""
-
-    user: str
-    arguments: tuple[str, ...]
-    expect: int = 0
-    caption: str = ""
-    at: datetime | None = None  # the story's date of the step, when it has one
-    action: Callable[[], None] | None = None
+Options = Callable[[Step], list[str]]
+"""The global options that send a step through a door: `--db URL --as USER`, or
+`--server URL --token SECRET` (registry.cli.demo.doors)."""
 
 
 def _shown(arguments: Sequence[str]) -> str:
@@ -99,12 +95,6 @@ SALTMARSH_WAIVER = ("Saltmarsh repair records are being re-keyed; the asset team
                     "slice weekly until the fix lands")
 
 
-def _after_release() -> list[Step]:
-    from registry.demo_after_release import after_release_steps
-
-    return after_release_steps()
-
-
 def brackwater_story() -> list[Step]:
     return [
         *_register_and_evaluate(1),
@@ -116,7 +106,7 @@ def brackwater_story() -> list[Step]:
         _promote(1, "live"),
         *_register_and_evaluate(2),
         _promote(2, "shadow", caption="v2 adds repairs_5y with a default: it reads the v1 feed."),
-        *_after_release(),
+        *after_release_steps(),
         _promote(2, "canary", expect=1,
                  caption="v2 beats v1 overall, but the slice gate finds SALTMARSH worse."),
         _promote(2, "canary", waive=["slice-guard"], reason=SALTMARSH_WAIVER,
@@ -136,9 +126,6 @@ def brackwater_story() -> list[Step]:
     ]
 
 
-TELEMETRY = "efua.mensah"  # the telemetry team's engineer, who owns the feed
-
-
 def contracts_story() -> list[Step]:
     """The feed and the consumer as contracts: the telemetry team publishes `segment-features`,
     its proposed v3 is refused because live reads the field it drops, and a proposed reader of
@@ -148,6 +135,7 @@ def contracts_story() -> list[Step]:
         Step(ADMIN, ("user", "grant", TELEMETRY, "publisher"),
              caption="The telemetry team owns the feed main-burst-risk reads; it becomes a "
                      "contract with numbered writer schemas."),
+        _token(TELEMETRY, "publisher"),
         Step(TELEMETRY, ("feed", "create", "segment-features", "--description",
                          "Segment features the telemetry team writes for scoring",
                          "--retain-days", "14", "--built-from", "brackwater-telemetry-extract")),
@@ -204,15 +192,28 @@ def night_flow_story() -> list[Step]:
     ]
 
 
+def _token(user: str, role: str, **extra) -> Step:
+    return Step(ADMIN, ("token", "create", "--user", user, "--role", role, "--label", "demo"),
+                **extra)
+
+
+PEOPLE = ((AUTHOR, "publisher"), (APPROVER, "approver"), (SECOND_APPROVER, "approver"))
+
+
 def story() -> list[Step]:
-    people = [Step(ADMIN, ("user", "grant", ADMIN, "admin"),
-                   caption="The first admin grants the roles of the people in the story.")]
-    people += [Step(ADMIN, ("user", "grant", user, role)) for user, role in (
-        (AUTHOR, "publisher"), (APPROVER, "approver"), (SECOND_APPROVER, "approver"))]
-    people.append(Step(ADMIN, ("key", "create"),
-                       caption="The catalogue's signing key: its private half stays in a file "
-                               "beside the catalogue (made when missing), its public half is "
-                               "recorded."))
+    people = [
+        Step(ADMIN, ("init",), local=True),
+        Step(ADMIN, ("user", "grant", ADMIN, "admin"), local=True,
+             caption="The first admin grants the roles of the people in the story, and gives "
+                     "each a token for the HTTP API (its secret is shown once)."),
+        _token(ADMIN, "admin", local=True),
+        # Before any server opens the catalogue: a server reads the key when it opens it.
+        Step(ADMIN, ("key", "create"), local=True,
+             caption="The catalogue's signing key: its private half stays in a file beside the "
+                     "catalogue (made when missing), its public half is recorded."),
+    ]
+    people += [Step(ADMIN, ("user", "grant", user, role)) for user, role in PEOPLE]
+    people += [_token(user, role) for user, role in PEOPLE]
     models = [
         Step(ADMIN, ("model", "create", "main-burst-risk", "--description",
                      "Which water-main segments will burst within 90 days")),
@@ -233,9 +234,6 @@ def story() -> list[Step]:
             *night_flow_story(), *closing]
 
 
-SERVING_SYSTEM = "burst-scoring-service"
-
-
 def _change_one_byte(source: Path, copy: Path) -> Callable[[], None]:
     def change() -> None:
         data = bytearray(source.read_bytes())
@@ -253,21 +251,24 @@ def serving_handoff(folder: Path) -> list[Step]:
     verify = ("release", "verify", "--model", "main-burst-risk", "--stage", "live",
               "--key", str(key))
     return [
+        _token(SERVING_SYSTEM, "reader",
+               caption="The scoring service reads with a token of its own; it fetches the live "
+                       "document, its release statement and the catalogue's public key."),
         Step(SERVING_SYSTEM, ("document", "get", "main-burst-risk", "--stage", "live", "-o",
-                              str(document)),
-             caption="The scoring service fetches the live document, its release statement "
-                     "and the catalogue's public key."),
+                              str(document))),
         Step(SERVING_SYSTEM, ("release", "show", "main-burst-risk", "--stage", "live", "-o",
                               str(envelope))),
         Step(SERVING_SYSTEM, ("key", "public", "-o", str(key))),
         Step(SERVING_SYSTEM, (*verify[:2], str(document), str(envelope), *verify[2:]),
-             caption="Before loading it, the service checks the statement offline."),
+             caption="Before loading it, the service checks the statement offline.",
+             catalogue=False),
         Step(SERVING_SYSTEM, ("copy", str(document), "to", str(edited), "with one byte "
                               "changed"),
              caption="A copy edited by hand: one byte changed.",
              action=_change_one_byte(document, edited)),
         Step(SERVING_SYSTEM, (*verify[:2], str(edited), str(envelope), *verify[2:]), expect=1,
-             caption="The service refuses it: the document is not the one released."),
+             caption="The service refuses it: the document is not the one released.",
+             catalogue=False),
     ]
 
 
@@ -286,24 +287,27 @@ def _work_folder(db_url: str) -> Path:
     return folder
 
 
-def play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None]) -> None:
+def play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None],
+         options: Options | None = None) -> None:
     """Run every step against the catalogue at db_url; stop at the first unexpected outcome.
+    `options` sends each step through its door (default: the local catalogue at db_url).
     The story keeps a calendar of its own: the catalogue's clock starts at its first day and
     travels to each dated step."""
     from registry import clock
-    from registry.demo_after_release import STORY_START
+    from registry.cli.demo.doors import LocalDoor
 
     clock.start_story(STORY_START)
     try:
-        _play(db_url, run, echo)
+        _play(db_url, run, echo, options or LocalDoor(db_url))
     finally:
         clock.back_to_the_wall_clock()
 
 
-def _play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None]) -> None:
+def _play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str], None],
+          options: Options) -> None:
     from registry import clock
 
-    for step in [Step(ADMIN, ("init",)), *story(), *serving_handoff(_work_folder(db_url))]:
+    for step in [*story(), *serving_handoff(_work_folder(db_url))]:
         if step.at is not None:
             clock.travel_to(step.at)
         if step.caption:
@@ -314,7 +318,7 @@ def _play(db_url: str, run: Callable[[list[str], str], int], echo: Callable[[str
             step.action()
             continue
         echo(f"$ lockkeeper --as {step.user} {_shown(step.arguments)}")
-        code = run(["--db", db_url, "--as", step.user, *step.arguments], step.user)
+        code = run([*options(step), *step.arguments], step.user)
         if code != step.expect:
             raise UserError(f"the demo step `{_shown(step.arguments)}` ended with exit code "
                             f"{code}, expected {step.expect}", place="demo")
