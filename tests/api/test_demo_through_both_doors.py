@@ -45,6 +45,16 @@ def _command(arguments: list[str]) -> str:
     return " ".join(kept)
 
 
+def _normalised_item(key: str, item: Any, replaced: dict[str, str]) -> Any:
+    if key == "secret":  # a fresh random secret per token
+        return "<secret>"
+    if key in STAMPED_DIGESTS and isinstance(item, str):
+        return "<digest>"
+    if key == "gate_report" and isinstance(item, dict):
+        return _normalised({**item, "digest": "<digest>"}, replaced)
+    return _normalised(item, replaced)
+
+
 def _normalised(value: Any, replaced: dict[str, str]) -> Any:
     if isinstance(value, dict):
         if "payloadType" in value and "payload" in value:  # a DSSE envelope: read its statement
@@ -53,11 +63,7 @@ def _normalised(value: Any, replaced: dict[str, str]) -> Any:
                     "statement": _normalised(statement, replaced),
                     "signed_by": _normalised(sorted(s.get("keyid", "") for s in
                                                     value.get("signatures", [])), replaced)}
-        return {key: ("<secret>" if key == "secret"  # a fresh random secret per token
-                      else "<digest>" if key in STAMPED_DIGESTS and isinstance(item, str)
-                      else _normalised({**item, "digest": "<digest>"}, replaced) if key == "gate_report"
-                      else _normalised(item, replaced))
-                for key, item in value.items()}
+        return {key: _normalised_item(key, item, replaced) for key, item in value.items()}
     if isinstance(value, list):
         return [_normalised(item, replaced) for item in value]
     if isinstance(value, str):
