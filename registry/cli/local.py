@@ -165,7 +165,8 @@ class LocalCatalogue:
     def report(self, report_id: int) -> a.GateReportAnswer:
         from registry.service.stages import find_report
 
-        return a.GateReportAnswer(_plain(find_report(self.catalogue, report_id)))
+        return a.GateReportAnswer({"id": report_id,
+                                   **_plain(find_report(self.catalogue, report_id))})
 
     def document(self, model: str, *, version: int | None = None,
                  stage: str | None = None) -> a.DocumentDownload:
