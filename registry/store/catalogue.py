@@ -5,7 +5,7 @@ from __future__ import annotations
 import contextvars
 import os
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from sqlalchemy import Engine, create_engine, event, inspect
@@ -103,8 +103,27 @@ class Catalogue:
     url: URL
     engine: Engine
     sessions: sessionmaker[Session]
-    signing_key: SigningKey | None = None
     key_file: Path | None = None
+    _key: SigningKey | None = field(default=None, repr=False)
+    _key_stamp: tuple[int, int, int] | None = field(default=None, repr=False)
+
+    @property
+    def signing_key(self) -> SigningKey | None:
+        """The key in the key file as it is now. A server holds its catalogue open for days:
+        a key created or rotated by `key create|rotate` in another process must sign the very
+        next statement, so the file is looked at again (one stat) whenever a write needs it."""
+        if self.key_file is not None:
+            stamp = _stamp_of(self.key_file)
+            if stamp != self._key_stamp:
+                self._key = load_signing_key(self.key_file)
+                self._key_stamp = stamp
+        return self._key
+
+    @signing_key.setter
+    def signing_key(self, key: SigningKey | None) -> None:
+        """Set by `key create|rotate` in this process, right after writing the key file."""
+        self._key = key
+        self._key_stamp = _stamp_of(self.key_file) if self.key_file is not None else None
 
     @property
     def dialect(self) -> str:
@@ -138,6 +157,15 @@ class Catalogue:
         self.engine.dispose()
 
 
+def _stamp_of(path: Path) -> tuple[int, int, int] | None:
+    """What tells a replaced key file from the one read before (None: no file)."""
+    try:
+        status = path.stat()
+    except FileNotFoundError:
+        return None
+    return (status.st_ino, status.st_size, status.st_mtime_ns)
+
+
 def _first_line(error: object) -> str:
     text = str(error).strip().splitlines()
     return text[0] if text else type(error).__name__
@@ -157,7 +185,8 @@ def open_catalogue(raw_url: str | None, *, must_exist: bool = True) -> Catalogue
     key_file = key_path(raw_url)
     catalogue = Catalogue(url=url, engine=engine,
                           sessions=sessionmaker(engine, expire_on_commit=False),
-                          signing_key=load_signing_key(key_file), key_file=key_file)
+                          key_file=key_file)
+    catalogue.signing_key  # noqa: B018 - read the key now, so a bad key file fails at open
     if must_exist:
         catalogue.require_initialised()
     else:

@@ -58,3 +58,17 @@ def test_an_existing_key_file_is_adopted_rather_than_replaced(cli, signing_key_f
     set_up_people(cli)
     created = cli.json("key", "create", user=ADMIN)
     assert created["id"] == made.key_id and created["created_file"] is False
+
+
+def test_a_catalogue_held_open_signs_with_a_key_made_or_rotated_after_it_opened(
+        cli, catalogue, signing_key_file):
+    """A server opens its catalogue once and keeps it for days; `key create` and `key rotate`
+    run in another process must change what it signs with, at the next write, not at restart."""
+    assert catalogue.signing_key is None
+    set_up_people(cli)
+    created = cli.json("key", "create", user=ADMIN)
+    assert catalogue.signing_key.key_id == created["id"]
+    rotated = cli.json("key", "rotate", user=ADMIN)
+    assert catalogue.signing_key.key_id == rotated["id"]
+    signing_key_file.unlink()
+    assert catalogue.signing_key is None
