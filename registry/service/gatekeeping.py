@@ -11,8 +11,6 @@ import dataclasses
 from collections.abc import Sequence
 from datetime import datetime
 
-from sqlalchemy import select
-
 from registry import gates
 from registry.gates import GateReport, Policy, Waiver
 from registry.service import evidence_sources as sources
@@ -38,20 +36,14 @@ def gates_actor(actor: Actor) -> gates.Actor:
 
 
 def top_holder(uow: UnitOfWork, model: t.Model, policy: Policy) -> t.Version | None:
-    holding = uow.session.execute(
-        select(t.StageHolding).where(t.StageHolding.model_id == model.id,
-                                     t.StageHolding.stage == policy.top_stage)
-        .order_by(t.StageHolding.since.desc())).scalars().first()
-    return uow.session.get(t.Version, holding.version_id) if holding else None
+    holdings = uow.stages.holdings(model.id, policy.top_stage)
+    return uow.models.version_by_id(holdings[-1].version_id) if holdings else None
 
 
 def past_top_holders(uow: UnitOfWork, model: t.Model, policy: Policy,
                      exclude: Sequence[int]) -> list[t.Version]:
-    ids = uow.session.execute(
-        select(t.StageEvent.version_id).where(
-            t.StageEvent.model_id == model.id, t.StageEvent.stage == policy.top_stage,
-            t.StageEvent.event.in_(("entered", "restored"))).distinct()).scalars().all()
-    return [uow.session.get_one(t.Version, i) for i in sorted(set(ids) - set(exclude))]
+    ids = uow.stages.versions_that_entered(model.id, policy.top_stage)
+    return [uow.models.version_by_id(i) for i in ids if i not in set(exclude)]
 
 
 def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str,

@@ -111,7 +111,7 @@ class PageReads:
 
     def dataset_names(self, ids: Iterable[int]) -> dict[int, str]:
         found: dict[int, str] = {}
-        for chunk in walks._chunks(ids):
+        for chunk in walks.id_chunks(ids):
             found.update(self._session.execute(
                 select(t.Dataset.id, t.Dataset.name).where(t.Dataset.id.in_(chunk))).all())
         return found
@@ -140,7 +140,7 @@ class PageReads:
         up = walks.walk(self._session, walks.seeds_for(walks.NodeKey("dataset", dataset_id)), "up")
         ids = [r.key.ref for r in up if r.key.kind == "dataset" and r.key.ref != dataset_id]
         names: list[str] = []
-        for chunk in walks._chunks(ids):
+        for chunk in walks.id_chunks(ids):
             names += self._session.execute(
                 select(t.Dataset.name).where(t.Dataset.id.in_(chunk),
                                              t.Dataset.recalled_at.is_not(None))).scalars()
