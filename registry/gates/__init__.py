@@ -35,7 +35,6 @@ from registry.gates.policy import (
                                      default_policy_text,
                                      load_policy,
 )
-from registry.gates.regression_gates import holm_adjust
 from registry.gates.report import GateReport, GateResult, render_report
 from registry.gates.settings import GATES
 from registry.gates.verdict import check_waivers, evaluate
