@@ -21,7 +21,6 @@ from registry.gates.evidence import (
                                      ShadowAgreement,
                                      SliceComparison,
                                      Waiver,
-                                     to_plain,
 )
 from registry.gates.policy import (
                                      RETIRED,
@@ -38,6 +37,7 @@ from registry.gates.policy import (
 from registry.gates.report import GateReport, GateResult, render_report
 from registry.gates.settings import GATES
 from registry.gates.verdict import check_waivers, evaluate
+from registry.plain import to_plain
 
 __all__ = [
     "APPROVER", "GATES", "RETIRED", "Acknowledgement", "Actor", "Approval", "ColumnCounts",

@@ -6,10 +6,11 @@ from collections.abc import Mapping
 from statistics import NormalDist
 from typing import Any
 
-from registry.gates.evidence import Evidence, PairedComparison, to_plain
+from registry.gates.evidence import Evidence, PairedComparison
 from registry.gates.report import GateResult
 from registry.gates.schema_gates import no_incumbent
 from registry.multiple_testing import holm_adjust
+from registry.plain import to_plain
 
 
 def _z(confidence: float) -> float:
