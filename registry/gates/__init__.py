@@ -1,9 +1,9 @@
 """Promotion gates: policy loading and pure functions from evidence to a gate report."""
 
+from registry.actors import Actor
 from registry.gates.evidence import (
                                      APPROVER,
                                      Acknowledgement,
-                                     Actor,
                                      Approval,
                                      ColumnCounts,
                                      ConsumerCheck,

@@ -26,18 +26,6 @@ class EvidenceError(Unprocessable):
 
 
 @dataclasses.dataclass(frozen=True)
-class Actor:
-    """The person acting: `user` is a login name, `roles` the catalogue roles they hold
-    (`publisher`, `approver`, `admin`)."""
-
-    user: str
-    roles: tuple[str, ...] = ()
-
-    def has_role(self, role: str) -> bool:
-        return role in self.roles
-
-
-@dataclasses.dataclass(frozen=True)
 class Waiver:
     """An approver's recorded override of one failed gate.
 

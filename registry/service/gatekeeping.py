@@ -31,10 +31,6 @@ def is_guarded(policy: Policy, stage: str) -> bool:
     return bool(policy.gates_for(stage))
 
 
-def gates_actor(actor: Actor) -> gates.Actor:
-    return gates.Actor(user=actor.name, roles=tuple(sorted(actor.roles)))
-
-
 def top_holder(uow: UnitOfWork, model: t.Model, policy: Policy) -> t.Version | None:
     holdings = uow.stages.holdings(model.id, policy.top_stage)
     return uow.models.version_by_id(holdings[-1].version_id) if holdings else None
@@ -101,13 +97,13 @@ def run_gates(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str,
     check_waivers_first(stage, actor, waivers, policy)
     incumbent = top_holder(uow, model, policy)
     evidence = gather_evidence(uow, model, candidate, stage, policy, incumbent=incumbent)
-    return gates.evaluate(policy, stage, evidence, waivers, gates_actor(actor))
+    return gates.evaluate(policy, stage, evidence, waivers, actor)
 
 
 def check_waivers_first(stage: str, actor: Actor, waivers: Sequence[Waiver],
                         policy: Policy) -> None:
     """Refuse a misspelt or unrecordable waiver before seconds of gathering evidence."""
-    gates.check_waivers(waivers, gates_actor(actor), policy, stage)
+    gates.check_waivers(waivers, actor, policy, stage)
 
 
 def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, holder: t.Version,
@@ -122,7 +118,7 @@ def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, hol
     check_waivers_first(stage, actor, waivers, restricted)
     evidence = gather_evidence(uow, model, restored, stage, restricted, incumbent=holder,
                                include_quality=False)
-    return gates.evaluate(restricted, stage, evidence, waivers, gates_actor(actor))
+    return gates.evaluate(restricted, stage, evidence, waivers, actor)
 
 
 def parse_waivers(pairs: Sequence[tuple[str, str]], actor: Actor) -> list[Waiver]:
