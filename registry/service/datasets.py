@@ -16,6 +16,7 @@ from registry.canonical_json import canonical_json, digest_of
 from registry.errors import AlreadyExists, NotFound, UserError
 from registry.moments import utc_iso
 from registry.names import check_name
+from registry.node_ids import dataset_id
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.models import find_model
@@ -209,7 +210,7 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
             created_at=utc_now(), created_by=actor.name)
         uow.datasets.add(dataset, parents)
         uow.dataset_sources.add(dataset.id, sources)
-        uow.audit.append(actor.name, "dataset.add", f"dataset/{request.name}", {
+        uow.audit.append(actor.name, "dataset.add", dataset_id(request.name), {
             "registration_digest": digest, "content_digest": request.fingerprint.content_digest,
             "fingerprint_digest": fingerprint_digest, "role": request.role,
             "derived_from": [p.name for p in parents], "files": len(sources)})

@@ -13,6 +13,7 @@ from typing import Any
 
 from registry.canonical_json import digest_of
 from registry.errors import UserError
+from registry.node_ids import dataset_id, evaluation_id
 from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
@@ -174,7 +175,7 @@ def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
     count = 0
     for version, model_name in uow.integrity.versions():
         count += 1
-        place = f"model/{model_name}/version/{version.number}"
+        place = version_id(model_name, version.number)
         linked = links.get(version.id, {})
         try:
             recomputed = digest_of(registration_record(
@@ -250,7 +251,7 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
     count = 0
     for dataset in uow.datasets.all():
         count += 1
-        place = f"dataset/{dataset.name}"
+        place = dataset_id(dataset.name)
         feed_of = _model_name(uow, dataset.feed_model_id) if dataset.feed_model_id else None
         recomputed = dataset_registration_digest(
             dataset.name, dataset.role, dataset.source_uri, dataset.content_digest,
@@ -296,7 +297,7 @@ def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
     count = 0
     for evaluation, model_name, number, dataset_name in uow.integrity.evaluations():
         count += 1
-        place = f"model/{model_name}/version/{number}/evaluation/{dataset_name}"
+        place = evaluation_id(model_name, number, dataset_name)
         recorded = registered.get(place)
         try:
             metrics = json.loads(evaluation.metrics_json)["metrics"]

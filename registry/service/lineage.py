@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from typing import Literal
 
 from registry.errors import NotFound, UserError
+from registry.node_ids import contract_id, dataset_id, stage_id, version_id
 from registry.store import contract_lineage as contracts
 from registry.store import lineage as walks
 from registry.store.catalogue import Catalogue
@@ -64,18 +65,6 @@ class LineageGraph:
 
     def node(self, node_id: str) -> LineageNode | None:
         return next((n for n in self.nodes if n.id == node_id), None)
-
-
-def dataset_id(name: str) -> str:
-    return f"dataset/{name}"
-
-
-def version_id(model: str, number: int) -> str:
-    return f"model/{model}/version/{number}"
-
-
-def stage_id(model: str, stage: str) -> str:
-    return f"model/{model}/stage/{stage}"
 
 
 def normalise_node(text: str) -> str:
@@ -143,7 +132,7 @@ def node_name(facts: walks.NodeFacts) -> str:
     if facts.key.kind == "dataset":
         return dataset_id(facts.name)
     if facts.key.kind in contracts.CONTRACT_KINDS:
-        return f"{facts.key.kind}/{facts.name}"
+        return contract_id(facts.key.kind, facts.name)
     if facts.key.kind == "version":
         return version_id(facts.model, facts.number or 0)
     return stage_id(facts.model, facts.name)

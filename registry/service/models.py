@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from registry.errors import AlreadyExists, NotFound
 from registry.moments import utc_iso
 from registry.names import check_name
+from registry.node_ids import model_id
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.recall import recalled_names_upstream
@@ -97,7 +98,7 @@ def create_model(catalogue: Catalogue, name: str, description: str, actor: Actor
         model = t.Model(name=name, description=description, created_at=utc_now(),
                         created_by=actor.name)
         uow.models.add(model)
-        uow.audit.append(actor.name, "model.create", f"model/{name}", {"description": description})
+        uow.audit.append(actor.name, "model.create", model_id(name), {"description": description})
         summary = _summary(uow, model)
         uow.commit()
         return summary

@@ -16,6 +16,7 @@ from typing import Any
 from registry.errors import Conflict, NotFound, Refusal, UserError
 from registry.moments import utc_iso
 from registry.names import check_name
+from registry.node_ids import stage_id, version_id
 from registry.service import gatekeeping, releases
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
@@ -173,7 +174,7 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
             displaced = _place(uow, line, version, stage, policy.is_exclusive(stage), report_id,
                                actor)
         uow.audit.append(actor.name, "stage.promote" if report.passed else "stage.refuse",
-                         f"model/{line.name}/version/{number}",
+                         version_id(line.name, number),
                          {"stage": stage, "passed": report.passed, "report_id": report_id,
                           "displaced_version": displaced, "summary": report.summary(),
                           "waivers": [dataclasses.asdict(w) for w in report.waivers]})
@@ -212,7 +213,7 @@ def approve(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
         if existing is None:
             uow.stages.approve(version_id=version.id, stage=stage, approver=actor.name,
                                note=note, at=utc_now())
-            uow.audit.append(actor.name, "version.approve", f"model/{line.name}/version/{number}",
+            uow.audit.append(actor.name, "version.approve", version_id(line.name, number),
                              {"stage": stage, "note": note})
         count = len(uow.stages.approvals(version.id, stage))
         uow.commit()
@@ -259,7 +260,7 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
             _place(uow, line, previous, stage, True, report_id, actor, event="restored",
                    previous_version_id=earlier)
         uow.audit.append(actor.name, "stage.rollback" if report.passed else "stage.refuse",
-                         f"model/{line.name}/stage/{stage}",
+                         stage_id(line.name, stage),
                          {"stage": stage, "from_version": holder.number,
                           "to_version": previous.number, "passed": report.passed,
                           "report_id": report_id, "summary": report.summary()})
@@ -305,7 +306,7 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
         uow.stages.hold(model_id=line.id, version_id=version.id, stage="retired",
                         is_exclusive=False, since=utc_now())
         _event(uow, line, version, "retired", "entered", actor, reason=reason)
-        uow.audit.append(actor.name, "version.retire", f"model/{line.name}/version/{number}",
+        uow.audit.append(actor.name, "version.retire", version_id(line.name, number),
                          {"left_stages": held, "reason": reason})
         moved_by = releases.moving_event(uow)
         for stage in held:

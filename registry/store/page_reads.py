@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session
 
+from registry.node_ids import dataset_id, model_id
 from registry.store import lineage as walks
 from registry.store import tables as t
 
@@ -157,11 +158,11 @@ class PageReads:
         """One page of events, newest first, and how many match in all."""
         query = select(t.AuditEvent)
         if chosen.model:
-            query = query.where(or_(t.AuditEvent.subject == f"model/{chosen.model}",
-                                    t.AuditEvent.subject.startswith(f"model/{chosen.model}/",
+            query = query.where(or_(t.AuditEvent.subject == model_id(chosen.model),
+                                    t.AuditEvent.subject.startswith(model_id(chosen.model) + "/",
                                                                     autoescape=True)))
         if chosen.dataset:
-            query = query.where(or_(t.AuditEvent.subject == f"dataset/{chosen.dataset}",
+            query = query.where(or_(t.AuditEvent.subject == dataset_id(chosen.dataset),
                                     t.AuditEvent.subject.endswith(f"/evaluation/{chosen.dataset}",
                                                                   autoescape=True)))
         if chosen.person:
