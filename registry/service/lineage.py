@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from typing import Literal
 
 from registry.errors import NotFound, UserError
+from registry.names import NAME_PATTERN
 from registry.node_ids import contract_id, dataset_id, stage_id, version_id
 from registry.store import contract_lineage as contracts
 from registry.store import lineage as walks
@@ -28,7 +29,6 @@ _STAGE_ID = re.compile(r"^model/([^/]+)/stage/([^/]+)$")
 _DATASET_ID = re.compile(r"^dataset/([^/]+)$")
 _CONTRACT_ID = re.compile(r"^(feed|consumer)/([^/]+)$")
 _AT_VERSION = re.compile(r"^([^/@]+)@([0-9]{1,9})$")
-_BARE = re.compile(r"^[a-z0-9][a-z0-9._-]{0,99}$")
 
 
 @dataclass(frozen=True)
@@ -77,7 +77,7 @@ def normalise_node(text: str) -> str:
         if m := _VERSION_ID.match(text):
             return version_id(m.group(1), int(m.group(2)))
         return text
-    if _BARE.match(text):
+    if NAME_PATTERN.match(text):  # a bare name is a dataset's
         return dataset_id(text)
     raise UserError(f"not a lineage node: {text!r}; use dataset/NAME, NAME, MODEL@N, "
                     "model/MODEL/version/N, model/MODEL/stage/STAGE, feed/NAME or "
