@@ -84,15 +84,8 @@ class VersionSection:
 
 @dataclass(frozen=True)
 class AfterReleasePage:
-    name: str
-    window: str
-    task: str
-    retention_days: int
-    quality_metric: str
-    quality_margin: float
-    versions: list[VersionSection]
-    outcomes: dict[str, int]
-    windows: int
+    evidence: AfterReleaseEvidence  # the page query's figures
+    versions: list[VersionSection]  # and the charts drawn from them
 
 
 def _scale(low: float, high: float, pixels: float, flip: bool = False):
@@ -243,11 +236,7 @@ def after_release_page(evidence: AfterReleaseEvidence) -> AfterReleasePage:
         quality_table=v.quality_rows,
         agreement_chart=agreement_chart(v.version, dates, v.agreements, evidence.min_agreement),
         agreement_table=v.agreement_rows, features=v.features) for v in evidence.versions]
-    return AfterReleasePage(name=evidence.name, window=evidence.window, task=evidence.task,
-                            retention_days=evidence.retention_days,
-                            quality_metric=evidence.quality_metric,
-                            quality_margin=evidence.quality_margin, versions=sections,
-                            outcomes=evidence.outcomes, windows=len(dates))
+    return AfterReleasePage(evidence, sections)
 
 
 @blueprint.route("/models/<name>/after-release")

@@ -124,8 +124,8 @@ def _readings(uow: UnitOfWork, feed: t.Feed, proposed: avro.Schema) -> list[Hold
     """Every version reading the feed and holding a stage, resolving the proposed schema."""
     holders = uow.feeds.reading_holders(feed)
     samples = uow.feeds.live_samples({h.model_id for h in holders})
-    profiles = {model_id: sources.sample_profile(uow, sample)
-                for model_id, sample in samples.items()}
+    profiles = {line_id: sources.sample_profile(uow, sample)
+                for line_id, sample in samples.items()}
     # One resolution per distinct reader schema; each parsed schema is dropped as soon as it is
     # resolved, so a thousand of them never sit in memory together.
     verdicts: dict[str, avro.Resolution] = {}

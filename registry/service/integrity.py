@@ -13,7 +13,7 @@ from typing import Any
 
 from registry.canonical_json import digest_of
 from registry.errors import UserError
-from registry.node_ids import dataset_id, evaluation_id
+from registry.node_ids import dataset_id, evaluation_id, version_id
 from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
@@ -170,8 +170,8 @@ def _blob_findings(uow: UnitOfWork) -> tuple[int, list[Finding]]:
 def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int, list[Finding]]:
     findings = []
     links: dict[int, dict[str, list[str]]] = {}
-    for version_id, relation, name in uow.integrity.version_links():
-        links.setdefault(version_id, {}).setdefault(relation, []).append(name)
+    for linked_version, relation, name in uow.integrity.version_links():
+        links.setdefault(linked_version, {}).setdefault(relation, []).append(name)
     count = 0
     for version, model_name in uow.integrity.versions():
         count += 1
