@@ -80,7 +80,7 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
     counts: dict[str, int] = {}
     with UnitOfWork(catalogue, write=False) as uow:
         uow.table_copy.begin_snapshot()
-        head = uow.table_copy.audit_head()
+        head = uow.audit.head()
         for table in catalogue_tables():
             digest, rows = hashlib.sha256(), 0
             leave_out = ("content",) if table.name == BLOB_TABLE else ()
@@ -102,7 +102,7 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
             progress.advance()
         current = uow.keys.current()
         current_key_id = current.key_id if current is not None else None
-    sequence, head_hash = (head.sequence, head.hash) if head else (0, "0" * 64)
+    sequence, head_hash = head if head else (0, "0" * 64)
     manifest = {"format": FORMAT, "revision": revision, "source": catalogue.dialect,
                 "exported_at": datetime.now(UTC).isoformat(timespec="seconds"),
                 "audit_head": {"sequence": sequence, "hash": head_hash},

@@ -6,14 +6,16 @@ without the unit of work: it only reads, and a scoring service polls it.
 
 from __future__ import annotations
 
-from typing import Any
+from collections.abc import Sequence
+from datetime import datetime
 
 from sqlalchemy import Connection, Row, select
 
 from registry.store import tables as t
 
 
-def holder_rows(connection: Connection, model: str, stage: str) -> list[Row[Any]]:
+def holder_rows(connection: Connection, model: str,
+                stage: str) -> Sequence[Row[int, datetime, int, str, str]]:
     """(id, since, number, document_digest, input_schema_json) of each holding, newest first."""
     query = (select(t.StageHolding.id, t.StageHolding.since, t.Version.number,
                     t.Version.document_digest, t.Version.input_schema_json)
@@ -21,7 +23,7 @@ def holder_rows(connection: Connection, model: str, stage: str) -> list[Row[Any]
              .join(t.Version, t.Version.id == t.StageHolding.version_id)
              .where(t.Model.name == model, t.StageHolding.stage == stage)
              .order_by(t.StageHolding.since.desc(), t.StageHolding.id.desc()))
-    return list(connection.execute(query).all())
+    return connection.execute(query).all()
 
 
 def model_exists(connection: Connection, model: str) -> bool:

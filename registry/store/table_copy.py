@@ -29,10 +29,6 @@ class TableCopy:
                 text("SET TRANSACTION ISOLATION LEVEL REPEATABLE READ READ ONLY"))
         # SQLite (WAL): a read transaction sees the snapshot of its first read.
 
-    def audit_head(self) -> Row[Any] | None:
-        """(sequence, hash) of the head of the audit chain, or None for an empty catalogue."""
-        return self._session.execute(select(t.AuditHead.sequence, t.AuditHead.hash)).first()
-
     def rows(self, table: Table, *, leave_out: Sequence[str] = ()) -> Iterator[Row[Any]]:
         """Every row of a table in primary-key order, without the named columns."""
         columns = [table.c[c.name] for c in table.columns if c.name not in leave_out]
