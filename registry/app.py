@@ -1,7 +1,9 @@
-"""The web application factory: the lineage browser now, the HTTP API beside it later.
+"""The one application factory: the lineage browser and the HTTP API under /api/v1.
 
-`create_app(url)` opens the catalogue on first use and sends a strict Content-Security-Policy
-with every response: pages need nothing but their own origin and never run inline script.
+`create_app(url)` serves both; `create_app(url, pages=False)` only the API (registry/api/wsgi.py).
+The catalogue is opened on first use, once per process, by the one holder both share. Pages
+are sent with a strict Content-Security-Policy: they need nothing but their own origin and
+never run inline script.
 """
 
 from __future__ import annotations
@@ -24,6 +26,7 @@ CONTENT_SECURITY_POLICY = (
     "form-action 'self'; frame-ancestors 'none'")
 
 log = logging.getLogger(__name__)
+HOLDER = "lockkeeper"  # app.extensions[HOLDER]: the CatalogueHolder pages and API routes share
 
 
 class CatalogueHolder:
@@ -75,14 +78,27 @@ def _error_page(status: int, message: str) -> tuple[str, int]:
     return render_template("error.html", status=status, title=title, message=message), status
 
 
-def create_app(catalogue_url: str | None = None, *, config: dict[str, Any] | None = None) -> Flask:
-    """An application over the catalogue at `catalogue_url` (default: LOCKKEEPER_DB, then the
-    local file), with the web pages and the HTTP API under /api/v1 registered."""
+def create_app(catalogue_url: str | None = None, *, pages: bool = True,
+               config: dict[str, Any] | None = None) -> Flask:
+    """An application over the catalogue at `catalogue_url` (else LOCKKEEPER_DB in `config`,
+    then in the environment, then the local file): the HTTP API under /api/v1 and, with
+    `pages`, the web pages."""
     app = Flask("registry", static_folder=None)
     app.config.update(JSON_SORT_KEYS=False)
     if config:
         app.config.update(config)
-    app.extensions["lockkeeper"] = CatalogueHolder(catalogue_url)
+    app.extensions[HOLDER] = CatalogueHolder(
+        catalogue_url if catalogue_url is not None else app.config.get("LOCKKEEPER_DB"))
+    if pages:
+        _add_pages(app)
+
+    from registry.api import register_api
+
+    register_api(app)  # after the pages' handlers, so /api/ keeps its problem documents
+    return app
+
+
+def _add_pages(app: Flask) -> None:
     # Autoescaping is Flask's default for .html templates; say so explicitly for every template.
     app.jinja_options = {**app.jinja_options, "autoescape": True}
 
@@ -106,8 +122,3 @@ def create_app(catalogue_url: str | None = None, *, config: dict[str, Any] | Non
     def unexpected(error: Exception):
         log.exception("unexpected error on %s", request.path)
         return _error_page(500, "the page could not be drawn; the error is in the server's log")
-
-    from registry.api import register_api
-
-    register_api(app)  # after the pages' handlers, so /api/ keeps its problem documents
-    return app

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import dataclasses
 import enum
+from collections.abc import Mapping
 from typing import Any
 
 
@@ -14,7 +15,7 @@ def to_plain(value: Any) -> Any:
         return {f.name: to_plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
     if isinstance(value, enum.Enum):
         return to_plain(value.value)
-    if isinstance(value, dict):
+    if isinstance(value, Mapping):
         return {str(k): to_plain(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [to_plain(v) for v in value]

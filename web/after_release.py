@@ -1,6 +1,6 @@
 """The "after release" page of a model: drift, live quality and shadow agreement over time.
 
-Page data comes from the serving report (registry.service.serving_evidence); the charts are
+Page data comes from the page query (registry/service/queries/after_release.py); the charts are
 plain geometry (points, bands, ticks) that the template draws as SVG, with a table of the same
 figures beneath each chart. The states of each version also reach the model and front pages
 through the template global `after_release_states`.
@@ -14,10 +14,8 @@ from typing import Any
 from flask import current_app, render_template
 
 from registry.errors import LockkeeperError
-from registry.service import gatekeeping
-from registry.service.models import find_model
-from registry.service.serving_evidence import report_in, states_in
-from registry.store.unit_of_work import UnitOfWork
+from registry.service import queries
+from registry.service.queries.after_release import AfterReleaseEvidence
 from web import blueprint
 
 WIDTH, HEIGHT = 720, 260
@@ -86,15 +84,8 @@ class VersionSection:
 
 @dataclass(frozen=True)
 class AfterReleasePage:
-    name: str
-    window: str
-    task: str
-    retention_days: int
-    quality_metric: str
-    quality_margin: float
-    versions: list[VersionSection]
-    outcomes: dict[str, int]
-    windows: int
+    evidence: AfterReleaseEvidence  # the page query's figures
+    versions: list[VersionSection]  # and the charts drawn from them
 
 
 def _scale(low: float, high: float, pixels: float, flip: bool = False):
@@ -234,62 +225,25 @@ def agreement_chart(version: int, dates: list[str], rows: list[dict[str, Any] | 
                      (), rules)
 
 
-def _min_agreement(model) -> float | None:
-    policy = gatekeeping.policy_of(model)
-    for stage in policy.ladder:
-        for spec in policy.gates_for(stage):
-            if spec.gate == "shadow-agreement":
-                return float(spec.settings["min_agreement"])
-    return None
-
-
-def after_release_page(catalogue, name: str) -> AfterReleasePage:
-    with UnitOfWork(catalogue, write=False) as uow:
-        model = find_model(uow, name)
-        report = report_in(uow, model)
-        minimum = _min_agreement(model)
-    windows = report["windows"]
-    dates = [w["start"] for w in windows]
-    sections = []
-    for number_text, state in report["versions"].items():
-        number = int(number_text)
-        entries = [next((e for e in w["versions"] if e["version"] == number), None)
-                   for w in windows]
-        features = sorted({n for e in entries if e for n in e["input_drift"]})
-        drift = {n: [e["input_drift"][n]["psi"] if e and n in e["input_drift"] else None
-                     for e in entries] for n in features}
-        qualities = [dict(e["quality"]) if e and "quality" in e else {} for e in entries]
-        evaluation = next((q.get("evaluation_value") for q in qualities
-                           if q.get("evaluation_value") is not None), None)
-        agreements = [e.get("agreement") if e else None for e in entries]
-        sections.append(VersionSection(
-            version=number, state=state["state"], reasons=state["reasons"], rows=state["rows"],
-            drift_chart=drift_chart(number, dates, drift),
-            drift_table=[{"date": dates[i][:10], "rows": e["rows"], "state": e["state"],
-                          "psi": {n: e["input_drift"].get(n, {}).get("psi") for n in features},
-                          "levels": {n: e["input_drift"].get(n, {}).get("level")
-                                     for n in features}}
-                         for i, e in enumerate(entries) if e],
-            quality_chart=quality_chart(number, dates, qualities, report["quality_metric"],
-                                        evaluation, report["quality_margin"]),
-            quality_table=[{"date": dates[i][:10], **q} for i, q in enumerate(qualities)
-                           if q.get("value") is not None],
-            agreement_chart=agreement_chart(number, dates, agreements, minimum),
-            agreement_table=[{"date": dates[i][:10], **a} for i, a in enumerate(agreements)
-                             if a],
-            features=features))
-    return AfterReleasePage(name=name, window=report["window"], task=report["task"],
-                            retention_days=report["retention_days"],
-                            quality_metric=report["quality_metric"],
-                            quality_margin=report["quality_margin"], versions=sections,
-                            outcomes=report["outcomes"], windows=len(windows))
+def after_release_page(evidence: AfterReleaseEvidence) -> AfterReleasePage:
+    """The page's charts drawn from the figures of the page query."""
+    dates = evidence.dates
+    sections = [VersionSection(
+        version=v.version, state=v.state, reasons=v.reasons, rows=v.rows,
+        drift_chart=drift_chart(v.version, dates, v.drift), drift_table=v.drift_rows,
+        quality_chart=quality_chart(v.version, dates, v.qualities, evidence.quality_metric,
+                                    v.evaluation_value, evidence.quality_margin),
+        quality_table=v.quality_rows,
+        agreement_chart=agreement_chart(v.version, dates, v.agreements, evidence.min_agreement),
+        agreement_table=v.agreement_rows, features=v.features) for v in evidence.versions]
+    return AfterReleasePage(evidence, sections)
 
 
 @blueprint.route("/models/<name>/after-release")
 def after_release(name: str):
     from web.views import _catalogue, _name
 
-    page = after_release_page(_catalogue(), _name(name, "model"))
+    page = after_release_page(queries.after_release_evidence(_catalogue(), _name(name, "model")))
     return render_template("after_release.html", page=page)
 
 
@@ -298,9 +252,7 @@ def after_release_states(model_name: str) -> dict[str, dict[str, Any]]:
     """Each version's state after release ({} when nothing was served), for the model and front
     pages; a page still renders when the evidence cannot be read."""
     try:
-        catalogue = current_app.extensions["lockkeeper"].catalogue()
-        with UnitOfWork(catalogue, write=False) as uow:
-            states = states_in(uow, find_model(uow, model_name))
+        return queries.after_release_states(current_app.extensions["lockkeeper"].catalogue(),
+                                            model_name)
     except LockkeeperError:
         return {}
-    return states

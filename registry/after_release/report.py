@@ -26,7 +26,7 @@ from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.windows import iso
 from registry.datasets.drift import column_drift
 from registry.datasets.profile import ColumnProfile
-from registry.gates.evidence import to_plain
+from registry.plain import to_plain
 
 STEADY, DRIFTING, DEGRADING = "steady", "drifting", "degrading"
 # what the kept figures of a window hold besides what a report shows of it

@@ -10,9 +10,9 @@ from __future__ import annotations
 
 import os
 
-from registry.api import create_api_app
+from registry.app import create_app
 
-app = create_api_app(os.environ.get("LOCKKEEPER_DB"), config={
+app = create_app(os.environ.get("LOCKKEEPER_DB"), pages=False, config={
     "LOCKKEEPER_OPEN_READS": os.environ.get("LOCKKEEPER_OPEN_READS", "") in ("1", "true", "True"),
     **({"LOCKKEEPER_MAX_WAITING": int(os.environ["LOCKKEEPER_MAX_WAITING"])}
        if os.environ.get("LOCKKEEPER_MAX_WAITING", "").isdigit() else {}),

@@ -31,9 +31,9 @@ from registry.evaluation.slices import (
     SliceReport,
     SliceResult,
     compare_slices,
-    holm_adjust,
     slice_metrics,
 )
+from registry.multiple_testing import holm_adjust
 
 __all__ = [
     "BootstrapResult", "CalibrationBin", "ComparisonReport", "Difference", "EvaluationReport",

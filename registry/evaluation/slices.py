@@ -6,7 +6,6 @@ Statistics 6(2):65-70: it controls the family-wise error rate over the slices of
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -22,6 +21,7 @@ from registry.evaluation.comparison import (
 )
 from registry.evaluation.metrics import compute_metrics
 from registry.evaluation.predictions import Predictions, PredictionsError
+from registry.multiple_testing import holm_adjust
 
 
 @dataclass(frozen=True)
@@ -64,25 +64,6 @@ class SliceReport:
     def to_dict(self) -> dict[str, Any]:
         return {"column": self.column, "correction": "holm-bonferroni",
                 "values": {value: result.to_dict() for value, result in self.values.items()}}
-
-
-def holm_adjust(p_values: Sequence[float | None]) -> list[float | None]:
-    """Holm's step-down adjusted p-values, in the given order; None entries are left out.
-
-    adjusted p_(i) = max over j <= i of min(1, (m - j + 1) p_(j)), p sorted ascending.
-    """
-    present = [k for k, p in enumerate(p_values) if p is not None]
-    adjusted: list[float | None] = [None] * len(p_values)
-    if not present:
-        return adjusted
-    values = np.array([p_values[k] for k in present], dtype=np.float64)
-    order = np.argsort(values, kind="stable")
-    count = values.shape[0]
-    scaled = np.minimum(1.0, (count - np.arange(count)) * values[order])
-    running = np.maximum.accumulate(scaled)
-    for rank, position in enumerate(order):
-        adjusted[present[position]] = float(running[rank])
-    return adjusted
 
 
 def slice_metrics(predictions: Predictions, slice_column: str, *,

@@ -1,9 +1,9 @@
 """Promotion gates: policy loading and pure functions from evidence to a gate report."""
 
+from registry.actors import Actor
 from registry.gates.evidence import (
                                      APPROVER,
                                      Acknowledgement,
-                                     Actor,
                                      Approval,
                                      ColumnCounts,
                                      ConsumerCheck,
@@ -21,7 +21,6 @@ from registry.gates.evidence import (
                                      ShadowAgreement,
                                      SliceComparison,
                                      Waiver,
-                                     to_plain,
 )
 from registry.gates.policy import (
                                      RETIRED,
@@ -35,10 +34,10 @@ from registry.gates.policy import (
                                      default_policy_text,
                                      load_policy,
 )
-from registry.gates.regression_gates import holm_adjust
 from registry.gates.report import GateReport, GateResult, render_report
 from registry.gates.settings import GATES
 from registry.gates.verdict import check_waivers, evaluate
+from registry.plain import to_plain
 
 __all__ = [
     "APPROVER", "GATES", "RETIRED", "Acknowledgement", "Actor", "Approval", "ColumnCounts",

@@ -6,8 +6,9 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from registry.gates.evidence import Evidence, to_plain
+from registry.gates.evidence import Evidence
 from registry.gates.report import GateResult
+from registry.plain import to_plain
 
 GATE = "shadow-agreement"
 

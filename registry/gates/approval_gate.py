@@ -5,8 +5,9 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from registry.gates.evidence import APPROVER, Evidence, to_plain
+from registry.gates.evidence import APPROVER, Evidence
 from registry.gates.report import GateResult
+from registry.plain import to_plain
 
 
 def approved(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:

@@ -9,8 +9,9 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from registry.gates.evidence import ConsumerCheck, Evidence, FeedSchemaCheck, SchemaCheck, to_plain
+from registry.gates.evidence import ConsumerCheck, Evidence, FeedSchemaCheck, SchemaCheck
 from registry.gates.report import GateResult
+from registry.plain import to_plain
 
 
 def first_problem(check: SchemaCheck | FeedSchemaCheck | ConsumerCheck) -> str:

@@ -7,8 +7,9 @@ from collections.abc import Mapping
 from datetime import UTC
 from typing import Any
 
-from registry.gates.evidence import Evidence, parse_time, to_plain
+from registry.gates.evidence import Evidence, parse_time
 from registry.gates.report import GateResult
+from registry.plain import to_plain
 
 
 def no_leakage(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:

@@ -26,18 +26,6 @@ class EvidenceError(Unprocessable):
 
 
 @dataclasses.dataclass(frozen=True)
-class Actor:
-    """The person acting: `user` is a login name, `roles` the catalogue roles they hold
-    (`publisher`, `approver`, `admin`)."""
-
-    user: str
-    roles: tuple[str, ...] = ()
-
-    def has_role(self, role: str) -> bool:
-        return role in self.roles
-
-
-@dataclasses.dataclass(frozen=True)
 class Waiver:
     """An approver's recorded override of one failed gate.
 
@@ -397,14 +385,3 @@ def parse_time(text: str, *, place: str) -> datetime:
     except (TypeError, ValueError):
         raise EvidenceError(f"not an ISO 8601 time: {text!r}", place=place) from None
     return moment if moment.tzinfo else moment.replace(tzinfo=UTC)
-
-
-def to_plain(value: Any) -> Any:
-    """A record (or tuple, dict, scalar) as JSON-ready dicts, lists and scalars."""
-    if dataclasses.is_dataclass(value) and not isinstance(value, type):
-        return {f.name: to_plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
-    if isinstance(value, (tuple, list)):
-        return [to_plain(item) for item in value]
-    if isinstance(value, Mapping):
-        return {str(key): to_plain(item) for key, item in value.items()}
-    return value

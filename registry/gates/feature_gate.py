@@ -5,9 +5,10 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from registry.gates.evidence import APPROVER, Evidence, to_plain
+from registry.gates.evidence import APPROVER, Evidence
 from registry.gates.report import GateResult
 from registry.gates.schema_gates import no_incumbent
+from registry.plain import to_plain
 
 
 def feature_meaning(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> GateResult:

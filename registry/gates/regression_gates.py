@@ -2,30 +2,15 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
 from statistics import NormalDist
 from typing import Any
 
-from registry.gates.evidence import Evidence, PairedComparison, to_plain
+from registry.gates.evidence import Evidence, PairedComparison
 from registry.gates.report import GateResult
 from registry.gates.schema_gates import no_incumbent
-
-
-def holm_adjust(p_values: Sequence[float]) -> tuple[float, ...]:
-    """Holm-Bonferroni adjusted p-values, in the order given.
-
-    Holm, A Simple Sequentially Rejective Multiple Test Procedure, Scand. J. Statist. 6 (1979):
-    the i-th smallest of m p-values is multiplied by (m - i + 1), made non-decreasing in that
-    order and capped at 1; rejecting where the adjusted value is below alpha is Holm's procedure.
-    """
-    m = len(p_values)
-    order = sorted(range(m), key=lambda i: p_values[i])
-    adjusted = [0.0] * m
-    running = 0.0
-    for rank, index in enumerate(order):
-        running = max(running, min(1.0, (m - rank) * p_values[index]))
-        adjusted[index] = running
-    return tuple(adjusted)
+from registry.multiple_testing import holm_adjust
+from registry.plain import to_plain
 
 
 def _z(confidence: float) -> float:
@@ -118,7 +103,8 @@ def slice_guard(evidence: Evidence, settings: Mapping[str, Any], stage: str) -> 
     if len(given) == len(slices):
         adjusted = tuple(float(p) for p in given)
     else:
-        adjusted = holm_adjust([s.p_value for s in slices])
+        adjusted = tuple(float(p) for p in holm_adjust([s.p_value for s in slices])
+                         if p is not None)
         notes.append(f"p-values Holm-Bonferroni adjusted here across {len(slices)} slices")
     findings, regressions, unproven = [], [], []
     for piece, adjusted_p in zip(slices, adjusted, strict=True):

@@ -13,8 +13,9 @@ from registry.gates.contract_gates import (
     rollback_reads_declared_feed,
 )
 from registry.gates.contract_gates import first_problem as _first_problem
-from registry.gates.evidence import Evidence, SampleProfile, SchemaProblem, to_plain
+from registry.gates.evidence import Evidence, SampleProfile, SchemaProblem
 from registry.gates.report import GateResult
+from registry.plain import to_plain
 
 NO_INCUMBENT = "no incumbent: nothing to compare against"
 NOTHING_TO_COMPARE = ("no version holds the top of the ladder yet (first version into it): "

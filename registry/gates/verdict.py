@@ -6,11 +6,12 @@ import dataclasses
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
+from registry.actors import Actor
 from registry.errors import UserError
 from registry.gates.agreement_gate import shadow_agreement
 from registry.gates.approval_gate import approved
 from registry.gates.data_gates import fresh_data, lineage_complete, no_leakage
-from registry.gates.evidence import Actor, Evidence, Waiver
+from registry.gates.evidence import Evidence, Waiver
 from registry.gates.feature_gate import feature_meaning
 from registry.gates.policy import Policy
 from registry.gates.regression_gates import no_regression, slice_guard
@@ -63,8 +64,8 @@ def check_waivers(waivers: Sequence[Waiver], actor: Actor, policy: Policy, stage
         if waiver.gate in UNWAIVABLE:
             raise UserError("the approved gate cannot be waived; ask an approver to approve "
                             "the version instead", place=place)
-        if waiver.approver != actor.user:
-            raise UserError(f"a waiver is given by the acting user; {actor.user} cannot record "
+        if waiver.approver != actor.name:
+            raise UserError(f"a waiver is given by the acting user; {actor.name} cannot record "
                             f"one for {waiver.approver}", place=place)
         if not waiver.reason.strip():
             raise UserError("a waiver needs a reason", place=place)
@@ -78,7 +79,7 @@ def evaluate(policy: Policy, stage: str, evidence: Evidence, waivers: Sequence[W
     """Every gate guarding `stage`, judged on `evidence`, in policy order; a failed gate with a
     valid waiver counts as cleared. Invalid waivers are a user error and nothing is judged."""
     waivers = tuple(waivers)
-    actor = actor or Actor(user="unknown")
+    actor = actor or Actor(name="unknown")
     specs = policy.gates_for(stage)
     check_waivers(waivers, actor, policy, stage)
     offered = {waiver.gate: waiver for waiver in waivers}
@@ -97,4 +98,4 @@ def evaluate(policy: Policy, stage: str, evidence: Evidence, waivers: Sequence[W
         results.append(result)
     return GateReport(model=evidence.model, version=evidence.version, stage=stage,
                       passed=all(result.cleared for result in results), results=tuple(results),
-                      actor=actor.user, evaluated_at=evidence.evaluated_at, waivers=waivers)
+                      actor=actor.name, evaluated_at=evidence.evaluated_at, waivers=waivers)

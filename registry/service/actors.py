@@ -2,17 +2,8 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from registry.actors import Actor
 
 ROLES = ("reader", "publisher", "approver", "admin")
 
-
-@dataclass(frozen=True)
-class Actor:
-    name: str
-    roles: frozenset[str] = frozenset()
-
-    def has_role(self, role: str) -> bool:
-        # Roles do not imply each other: an admin manages the catalogue but does not approve, so
-        # that four eyes always means two approvers. Everyone may read.
-        return role == "reader" or role in self.roles
+__all__ = ["ROLES", "Actor"]

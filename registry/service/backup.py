@@ -18,7 +18,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import Table, delete, func, select, text
+from sqlalchemy import Table
 
 from registry import progress
 from registry.canonical_json import canonical_json
@@ -31,6 +31,7 @@ from registry.signing.keys import ALGORITHM, key_id_of, load_public_key, verify
 from registry.store import tables as t
 from registry.store.audit import AuditRecord, verify_chain
 from registry.store.catalogue import Catalogue
+from registry.store.table_copy import catalogue_tables
 from registry.store.unit_of_work import UnitOfWork
 from registry.timestamps import utc_iso
 
@@ -50,11 +51,6 @@ class BackupSummary:
     audit_hash: str
     sealed_by: str | None = None   # the key that signed the manifest, if any
     trusted: bool = False          # whether that seal was checked against a trusted key
-
-
-def _tables() -> list[Table]:
-    """Every catalogue table in foreign-key order, parents before children."""
-    return list(t.Base.metadata.sorted_tables)
 
 
 def _plain(value: Any) -> Any:
@@ -78,28 +74,18 @@ def _prepare_folder(folder: Path) -> None:
         raise UserError(f"cannot create {folder}: {error}", place="DIR") from None
 
 
-def _begin_snapshot(uow: UnitOfWork) -> None:
-    """Make every read of this unit of work see one snapshot of the catalogue."""
-    if uow.catalogue.dialect == "postgresql":
-        # Must be the transaction's first statement; REPEATABLE READ gives one snapshot.
-        uow.session.execute(text("SET TRANSACTION ISOLATION LEVEL REPEATABLE READ READ ONLY"))
-    # SQLite (WAL): a read transaction sees the snapshot of its first read, taken below.
-
-
 def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> BackupSummary:
     _prepare_folder(folder)
     files: dict[str, dict[str, Any]] = {}
     counts: dict[str, int] = {}
     with UnitOfWork(catalogue, write=False) as uow:
-        _begin_snapshot(uow)
-        head = uow.session.execute(select(t.AuditHead.sequence, t.AuditHead.hash)).first()
-        for table in _tables():
+        uow.table_copy.begin_snapshot()
+        head = uow.audit.head()
+        for table in catalogue_tables():
             digest, rows = hashlib.sha256(), 0
-            columns = [table.c[c.name] for c in table.columns
-                       if not (table.name == BLOB_TABLE and c.name == "content")]
-            query = select(*columns).order_by(*table.primary_key.columns)
+            leave_out = ("content",) if table.name == BLOB_TABLE else ()
             with (folder / "tables" / f"{table.name}.jsonl").open("wb") as out:
-                for row in uow.session.execute(query):
+                for row in uow.table_copy.rows(table, leave_out=leave_out):
                     line = _row_line(table, row)
                     digest.update(line)
                     out.write(line)
@@ -110,15 +96,13 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
                 "rows": rows, "sha256": digest.hexdigest(),
                 "bytes": (folder / "tables" / f"{table.name}.jsonl").stat().st_size}
         blob_count = 0
-        for digest_text, content in uow.session.execute(
-                select(t.Blob.digest, t.Blob.content).order_by(t.Blob.digest)
-                .execution_options(yield_per=8)):
+        for digest_text, content in uow.table_copy.blob_contents():
             (folder / "blobs" / digest_text).write_bytes(content)
             blob_count += 1
             progress.advance()
         current = uow.keys.current()
         current_key_id = current.key_id if current is not None else None
-    sequence, head_hash = (head.sequence, head.hash) if head else (0, "0" * 64)
+    sequence, head_hash = head if head else (0, "0" * 64)
     manifest = {"format": FORMAT, "revision": revision, "source": catalogue.dialect,
                 "exported_at": datetime.now(UTC).isoformat(timespec="seconds"),
                 "audit_head": {"sequence": sequence, "hash": head_hash},
@@ -223,7 +207,7 @@ def _file_entry(manifest: dict[str, Any], name: str) -> dict[str, Any]:
 
 def _read_rows(folder: ExportFolder, manifest: dict[str, Any]) -> dict[str, TableRows]:
     tables: dict[str, TableRows] = {}
-    for table in _tables():
+    for table in catalogue_tables():
         name = f"tables/{table.name}.jsonl"
         entry = _file_entry(manifest, name)
         content = folder.read(name, size=entry["bytes"])
@@ -325,32 +309,15 @@ def read_export(folder: Path, revision: str, trusted_key_pem: str | None = None
 
 
 def _require_empty(uow: UnitOfWork) -> None:
-    for table in _tables():
+    for table in catalogue_tables():
         if table.name == t.AuditHead.__tablename__:
             continue  # a writing unit of work on PostgreSQL may have just created a blank head
-        count = uow.session.execute(select(func.count()).select_from(table)).scalar_one()
+        count = uow.table_copy.count(table)
         if count:
             raise UserError(f"the catalogue is not empty (table {table.name} holds {count} "
                             "rows); import only into a freshly initialised catalogue",
                             place="--db")
-    uow.session.execute(delete(t.AuditHead))
-
-
-def _reset_sequences(uow: UnitOfWork) -> None:
-    """PostgreSQL keeps id counters apart from the rows; move them past the imported ids."""
-    if uow.catalogue.dialect != "postgresql":
-        return
-    for table in _tables():
-        keys = list(table.primary_key.columns)
-        if len(keys) != 1 or keys[0].autoincrement is False or keys[0].name != "id":
-            continue
-        sequence = uow.session.execute(
-            text("SELECT pg_get_serial_sequence(:table, 'id')"), {"table": table.name}
-        ).scalar_one()
-        if sequence:
-            uow.session.execute(text(
-                f"SELECT setval('{sequence}', COALESCE((SELECT max(id) FROM {table.name}), 0) + 1, "
-                "false)"))
+    uow.table_copy.clear_audit_head()
 
 
 def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSummary:
@@ -360,11 +327,11 @@ def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSumma
         assert capture is not None  # a writing unit of work captures its rows
         capture.allow_bulk = True  # the imported chain itself backs every imported row
         _require_empty(uow)
-        for table in _tables():
+        for table in catalogue_tables():
             if export.rows[table.name]:
-                uow.session.execute(table.insert(), export.rows[table.name])
+                uow.table_copy.insert(table, export.rows[table.name])
                 progress.advance(len(export.rows[table.name]))
-        _reset_sequences(uow)
+        uow.table_copy.reset_id_counters(catalogue_tables())
         uow.commit()
     head = export.manifest["audit_head"]
     return BackupSummary(export.folder, {name: len(r) for name, r in export.rows.items()},

@@ -13,6 +13,7 @@ from typing import Any
 from registry import schema as avro
 from registry.errors import AlreadyExists, NotFound
 from registry.names import check_name
+from registry.node_ids import contract_id
 from registry.service import evidence_sources as sources
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
@@ -67,7 +68,7 @@ def add_consumer(catalogue: Catalogue, name: str, model: str, schema_text: str, 
         uow.consumers.add_schema(t.ConsumerSchema(
             consumer_id=consumer.id, number=1, schema_json=normalised, fingerprint=fingerprint,
             note=note, created_at=utc_now(), created_by=actor.name))
-        uow.audit.append(actor.name, "consumer.add", f"consumer/{name}",
+        uow.audit.append(actor.name, "consumer.add", contract_id("consumer", name),
                          {"model": line.name, "owner": owner, "schema_version": 1,
                           "fingerprint": fingerprint})
         document = _describe(uow, consumer, line.name)
@@ -91,7 +92,7 @@ def update_consumer(catalogue: Catalogue, name: str, schema_text: str, actor: Ac
         uow.consumers.add_schema(t.ConsumerSchema(
             consumer_id=consumer.id, number=number, schema_json=normalised,
             fingerprint=fingerprint, note=note, created_at=utc_now(), created_by=actor.name))
-        uow.audit.append(actor.name, "consumer.update", f"consumer/{name}",
+        uow.audit.append(actor.name, "consumer.update", contract_id("consumer", name),
                          {"model": model, "schema_version": number, "fingerprint": fingerprint,
                           "note": note})
         document = _describe(uow, consumer, model)
@@ -106,7 +107,7 @@ def remove_consumer(catalogue: Catalogue, name: str, actor: Actor) -> dict[str, 
         model = _model_name(uow, consumer)
         last = uow.consumers.current_schema(consumer)
         uow.consumers.remove(consumer)
-        uow.audit.append(actor.name, "consumer.remove", f"consumer/{name}",
+        uow.audit.append(actor.name, "consumer.remove", contract_id("consumer", name),
                          {"model": model, "last_schema_version": last.number,
                           "fingerprint": last.fingerprint})
         uow.commit()

@@ -7,6 +7,7 @@ from __future__ import annotations
 import json
 
 from registry import schema as avro
+from registry.node_ids import contract_version_id
 from registry.schema.errors import SchemaError
 from registry.store.unit_of_work import UnitOfWork
 
@@ -31,9 +32,10 @@ def _recomputed(schema_json: str) -> str | None:
 
 def contract_findings(uow: UnitOfWork, recorded: dict[str, dict]) -> list[tuple[str, str]]:
     """(place, problem) for each contract schema that is not what was recorded."""
-    rows = [(f"feed/{feed.name}/version/{s.number}", s.schema_json, s.fingerprint)
+    rows = [(contract_version_id("feed", feed.name, s.number), s.schema_json, s.fingerprint)
             for feed in uow.feeds.every() for s in uow.feeds.schemas(feed)]
-    rows += [(f"consumer/{consumer.name}/version/{s.number}", s.schema_json, s.fingerprint)
+    rows += [(contract_version_id("consumer", consumer.name, s.number), s.schema_json,
+              s.fingerprint)
              for consumer, _ in uow.consumers.every() for s in uow.consumers.schemas(consumer)]
     findings = []
     for place, schema_json, stored in rows:

@@ -12,12 +12,11 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from sqlalchemy import select
-
 from registry.canonical_json import canonical_json, digest_of
 from registry.errors import AlreadyExists, NotFound, UserError
 from registry.moments import utc_iso
 from registry.names import check_name
+from registry.node_ids import dataset_id
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.models import find_model
@@ -64,8 +63,7 @@ class DatasetSummary:
 
 
 def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
-    dataset = uow.session.execute(
-        select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+    dataset = uow.datasets.named(name)
     if dataset is None:
         raise NotFound(f"unknown dataset {name!r}{did_you_mean(name, uow.names.datasets())}",
                        place="dataset")
@@ -73,9 +71,7 @@ def find_dataset(uow: UnitOfWork, name: str) -> t.Dataset:
 
 
 def parents_of(uow: UnitOfWork, dataset: t.Dataset) -> list[str]:
-    return sorted(uow.session.execute(
-        select(t.Dataset.name).join(t.DatasetParent, t.DatasetParent.parent_id == t.Dataset.id)
-        .where(t.DatasetParent.child_id == dataset.id)).scalars())
+    return uow.datasets.parent_names(dataset.id)
 
 
 def load_fingerprint(uow: UnitOfWork, dataset: t.Dataset) -> DatasetFingerprint:
@@ -123,7 +119,7 @@ def check_sources(sources: Sequence[Any]) -> tuple[tuple[str, int, str], ...]:
 
 def _summary(uow: UnitOfWork, dataset: t.Dataset, *, created: bool = True,
              with_profile: bool = False) -> DatasetSummary:
-    feed_of = (uow.session.get_one(t.Model, dataset.feed_model_id).name if dataset.feed_model_id
+    feed_of = (uow.models.by_id(dataset.feed_model_id).name if dataset.feed_model_id
                else None)
     profile = load_fingerprint(uow, dataset).to_dict().get("profile", {}) if with_profile else {}
     return DatasetSummary(
@@ -196,8 +192,7 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
             request.name, request.role, request.source_uri, request.fingerprint.content_digest,
             request.fingerprint.schema_fingerprint, fingerprint_digest,
             [p.name for p in parents], request.feed_of, sources)
-        existing = uow.session.execute(
-            select(t.Dataset).where(t.Dataset.name == request.name)).scalar_one_or_none()
+        existing = uow.datasets.named(request.name)
         if existing is not None:
             if existing.registration_digest == digest:
                 return _summary(uow, existing, created=False)
@@ -213,13 +208,9 @@ def add_dataset(catalogue: Catalogue, request: DatasetRequest, actor: Actor) -> 
             fingerprint_digest=fingerprint_digest, registration_digest=digest,
             feed_model_id=feed_model.id if feed_model else None,
             created_at=utc_now(), created_by=actor.name)
-        uow.session.add(dataset)
-        uow.session.flush()
-        for parent in parents:
-            uow.session.add(t.DatasetParent(child_id=dataset.id, parent_id=parent.id))
-        uow.session.flush()
+        uow.datasets.add(dataset, parents)
         uow.dataset_sources.add(dataset.id, sources)
-        uow.audit.append(actor.name, "dataset.add", f"dataset/{request.name}", {
+        uow.audit.append(actor.name, "dataset.add", dataset_id(request.name), {
             "registration_digest": digest, "content_digest": request.fingerprint.content_digest,
             "fingerprint_digest": fingerprint_digest, "role": request.role,
             "derived_from": [p.name for p in parents], "files": len(sources)})
@@ -235,7 +226,7 @@ def show_dataset(catalogue: Catalogue, name: str) -> DatasetSummary:
 
 def list_datasets(catalogue: Catalogue) -> list[DatasetSummary]:
     with UnitOfWork(catalogue, write=False) as uow:
-        rows = uow.session.execute(select(t.Dataset).order_by(t.Dataset.name)).scalars().all()
+        rows = uow.datasets.all()
         return [_summary(uow, row) for row in rows]
 
 

@@ -7,8 +7,6 @@ import json
 from datetime import UTC, datetime, timedelta
 from functools import lru_cache
 
-from sqlalchemy import select
-
 from registry import gates
 from registry import schema as avro
 from registry.store import tables as t
@@ -64,11 +62,7 @@ def output_check(incumbent: t.Version, candidate: t.Version) -> gates.SchemaChec
 
 
 def linked_datasets(uow: UnitOfWork, version: t.Version) -> list[tuple[str, t.Dataset]]:
-    return list(uow.session.execute(
-        select(t.VersionDataset.relation, t.Dataset)
-        .join(t.Dataset, t.Dataset.id == t.VersionDataset.dataset_id)
-        .where(t.VersionDataset.version_id == version.id)
-        .order_by(t.VersionDataset.relation, t.Dataset.name)).all())
+    return uow.datasets.linked_to_version(version.id)
 
 
 def dataset_records(uow: UnitOfWork, version: t.Version) -> tuple[gates.DatasetRecord, ...]:
@@ -91,14 +85,11 @@ def recalled_upstream(uow: UnitOfWork, version: t.Version) -> tuple[gates.Recall
 
 
 def _roles_of(uow: UnitOfWork, user: str) -> tuple[str, ...]:
-    return tuple(sorted(uow.session.execute(
-        select(t.RoleGrant.role).where(t.RoleGrant.user == user)).scalars()))
+    return tuple(sorted(uow.roles.held_by(user)))
 
 
 def approvals(uow: UnitOfWork, version: t.Version) -> tuple[gates.Approval, ...]:
-    rows = uow.session.execute(
-        select(t.Approval).where(t.Approval.version_id == version.id)
-        .order_by(t.Approval.id)).scalars()
+    rows = uow.stages.approvals(version.id)
     return tuple(gates.Approval(user=row.approver, roles=_roles_of(uow, row.approver),
                                 at=row.created_at.isoformat(), stage=row.stage) for row in rows)
 
@@ -110,9 +101,7 @@ def acknowledgements(uow: UnitOfWork, version: t.Version, stage: str,
     review = [change for change in changes if change.classification == "needs-review"]
     if not review:
         return ()
-    rows = uow.session.execute(
-        select(t.Approval).where(t.Approval.version_id == version.id,
-                                 t.Approval.stage == stage)).scalars().all()
+    rows = uow.stages.approvals(version.id, stage)
     return tuple(gates.Acknowledgement(field=change.field, user=row.approver,
                                        roles=_roles_of(uow, row.approver),
                                        at=row.created_at.isoformat(), note=row.note)
@@ -175,10 +164,7 @@ def live_sample(uow: UnitOfWork, model: t.Model) -> gates.SampleProfile | None:
     """The newest live sample registered as taken from this model's feed, with the counts of
     enum symbols, union branches and nulls per column from its profile."""
 
-    sample = uow.session.execute(
-        select(t.Dataset).where(t.Dataset.feed_model_id == model.id,
-                                t.Dataset.role == "live-sample")
-        .order_by(t.Dataset.created_at.desc(), t.Dataset.id.desc())).scalars().first()
+    sample = uow.datasets.newest_live_sample(model.id)
     return sample_profile(uow, sample) if sample is not None else None
 
 

@@ -17,6 +17,7 @@ from registry import schema as avro
 from registry.errors import AlreadyExists, NotFound, UserError
 from registry.gates.feed_contract import HolderReading, judge_feed_schema
 from registry.names import check_name
+from registry.node_ids import contract_id, model_id
 from registry.service import evidence_sources as sources
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
@@ -101,7 +102,7 @@ def create_feed(catalogue: Catalogue, name: str, actor: Actor, *, description: s
         feed = uow.feeds.add(t.Feed(name=name, description=description, retain_days=retain_days,
                                     created_at=utc_now(), created_by=actor.name))
         uow.feeds.add_sources(feed, datasets)
-        uow.audit.append(actor.name, "feed.create", f"feed/{name}",
+        uow.audit.append(actor.name, "feed.create", contract_id("feed", name),
                          {"description": description, "retain_days": retain_days,
                           "built_from": sorted(d.name for d in datasets)})
         document = _describe(uow, feed, with_schemas=False)
@@ -123,8 +124,8 @@ def _readings(uow: UnitOfWork, feed: t.Feed, proposed: avro.Schema) -> list[Hold
     """Every version reading the feed and holding a stage, resolving the proposed schema."""
     holders = uow.feeds.reading_holders(feed)
     samples = uow.feeds.live_samples({h.model_id for h in holders})
-    profiles = {model_id: sources.sample_profile(uow, sample)
-                for model_id, sample in samples.items()}
+    profiles = {line_id: sources.sample_profile(uow, sample)
+                for line_id, sample in samples.items()}
     # One resolution per distinct reader schema; each parsed schema is dropped as soon as it is
     # resolved, so a thousand of them never sit in memory together.
     verdicts: dict[str, avro.Resolution] = {}
@@ -183,7 +184,7 @@ def publish_feed_schema(catalogue: Catalogue, name: str, schema_text: str, actor
             waiver = {"approver": actor.name, "reason": waiver_reason.strip(),
                       "used": not verdict["passed"]}
         publish = verdict["passed"] or waiver is not None
-        subject = f"feed/{feed.name}"
+        subject = contract_id("feed", feed.name)
         if not publish:
             uow.audit.append(actor.name, "feed.refuse", subject,
                              {"feed_version": number, "fingerprint": fingerprint,
@@ -219,7 +220,7 @@ def set_model_feed(catalogue: Catalogue, model: str, feed_name: str, actor: Acto
         before = uow.feeds.of_model(line)
         if before is None or before.id != feed.id:
             uow.feeds.set_for_model(line, feed)
-            uow.audit.append(actor.name, "model.set-feed", f"model/{line.name}",
+            uow.audit.append(actor.name, "model.set-feed", model_id(line.name),
                              {"feed": feed.name,
                               "previous_feed": before.name if before is not None else None})
         uow.commit()

@@ -11,8 +11,6 @@ import dataclasses
 from collections.abc import Sequence
 from datetime import datetime
 
-from sqlalchemy import select
-
 from registry import gates
 from registry.gates import GateReport, Policy, Waiver
 from registry.service import evidence_sources as sources
@@ -33,25 +31,15 @@ def is_guarded(policy: Policy, stage: str) -> bool:
     return bool(policy.gates_for(stage))
 
 
-def gates_actor(actor: Actor) -> gates.Actor:
-    return gates.Actor(user=actor.name, roles=tuple(sorted(actor.roles)))
-
-
 def top_holder(uow: UnitOfWork, model: t.Model, policy: Policy) -> t.Version | None:
-    holding = uow.session.execute(
-        select(t.StageHolding).where(t.StageHolding.model_id == model.id,
-                                     t.StageHolding.stage == policy.top_stage)
-        .order_by(t.StageHolding.since.desc())).scalars().first()
-    return uow.session.get(t.Version, holding.version_id) if holding else None
+    holdings = uow.stages.holdings(model.id, policy.top_stage)
+    return uow.models.version_by_id(holdings[-1].version_id) if holdings else None
 
 
 def past_top_holders(uow: UnitOfWork, model: t.Model, policy: Policy,
                      exclude: Sequence[int]) -> list[t.Version]:
-    ids = uow.session.execute(
-        select(t.StageEvent.version_id).where(
-            t.StageEvent.model_id == model.id, t.StageEvent.stage == policy.top_stage,
-            t.StageEvent.event.in_(("entered", "restored"))).distinct()).scalars().all()
-    return [uow.session.get_one(t.Version, i) for i in sorted(set(ids) - set(exclude))]
+    ids = uow.stages.versions_that_entered(model.id, policy.top_stage)
+    return [uow.models.version_by_id(i) for i in ids if i not in set(exclude)]
 
 
 def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str,
@@ -109,13 +97,13 @@ def run_gates(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage: str,
     check_waivers_first(stage, actor, waivers, policy)
     incumbent = top_holder(uow, model, policy)
     evidence = gather_evidence(uow, model, candidate, stage, policy, incumbent=incumbent)
-    return gates.evaluate(policy, stage, evidence, waivers, gates_actor(actor))
+    return gates.evaluate(policy, stage, evidence, waivers, actor)
 
 
 def check_waivers_first(stage: str, actor: Actor, waivers: Sequence[Waiver],
                         policy: Policy) -> None:
     """Refuse a misspelt or unrecordable waiver before seconds of gathering evidence."""
-    gates.check_waivers(waivers, gates_actor(actor), policy, stage)
+    gates.check_waivers(waivers, actor, policy, stage)
 
 
 def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, holder: t.Version,
@@ -130,7 +118,7 @@ def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, hol
     check_waivers_first(stage, actor, waivers, restricted)
     evidence = gather_evidence(uow, model, restored, stage, restricted, incumbent=holder,
                                include_quality=False)
-    return gates.evaluate(restricted, stage, evidence, waivers, gates_actor(actor))
+    return gates.evaluate(restricted, stage, evidence, waivers, actor)
 
 
 def parse_waivers(pairs: Sequence[tuple[str, str]], actor: Actor) -> list[Waiver]:

@@ -11,10 +11,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import select
-
 from registry.canonical_json import digest_of
 from registry.errors import UserError
+from registry.node_ids import dataset_id, evaluation_id, version_id
 from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
@@ -156,8 +155,7 @@ def _extends(place: str, checkpoint: SignedCheckpoint, head_sequence: int,
 def _blob_findings(uow: UnitOfWork) -> tuple[int, list[Finding]]:
     findings = []
     count = 0
-    for digest, size, content in uow.session.execute(
-            select(t.Blob.digest, t.Blob.size, t.Blob.content)):
+    for digest, size, content in uow.integrity.blobs():
         count += 1
         if hashlib.sha256(content).hexdigest() != digest:
             findings.append(Finding(f"blob {digest}", "its content does not match its digest",
@@ -172,17 +170,12 @@ def _blob_findings(uow: UnitOfWork) -> tuple[int, list[Finding]]:
 def _version_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int, list[Finding]]:
     findings = []
     links: dict[int, dict[str, list[str]]] = {}
-    for version_id, relation, name in uow.session.execute(
-            select(t.VersionDataset.version_id, t.VersionDataset.relation, t.Dataset.name)
-            .join(t.Dataset, t.Dataset.id == t.VersionDataset.dataset_id)):
-        links.setdefault(version_id, {}).setdefault(relation, []).append(name)
+    for linked_version, relation, name in uow.integrity.version_links():
+        links.setdefault(linked_version, {}).setdefault(relation, []).append(name)
     count = 0
-    rows = uow.session.execute(
-        select(t.Version, t.Model.name).join(t.Model, t.Model.id == t.Version.model_id)
-        .order_by(t.Model.name, t.Version.number))
-    for version, model_name in rows:
+    for version, model_name in uow.integrity.versions():
         count += 1
-        place = f"model/{model_name}/version/{version.number}"
+        place = version_id(model_name, version.number)
         linked = links.get(version.id, {})
         try:
             recomputed = digest_of(registration_record(
@@ -231,7 +224,7 @@ def _document_findings(uow: UnitOfWork, version: t.Version, place: str) -> list[
     """The stored bytes must still give the version's document digest."""
     from registry.documents import canonical_digest
 
-    blob = uow.session.get(t.Blob, version.stored_blob_digest)
+    blob = uow.integrity.blob(version.stored_blob_digest)
     if blob is None:
         return [Finding(place, "its document bytes are missing")]
     if version.document_kind == "pfa":
@@ -248,9 +241,7 @@ def _document_findings(uow: UnitOfWork, version: t.Version, place: str) -> list[
 
 def _model_name(uow: UnitOfWork, model_id: int) -> str:
     """The name of a model a row refers to; the foreign key keeps the model there."""
-    model = uow.session.get(t.Model, model_id)
-    assert model is not None, f"no model with id {model_id}"
-    return model.name
+    return uow.models.by_id(model_id).name
 
 
 def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int, list[Finding]]:
@@ -258,9 +249,9 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
 
     findings = []
     count = 0
-    for dataset in uow.session.execute(select(t.Dataset).order_by(t.Dataset.name)).scalars():
+    for dataset in uow.datasets.all():
         count += 1
-        place = f"dataset/{dataset.name}"
+        place = dataset_id(dataset.name)
         feed_of = _model_name(uow, dataset.feed_model_id) if dataset.feed_model_id else None
         recomputed = dataset_registration_digest(
             dataset.name, dataset.role, dataset.source_uri, dataset.content_digest,
@@ -268,7 +259,7 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
             feed_of, uow.dataset_sources.of(dataset.id))
         findings += _registration_findings(place, recomputed, registered.get(place), {
             "registration_digest": dataset.registration_digest})
-        blob = uow.session.get(t.Blob, dataset.fingerprint_digest)
+        blob = uow.integrity.blob(dataset.fingerprint_digest)
         if blob is not None and hashlib.sha256(blob.content).hexdigest() != blob.digest:
             findings.append(Finding(place, "its stored fingerprint no longer matches its digest"))
         try:
@@ -304,15 +295,9 @@ def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
 
     findings = []
     count = 0
-    rows = uow.session.execute(
-        select(t.Evaluation, t.Model.name, t.Version.number, t.Dataset.name)
-        .join(t.Version, t.Version.id == t.Evaluation.version_id)
-        .join(t.Model, t.Model.id == t.Version.model_id)
-        .join(t.Dataset, t.Dataset.id == t.Evaluation.dataset_id)
-        .order_by(t.Model.name, t.Version.number, t.Dataset.name))
-    for evaluation, model_name, number, dataset_name in rows:
+    for evaluation, model_name, number, dataset_name in uow.integrity.evaluations():
         count += 1
-        place = f"model/{model_name}/version/{number}/evaluation/{dataset_name}"
+        place = evaluation_id(model_name, number, dataset_name)
         recorded = registered.get(place)
         try:
             metrics = json.loads(evaluation.metrics_json)["metrics"]
@@ -335,7 +320,7 @@ def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
                 recorded.get("metrics")):
             findings.append(Finding(place, "its stored metrics differ from the ones the audit "
                                            "log recorded"))
-        blob = uow.session.get(t.Blob, evaluation.predictions_digest)
+        blob = uow.integrity.blob(evaluation.predictions_digest)
         if blob is None:
             findings.append(Finding(place, "its predictions are missing"))
         elif hashlib.sha256(blob.content).hexdigest() != blob.digest:
@@ -389,7 +374,7 @@ def _guarded(uow: UnitOfWork, what: str, empty: Any, check: Any) -> Any:
     those reads fail (a timestamp that no longer parses, a reference to a row that is gone);
     the row digests name such a change first, so the check then just reports it could not run."""
     try:
-        with uow.session.begin_nested():
+        with uow.savepoint():
             return check()
     except Exception as error:  # any failure to read tampered rows is the finding itself
         finding = Finding(what, f"could not be checked: the stored rows no longer read back "

@@ -11,12 +11,11 @@ import re
 from dataclasses import dataclass
 from typing import Literal
 
-from sqlalchemy import select
-
 from registry.errors import NotFound, UserError
+from registry.names import NAME_PATTERN
+from registry.node_ids import contract_id, dataset_id, stage_id, version_id
 from registry.store import contract_lineage as contracts
 from registry.store import lineage as walks
-from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 from registry.suggest import did_you_mean
@@ -30,7 +29,6 @@ _STAGE_ID = re.compile(r"^model/([^/]+)/stage/([^/]+)$")
 _DATASET_ID = re.compile(r"^dataset/([^/]+)$")
 _CONTRACT_ID = re.compile(r"^(feed|consumer)/([^/]+)$")
 _AT_VERSION = re.compile(r"^([^/@]+)@([0-9]{1,9})$")
-_BARE = re.compile(r"^[a-z0-9][a-z0-9._-]{0,99}$")
 
 
 @dataclass(frozen=True)
@@ -69,18 +67,6 @@ class LineageGraph:
         return next((n for n in self.nodes if n.id == node_id), None)
 
 
-def dataset_id(name: str) -> str:
-    return f"dataset/{name}"
-
-
-def version_id(model: str, number: int) -> str:
-    return f"model/{model}/version/{number}"
-
-
-def stage_id(model: str, stage: str) -> str:
-    return f"model/{model}/stage/{stage}"
-
-
 def normalise_node(text: str) -> str:
     """The canonical id of what a person typed, without looking anything up."""
     text = (text or "").strip()
@@ -91,7 +77,7 @@ def normalise_node(text: str) -> str:
         if m := _VERSION_ID.match(text):
             return version_id(m.group(1), int(m.group(2)))
         return text
-    if _BARE.match(text):
+    if NAME_PATTERN.match(text):  # a bare name is a dataset's
         return dataset_id(text)
     raise UserError(f"not a lineage node: {text!r}; use dataset/NAME, NAME, MODEL@N, "
                     "model/MODEL/version/N, model/MODEL/stage/STAGE, feed/NAME or "
@@ -99,48 +85,44 @@ def normalise_node(text: str) -> str:
 
 
 def _model_id(uow: UnitOfWork, name: str) -> int:
-    found = uow.session.execute(select(t.Model.id).where(t.Model.name == name)).scalar_one_or_none()
+    found = uow.models.named(name)
     if found is None:
         raise NotFound(f"unknown model {name!r}{did_you_mean(name, uow.names.models())}",
                        place="NODE")
-    return found
+    return found.id
 
 
 def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
     """The canonical id and database key of a node; NotFound when it is not in the catalogue."""
     node = normalise_node(text)
     if m := _DATASET_ID.match(node):
-        found = uow.session.execute(
-            select(t.Dataset.id).where(t.Dataset.name == m.group(1))).scalar_one_or_none()
-        if found is None:
+        dataset = uow.datasets.named(m.group(1))
+        if dataset is None:
             hint = ""
-            if uow.session.execute(select(t.Model.id).where(t.Model.name == m.group(1))).first():
+            if uow.models.named(m.group(1)) is not None:
                 hint = (f"; {m.group(1)!r} is a model: name one of its versions "
                         f"({m.group(1)}@N) or stages (model/{m.group(1)}/stage/STAGE)")
             hint = hint or did_you_mean(m.group(1), uow.names.datasets())
             raise NotFound(f"unknown dataset {m.group(1)!r}{hint}", place="NODE")
-        return node, walks.NodeKey("dataset", found)
+        return node, walks.NodeKey("dataset", dataset.id)
     if m := _VERSION_ID.match(node):
         model_id = _model_id(uow, m.group(1))
-        found = uow.session.execute(
-            select(t.Version.id).where(t.Version.model_id == model_id,
-                                       t.Version.number == int(m.group(2)))).scalar_one_or_none()
-        if found is None:
+        version = uow.models.version(model_id, int(m.group(2)))
+        if version is None:
             numbers = ", ".join(f"v{n}" for n in uow.names.version_numbers(model_id)) or "none"
             raise NotFound(f"model {m.group(1)!r} has no version {m.group(2)}; its versions "
                            f"are {numbers}", place="NODE")
-        return node, walks.NodeKey("version", found)
+        return node, walks.NodeKey("version", version.id)
     if m := _CONTRACT_ID.match(node):
         kind, name = m.group(1), m.group(2)
-        contract = (contracts.feed_key if kind == "feed" else contracts.consumer_key)(uow.session,
-                                                                                    name)
+        contract = uow.lineage.contract_key(kind, name)
         if contract is None:
             raise NotFound(f"unknown {kind} {name!r}", place="NODE")
         return node, contract
     m = _STAGE_ID.match(node)
     assert m is not None
     model_id = _model_id(uow, m.group(1))
-    if not walks.stage_exists(uow.session, model_id, m.group(2)):
+    if not uow.lineage.stage_exists(model_id, m.group(2)):
         raise NotFound(f"no version of {m.group(1)!r} has ever held the stage {m.group(2)!r}",
                        place="NODE")
     return node, walks.NodeKey("stage", model_id, m.group(2))
@@ -150,7 +132,7 @@ def node_name(facts: walks.NodeFacts) -> str:
     if facts.key.kind == "dataset":
         return dataset_id(facts.name)
     if facts.key.kind in contracts.CONTRACT_KINDS:
-        return f"{facts.key.kind}/{facts.name}"
+        return contract_id(facts.key.kind, facts.name)
     if facts.key.kind == "version":
         return version_id(facts.model, facts.number or 0)
     return stage_id(facts.model, facts.name)
@@ -177,11 +159,11 @@ def check_depth(depth: int | None) -> int | None:
 def flagged_keys(uow: UnitOfWork) -> set[walks.NodeKey]:
     """Every node downstream of a recalled dataset, the recalled datasets included."""
     walked: dict[walks.NodeKey, int | None] = {
-        r.key: None for r in walks.walk(uow.session, walks.recalled_seeds(), "down")}
+        r.key: None for r in uow.lineage.walk(walks.recalled_seeds(), "down")}
     if not walked:
         return set()
     # A feed built from a recalled dataset flags its readers and their consumers too.
-    return set(contracts.expand(uow.session, walked, "down"))
+    return set(uow.lineage.expand(walked, "down"))
 
 
 def reach(uow: UnitOfWork, key: walks.NodeKey, direction: str, depth: int | None
@@ -192,8 +174,8 @@ def reach(uow: UnitOfWork, key: walks.NodeKey, direction: str, depth: int | None
         start = {key: 0 if depth is not None else None}
         if key.kind not in contracts.CONTRACT_KINDS:
             start = {item.key: item.depth
-                     for item in walks.walk(uow.session, walks.seeds_for(key), way, depth)}
-        for found, found_depth in contracts.expand(uow.session, start, way, depth).items():
+                     for item in uow.lineage.walk(walks.seeds_for(key), way, depth)}
+        for found, found_depth in uow.lineage.expand(start, way, depth).items():
             known = reached.get(found)
             reached[found] = (found_depth if known is None or found_depth is None
                               else min(known, found_depth))
@@ -202,7 +184,7 @@ def reach(uow: UnitOfWork, key: walks.NodeKey, direction: str, depth: int | None
 
 def facts_of(uow: UnitOfWork, keys) -> dict[walks.NodeKey, walks.NodeFacts]:
     keys = set(keys)
-    return {**walks.facts_of(uow.session, keys), **contracts.contract_facts(uow.session, keys)}
+    return uow.lineage.facts(keys)
 
 
 def graph_in(uow: UnitOfWork, node: str, direction: str, depth: int | None = None) -> LineageGraph:
@@ -212,8 +194,7 @@ def graph_in(uow: UnitOfWork, node: str, direction: str, depth: int | None = Non
     depth = check_depth(depth)
     root, key = resolve_node(uow, node)
     reached = reach(uow, key, direction, depth)
-    links = (walks.links_among(uow.session, reached)
-             + contracts.contract_links(uow.session, reached))
+    links = uow.lineage.links(reached)
     facts = facts_of(uow, reached)
     flagged = flagged_keys(uow)
     nodes = sorted(
@@ -255,14 +236,11 @@ def provenance_of(catalogue: Catalogue, node: str, direction: str,
         staged = {(f.key.ref, f.name) for f in facts.values() if f.key.kind == "stage"}
         version_ids = {k.ref: node_name(facts[k]) for k in facts if k.kind == "version"}
         events = []
-        for chunk in walks._chunks(version_ids):
-            for row in uow.session.execute(
-                    select(t.StageEvent).where(t.StageEvent.version_id.in_(chunk))
-                    .order_by(t.StageEvent.id)).scalars():
-                if (row.model_id, row.stage) in staged:
-                    events.append(prov.ProvStageEvent(
-                        id=row.id, version=version_ids[row.version_id], stage=row.stage,
-                        event=row.event, at=walks.utc_iso(row.created_at), by=row.created_by))
+        for row in uow.stages.events_of_versions(version_ids):
+            if (row.model_id, row.stage) in staged:
+                events.append(prov.ProvStageEvent(
+                    id=row.id, version=version_ids[row.version_id], stage=row.stage,
+                    event=row.event, at=walks.utc_iso(row.created_at), by=row.created_by))
     uses = [prov.ProvUse(version=e.source, dataset=e.target, relation=e.relation)
             for e in graph.edges if e.relation in ("trained-on", "evaluated-on", "reads-feed")]
     # A feed is derived from the datasets it is built from; what a consumer makes, from the

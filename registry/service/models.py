@@ -4,11 +4,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from sqlalchemy import func, select
-
 from registry.errors import AlreadyExists, NotFound
 from registry.moments import utc_iso
 from registry.names import check_name
+from registry.node_ids import model_id
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.recall import recalled_names_upstream
@@ -49,7 +48,7 @@ class ModelDetail:
 
 
 def find_model(uow: UnitOfWork, name: str) -> t.Model:
-    model = uow.session.execute(select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
+    model = uow.models.named(name)
     if model is None:
         raise NotFound(f"unknown model {name!r}{did_you_mean(name, uow.names.models())}",
                        place="model")
@@ -57,9 +56,7 @@ def find_model(uow: UnitOfWork, name: str) -> t.Model:
 
 
 def find_version(uow: UnitOfWork, model: t.Model, number: int) -> t.Version:
-    version = uow.session.execute(
-        select(t.Version).where(t.Version.model_id == model.id, t.Version.number == number)
-    ).scalar_one_or_none()
+    version = uow.models.version(model.id, number)
     if version is None:
         numbers = uow.names.version_numbers(model.id)
         existing = (f"its versions are {', '.join(f'v{n}' for n in numbers)}" if numbers
@@ -70,14 +67,8 @@ def find_version(uow: UnitOfWork, model: t.Model, number: int) -> t.Version:
 
 
 def stages_by_version(uow: UnitOfWork, model: t.Model) -> dict[int, list[str]]:
-    rows = uow.session.execute(
-        select(t.Version.number, t.StageHolding.stage)
-        .join(t.StageHolding, t.StageHolding.version_id == t.Version.id)
-        .where(t.StageHolding.model_id == model.id)
-        .order_by(t.StageHolding.since)
-    ).all()
     held: dict[int, list[str]] = {}
-    for number, stage in rows:
+    for number, stage in uow.models.held_stages(model.id):
         held.setdefault(number, []).append(stage)
     return held
 
@@ -91,9 +82,7 @@ def holders_by_stage(uow: UnitOfWork, model: t.Model) -> dict[str, list[int]]:
 
 
 def _summary(uow: UnitOfWork, model: t.Model) -> ModelSummary:
-    count = uow.session.execute(
-        select(func.count()).select_from(t.Version).where(t.Version.model_id == model.id)
-    ).scalar_one()
+    count = uow.models.version_count(model.id)
     return ModelSummary(name=model.name, description=model.description,
                         created_at=utc_iso(model.created_at), created_by=model.created_by,
                         versions=count, stages=holders_by_stage(uow, model))
@@ -103,15 +92,13 @@ def create_model(catalogue: Catalogue, name: str, description: str, actor: Actor
     check_name(name, what="model")
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "model.create")
-        existing = uow.session.execute(
-            select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
+        existing = uow.models.named(name)
         if existing is not None:
             raise AlreadyExists(f"a model named {name!r} already exists", place="model")
         model = t.Model(name=name, description=description, created_at=utc_now(),
                         created_by=actor.name)
-        uow.session.add(model)
-        uow.session.flush()
-        uow.audit.append(actor.name, "model.create", f"model/{name}", {"description": description})
+        uow.models.add(model)
+        uow.audit.append(actor.name, "model.create", model_id(name), {"description": description})
         summary = _summary(uow, model)
         uow.commit()
         return summary
@@ -119,7 +106,7 @@ def create_model(catalogue: Catalogue, name: str, description: str, actor: Actor
 
 def list_models(catalogue: Catalogue) -> list[ModelSummary]:
     with UnitOfWork(catalogue, write=False) as uow:
-        models = uow.session.execute(select(t.Model).order_by(t.Model.name)).scalars().all()
+        models = uow.models.all()
         return [_summary(uow, model) for model in models]
 
 
@@ -127,9 +114,7 @@ def show_model(catalogue: Catalogue, name: str) -> ModelDetail:
     with UnitOfWork(catalogue, write=False) as uow:
         model = find_model(uow, name)
         held = stages_by_version(uow, model)
-        versions = uow.session.execute(
-            select(t.Version).where(t.Version.model_id == model.id).order_by(t.Version.number)
-        ).scalars().all()
+        versions = uow.models.versions(model.id)
         return ModelDetail(
             model=_summary(uow, model),
             versions=[VersionSummary(

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from registry import gates
+from registry.node_ids import model_id
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.model_policy import policy_of
@@ -28,6 +29,6 @@ def set_policy(catalogue: Catalogue, model: str, text: str, actor: Actor, *,
         authorise(uow, actor, "model.set-policy", place="policy")
         line = find_model(uow, model)
         line.policy_toml = text
-        uow.audit.append(actor.name, "model.policy", f"model/{model}", {"policy": text})
+        uow.audit.append(actor.name, "model.policy", model_id(model), {"policy": text})
         uow.commit()
     return {"model": model, "set": True}

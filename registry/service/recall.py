@@ -9,8 +9,6 @@ from __future__ import annotations
 from collections import deque
 from dataclasses import dataclass
 
-from sqlalchemy import select
-
 from registry.errors import NotFound, UserError
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
@@ -66,18 +64,13 @@ class RecalledSource:
 
 
 def _downstream_of_dataset(uow: UnitOfWork, dataset: t.Dataset):
-    reached = walks.walk(uow.session, walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")
+    reached = uow.lineage.walk(walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")
     dataset_ids = sorted(r.key.ref for r in reached
                          if r.key.kind == "dataset" and r.key.ref != dataset.id)
     version_ids = sorted(r.key.ref for r in reached if r.key.kind == "version")
-    facts = walks.facts_of(uow.session, [walks.NodeKey("dataset", i) for i in dataset_ids]
-                           + [walks.NodeKey("version", i) for i in version_ids])
-    held: dict[int, list[str]] = {}
-    for chunk in walks._chunks(version_ids):
-        for version, stage in uow.session.execute(
-                select(t.StageHolding.version_id, t.StageHolding.stage)
-                .where(t.StageHolding.version_id.in_(chunk)).order_by(t.StageHolding.stage)):
-            held.setdefault(version, []).append(stage)
+    facts = uow.lineage.facts([walks.NodeKey("dataset", i) for i in dataset_ids]
+                              + [walks.NodeKey("version", i) for i in version_ids])
+    held = uow.stages.stages_of_versions(version_ids)
     datasets = tuple(sorted(facts[walks.NodeKey("dataset", i)].name for i in dataset_ids))
     versions = tuple(sorted(
         (FlaggedVersion(facts[k].model, facts[k].number or 0, tuple(held.get(k.ref, ())))
@@ -94,13 +87,11 @@ def _flagged_through_feeds(uow: UnitOfWork, dataset: t.Dataset,
     """Feeds built from the dataset or from what was derived from it, the versions reading
     them (beyond those its lineage already names, with the stages they hold) and the consumers
     downstream of either."""
-    from registry.store import contract_lineage as contracts
-
-    start: dict[walks.NodeKey, int | None] = {r.key: None for r in walks.walk(
-        uow.session, walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")}
-    reached = contracts.expand(uow.session, start, "down")
+    start: dict[walks.NodeKey, int | None] = {r.key: None for r in uow.lineage.walk(
+        walks.seeds_for(walks.NodeKey("dataset", dataset.id)), "down")}
+    reached = uow.lineage.expand(start, "down")
     extra = [k for k in reached if k not in start]
-    facts = {**walks.facts_of(uow.session, extra), **contracts.contract_facts(uow.session, extra)}
+    facts = uow.lineage.facts(extra)
     named = {(v.model, v.version) for v in lineage_versions}
     feeds = tuple(sorted(facts[k].name for k in extra if k.kind == "feed"))
     consumers = tuple(sorted(facts[k].name for k in extra if k.kind == "consumer"))
@@ -115,7 +106,8 @@ def _flagged_through_feeds(uow: UnitOfWork, dataset: t.Dataset,
 
 def _resting_stages(uow: UnitOfWork, model: str) -> tuple[str, ...]:
     """Stages from which nothing is served: the first rung of the ladder, and retired."""
-    line = uow.session.execute(select(t.Model).where(t.Model.name == model)).scalar_one()
+    line = uow.models.named(model)
+    assert line is not None  # named by a walk over the catalogue's own rows
     return (policy_of(line).ladder[0], "retired")
 
 
@@ -126,8 +118,7 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
         raise UserError("a recall needs a reason a person can act on", place="--reason")
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "dataset.recall", place="recall")
-        dataset = uow.session.execute(
-            select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
+        dataset = uow.datasets.named(name)
         if dataset is None:
             raise NotFound(f"unknown dataset {name!r}{did_you_mean(name, uow.names.datasets())}",
                            place="dataset")
@@ -136,8 +127,7 @@ def recall_dataset(catalogue: Catalogue, name: str, reason: str, actor: Actor) -
                             f"{walks.utc_iso(dataset.recalled_at)} by {dataset.recalled_by}: "
                             f"{dataset.recall_reason}", place="dataset")
         now = utc_now()
-        dataset.recalled_at, dataset.recall_reason, dataset.recalled_by = now, reason, actor.name
-        uow.session.flush()
+        uow.datasets.recall(dataset, at=now, reason=reason, by=actor.name)
         datasets, versions, to_act = _downstream_of_dataset(uow, dataset)
         feeds, readers, consumers = _flagged_through_feeds(uow, dataset, versions)
         sequence = uow.audit.append(actor.name, "dataset.recall", dataset_id(name), {
@@ -168,15 +158,15 @@ def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledS
     For the promotion gate `lineage-complete`: an empty list means no recalled data went in.
     """
     start = walks.NodeKey("version", version_row.id)
-    reached = {r.key for r in walks.walk(uow.session, walks.seeds_for(start), "up")}
-    facts = walks.facts_of(uow.session, reached)
+    reached = {r.key for r in uow.lineage.walk(walks.seeds_for(start), "up")}
+    facts = uow.lineage.facts(reached)
     recalled = sorted((k for k in reached if k.kind == "dataset" and facts[k].recalled),
                       key=lambda k: facts[k].name)
     if not recalled:
         return []
     # Shortest path from the version up to each recalled dataset, over the walked edges.
     depends_on: dict[walks.NodeKey, list[walks.NodeKey]] = {}
-    for link in walks.links_among(uow.session, reached):
+    for link in uow.lineage.links(reached, with_contracts=False):
         depends_on.setdefault(link.downstream, []).append(link.upstream)
     came_from: dict[walks.NodeKey, walks.NodeKey | None] = {start: None}
     queue = deque([start])
@@ -193,7 +183,7 @@ def recalled_upstream(uow: UnitOfWork, version_row: t.Version) -> list[RecalledS
         while step is not None:
             chain.append(node_name(facts[step]))
             step = came_from.get(step)
-        row = uow.session.get_one(t.Dataset, key.ref)
+        row = uow.datasets.by_id(key.ref)
         assert row.recalled_at is not None  # it is among the recalled datasets
         sources.append(RecalledSource(dataset=row.name, reason=row.recall_reason or "",
                                       recalled_at=walks.utc_iso(row.recalled_at),

@@ -17,6 +17,7 @@ from registry.canonical_json import digest_of
 from registry.errors import NotFound
 from registry.gates import GateReport
 from registry.names import check_name
+from registry.node_ids import version_id
 from registry.service.document_fetch import find_document
 from registry.service.models import find_model, find_version
 from registry.signing import dsse
@@ -86,7 +87,7 @@ def record_move(uow: UnitOfWork, actor: str, model: t.Model, version: t.Version,
                      envelope_json=data.decode("ascii"), envelope_digest=digest,
                      key_id=key.key_id if key else None, audit_sequence=moved_by[0],
                      at=utc_now())
-    uow.audit.append(actor, "release.record", f"model/{model.name}/version/{version.number}",
+    uow.audit.append(actor, "release.record", version_id(model.name, version.number),
                      {"stage": stage, "move": move, "reason": reason,
                       "envelope_digest": digest, "signed_by": key.key_id if key else None})
 

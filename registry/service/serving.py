@@ -22,6 +22,7 @@ from registry.after_release.served_batch import CheckedBatch, read_served_batch
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.windows import iso
 from registry.errors import UserError
+from registry.node_ids import model_id
 from registry.service import gatekeeping
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
@@ -93,7 +94,7 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                 window_start=start, rows=rows.summary.rows, content=compact.encode(rows.columns())))
         refresh_figures(uow, line, {start for _, start in checked.groups})
         dropped = _apply_retention(uow, line)
-        uow.audit.append(actor.name, "serving.record", f"model/{line.name}",
+        uow.audit.append(actor.name, "serving.record", model_id(line.name),
                          {"digest": digest, "rows": checked.rows, "task": checked.task,
                           "windows": windows, "dropped_row_sets": dropped})
         uow.commit()
@@ -177,7 +178,7 @@ def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *
                 window_start=int(start), rows=int(mine.sum()), content=compact.encode(columns)))
             per_window.append({"window": iso(int(start)), "rows": int(mine.sum())})
         refresh_figures(uow, line, {int(s) for s in np.unique(windows[joined]).tolist()})
-        uow.audit.append(actor.name, "serving.outcomes", f"model/{line.name}",
+        uow.audit.append(actor.name, "serving.outcomes", model_id(line.name),
                          {"digest": digest, "rows": len(outcomes.hashes),
                           "joined": int(joined.sum()), "unknown_rows": unknown,
                           "windows": per_window})

@@ -1,7 +1,7 @@
 """The question a scoring service polls: which version holds this stage of this model now?
 
-One indexed query (models.name is unique; stage_holdings is indexed on model, stage, version)
-on a plain connection, without the unit of work: it only reads, and it is the hot path.
+The reads are registry/store/stage_holder_reads.py, on a plain connection without the unit of
+work: they only read, and this is the hot path.
 """
 
 from __future__ import annotations
@@ -12,12 +12,12 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 from functools import lru_cache
 
-from sqlalchemy import Connection, select
+from sqlalchemy import Connection
 
 from registry.errors import NotFound, StageNotHeld
 from registry.names import check_name
-from registry.store import tables as t
 from registry.store.catalogue import Catalogue
+from registry.store.stage_holder_reads import holder_rows, model_exists
 
 
 @dataclass(frozen=True)
@@ -57,17 +57,10 @@ def stage_holder(catalogue: Catalogue, model: str, stage: str) -> StageHolder:
 def read_stage_holder(connection: Connection, model: str, stage: str) -> StageHolder:
     check_name(model, what="model")
     check_name(stage, what="stage")
-    query = (select(t.StageHolding.id, t.StageHolding.since, t.Version.number,
-                    t.Version.document_digest, t.Version.input_schema_json)
-             .join(t.Model, t.Model.id == t.StageHolding.model_id)
-             .join(t.Version, t.Version.id == t.StageHolding.version_id)
-             .where(t.Model.name == model, t.StageHolding.stage == stage)
-             .order_by(t.StageHolding.since.desc(), t.StageHolding.id.desc()))
-    rows = connection.execute(query).all()
+    rows = holder_rows(connection, model, stage)
     if not rows:
         # Only now, off the hot path, tell an unknown model from a stage nobody holds.
-        known = connection.execute(select(t.Model.id).where(t.Model.name == model)).first()
-        if known is None:
+        if not model_exists(connection, model):
             raise NotFound(f"unknown model {model!r}", place="model")
         raise StageNotHeld(f"no version of {model!r} holds {stage!r}", place="stage")
     newest = rows[0]

@@ -13,11 +13,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-from sqlalchemy import select
-
 from registry.errors import Conflict, NotFound, Refusal, UserError
 from registry.moments import utc_iso
 from registry.names import check_name
+from registry.node_ids import stage_id, version_id
 from registry.service import gatekeeping, releases
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
@@ -49,14 +48,11 @@ class HolderSnapshot:
 
 
 def holders(uow: UnitOfWork, model: t.Model, stage: str) -> list[t.StageHolding]:
-    return list(uow.session.execute(
-        select(t.StageHolding).where(t.StageHolding.model_id == model.id,
-                                     t.StageHolding.stage == stage)
-        .order_by(t.StageHolding.since)).scalars())
+    return uow.stages.holdings(model.id, stage)
 
 
 def _numbers(uow: UnitOfWork, holdings: list[t.StageHolding]) -> tuple[int, ...]:
-    return tuple(sorted(uow.session.get_one(t.Version, h.version_id).number for h in holdings))
+    return tuple(sorted(uow.models.version_by_id(h.version_id).number for h in holdings))
 
 
 def snapshot(catalogue: Catalogue, model: str, stage: str) -> HolderSnapshot:
@@ -66,36 +62,32 @@ def snapshot(catalogue: Catalogue, model: str, stage: str) -> HolderSnapshot:
 
 
 def stages_of(uow: UnitOfWork, version: t.Version) -> list[str]:
-    return list(uow.session.execute(
-        select(t.StageHolding.stage).where(t.StageHolding.version_id == version.id)).scalars())
+    return uow.stages.stages_of(version.id)
 
 
 def _event(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, event: str,
            actor: Actor, report_id: int | None = None, **details: Any) -> None:
-    uow.session.add(t.StageEvent(model_id=model.id, version_id=version.id, stage=stage,
-                                 event=event, details_json=json.dumps(details, sort_keys=True),
-                                 report_id=report_id, created_at=utc_now(),
-                                 created_by=actor.name))
+    uow.stages.add_event(model_id=model.id, version_id=version.id, stage=stage, event=event,
+                         details_json=json.dumps(details, sort_keys=True), report_id=report_id,
+                         at=utc_now(), by=actor.name)
 
 
 def _store_report(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str,
                   attempt: str, report: gatekeeping.GateReport, actor: Actor) -> int:
-    row = t.GateReportRow(model_id=model.id, version_id=version.id, stage=stage, attempt=attempt,
-                          passed=report.passed, report_json=json.dumps(report.to_dict()),
-                          created_at=utc_now(), created_by=actor.name)
-    uow.session.add(row)
-    uow.session.flush()
-    return row.id
+    return uow.stages.add_report(model_id=model.id, version_id=version.id, stage=stage,
+                                 attempt=attempt, passed=report.passed,
+                                 report_json=json.dumps(report.to_dict()), at=utc_now(),
+                                 by=actor.name)
 
 
 def _leave_other_ladder_stages(uow: UnitOfWork, model: t.Model, version: t.Version,
                                stage: str, actor: Actor) -> None:
     """A version moves up its ladder: it leaves the stages it held below the new one."""
-    for holding in uow.session.execute(
-            select(t.StageHolding).where(t.StageHolding.version_id == version.id,
-                                         t.StageHolding.stage != stage)).scalars().all():
+    for holding in uow.stages.holdings_of_version(version.id):
+        if holding.stage == stage:
+            continue
         _event(uow, model, version, holding.stage, "moved-on", actor, to_stage=stage)
-        uow.session.delete(holding)
+        uow.stages.release(holding)
 
 
 def _place(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, is_exclusive: bool,
@@ -109,24 +101,21 @@ def _place(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str, is_e
         for holding in holders(uow, model, stage):
             if holding.version_id == version.id:
                 continue
-            displaced = uow.session.get_one(t.Version, holding.version_id)
+            displaced = uow.models.version_by_id(holding.version_id)
             displaced_number, displaced_id = displaced.number, displaced.id
             if previous_version_id is not None:
                 displaced_id = previous_version_id
             _event(uow, model, displaced, stage, "replaced", actor, report_id,
                    by_version=version.number)
-            uow.session.delete(holding)
+            uow.stages.release(holding)
             # It goes back to the first stage of the ladder, where it can be promoted again.
             _return_to_start(uow, model, displaced, actor)
-        uow.session.flush()
     _leave_other_ladder_stages(uow, model, version, stage, actor)
-    uow.session.flush()
-    uow.session.add(t.StageHolding(model_id=model.id, version_id=version.id, stage=stage,
-                                   is_exclusive=is_exclusive, since=utc_now(),
-                                   report_id=report_id, previous_version_id=displaced_id))
+    uow.stages.hold(model_id=model.id, version_id=version.id, stage=stage,
+                    is_exclusive=is_exclusive, since=utc_now(), report_id=report_id,
+                    previous_version_id=displaced_id)
     details = {"displaced_version": displaced_number} if displaced_number is not None else {}
     _event(uow, model, version, stage, event, actor, report_id, **details)
-    uow.session.flush()
     return displaced_number
 
 
@@ -135,8 +124,8 @@ def _return_to_start(uow: UnitOfWork, model: t.Model, version: t.Version, actor:
     policy = gatekeeping.policy_of(model)
     start = policy.ladder[0]
     if start not in stages_of(uow, version):
-        uow.session.add(t.StageHolding(model_id=model.id, version_id=version.id, stage=start,
-                                       is_exclusive=policy.is_exclusive(start), since=utc_now()))
+        uow.stages.hold(model_id=model.id, version_id=version.id, stage=start,
+                        is_exclusive=policy.is_exclusive(start), since=utc_now())
         _event(uow, model, version, start, "entered", actor, reason=reason)
 
 
@@ -185,7 +174,7 @@ def promote(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
             displaced = _place(uow, line, version, stage, policy.is_exclusive(stage), report_id,
                                actor)
         uow.audit.append(actor.name, "stage.promote" if report.passed else "stage.refuse",
-                         f"model/{line.name}/version/{number}",
+                         version_id(line.name, number),
                          {"stage": stage, "passed": report.passed, "report_id": report_id,
                           "displaced_version": displaced, "summary": report.summary(),
                           "waivers": [dataclasses.asdict(w) for w in report.waivers]})
@@ -220,16 +209,13 @@ def approve(catalogue: Catalogue, model: str, number: int, stage: str, actor: Ac
         authorise(uow, actor, "version.approve", authors=(version.author, version.created_by),
                   place="approve")
         policy.stage(stage)
-        existing = uow.session.execute(select(t.Approval).where(
-            t.Approval.version_id == version.id, t.Approval.stage == stage,
-            t.Approval.approver == actor.name)).scalar_one_or_none()
+        existing = uow.stages.approval(version.id, stage, actor.name)
         if existing is None:
-            uow.session.add(t.Approval(version_id=version.id, stage=stage, approver=actor.name,
-                                       note=note, created_at=utc_now()))
-            uow.session.flush()
-            uow.audit.append(actor.name, "version.approve", f"model/{line.name}/version/{number}",
+            uow.stages.approve(version_id=version.id, stage=stage, approver=actor.name,
+                               note=note, at=utc_now())
+            uow.audit.append(actor.name, "version.approve", version_id(line.name, number),
                              {"stage": stage, "note": note})
-        count = uow.session.query(t.Approval).filter_by(version_id=version.id, stage=stage).count()
+        count = len(uow.stages.approvals(version.id, stage))
         uow.commit()
         return {"model": line.name, "version": number, "stage": stage, "approver": actor.name,
                 "approvals": count, "recorded": existing is None}
@@ -253,11 +239,11 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
             raise UserError(f"no version holds {stage!r}; there is nothing to roll back",
                             place="--stage")
         holding = current[0]
-        holder = uow.session.get_one(t.Version, holding.version_id)
+        holder = uow.models.version_by_id(holding.version_id)
         if holding.previous_version_id is None:
             raise UserError(f"v{holder.number} was the first version to hold {stage!r}; there is "
                             "no earlier holder to restore", place="--stage")
-        previous = uow.session.get_one(t.Version, holding.previous_version_id)
+        previous = uow.models.version_by_id(holding.previous_version_id)
         _authorise_waivers(uow, actor, previous, waivers)
         if "retired" in stages_of(uow, previous):
             raise UserError(f"v{previous.number}, the previous holder, is retired",
@@ -266,16 +252,15 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
                                                 waivers, policy=policy)
         report_id = _store_report(uow, line, previous, stage, "rollback", report, actor)
         if report.passed:
-            uow.session.delete(holding)
+            uow.stages.release(holding)
             _event(uow, line, holder, stage, "rolled-back", actor, report_id,
                    restored_version=previous.number)
-            uow.session.flush()
             _return_to_start(uow, line, holder, actor)
             earlier = _earlier_holder(uow, line, previous, stage)
             _place(uow, line, previous, stage, True, report_id, actor, event="restored",
                    previous_version_id=earlier)
         uow.audit.append(actor.name, "stage.rollback" if report.passed else "stage.refuse",
-                         f"model/{line.name}/stage/{stage}",
+                         stage_id(line.name, stage),
                          {"stage": stage, "from_version": holder.number,
                           "to_version": previous.number, "passed": report.passed,
                           "report_id": report_id, "summary": report.summary()})
@@ -294,12 +279,7 @@ def rollback(catalogue: Catalogue, model: str, stage: str, actor: Actor,
 def _earlier_holder(uow: UnitOfWork, model: t.Model, version: t.Version, stage: str) -> int | None:
     """Who the restored version itself had displaced when it first took the stage, so a
     second rollback can go one step further back."""
-    replaced = uow.session.execute(
-        select(t.StageEvent).where(t.StageEvent.model_id == model.id,
-                                   t.StageEvent.stage == stage,
-                                   t.StageEvent.event == "replaced")
-        .order_by(t.StageEvent.id.desc())).scalars()
-    for event in replaced:
+    for event in uow.stages.replacements(model.id, stage):
         if json.loads(event.details_json or "{}").get("by_version") == version.number:
             return event.version_id
     return None
@@ -319,17 +299,14 @@ def retire(catalogue: Catalogue, model: str, number: int, actor: Actor,
         if "retired" in held:
             raise UserError(f"version {number} is already retired", place="retire")
         # Row by row, not a bulk DELETE, so the unit of work sees each deleted holding.
-        for holding in uow.session.execute(
-                select(t.StageHolding).where(t.StageHolding.version_id == version.id)
-        ).scalars().all():
-            uow.session.delete(holding)
-        uow.session.flush()
+        for holding in uow.stages.holdings_of_version(version.id):
+            uow.stages.release(holding)
         for stage in held:
             _event(uow, line, version, stage, "retired", actor, reason=reason)
-        uow.session.add(t.StageHolding(model_id=line.id, version_id=version.id, stage="retired",
-                                       is_exclusive=False, since=utc_now()))
+        uow.stages.hold(model_id=line.id, version_id=version.id, stage="retired",
+                        is_exclusive=False, since=utc_now())
         _event(uow, line, version, "retired", "entered", actor, reason=reason)
-        uow.audit.append(actor.name, "version.retire", f"model/{line.name}/version/{number}",
+        uow.audit.append(actor.name, "version.retire", version_id(line.name, number),
                          {"left_stages": held, "reason": reason})
         moved_by = releases.moving_event(uow)
         for stage in held:
@@ -346,14 +323,11 @@ def history(catalogue: Catalogue, model: str) -> dict[str, Any]:
     with UnitOfWork(catalogue, write=False) as uow:
         line = find_model(uow, model)
         events = []
-        for event, number in uow.session.execute(
-                select(t.StageEvent, t.Version.number)
-                .join(t.Version, t.Version.id == t.StageEvent.version_id)
-                .where(t.StageEvent.model_id == line.id).order_by(t.StageEvent.id)):
+        for event, number in uow.stages.events_of_model(line.id):
             report = None
             if event.report_id is not None:
-                row = uow.session.get_one(t.GateReportRow, event.report_id)
-                report = json.loads(row.report_json)
+                row = uow.stages.report(event.report_id)
+                report = json.loads(row.report_json) if row is not None else None
             events.append({"at": utc_iso(event.created_at), "version": number,
                            "stage": event.stage, "event": event.event, "by": event.created_by,
                            "details": json.loads(event.details_json or "{}"),
@@ -361,11 +335,7 @@ def history(catalogue: Catalogue, model: str) -> dict[str, Any]:
         attempts = [{"id": row.id, "version": number, "stage": row.stage, "attempt": row.attempt,
                      "passed": row.passed, "at": utc_iso(row.created_at),
                      "by": row.created_by}
-                    for row, number in uow.session.execute(
-                        select(t.GateReportRow, t.Version.number)
-                        .join(t.Version, t.Version.id == t.GateReportRow.version_id)
-                        .where(t.GateReportRow.model_id == line.id)
-                        .order_by(t.GateReportRow.id))]
+                    for row, number in uow.stages.reports_of_model(line.id)]
         return {"model": line.name, "events": events, "attempts": attempts}
 
 
@@ -399,7 +369,7 @@ def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
 
 def find_report(catalogue: Catalogue, report_id: int) -> dict[str, Any]:
     with UnitOfWork(catalogue, write=False) as uow:
-        row = uow.session.get(t.GateReportRow, report_id)
+        row = uow.stages.report(report_id)
         if row is None:
             raise NotFound(f"no gate report {report_id}", place="report")
         return json.loads(row.report_json)

@@ -9,6 +9,7 @@ from typing import Any
 from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
+from registry.node_ids import dataset_id, model_id
 from registry.store import tables as t
 
 
@@ -32,12 +33,12 @@ class AuditEventRepository:
     def newest(self, wanted: AuditFilter) -> list[dict[str, Any]]:
         query = select(t.AuditEvent).order_by(t.AuditEvent.sequence.desc()).limit(wanted.limit)
         if wanted.model is not None:
-            subject = f"model/{wanted.model}"
+            subject = model_id(wanted.model)
             query = query.where(or_(t.AuditEvent.subject == subject,
                                     t.AuditEvent.subject.startswith(subject + "/",
                                                                     autoescape=True)))
         if wanted.dataset is not None:
-            subject = f"dataset/{wanted.dataset}"
+            subject = dataset_id(wanted.dataset)
             query = query.where(or_(t.AuditEvent.subject == subject,
                                     t.AuditEvent.subject.endswith(
                                         f"/evaluation/{wanted.dataset}", autoescape=True)))

@@ -32,7 +32,7 @@ def _ids(keys: Iterable[NodeKey], kind: str) -> list[int]:
 
 
 def _rows(session: Session, statement_for, ids: list[int]):
-    for chunk in walks._chunks(ids):
+    for chunk in walks.id_chunks(ids):
         yield from session.execute(statement_for(chunk)).all()
 
 

@@ -28,10 +28,10 @@ class KeyRepository:
             select(t.SigningKeyRow).where(t.SigningKeyRow.key_id == key_id)
         ).scalar_one_or_none()
 
-    def add(self, key_id: str, public_key_pem: str, created_at: datetime,
+    def add(self, key_id: str, public_key_pem: str, at: datetime,
             algorithm: str = "ed25519") -> t.SigningKeyRow:
         row = t.SigningKeyRow(key_id=key_id, algorithm=algorithm, public_key_pem=public_key_pem,
-                              created_at=created_at)
+                              created_at=at)
         self._session.add(row)
         self._session.flush()
         return row

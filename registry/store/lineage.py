@@ -263,7 +263,7 @@ def walk(session: Session, seeds: Seeds, direction: Direction,
             for kind, ref, stage, depth in rows]
 
 
-def _chunks(values: Iterable[int]) -> Iterator[list[int]]:
+def id_chunks(values: Iterable[int]) -> Iterator[list[int]]:
     ordered = sorted(set(values))
     for start in range(0, len(ordered), CHUNK):
         yield ordered[start:start + CHUNK]
@@ -276,7 +276,7 @@ def links_among(session: Session, keys: Iterable[NodeKey]) -> list[Link]:
     versions = {k.ref for k in keys if k.kind == "version"}
     stages = {(k.ref, k.stage) for k in keys if k.kind == "stage"}
     links: set[Link] = set()
-    for chunk in _chunks(datasets):
+    for chunk in id_chunks(datasets):
         for child, parent in session.execute(
                 select(t.DatasetParent.child_id, t.DatasetParent.parent_id)
                 .where(t.DatasetParent.child_id.in_(chunk))):
@@ -284,7 +284,7 @@ def links_among(session: Session, keys: Iterable[NodeKey]) -> list[Link]:
                 links.add(Link(NodeKey("dataset", child), NodeKey("dataset", parent),
                                "derived-from"))
     number_of: dict[int, tuple[int, int, int | None]] = {}
-    for chunk in _chunks(versions):
+    for chunk in id_chunks(versions):
         for version, dataset, relation in session.execute(
                 select(t.VersionDataset.version_id, t.VersionDataset.dataset_id,
                        t.VersionDataset.relation).where(t.VersionDataset.version_id.in_(chunk))):
@@ -335,14 +335,14 @@ class NodeFacts:
 def facts_of(session: Session, keys: Iterable[NodeKey]) -> dict[NodeKey, NodeFacts]:
     keys = set(keys)
     facts: dict[NodeKey, NodeFacts] = {}
-    for chunk in _chunks(k.ref for k in keys if k.kind == "dataset"):
+    for chunk in id_chunks(k.ref for k in keys if k.kind == "dataset"):
         for row in session.execute(select(t.Dataset).where(t.Dataset.id.in_(chunk))).scalars():
             key = NodeKey("dataset", row.id)
             facts[key] = NodeFacts(key, name=row.name, recalled=row.recalled_at is not None,
                                    created_at=utc_iso(row.created_at),
                                    created_by=row.created_by,
                                    recall_reason=row.recall_reason or "")
-    for chunk in _chunks(k.ref for k in keys if k.kind == "version"):
+    for chunk in id_chunks(k.ref for k in keys if k.kind == "version"):
         for version, model in session.execute(
                 select(t.Version, t.Model.name).join(t.Model, t.Model.id == t.Version.model_id)
                 .where(t.Version.id.in_(chunk))):
@@ -351,7 +351,7 @@ def facts_of(session: Session, keys: Iterable[NodeKey]) -> dict[NodeKey, NodeFac
                                    created_at=utc_iso(version.created_at),
                                    created_by=version.created_by)
     stage_keys = {k for k in keys if k.kind == "stage"}
-    for chunk in _chunks(k.ref for k in stage_keys):
+    for chunk in id_chunks(k.ref for k in stage_keys):
         names = dict(session.execute(select(t.Model.id, t.Model.name)
                                      .where(t.Model.id.in_(chunk))).all())
         current = set(session.execute(

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session
 
+from registry.node_ids import dataset_id, model_id
 from registry.store import lineage as walks
 from registry.store import tables as t
 
@@ -32,26 +33,9 @@ class PageReads:
 
     # --- models and versions -----------------------------------------------------------------
 
-    def models(self) -> list[t.Model]:
-        return list(self._session.execute(select(t.Model).order_by(t.Model.name)).scalars())
-
-    def model(self, name: str) -> t.Model | None:
-        return self._session.execute(
-            select(t.Model).where(t.Model.name == name)).scalar_one_or_none()
-
     def version_counts(self) -> dict[int, int]:
         return dict(self._session.execute(
             select(t.Version.model_id, func.count()).group_by(t.Version.model_id)).all())
-
-    def versions(self, model_id: int) -> list[t.Version]:
-        return list(self._session.execute(
-            select(t.Version).where(t.Version.model_id == model_id)
-            .order_by(t.Version.number)).scalars())
-
-    def version(self, model_id: int, number: int) -> t.Version | None:
-        return self._session.execute(
-            select(t.Version).where(t.Version.model_id == model_id,
-                                    t.Version.number == number)).scalar_one_or_none()
 
     def holdings(self, model_id: int | None = None) -> list[tuple[t.StageHolding, int]]:
         """Who holds which stage now, with the holder's version number, oldest first."""
@@ -87,13 +71,6 @@ class PageReads:
             select(t.Approval).where(t.Approval.version_id.in_(list(version_ids)))
             .order_by(t.Approval.created_at, t.Approval.id)).scalars())
 
-    def linked_datasets(self, version_id: int) -> list[tuple[t.Dataset, str]]:
-        return [(dataset, relation) for dataset, relation in self._session.execute(
-            select(t.Dataset, t.VersionDataset.relation)
-            .join(t.VersionDataset, t.VersionDataset.dataset_id == t.Dataset.id)
-            .where(t.VersionDataset.version_id == version_id)
-            .order_by(t.VersionDataset.relation, t.Dataset.name))]
-
     def evaluations(self, version_id: int) -> list[tuple[t.Evaluation, str]]:
         return [(row, name) for row, name in self._session.execute(
             select(t.Evaluation, t.Dataset.name)
@@ -102,24 +79,12 @@ class PageReads:
 
     # --- datasets ------------------------------------------------------------------------------
 
-    def datasets(self) -> list[t.Dataset]:
-        return list(self._session.execute(select(t.Dataset).order_by(t.Dataset.name)).scalars())
-
-    def dataset(self, name: str) -> t.Dataset | None:
-        return self._session.execute(
-            select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
-
     def dataset_names(self, ids: Iterable[int]) -> dict[int, str]:
         found: dict[int, str] = {}
-        for chunk in walks._chunks(ids):
+        for chunk in walks.id_chunks(ids):
             found.update(self._session.execute(
                 select(t.Dataset.id, t.Dataset.name).where(t.Dataset.id.in_(chunk))).all())
         return found
-
-    def parents(self, dataset_id: int) -> list[str]:
-        return list(self._session.execute(
-            select(t.Dataset.name).join(t.DatasetParent, t.DatasetParent.parent_id == t.Dataset.id)
-            .where(t.DatasetParent.child_id == dataset_id).order_by(t.Dataset.name)).scalars())
 
     def children(self, dataset_id: int) -> list[str]:
         return list(self._session.execute(
@@ -140,7 +105,7 @@ class PageReads:
         up = walks.walk(self._session, walks.seeds_for(walks.NodeKey("dataset", dataset_id)), "up")
         ids = [r.key.ref for r in up if r.key.kind == "dataset" and r.key.ref != dataset_id]
         names: list[str] = []
-        for chunk in walks._chunks(ids):
+        for chunk in walks.id_chunks(ids):
             names += self._session.execute(
                 select(t.Dataset.name).where(t.Dataset.id.in_(chunk),
                                              t.Dataset.recalled_at.is_not(None))).scalars()
@@ -157,11 +122,11 @@ class PageReads:
         """One page of events, newest first, and how many match in all."""
         query = select(t.AuditEvent)
         if chosen.model:
-            query = query.where(or_(t.AuditEvent.subject == f"model/{chosen.model}",
-                                    t.AuditEvent.subject.startswith(f"model/{chosen.model}/",
+            query = query.where(or_(t.AuditEvent.subject == model_id(chosen.model),
+                                    t.AuditEvent.subject.startswith(model_id(chosen.model) + "/",
                                                                     autoescape=True)))
         if chosen.dataset:
-            query = query.where(or_(t.AuditEvent.subject == f"dataset/{chosen.dataset}",
+            query = query.where(or_(t.AuditEvent.subject == dataset_id(chosen.dataset),
                                     t.AuditEvent.subject.endswith(f"/evaluation/{chosen.dataset}",
                                                                   autoescape=True)))
         if chosen.person:

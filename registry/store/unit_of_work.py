@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 from collections.abc import Iterator
+from contextlib import AbstractContextManager
 from datetime import datetime
 from types import TracebackType
 from typing import Any, Literal
@@ -26,11 +27,15 @@ from registry.store.audit_repository import AuditEventRepository
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.checkpoint_repository import CheckpointRepository
 from registry.store.consumer_repository import ConsumerRepository
+from registry.store.dataset_repository import DatasetRepository
 from registry.store.dataset_sources_repository import DatasetSourceRepository
 from registry.store.document_repository import DocumentRepository
 from registry.store.evaluation_repository import EvaluationRepository
 from registry.store.feed_repository import FeedRepository
+from registry.store.integrity_reads import IntegrityReads
 from registry.store.keys_repository import KeyRepository
+from registry.store.lineage_repository import LineageRepository
+from registry.store.model_repository import ModelRepository
 from registry.store.name_repository import NameRepository
 from registry.store.page_reads import PageReads
 from registry.store.release_repository import ReleaseRepository
@@ -38,6 +43,8 @@ from registry.store.role_repository import RoleRepository
 from registry.store.row_capture import RowCapture
 from registry.store.row_digests import RowReader
 from registry.store.serving_repository import ServingRepository
+from registry.store.stage_repository import StageRepository
+from registry.store.table_copy import TableCopy
 from registry.store.token_repository import TokenRepository
 
 
@@ -152,6 +159,12 @@ class UnitOfWork:
         self.blobs: BlobStore
         self.audit: AuditLog
         self.dataset_sources: DatasetSourceRepository
+        self.models: ModelRepository
+        self.stages: StageRepository
+        self.datasets: DatasetRepository
+        self.lineage: LineageRepository
+        self.integrity: IntegrityReads
+        self.table_copy: TableCopy
         self.roles: RoleRepository
         self.feeds: FeedRepository
         self.consumers: ConsumerRepository
@@ -185,6 +198,12 @@ class UnitOfWork:
 
     def _attach_repositories(self) -> None:
         """The repositories of this transaction, one attribute per area (`uow.roles` ...)."""
+        self.models = ModelRepository(self.session)
+        self.stages = StageRepository(self.session)
+        self.datasets = DatasetRepository(self.session)
+        self.lineage = LineageRepository(self.session)
+        self.integrity = IntegrityReads(self.session)  # whole-catalogue reads of `audit verify`
+        self.table_copy = TableCopy(self.session, self.catalogue.dialect)  # export and import
         self.roles = RoleRepository(self.session)
         self.feeds = FeedRepository(self.session)
         self.consumers = ConsumerRepository(self.session)
@@ -213,6 +232,10 @@ class UnitOfWork:
             # primary key and gets a conflict it can retry.
             self.session.add(t.AuditHead(id=1, sequence=0, hash=GENESIS_HASH))
             self.session.flush()
+
+    def savepoint(self) -> AbstractContextManager[Any]:
+        """A nested transaction: a failure inside it rolls back to here, not the whole unit."""
+        return self.session.begin_nested()
 
     def commit(self) -> None:
         from registry.store.sealing import seal_transaction

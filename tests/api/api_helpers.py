@@ -12,7 +12,7 @@ from pathlib import Path
 
 from werkzeug.serving import make_server
 
-from registry.api import create_api_app
+from registry.app import create_app
 from registry.service import tokens
 from registry.service.actors import Actor
 from registry.store.catalogue import open_catalogue
@@ -97,7 +97,7 @@ def served(app) -> Iterator[str]:
 
 
 def open_api(url: str, secrets: dict[str, str], *, config: dict | None = None) -> Api:
-    app = create_api_app(url, config={"TESTING": True, **(config or {})})
+    app = create_app(url, pages=False, config={"TESTING": True, **(config or {})})
     return Api(url=url, client=app.test_client(), secrets=secrets)
 
 

@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from registry.api import create_api_app
+from registry.app import create_app
 
 pytestmark = pytest.mark.filterwarnings("ignore::DeprecationWarning")
 
@@ -23,7 +23,7 @@ def _flask_operations(app) -> set[tuple[str, str]]:
 
 
 def test_every_route_is_in_the_openapi_document_and_nothing_else(tmp_path):
-    app = create_api_app(f"sqlite:///{tmp_path / 'unused.db'}")
+    app = create_app(f"sqlite:///{tmp_path / 'unused.db'}", pages=False)
     document = app.test_client().get("/api/v1/openapi.json").json
     assert document["openapi"] == "3.1.0"
     documented = {(path, method) for path, item in document["paths"].items()
@@ -34,14 +34,14 @@ def test_every_route_is_in_the_openapi_document_and_nothing_else(tmp_path):
 def test_the_openapi_document_is_valid_openapi_3_1(tmp_path):
     from schemathesis.openapi import from_dict
 
-    app = create_api_app(f"sqlite:///{tmp_path / 'unused.db'}")
+    app = create_app(f"sqlite:///{tmp_path / 'unused.db'}", pages=False)
     loaded = from_dict(app.test_client().get("/api/v1/openapi.json").json)
     operations = [result.ok() for result in loaded.get_all_operations()]
     assert len(operations) == len(_flask_operations(app))
 
 
 def test_every_write_declares_a_role_and_problem_responses(tmp_path):
-    app = create_api_app(f"sqlite:///{tmp_path / 'unused.db'}")
+    app = create_app(f"sqlite:///{tmp_path / 'unused.db'}", pages=False)
     document = app.test_client().get("/api/v1/openapi.json").json
     for path, item in document["paths"].items():
         for method, operation in item.items():
@@ -99,7 +99,7 @@ def admin_client(tmp_path):
     assert Cli(url)("init").exit_code == 0
     set_up_people(Cli(url))
     secret = make_tokens(url)["admin"]
-    client = create_api_app(url).test_client()
+    client = create_app(url, pages=False).test_client()
     client.environ_base["HTTP_AUTHORIZATION"] = f"Bearer {secret}"
     return client
 

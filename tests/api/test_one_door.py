@@ -22,7 +22,7 @@ from click.testing import CliRunner
 from sqlalchemy import create_engine, text
 from werkzeug.serving import make_server
 
-from registry.api import create_api_app
+from registry.app import create_app
 from registry.cli import main
 from registry.service import tokens
 from registry.service.actors import Actor
@@ -296,7 +296,7 @@ def test_every_door_gives_the_same_answer_for_every_write(empty_catalogue_url, t
     prepared = _prepare(url, tmp_path)
     ids = {"spare_token": prepared["spare_token"]}
     token = prepared["secrets"].get(role)
-    app = create_api_app(url, config={"TESTING": True})
+    app = create_app(url, config={"TESTING": True}, pages=False)
     client = app.test_client()
     server = make_server("127.0.0.1", 0, app, threaded=True)
     thread = threading.Thread(target=server.serve_forever, daemon=True)

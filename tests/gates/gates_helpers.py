@@ -14,10 +14,10 @@ from registry.gates import (Acknowledgement, Actor, Approval, ColumnCounts, Cont
 
 NOW = "2026-12-01T09:00:00Z"
 AUTHOR = "ines.okafor"
-INES = Actor("ines.okafor", ("publisher",))
-TOMAS = Actor("tomas.lindqvist", ("approver",))
-PRIYA = Actor("priya.raman", ("approver",))
-MARA = Actor("mara.kowalczyk", ("admin",))
+INES = Actor("ines.okafor", frozenset({"publisher"}))
+TOMAS = Actor("tomas.lindqvist", frozenset({"approver"}))
+PRIYA = Actor("priya.raman", frozenset({"approver"}))
+MARA = Actor("mara.kowalczyk", frozenset({"admin"}))
 EVALUATION_DIGEST = "sha256:evaluation-set-digest"
 DISTRICTS = ("NORTHGATE", "RIVERSIDE", "OLD_TOWN", "HILLCREST", "SALTMARSH")
 
@@ -110,7 +110,7 @@ def judge(gate: str, evidence: Evidence, *, waivers: tuple[Waiver, ...] = (),
 
 
 def waive(gate: str, reason: str = "reviewed by hand", actor: Actor = TOMAS) -> tuple[Waiver]:
-    return (Waiver(gate=gate, approver=actor.user, reason=reason),)
+    return (Waiver(gate=gate, approver=actor.name, reason=reason),)
 
 
 def without_incumbent(evidence: Evidence) -> Evidence:
@@ -120,5 +120,5 @@ def without_incumbent(evidence: Evidence) -> Evidence:
 
 
 def acknowledgement(field: str, actor: Actor = PRIYA) -> Acknowledgement:
-    return Acknowledgement(field=field, user=actor.user, roles=actor.roles,
+    return Acknowledgement(field=field, user=actor.name, roles=tuple(sorted(actor.roles)),
                            at="2026-12-01T08:00:00Z", note="checked against the data dictionary")

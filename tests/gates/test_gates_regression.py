@@ -9,7 +9,6 @@ from hypothesis import strategies as st
 
 from gates_helpers import (DISTRICTS, comparison, district_slice, judge, passing_evidence, waive,
                            without_incumbent)
-from registry.gates import holm_adjust
 
 
 def test_no_regression_passes_when_the_harmful_bound_stays_within_the_margin():
@@ -90,25 +89,6 @@ def test_failed_no_regression_can_be_waived():
 
 
 # Holm-Bonferroni
-
-def test_holm_adjustment_matches_the_worked_procedure():
-    # Holm (1979): sort ascending, multiply the i-th smallest of m by (m - i + 1), take running
-    # maxima, cap at 1. Sorted 0.005, 0.01, 0.03, 0.04 -> 0.02, 0.03, 0.06, max(0.04, 0.06).
-    assert holm_adjust([0.01, 0.04, 0.03, 0.005]) == pytest.approx([0.03, 0.06, 0.06, 0.02])
-    assert holm_adjust([0.5, 0.9]) == pytest.approx([1.0, 1.0])
-    assert holm_adjust([]) == ()
-
-
-@settings(max_examples=60, deadline=None)
-@given(st.lists(st.floats(min_value=0, max_value=1), min_size=1, max_size=12))
-def test_holm_adjusted_values_bound_the_raw_ones_and_keep_their_order(p_values):
-    adjusted = holm_adjust(p_values)
-    m = len(p_values)
-    for raw, value in zip(p_values, adjusted):
-        assert raw <= value + 1e-15 and value <= min(1.0, m * raw) + 1e-15
-    order = sorted(range(m), key=lambda i: p_values[i])
-    assert all(adjusted[a] <= adjusted[b] for a, b in zip(order, order[1:]))
-
 
 # slice-guard
 

@@ -13,7 +13,7 @@ import pytest
 from sqlalchemy import text
 from werkzeug.serving import make_server
 
-from registry.api import create_api_app
+from registry.app import create_app
 from registry.cli.remote import ApiClient
 from registry.errors import LockkeeperError
 from tests.api.api_helpers import make_tokens
@@ -28,7 +28,7 @@ COMMIT_LAG_ALLOWED = 2.0
 
 def _serve(url: str):
     logging.getLogger("werkzeug").setLevel(logging.WARNING)  # one line per request otherwise
-    server = make_server("127.0.0.1", 0, create_api_app(url), threaded=True)
+    server = make_server("127.0.0.1", 0, create_app(url, pages=False), threaded=True)
     thread = threading.Thread(target=server.serve_forever, daemon=True)
     thread.start()
     return server, f"http://127.0.0.1:{server.server_port}"

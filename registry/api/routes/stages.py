@@ -79,7 +79,7 @@ def retire_version(model: str, version: int):
 @route("/models/<model>/stages/<stage>/rollback", "POST", action="stage.rollback",
        summary="Give an exclusive stage back to the version its holder displaced", tag="stages",
        body=ROLLBACK_BODY, body_required=False)
-def roll_back_stage(model: str, stage: str):
+def rollback_stage(model: str, stage: str):
     body = json_body(ROLLBACK_BODY, required=False)
     outcome = stages.rollback(catalogue(), path_name(model, "model"), path_name(stage, "stage"),
                               g.actor, _waivers(body))

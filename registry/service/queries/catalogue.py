@@ -69,9 +69,9 @@ def catalogue_page(catalogue: Catalogue, name: str = "", model_state: str = "",
         flagged = {k.ref for k in lineage_service.flagged_keys(uow) if k.kind == "dataset"}
         counts = uow.pages.version_counts()
         models = []
-        all_models = uow.pages.models()
+        all_models = uow.models.all()
         for model in all_models:
-            versions = {v.number: v for v in uow.pages.versions(model.id)}
+            versions = {v.number: v for v in uow.models.versions(model.id)}
             recalled = {}
             holders = []
             for holding, number in uow.pages.holdings(model.id):
@@ -85,7 +85,7 @@ def catalogue_page(catalogue: Catalogue, name: str = "", model_state: str = "",
                 groups.setdefault(holder.stage, []).append(holder)
             models.append(ModelLine(model.name, model.description, counts.get(model.id, 0),
                                     tuple((stage, tuple(g)) for stage, g in groups.items())))
-        all_datasets = uow.pages.datasets()
+        all_datasets = uow.datasets.all()
         datasets = [DatasetLine(d.name, d.role, d.rows,
                                 "recalled" if d.recalled_at is not None
                                 else "flagged" if d.id in flagged else "in-use")

@@ -141,13 +141,13 @@ def dataset_page(catalogue: Catalogue, name: str, against: str | None = None) ->
     if against is not None and against == name:
         raise UserError("compare a dataset with another one, not with itself", place="against")
     with UnitOfWork(catalogue, write=False) as uow:
-        row = uow.pages.dataset(name)
+        row = uow.datasets.named(name)
         if row is None:
             raise NotFound(f"unknown dataset {name!r}", place="dataset")
         stored = loads(uow.pages.blob(row.fingerprint_digest))
         drift = None
         if against is not None:
-            other = uow.pages.dataset(against)
+            other = uow.datasets.named(against)
             if other is None:
                 raise NotFound(f"unknown dataset {against!r}", place="against")
             drift = _drift(against, loads(uow.pages.blob(other.fingerprint_digest)), stored)
@@ -160,9 +160,10 @@ def dataset_page(catalogue: Catalogue, name: str, against: str | None = None) ->
             recalled_at=moment(row.recalled_at), recall_reason=row.recall_reason or "",
             recalled_by=row.recalled_by or "",
             flagged_by=tuple(uow.pages.recalled_upstream_datasets(row.id)),
-            parents=tuple(uow.pages.parents(row.id)), children=tuple(uow.pages.children(row.id)),
+            parents=tuple(uow.datasets.parent_names(row.id)),
+            children=tuple(uow.pages.children(row.id)),
             linked_versions=tuple(uow.pages.versions_using(row.id)),
             downstream_versions=downstream, columns=columns, profile_present=present,
             schema_tree=schema_tree(loads(row.schema_json)),
-            others=tuple(d.name for d in uow.pages.datasets() if d.id != row.id), drift=drift,
+            others=tuple(d.name for d in uow.datasets.all() if d.id != row.id), drift=drift,
             sources=tuple(uow.dataset_sources.of(row.id)))

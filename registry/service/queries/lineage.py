@@ -22,7 +22,7 @@ def lineage_page(catalogue: Catalogue, node: str, direction: str, depth: int | N
         held: dict[str, list[str]] = {}
         models = {n.model for n in graph.nodes if n.kind == "version"}
         for model in sorted(models):
-            line = uow.pages.model(model)
+            line = uow.models.named(model)
             for holding, number in uow.pages.holdings(line.id) if line else ():
                 held.setdefault(version_id(model, number), []).append(holding.stage)
         return LineagePage(graph, {k: tuple(v) for k, v in held.items()})

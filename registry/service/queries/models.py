@@ -156,11 +156,11 @@ def _timeline(events: list[tuple[t.StageEvent, int]], reports: list[GateReportVi
 
 def model_page(catalogue: Catalogue, name: str) -> ModelPage:
     with UnitOfWork(catalogue, write=False) as uow:
-        model = uow.pages.model(name)
+        model = uow.models.named(name)
         if model is None:
             raise NotFound(f"unknown model {name!r}", place="model")
         policy = policy_of(model)
-        versions = uow.pages.versions(model.id)
+        versions = uow.models.versions(model.id)
         number_of = {v.id: v.number for v in versions}
         holdings = uow.pages.holdings(model.id)
         held: dict[int, list[str]] = {}

@@ -12,6 +12,8 @@ import json
 from dataclasses import dataclass, field
 from typing import Any
 
+from registry.schema.labels import type_label
+
 MAX_TREE_DEPTH = 12
 
 
@@ -22,26 +24,6 @@ class SchemaNode:
     doc: str = ""
     details: tuple[str, ...] = ()
     children: tuple[SchemaNode, ...] = ()
-
-
-def _type_label(schema: Any) -> str:
-    if isinstance(schema, str):
-        return schema
-    if isinstance(schema, list):
-        return " | ".join(_type_label(s) for s in schema)
-    if isinstance(schema, dict):
-        kind = schema.get("type")
-        logical = schema.get("logicalType")
-        if kind in ("record", "error", "enum", "fixed"):
-            label = f"{kind} {schema.get('name', '?')}"
-        elif kind == "array":
-            label = f"array of {_type_label(schema.get('items'))}"
-        elif kind == "map":
-            label = f"map of {_type_label(schema.get('values'))}"
-        else:
-            label = _type_label(kind) if kind is not None else "?"
-        return f"{label} ({logical})" if isinstance(logical, str) else label
-    return json.dumps(schema)[:80]
 
 
 def _children(schema: Any, depth: int) -> tuple[SchemaNode, ...]:
@@ -83,7 +65,7 @@ def field_node(definition: dict, depth: int = 0) -> SchemaNode:
     if isinstance(definition.get("aliases"), list):
         details.append("aliases: " + ", ".join(str(a) for a in definition["aliases"]))
     return SchemaNode(name=str(definition.get("name", "?")),
-                      type_label=_type_label(definition.get("type")),
+                      type_label=type_label(definition.get("type")),
                       doc=str(definition.get("doc", "")), details=tuple(details),
                       children=_children(definition.get("type"), depth + 1))
 
@@ -94,7 +76,7 @@ def schema_tree(schema: Any) -> SchemaNode | None:
     name = schema.get("name", "") if isinstance(schema, dict) else ""
     namespace = schema.get("namespace", "") if isinstance(schema, dict) else ""
     full = f"{namespace}.{name}" if namespace and name else str(name)
-    return SchemaNode(name=full or "schema", type_label=_type_label(schema),
+    return SchemaNode(name=full or "schema", type_label=type_label(schema),
                       doc=str(schema.get("doc", "")) if isinstance(schema, dict) else "",
                       details=_details(schema), children=_children(schema, 0))
 
@@ -108,7 +90,7 @@ def leaf_types(schema: Any, prefix: str = "", depth: int = 0) -> dict[str, str]:
         if not isinstance(definition, dict):
             continue
         path = f"{prefix}/{definition.get('name', '?')}"
-        found[path] = _type_label(definition.get("type"))
+        found[path] = type_label(definition.get("type"))
         if isinstance(definition.get("type"), dict):
             found.update(leaf_types(definition["type"], path, depth + 1))
     return found

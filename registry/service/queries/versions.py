@@ -152,10 +152,10 @@ def version_page(catalogue: Catalogue, model_name: str, number_: int) -> Version
     from registry.service.gatekeeping import policy_of
 
     with UnitOfWork(catalogue, write=False) as uow:
-        model = uow.pages.model(model_name)
+        model = uow.models.named(model_name)
         if model is None:
             raise NotFound(f"unknown model {model_name!r}", place="model")
-        version = uow.pages.version(model.id, number_)
+        version = uow.models.version(model.id, number_)
         if version is None:
             raise NotFound(f"model {model.name!r} has no version {number_}", place="version")
         holdings = uow.pages.holdings(model.id)
@@ -165,7 +165,7 @@ def version_page(catalogue: Catalogue, model_name: str, number_: int) -> Version
         reports = [report_view(row, model.name, n)
                    for row, n in uow.pages.gate_reports(model.id, version.id)]
         datasets = tuple(LinkedDataset(d.name, relation, d.recalled_at is not None)
-                         for d, relation in uow.pages.linked_datasets(version.id))
+                         for relation, d in uow.datasets.linked_to_version(version.id))
         evaluations = tuple(evaluation_view(name, row)
                             for row, name in uow.pages.evaluations(version.id))
         evaluated = {e.dataset for e in evaluations}
@@ -188,6 +188,6 @@ def version_page(catalogue: Catalogue, model_name: str, number_: int) -> Version
             recalled_sources=recalled_sources(uow, version), reports=tuple(reports),
             approvals=tuple(approval_view(a, version.number)
                             for a in uow.pages.approvals([version.id])),
-            other_versions=tuple(v.number for v in uow.pages.versions(model.id)
+            other_versions=tuple(v.number for v in uow.models.versions(model.id)
                                  if v.number != version.number),
             live_holder=live[-1] if live else None)
