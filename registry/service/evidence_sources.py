@@ -120,12 +120,12 @@ def acknowledgements(uow: UnitOfWork, version: t.Version, stage: str,
 
 
 def _definitions(version: t.Version):
-    from registry.features import parse_feature_file
+    from registry.features import definitions_from_json
 
     if not version.features_json:
         return None
-    return parse_feature_file(json.loads(version.features_json)["toml"],
-                              origin=f"version {version.number} features")
+    return definitions_from_json(version.features_json,
+                                 origin=f"version {version.number} features")
 
 
 def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.FeatureChange, ...]:
