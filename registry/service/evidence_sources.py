@@ -210,6 +210,7 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
     """Paired comparisons of candidate and incumbent on every evaluation dataset both were
     evaluated on (same content digest), overall and per slice, with the stored predictions."""
     from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
+    from registry.evaluation.record import read_evaluation_record
     from registry.service.evaluations import evaluations_of, stored_predictions
 
     settings = _quality_settings(specs)
@@ -241,7 +242,7 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
                 incumbent_value=report.baseline.metrics.get(metric), rows=report.matching.matched))
         if "slice-guard" in settings:
             metric = settings["slice-guard"]["metric"]
-            for column in json.loads(evaluation.metrics_json).get("slice_columns", []):
+            for column in read_evaluation_record(evaluation.metrics_json).slice_columns:
                 if column not in base.extra_columns:
                     continue
                 per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)

@@ -15,6 +15,7 @@ from sqlalchemy import select
 
 from registry.canonical_json import digest_of
 from registry.errors import UserError
+from registry.evaluation.record import UnreadableEvaluationRecord, read_evaluation_record
 from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
@@ -315,9 +316,10 @@ def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
         place = f"model/{model_name}/version/{number}/evaluation/{dataset_name}"
         recorded = registered.get(place)
         try:
-            metrics = json.loads(evaluation.metrics_json)["metrics"]
-        except (json.JSONDecodeError, KeyError, TypeError):
-            findings.append(Finding(place, "its stored metrics are not readable JSON"))
+            metrics = read_evaluation_record(evaluation.metrics_json).metrics
+        except UnreadableEvaluationRecord:
+            findings.append(Finding(place, "its stored metrics are not a readable evaluation "
+                                           "record"))
             metrics = None
         if recorded is None:
             findings.append(Finding(place, "no evaluation event in the audit log"))
