@@ -39,6 +39,7 @@ from registry.store.row_capture import RowCapture
 from registry.store.row_digests import RowReader
 from registry.store.serving_repository import ServingRepository
 from registry.store.token_repository import TokenRepository
+from registry.store.version_repository import VersionRepository
 
 
 def utc_now() -> datetime:
@@ -159,6 +160,7 @@ class UnitOfWork:
         self.documents: DocumentRepository
         self.tokens: TokenRepository
         self.evaluations: EvaluationRepository
+        self.versions: VersionRepository
         self.audit_events: AuditEventRepository
         self.names: NameRepository
         self.keys: KeyRepository
@@ -192,6 +194,7 @@ class UnitOfWork:
         self.documents = DocumentRepository(self.session)
         self.tokens = TokenRepository(self.session)
         self.evaluations = EvaluationRepository(self.session)
+        self.versions = VersionRepository(self.session)
         self.audit_events = AuditEventRepository(self.session)
         self.names = NameRepository(self.session)
         self.keys = KeyRepository(self.session)
