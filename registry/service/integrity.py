@@ -19,6 +19,7 @@ from registry.evaluation.record import UnreadableEvaluationRecord, read_evaluati
 from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
+from registry.service.shape_conversion import ACTION as CONVERT_ACTION
 from registry.signing.checkpoints import SignedCheckpoint, from_document, is_signed_by
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, AuditRecord, verify_chain
@@ -93,6 +94,8 @@ def _walk_chain(uow: UnitOfWork, wanted: set[int]) -> _ChainWalk:
                 walk.hashes[row.sequence] = row.hash
             if row.action in ("version.register", "dataset.add", "evaluation.add"):
                 walk.registered[row.subject] = details
+            elif row.action == CONVERT_ACTION:
+                _take_conversion(walk.registered, details)
             elif (key := contract_record_key(row.subject, row.action, details)) is not None:
                 walk.registered[key] = details
             walk.events += 1
@@ -105,6 +108,17 @@ def _walk_chain(uow: UnitOfWork, wanted: set[int]) -> _ChainWalk:
     walk.findings += [Finding(f"audit event {sequence}", problem)
                       for sequence, problem in walk.replayed.problems]
     return walk
+
+
+def _take_conversion(registered: dict[str, dict], details: dict) -> None:
+    """A stored-shape conversion (registry/service/shape_conversion.py) names, per registration
+    it rewrote, the digests that now stand for it in place of those its event recorded."""
+    converted = details.get("converted")
+    if not isinstance(converted, dict):
+        return
+    for subject, digests in converted.items():
+        if subject in registered and isinstance(digests, dict):
+            registered[subject] = {**registered[subject], **digests}
 
 
 def _row_findings(uow: UnitOfWork, walk: _ChainWalk) -> tuple[int, list[Finding]]:

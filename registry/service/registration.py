@@ -62,6 +62,19 @@ def registration_record(model: str, document_digest: str, document_kind: str,
     return record
 
 
+def stored_registration_digest(uow: UnitOfWork, version: t.Version, model: str) -> str:
+    """A stored version's registration digest recomputed from its row, its lineage links and
+    its declared feed, as `audit verify` recomputes it."""
+    linked = uow.versions.lineage_names(version.id)
+    feed = uow.feeds.declared_by_version(version)
+    return digest_of(registration_record(
+        model, version.document_digest, version.document_kind, version.input_schema_json,
+        version.output_schema_json, version.features_json, version.description,
+        version.code_revision, version.author, linked.get("trained-on", []),
+        linked.get("evaluated-on", []), version.parent_number,
+        feed=feed.name if feed is not None else None))
+
+
 def _lineage_datasets(uow: UnitOfWork, names: tuple[str, ...], relation: str) -> list[t.Dataset]:
     found = []
     for name in names:

@@ -65,6 +65,22 @@ class BlobStore:
             raise NotFound(f"no stored content with digest {digest}")
         return blob.content
 
+    def is_referenced(self, digest: str) -> bool:
+        """Whether any row points at the blob (a version's document, a dataset's fingerprint,
+        an evaluation's predictions)."""
+        pointers = (t.Version.stored_blob_digest, t.Dataset.fingerprint_digest,
+                    t.Evaluation.predictions_digest)
+        return any(self._session.execute(select(column).where(column == digest).limit(1)).first()
+                   is not None for column in pointers)
+
+    def remove(self, digest: str) -> None:
+        """Drop a blob nothing points at (blobs are self-certifying, so no row digest covers
+        them; the foreign keys refuse the removal of one still in use)."""
+        blob = self._session.get(t.Blob, digest)
+        if blob is not None:
+            self._session.delete(blob)
+            self._session.flush()
+
 
 class AuditLog:
     """Appends hash-chained events; needs the write lock the unit of work holds."""
