@@ -15,11 +15,12 @@ import json
 import shutil
 import sqlite3
 from collections.abc import Iterator
+from datetime import UTC, datetime
 from pathlib import Path
 
 import pyarrow as pa
 import pytest
-from sqlalchemy import text
+from sqlalchemy import Engine, select, text
 
 from registry.app import create_app
 from tests.catalogue.upgrade_reads import MODEL, NIGHT_FLOW, READS, TELEMETRY, key
@@ -33,31 +34,43 @@ SEED = Path(__file__).resolve().parents[2] / "seed_data"
 
 def _at_rev0007(backend: str, folder: Path) -> Iterator[str]:
     """The fixture on the backend asked for, still at revision 0007: the file itself on SQLite;
-    on PostgreSQL, the fixture exported and imported by the code's own backup at 0007."""
+    on PostgreSQL, a schema made by the revisions up to 0007 holding the fixture's rows."""
+    target = folder / "catalogue.db"
+    shutil.copy(FIXTURE, target)
     if backend == "sqlite":
-        target = folder / "catalogue.db"
-        shutil.copy(FIXTURE, target)
         yield f"sqlite:///{target}"
         return
-    from registry.service.backup import export_catalogue, import_catalogue, read_export
     from registry.store import migrate
     from registry.store.catalogue import open_catalogue
 
-    source_file = folder / "source.db"
-    shutil.copy(FIXTURE, source_file)
-    source = open_catalogue(f"sqlite:///{source_file}")
-    try:
-        export_catalogue(source, folder / "export", "0007")
-    finally:
-        source.close()
     with fresh_catalogue_url(backend, folder) as url:
-        target = open_catalogue(url, must_exist=False)
+        source, copy = open_catalogue(f"sqlite:///{target}"), open_catalogue(url, must_exist=False)
         try:
-            migrate.upgrade(target, "0007")
-            import_catalogue(target, read_export(folder / "export", "0007"))
+            migrate.upgrade(copy, "0007")
+            _copy_rows(source.engine, copy.engine)
         finally:
-            target.close()
+            source.close()
+            copy.close()
         yield url
+
+
+def _copy_rows(source: Engine, target: Engine) -> None:
+    """Every row as stored, parents first; SQLite hands back times without their zone, which
+    the catalogue always wrote in UTC. Then each id sequence continues after the copied ids."""
+    from registry.store import tables as t
+
+    with source.connect() as reading, target.begin() as writing:
+        for table in t.Base.metadata.sorted_tables:
+            rows = [{name: (value.replace(tzinfo=UTC) if isinstance(value, datetime)
+                            and value.tzinfo is None else value)
+                     for name, value in row.items()}
+                    for row in reading.execute(select(table)).mappings()]
+            if rows:
+                writing.execute(table.insert(), rows)
+            if "id" in table.columns and table.columns["id"].autoincrement in (True, "auto"):
+                writing.execute(text(
+                    f"SELECT setval(pg_get_serial_sequence('{table.name}', 'id'), "
+                    f"coalesce((SELECT max(id) FROM {table.name}), 0) + 1, false)"))
 
 
 @pytest.fixture(scope="module", params=BACKENDS)
