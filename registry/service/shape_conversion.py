@@ -20,6 +20,7 @@ import zlib
 from dataclasses import dataclass, field
 from typing import Any
 
+from registry.errors import UserError
 from registry.evaluation import Predictions
 from registry.evaluation.record import EvaluationRecord, read_evaluation_record
 from registry.features import definitions_json, parse_feature_file
@@ -32,8 +33,10 @@ REVISION = "0008"
 ARROW_MAGIC = b"ARROW1"
 
 
-class UnconvertibleRow(RuntimeError):
+class UnconvertibleRow(UserError):
     """A stored value in neither the old shape nor the new one: the upgrade stops, unchanged."""
+
+    kind = "unconvertible-row"
 
 
 @dataclass
@@ -83,7 +86,8 @@ def _convert_features(uow: UnitOfWork, conversion: Conversion) -> None:
             continue  # already the JSON array
         subject = f"model/{model}/version/{version.number}"
         if not isinstance(stored, dict) or not isinstance(stored.get("toml"), str):
-            raise UnconvertibleRow(f"{subject}: its features are in no shape this upgrade knows")
+            raise UnconvertibleRow("its features are in no shape this upgrade knows; nothing "
+                                   "was changed", place=subject)
         definitions = parse_feature_file(stored["toml"], origin=f"{subject} features")
         version.features_json = definitions_json(definitions)
         version.registration_digest = stored_registration_digest(uow, version, model)
@@ -122,7 +126,8 @@ def _record(text: str, subject: str) -> EvaluationRecord:
     the others lacked `threshold` and `calibration`, which the one shape gives as null and []."""
     document = _json(text, f"{subject} metrics")
     if not isinstance(document, dict):
-        raise UnconvertibleRow(f"{subject}: its metrics are not a JSON object")
+        raise UnconvertibleRow("its metrics are not a JSON object; nothing was changed",
+                               place=subject)
     document.setdefault("threshold", None)
     document.setdefault("calibration", [])
     document.setdefault("slice_columns", [])
@@ -136,8 +141,8 @@ def _old_predictions(content: bytes, subject: str) -> Predictions:
     try:
         columns = json.loads(zlib.decompress(content).decode("utf-8"))
     except (zlib.error, UnicodeDecodeError, json.JSONDecodeError) as error:
-        raise UnconvertibleRow(f"{subject}: its predictions are in no shape this upgrade "
-                               f"knows ({error})") from None
+        raise UnconvertibleRow(f"its predictions are in no shape this upgrade knows ({error}); "
+                               "nothing was changed", place=subject) from None
     return Predictions.from_columns(columns)
 
 
@@ -145,7 +150,7 @@ def _json(text: str, place: str) -> Any:
     try:
         return json.loads(text)
     except json.JSONDecodeError as error:
-        raise UnconvertibleRow(f"{place}: not JSON ({error})") from None
+        raise UnconvertibleRow(f"not JSON ({error}); nothing was changed", place=place) from None
 
 
 def refuse_to_unconvert(catalogue: Catalogue) -> None:
@@ -156,4 +161,4 @@ def refuse_to_unconvert(catalogue: Catalogue) -> None:
             raise UnconvertibleRow(
                 "this catalogue holds feature definitions or evaluations in the shapes of "
                 "revision 0008, which older releases cannot read; restore an export taken "
-                "before the upgrade instead of downgrading")
+                "before the upgrade instead of downgrading", place="revision 0008")

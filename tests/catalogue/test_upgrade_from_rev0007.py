@@ -227,3 +227,55 @@ def test_a_change_to_a_converted_row_is_named(upgraded_copy, statement, place):
 def _json_any(url: str, *arguments: str):
     result = run_cli(["--db", url, *arguments, "--json"])
     return json.loads(result.stdout)
+
+
+def _revision_and_head(url: str) -> tuple[str | None, tuple]:
+    from registry.store import migrate
+    from registry.store.catalogue import open_catalogue
+
+    catalogue = open_catalogue(url)
+    try:
+        with catalogue.engine.connect() as connection:
+            head = tuple(connection.execute(text("SELECT sequence, hash FROM audit_head")).one())
+            features = tuple(connection.execute(text(
+                "SELECT features_json FROM versions ORDER BY id")).scalars())
+        return migrate.current_revision(catalogue), (head, features)
+    finally:
+        catalogue.close()
+
+
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_a_row_in_no_known_shape_stops_the_upgrade_and_changes_nothing(backend, tmp_path):
+    for url in _at_rev0007(backend, tmp_path):
+        from registry.store.catalogue import open_catalogue
+
+        catalogue = open_catalogue(url)
+        try:
+            with catalogue.engine.begin() as connection:
+                connection.execute(text(
+                    "UPDATE versions SET features_json = '{\"yaml\": \"x\"}' WHERE id = "
+                    "(SELECT max(id) FROM versions)"))
+        finally:
+            catalogue.close()
+        before = _revision_and_head(url)
+        result = run_cli(["--db", url, "init", "--json"])
+        assert result.exit_code == 2, result.output
+        error = json.loads(result.stdout)["error"]
+        assert error["kind"] == "unconvertible-row"
+        assert error["place"] == "model/night-flow-leak/version/1"
+        assert "nothing was changed" in error["message"]
+        assert _revision_and_head(url) == before and before[0] == "0007"
+
+
+def test_going_back_below_0008_is_refused_once_rows_were_converted(upgraded_copy):
+    from registry.errors import UserError
+    from registry.store import migrate
+    from registry.store.catalogue import open_catalogue
+
+    catalogue = open_catalogue(upgraded_copy)
+    try:
+        with pytest.raises(UserError, match="restore an export"):
+            migrate.downgrade(catalogue, "0007")
+        assert migrate.current_revision(catalogue) == "0008"
+    finally:
+        catalogue.close()
