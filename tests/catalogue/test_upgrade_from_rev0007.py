@@ -154,6 +154,15 @@ def test_the_same_predictions_sent_again_find_the_converted_evaluation(upgraded)
     assert again["created"] is False
 
 
+def test_registering_a_converted_version_again_finds_it(upgraded):
+    # The converted features give the registration digest a registration computes today.
+    folder = SEED / "brackwater"
+    again = _json(upgraded, "register", MODEL,
+                  str(folder / "documents" / "main-burst-risk-v3.pfa.json"),
+                  "--manifest", str(folder / "manifests" / "main-burst-risk-v3.toml"))
+    assert (again["version"], again["created"]) == (3, False)
+
+
 def test_a_second_init_converts_nothing(upgraded):
     head = _json(upgraded, "audit", "log", "--limit", "1")["events"][0]
     assert _json(upgraded, "init")["revision"] == "0008"
