@@ -32,6 +32,8 @@ TITLES = {
     "invalid-content": "The content parsed but is not acceptable",
     "invalid-schema": "The Avro schema is not valid",
     "features-contradict-schema": "The feature definitions contradict the input schema",
+    "unreadable-evaluation-record": "A stored evaluation is not an evaluation record",
+    "unconvertible-row": "A stored row is in no shape the upgrade knows",
     "dataset-file": "The dataset file cannot be read",
     "dataset-value": "A value in the dataset does not fit its schema",
     "dataset-columns": "The dataset's columns do not match its schema",

@@ -57,9 +57,9 @@ def init(as_json: bool) -> None:
     catalogue = open_catalogue(context.db_url, must_exist=False)
     try:
         before = migrate.current_revision(catalogue)
-        migrate.upgrade(catalogue)
+        covered = migrate.upgrade(catalogue, actor=context.user)
         after = migrate.current_revision(catalogue)
-        covered = cover_rows_written_before_coverage(catalogue, context.user)
+        covered += cover_rows_written_before_coverage(catalogue, context.user)
     finally:
         catalogue.close()
     emit({"catalogue": describe(catalogue.url), "revision_before": before, "revision": after,

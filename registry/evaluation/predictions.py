@@ -10,9 +10,7 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 import math
-import zlib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -90,16 +88,19 @@ class Predictions:
         return build_predictions(columns, task or stored_task or "", source="columns")
 
     def to_bytes(self) -> bytes:
-        """A compact byte form for the catalogue: zlib-compressed JSON of `to_columns()`.
+        """The form the catalogue stores: an Arrow IPC file (registry/evaluation/arrow_form.py).
 
-        Python's float repr round-trips exactly, so no score changes on the way through.
+        float64 columns hold every score exactly, so none changes on the way through.
         """
-        text = json.dumps(self.to_columns(), separators=(",", ":"), allow_nan=False)
-        return zlib.compress(text.encode("utf-8"), 6)
+        from registry.evaluation.arrow_form import to_arrow_file
+
+        return to_arrow_file(self)
 
     @classmethod
     def from_bytes(cls, data: bytes) -> Predictions:
-        return cls.from_columns(json.loads(zlib.decompress(data).decode("utf-8")))
+        from registry.evaluation.arrow_form import from_arrow_file
+
+        return from_arrow_file(data)
 
 
 def read_predictions(path: str | Path, task: str) -> Predictions:

@@ -15,6 +15,12 @@ from registry.features.definitions import (
 )
 from registry.features.diff import FeatureChange, FeatureDiff, diff_features
 from registry.features.fields import SchemaField, schema_fields
+from registry.features.json_form import (
+    definitions_from_json,
+    definitions_json,
+    feature_list,
+    parse_feature_list,
+)
 from registry.features.rules import (
     FeatureCheck,
     FeatureProblem,
@@ -27,7 +33,8 @@ __all__ = [
     "Categories", "FeatureChange", "FeatureCheck", "FeatureDefinition",
     "FeatureDefinitionError", "FeatureDefinitions", "FeatureDiff", "FeatureProblem",
     "NumericRange", "SchemaField", "Source", "Unit", "UnitComparison", "UnknownFeatureField",
-    "UnknownUnit", "check_features", "compare_units", "diff_features",
-    "features_from_manifest", "load_feature_definitions", "parse_feature_file",
+    "UnknownUnit", "check_features", "compare_units", "definitions_from_json",
+    "definitions_json", "diff_features", "feature_list", "features_from_manifest",
+    "load_feature_definitions", "parse_feature_file", "parse_feature_list",
     "parse_feature_table", "parse_unit", "render_feature_file", "schema_fields",
 ]

@@ -14,9 +14,9 @@ from registry.documents import read_document
 from registry.errors import UserError
 from registry.features import (
     check_features,
+    definitions_json,
     parse_feature_file,
     parse_feature_table,
-    render_feature_file,
 )
 from registry.manifest import Manifest
 
@@ -83,7 +83,7 @@ def _features(request: RegistrationRequest, input_schema: avro.Schema
         first = contradictions[0]
         more = f" (and {len(contradictions) - 1} more)" if len(contradictions) > 1 else ""
         raise FeaturesContradictSchema(f"{first.message}{more}", place=f"features {first.path}")
-    return json.dumps({"toml": render_feature_file(definitions)}), verdict.missing
+    return definitions_json(definitions), verdict.missing
 
 
 def read_version_contents(request: RegistrationRequest) -> VersionContents:

@@ -3,13 +3,13 @@ from its predictions, and keeps the per-row predictions for later paired compari
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from typing import Any
 
 from registry.canonical_json import sha256_hex
 from registry.errors import AlreadyExists, UserError
-from registry.evaluation import Predictions, compute_metrics, slice_metrics
+from registry.evaluation import Predictions
+from registry.evaluation.record import EvaluationRecord, evaluation_record, read_evaluation_record
 from registry.service.actors import Actor
 from registry.service.authorisation import authorise
 from registry.service.datasets import find_dataset, load_fingerprint
@@ -44,18 +44,14 @@ class EvaluationSummary:
 
 
 def metrics_document(predictions: Predictions, slice_columns: tuple[str, ...],
-                     threshold: float) -> dict[str, Any]:
+                     threshold: float) -> EvaluationRecord:
     """What the catalogue stores of an evaluation besides the per-row predictions."""
     for column in slice_columns:
         if column not in predictions.extra_columns:
             raise UserError(f"the predictions have no column {column!r} to slice by; extra "
                             f"columns are {', '.join(sorted(predictions.extra_columns)) or 'none'}",
                             place="--slice")
-    report = compute_metrics(predictions, threshold=threshold).to_dict()
-    report["slice_columns"] = list(slice_columns)
-    report["slices"] = {column: slice_metrics(predictions, column, threshold=threshold).to_dict()
-                        for column in slice_columns}
-    return report
+    return evaluation_record(predictions, slice_columns, threshold)
 
 
 def _key_digest(predictions: Predictions) -> str:
@@ -94,7 +90,7 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
             raise AlreadyExists(f"{line.name} v{version.number} already has an evaluation on "
                                 f"{dataset.name} from other predictions; evaluations never "
                                 "change", place="--dataset")
-        metrics_json = json.dumps(document, allow_nan=False)
+        metrics_json = document.to_json()
         evaluation = t.Evaluation(
             version_id=version.id, dataset_id=dataset.id,
             dataset_content_digest=dataset.content_digest, task=request.predictions.task,
@@ -107,7 +103,7 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
                           "predictions_digest": predictions_digest,
                           # So `audit verify` can find any change to the stored metrics.
                           "metrics_digest": sha256_hex(metrics_json.encode("utf-8")),
-                          "metrics": document["metrics"]})
+                          "metrics": document.metrics})
         summary = _summary(line, version, dataset, evaluation)
         uow.commit()
         return summary
@@ -115,13 +111,12 @@ def add_evaluation(catalogue: Catalogue, request: EvaluationRequest,
 
 def _summary(line: t.Model, version: t.Version, dataset: t.Dataset, evaluation: t.Evaluation,
              *, created: bool = True) -> EvaluationSummary:
-    document = json.loads(evaluation.metrics_json)
+    record = read_evaluation_record(evaluation.metrics_json)
     return EvaluationSummary(
         model=line.name, version=version.number, dataset=dataset.name,
         dataset_content_digest=evaluation.dataset_content_digest, task=evaluation.task,
-        n=document.get("n", 0), metrics=document.get("metrics", {}),
-        slices=document.get("slices", {}), calibration=document.get("calibration", []),
-        created=created)
+        n=record.n, metrics=record.metrics, slices=record.slices,
+        calibration=record.calibration, created=created)
 
 
 def evaluations_of(uow: UnitOfWork, version: t.Version) -> list[tuple[t.Evaluation, t.Dataset]]:

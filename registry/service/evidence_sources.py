@@ -109,12 +109,12 @@ def acknowledgements(uow: UnitOfWork, version: t.Version, stage: str,
 
 
 def _definitions(version: t.Version):
-    from registry.features import parse_feature_file
+    from registry.features import definitions_from_json
 
     if not version.features_json:
         return None
-    return parse_feature_file(json.loads(version.features_json)["toml"],
-                              origin=f"version {version.number} features")
+    return definitions_from_json(version.features_json,
+                                 origin=f"version {version.number} features")
 
 
 def feature_changes(incumbent: t.Version, candidate: t.Version) -> tuple[gates.FeatureChange, ...]:
@@ -196,6 +196,7 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
     """Paired comparisons of candidate and incumbent on every evaluation dataset both were
     evaluated on (same content digest), overall and per slice, with the stored predictions."""
     from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
+    from registry.evaluation.record import read_evaluation_record
     from registry.service.evaluations import evaluations_of, stored_predictions
 
     settings = _quality_settings(specs)
@@ -227,7 +228,7 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
                 incumbent_value=report.baseline.metrics.get(metric), rows=report.matching.matched))
         if "slice-guard" in settings:
             metric = settings["slice-guard"]["metric"]
-            for column in json.loads(evaluation.metrics_json).get("slice_columns", []):
+            for column in read_evaluation_record(evaluation.metrics_json).slice_columns:
                 if column not in base.extra_columns:
                     continue
                 per_slice = compare_slices(ours, base, column, confidence=confidence, seed=0)

@@ -13,10 +13,12 @@ from typing import Any
 
 from registry.canonical_json import digest_of
 from registry.errors import UserError
+from registry.evaluation.record import UnreadableEvaluationRecord, read_evaluation_record
 from registry.node_ids import dataset_id, evaluation_id, version_id
 from registry.service.contract_integrity import contract_findings, contract_record_key
 from registry.service.registration import registration_record
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
+from registry.service.shape_conversion import ACTION as CONVERT_ACTION
 from registry.signing.checkpoints import SignedCheckpoint, from_document, is_signed_by
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, AuditRecord, verify_chain
@@ -91,6 +93,8 @@ def _walk_chain(uow: UnitOfWork, wanted: set[int]) -> _ChainWalk:
                 walk.hashes[row.sequence] = row.hash
             if row.action in ("version.register", "dataset.add", "evaluation.add"):
                 walk.registered[row.subject] = details
+            elif row.action == CONVERT_ACTION:
+                _take_conversion(walk.registered, details)
             elif (key := contract_record_key(row.subject, row.action, details)) is not None:
                 walk.registered[key] = details
             walk.events += 1
@@ -103,6 +107,17 @@ def _walk_chain(uow: UnitOfWork, wanted: set[int]) -> _ChainWalk:
     walk.findings += [Finding(f"audit event {sequence}", problem)
                       for sequence, problem in walk.replayed.problems]
     return walk
+
+
+def _take_conversion(registered: dict[str, dict], details: dict) -> None:
+    """A stored-shape conversion (registry/service/shape_conversion.py) names, per registration
+    it rewrote, the digests that now stand for it in place of those its event recorded."""
+    converted = details.get("converted")
+    if not isinstance(converted, dict):
+        return
+    for subject, digests in converted.items():
+        if subject in registered and isinstance(digests, dict):
+            registered[subject] = {**registered[subject], **digests}
 
 
 def _row_findings(uow: UnitOfWork, walk: _ChainWalk) -> tuple[int, list[Finding]]:
@@ -300,9 +315,10 @@ def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
         place = evaluation_id(model_name, number, dataset_name)
         recorded = registered.get(place)
         try:
-            metrics = json.loads(evaluation.metrics_json)["metrics"]
-        except (json.JSONDecodeError, KeyError, TypeError):
-            findings.append(Finding(place, "its stored metrics are not readable JSON"))
+            metrics = read_evaluation_record(evaluation.metrics_json).metrics
+        except UnreadableEvaluationRecord:
+            findings.append(Finding(place, "its stored metrics are not a readable evaluation "
+                                           "record"))
             metrics = None
         if recorded is None:
             findings.append(Finding(place, "no evaluation event in the audit log"))

@@ -5,8 +5,6 @@ from __future__ import annotations
 import json
 from dataclasses import dataclass
 
-from sqlalchemy import func, select
-
 from registry.canonical_json import digest_of
 from registry.errors import NotFound, UserError
 from registry.manifest import Manifest
@@ -17,6 +15,7 @@ from registry.service.authorisation import authorise
 # RegistrationRequest lives with the reading of a registration's contents; named here too
 # because the shells build it as `registration.RegistrationRequest`.
 from registry.service.contents import RegistrationRequest, VersionContents, read_version_contents
+from registry.service.datasets import find_dataset
 from registry.service.models import find_model
 from registry.service.stages import enter_first_stage
 from registry.store import tables as t
@@ -63,17 +62,29 @@ def registration_record(model: str, document_digest: str, document_kind: str,
     return record
 
 
+def stored_registration_digest(uow: UnitOfWork, version: t.Version, model: str) -> str:
+    """A stored version's registration digest recomputed from its row, its lineage links and
+    its declared feed, as `audit verify` recomputes it."""
+    linked = uow.versions.lineage_names(version.id)
+    feed = uow.feeds.declared_by_version(version)
+    return digest_of(registration_record(
+        model, version.document_digest, version.document_kind, version.input_schema_json,
+        version.output_schema_json, version.features_json, version.description,
+        version.code_revision, version.author, linked.get("trained-on", []),
+        linked.get("evaluated-on", []), version.parent_number,
+        feed=feed.name if feed is not None else None))
+
+
 def _lineage_datasets(uow: UnitOfWork, names: tuple[str, ...], relation: str) -> list[t.Dataset]:
     found = []
     for name in names:
-        dataset = uow.session.execute(
-            select(t.Dataset).where(t.Dataset.name == name)).scalar_one_or_none()
-        if dataset is None:
+        try:
+            found.append(find_dataset(uow, name))
+        except NotFound:
             raise NotFound(f"unknown dataset {name!r} named in the manifest's "
                            f"{relation.replace('-', '_')}; register it with "
                            "`lockkeeper dataset add`",
-                           place="manifest")
-        found.append(dataset)
+                           place="manifest") from None
     return found
 
 
@@ -86,10 +97,7 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "version.register")
         model = find_model(uow, request.model)
-        existing = uow.session.execute(
-            select(t.Version).where(t.Version.model_id == model.id,
-                                    t.Version.registration_digest == digest)
-        ).scalars().first()
+        existing = uow.versions.with_registration(model.id, digest)
         if existing is not None:
             return RegistrationOutcome(model.name, existing.number, False,
                                        existing.document_digest, digest,
@@ -101,10 +109,7 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
             feed = find_feed(uow, request.manifest.feed, place="manifest: feed")
         trained = _lineage_datasets(uow, request.manifest.trained_on, "trained-on")
         evaluated = _lineage_datasets(uow, request.manifest.evaluated_on, "evaluated-on")
-        last = uow.session.execute(
-            select(func.max(t.Version.number)).where(t.Version.model_id == model.id)
-        ).scalar_one()
-        number = (last or 0) + 1
+        number = uow.versions.last_number(model.id) + 1
         parent = request.manifest.parent_version
         if parent is not None and parent >= number:
             raise UserError(f"parent_version {request.manifest.parent_version} does not exist yet "
@@ -123,13 +128,8 @@ def register_version(catalogue: Catalogue, request: RegistrationRequest,
             code_revision=request.manifest.code_revision, author=request.manifest.author,
             parent_number=request.manifest.parent_version, registration_digest=digest,
             created_at=utc_now(), created_by=actor.name)
-        uow.session.add(version)
-        uow.session.flush()
-        for relation, datasets in (("trained-on", trained), ("evaluated-on", evaluated)):
-            for dataset in datasets:
-                uow.session.add(t.VersionDataset(version_id=version.id, dataset_id=dataset.id,
-                                                 relation=relation))
-        uow.session.flush()
+        uow.versions.add(version, [("trained-on", dataset) for dataset in trained]
+                         + [("evaluated-on", dataset) for dataset in evaluated])
         if feed is not None:
             uow.feeds.set_for_version(version, feed)
         enter_first_stage(uow, model, version, actor)

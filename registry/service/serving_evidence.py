@@ -29,6 +29,7 @@ from registry.after_release.windows import MICROS, parse_since, window_seconds
 from registry.datasets.profile import profile_of
 from registry.datasets.types import ValueType, record_type
 from registry.errors import UserError
+from registry.evaluation.record import EvaluationRecord, read_evaluation_record
 from registry.service.datasets import load_fingerprint
 from registry.service.evaluations import evaluations_of, stored_predictions
 from registry.service.model_policy import policy_of
@@ -91,15 +92,20 @@ def reference_of(uow: UnitOfWork, version: t.Version) -> Reference:
     if evaluated is None:
         return Reference(version.number, training_name, profile)
     evaluation, dataset = evaluated
-    document = json.loads(evaluation.metrics_json)
+    record = read_evaluation_record(evaluation.metrics_json)
     predictions = stored_predictions(uow, evaluation)
     return Reference(
         version=version.number, training_dataset=training_name, training=profile,
         evaluation_dataset=dataset.name,
         evaluation_predictions={name: profile_of(_as_array(values), SCORE)
                                 for name, values in predictions.score_columns().items()},
-        evaluation_metrics=document.get("metrics", {}),
-        threshold=float(document.get("threshold") or 0.5), classes=predictions.classes)
+        evaluation_metrics=record.metrics,
+        threshold=_threshold(record), classes=predictions.classes)
+
+
+def _threshold(record: EvaluationRecord) -> float:
+    """The threshold a binary evaluation decided with; tasks without one agree at 0.5."""
+    return record.threshold if record.threshold is not None else 0.5
 
 
 def _as_array(values: np.ndarray):
@@ -372,7 +378,7 @@ def shadow_agreement(uow: UnitOfWork, model: t.Model, candidate: t.Version,
             else "multiclass")
     in_a, in_b = shared_rows(a.column("row_hash").to_numpy(), b.column("row_hash").to_numpy())
     evaluated = _evaluation(uow, candidate)
-    threshold = float(json.loads(evaluated[0].metrics_json).get("threshold") or 0.5) \
+    threshold = _threshold(read_evaluation_record(evaluated[0].metrics_json)) \
         if evaluated else 0.5
     return agreement(incumbent.number, task, predictions_matrix(a, columns)[in_a],
                      predictions_matrix(b, _columns_of(b))[in_b], threshold)

@@ -8,7 +8,7 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from sqlalchemy import Engine, create_engine, event, inspect
+from sqlalchemy import Connection, Engine, create_engine, event, inspect
 from sqlalchemy.engine import URL, make_url
 from sqlalchemy.exc import ArgumentError, DBAPIError, NoSuchModuleError
 from sqlalchemy.orm import Session, sessionmaker
@@ -164,6 +164,18 @@ def _stamp_of(path: Path) -> tuple[int, int, int] | None:
     except FileNotFoundError:
         return None
     return (status.st_ino, status.st_size, status.st_mtime_ns)
+
+
+def on_connection(connection: Connection, like: Catalogue | None = None) -> Catalogue:
+    """The catalogue as seen from inside a transaction someone else owns (an Alembic upgrade):
+    each unit of work runs in a savepoint of it, and the owner alone commits or rolls back."""
+    catalogue = Catalogue(url=connection.engine.url, engine=connection.engine,
+                          sessions=sessionmaker(bind=connection, expire_on_commit=False,
+                                                join_transaction_mode="create_savepoint"),
+                          key_file=like.key_file if like is not None else None)
+    if like is not None:
+        catalogue.signing_key = like.signing_key
+    return catalogue
 
 
 def _first_line(error: object) -> str:

@@ -27,3 +27,15 @@ class EvaluationRepository:
         return [(evaluation, dataset) for evaluation, dataset in self._session.execute(
             select(t.Evaluation, t.Dataset).join(t.Dataset, t.Dataset.id == t.Evaluation.dataset_id)
             .where(t.Evaluation.version_id == version_id).order_by(t.Evaluation.id))]
+
+    def every_one(self) -> list[tuple[t.Evaluation, str]]:
+        """Every evaluation with the subject its audit event names (model/M/version/N/evaluation/D),
+        in that order."""
+        rows = self._session.execute(
+            select(t.Evaluation, t.Model.name, t.Version.number, t.Dataset.name)
+            .join(t.Version, t.Version.id == t.Evaluation.version_id)
+            .join(t.Model, t.Model.id == t.Version.model_id)
+            .join(t.Dataset, t.Dataset.id == t.Evaluation.dataset_id)
+            .order_by(t.Model.name, t.Version.number, t.Dataset.name))
+        return [(evaluation, f"model/{model}/version/{number}/evaluation/{dataset}")
+                for evaluation, model, number, dataset in rows]

@@ -20,19 +20,30 @@ def alembic_config(catalogue: Catalogue) -> Config:
     return config
 
 
-def _run(catalogue: Catalogue, action, revision: str) -> None:
+# Who the audit events a revision appends name as their actor, unless the caller says.
+UPGRADE_ACTOR = "lockkeeper-upgrade"
+
+
+def _run(catalogue: Catalogue, action, revision: str, actor: str) -> dict:
+    """Run revisions in one transaction; revisions that convert rows (0008) work through units
+    of work joined to it, so a failure anywhere leaves the catalogue as it was."""
     config = alembic_config(catalogue)
     with catalogue.engine.begin() as connection:
-        config.attributes["connection"] = connection
+        config.attributes.update(connection=connection, catalogue=catalogue, actor=actor)
         action(config, revision)
+    return config.attributes
 
 
-def upgrade(catalogue: Catalogue, revision: str = "head") -> None:
-    _run(catalogue, command.upgrade, revision)
+def upgrade(catalogue: Catalogue, revision: str = "head", *, actor: str = UPGRADE_ACTOR) -> int:
+    """Bring the catalogue to a revision; return how many earlier rows a revision brought under
+    the audit chain on the way (registry/service/coverage_upgrade.py)."""
+    attributes = _run(catalogue, command.upgrade, revision, actor)
+    return int(attributes.get("rows_covered", 0))
 
 
-def downgrade(catalogue: Catalogue, revision: str = "base") -> None:
-    _run(catalogue, command.downgrade, revision)
+def downgrade(catalogue: Catalogue, revision: str = "base", *,
+              actor: str = UPGRADE_ACTOR) -> None:
+    _run(catalogue, command.downgrade, revision, actor)
 
 
 def head_revision() -> str:

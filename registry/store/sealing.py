@@ -19,7 +19,7 @@ CHECKPOINT_EVERY = 100
 # Writing any of these tables, or taking one of these actions, is worth a checkpoint at once.
 CHECKPOINT_TABLES = frozenset({t.StageHolding.__tablename__, t.StageEvent.__tablename__,
                                t.SigningKeyRow.__tablename__})
-CHECKPOINT_ACTIONS = frozenset({"dataset.recall"})
+CHECKPOINT_ACTIONS = frozenset({"dataset.recall", "catalogue.convert"})
 
 
 def seal_transaction(uow: UnitOfWork) -> None:

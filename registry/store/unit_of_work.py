@@ -46,6 +46,7 @@ from registry.store.serving_repository import ServingRepository
 from registry.store.stage_repository import StageRepository
 from registry.store.table_copy import TableCopy
 from registry.store.token_repository import TokenRepository
+from registry.store.version_repository import VersionRepository
 
 
 def utc_now() -> datetime:
@@ -70,6 +71,22 @@ class BlobStore:
         if blob is None:
             raise NotFound(f"no stored content with digest {digest}")
         return blob.content
+
+    def is_referenced(self, digest: str) -> bool:
+        """Whether any row points at the blob (a version's document, a dataset's fingerprint,
+        an evaluation's predictions)."""
+        pointers = (t.Version.stored_blob_digest, t.Dataset.fingerprint_digest,
+                    t.Evaluation.predictions_digest)
+        return any(self._session.execute(select(column).where(column == digest).limit(1)).first()
+                   is not None for column in pointers)
+
+    def remove(self, digest: str) -> None:
+        """Drop a blob nothing points at (blobs are self-certifying, so no row digest covers
+        them; the foreign keys refuse the removal of one still in use)."""
+        blob = self._session.get(t.Blob, digest)
+        if blob is not None:
+            self._session.delete(blob)
+            self._session.flush()
 
 
 class AuditLog:
@@ -172,6 +189,7 @@ class UnitOfWork:
         self.documents: DocumentRepository
         self.tokens: TokenRepository
         self.evaluations: EvaluationRepository
+        self.versions: VersionRepository
         self.audit_events: AuditEventRepository
         self.names: NameRepository
         self.keys: KeyRepository
@@ -211,6 +229,7 @@ class UnitOfWork:
         self.documents = DocumentRepository(self.session)
         self.tokens = TokenRepository(self.session)
         self.evaluations = EvaluationRepository(self.session)
+        self.versions = VersionRepository(self.session)
         self.audit_events = AuditEventRepository(self.session)
         self.names = NameRepository(self.session)
         self.keys = KeyRepository(self.session)

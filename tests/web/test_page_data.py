@@ -3,28 +3,21 @@
 from __future__ import annotations
 
 from registry.service.queries.reports import evidence_items, place_of, plain_number
-from registry.service.queries.versions import _comparisons, _slices
+from registry.service.queries.versions import _slices
 
 STORED_SLICES = {"district": {"column": "district", "correction": "holm-bonferroni",
                               "values": {"NORTHGATE": {"n": 80, "metrics": {"roc_auc": 0.7}}}}}
 
 
 def test_slices_are_read_as_the_evaluation_use_case_stores_them():
-    [table] = _slices({"slices": STORED_SLICES})
+    [table] = _slices(STORED_SLICES)
     assert (table.column, table.metrics, table.rows) == ("district", ("roc_auc",),
                                                         (("NORTHGATE", 80, (0.7,)),))
 
 
 def test_malformed_slices_are_skipped():
-    for stored in (None, 3, "x", [1], {"d": 3}, {"d": {"column": "d", "values": 3}}):
-        assert _slices({"slices": stored}) == ()
-
-
-def test_comparison_against_a_baseline_keeps_its_interval_and_method():
-    document = {"comparison": {"roc_auc": {"difference": 0.02, "ci_low": 0.01, "ci_high": 0.03,
-                                           "p_value": 0.01, "method": "delong"}, "x": 3}}
-    assert _comparisons(document) == (("roc_auc", 0.02, 0.01, 0.03, 0.01, "delong"),)
-    assert _comparisons({"comparison": [1]}) == ()
+    for stored in ({"d": 3}, {"d": {"column": "d", "values": 3}}):
+        assert _slices(stored) == ()
 
 
 def test_a_failed_schema_gate_names_the_reader_path_at_fault():

@@ -160,14 +160,14 @@ def _text(value: Any) -> str:
 
 
 def feature_definitions(features: Any) -> Any:
-    """The stored definitions as registry.features reads them ({"toml": ...} as registration
-    stores it), or None when they are absent, in another form, or unreadable."""
-    if not isinstance(features, dict) or not isinstance(features.get("toml"), str):
+    """The stored definitions as registry.features reads them (the JSON array registration
+    stores, docs/stored-shapes.md), or None when they are absent or unreadable."""
+    if features is None:
         return None
-    from registry.features import parse_feature_file
+    from registry.features import parse_feature_list
 
     try:
-        return parse_feature_file(features["toml"], origin="stored definitions")
+        return parse_feature_list(features, origin="stored definitions")
     except Exception:  # definitions this build cannot read
         return None
 
@@ -207,7 +207,7 @@ def _rows_of_definitions(definitions: Any) -> list[FeatureRow]:
 
 def feature_rows(features: Any) -> list[FeatureRow]:
     """Feature definitions as rows, read by registry.features from the form registration
-    stores ({"toml": ...}); none when they are absent or unreadable."""
+    stores; none when they are absent or unreadable."""
     definitions = feature_definitions(features)
     return _rows_of_definitions(definitions) if definitions is not None else []
 

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from registry.errors import NotFound
+from registry.evaluation.record import UnreadableEvaluationRecord, read_evaluation_record
 from registry.service.queries.common import loads, moment, number
 from registry.service.queries.models import Refusal, refusal_of
 from registry.service.queries.recalls import recalled_sources
@@ -47,10 +48,7 @@ class EvaluationView:
     created_at: str
     metrics: tuple[tuple[str, Any], ...]
     slices: tuple[SliceTable, ...]
-    # Differences against a baseline, when the evaluation was run with one:
-    # metric, difference, interval from, interval to, p-value, method.
-    comparisons: tuple[tuple[str, Any, Any, Any, Any, str], ...]
-    readable: bool
+    readable: bool  # False when the stored record is not one (docs/stored-shapes.md)
 
 
 @dataclass(frozen=True)
@@ -91,12 +89,11 @@ class VersionPage:
     live_holder: int | None  # the version holding the top stage now, to compare with
 
 
-def _slices(document: dict) -> tuple[SliceTable, ...]:
-    """Slices as the evaluation use case stores them: {column: {"column", "values": {value:
-    {"n", "metrics": {...}}}}}."""
-    stored = document.get("slices")
+def _slices(slices: dict[str, Any]) -> tuple[SliceTable, ...]:
+    """The slice reports of an evaluation record: {column: {"column", "values": {value:
+    {"n", "metrics": {...}}}}} (docs/stored-shapes.md)."""
     tables = []
-    for column, report in (stored.items() if isinstance(stored, dict) else ()):
+    for column, report in slices.items():
         values = report.get("values") if isinstance(report, dict) else None
         if not isinstance(values, dict):
             continue
@@ -116,24 +113,14 @@ def _slices(document: dict) -> tuple[SliceTable, ...]:
     return tuple(tables)
 
 
-def _comparisons(document: dict) -> tuple[tuple[str, Any, Any, Any, Any, str], ...]:
-    comparison = document.get("comparison")
-    if not isinstance(comparison, dict):
-        return ()
-    return tuple((str(name), number(c.get("difference")), number(c.get("ci_low")),
-                  number(c.get("ci_high")), number(c.get("p_value")), str(c.get("method", "")))
-                 for name, c in comparison.items() if isinstance(c, dict))
-
-
 def evaluation_view(dataset: str, row: t.Evaluation) -> EvaluationView:
-    document = loads(row.metrics_json)
-    if not isinstance(document, dict):
-        return EvaluationView(dataset, row.task, None, moment(row.created_at), (), (), (), False)
-    metrics: dict[str, Any] = (document["metrics"] if isinstance(document.get("metrics"), dict)
-                               else {})
-    return EvaluationView(dataset, row.task, number(document.get("n")), moment(row.created_at),
-                          tuple((str(k), number(v)) for k, v in metrics.items()),
-                          _slices(document), _comparisons(document), True)
+    try:
+        record = read_evaluation_record(row.metrics_json)
+    except UnreadableEvaluationRecord:  # changed behind the catalogue's back: audit verify says
+        return EvaluationView(dataset, row.task, None, moment(row.created_at), (), (), False)
+    return EvaluationView(dataset, row.task, record.n, moment(row.created_at),
+                          tuple((str(k), number(v)) for k, v in record.metrics.items()),
+                          _slices(record.slices), True)
 
 
 def _standing(stages: tuple[str, ...], reports: list[GateReportView]) -> Standing:
