@@ -12,7 +12,7 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Callable, Mapping
 from concurrent.futures import Future, ThreadPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -324,7 +324,8 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     format = format or guess_format(path)
     open_source(path, {"type": "record", "name": "Probe", "fields": []}, format)  # not empty
     schema, task, predicted, inputs = served_schema(path, format, schema_json, context)
-    source = open_source(path, schema, format)
+    # Text inputs are profiled by their Parquet dictionary, never spelt out row by row.
+    source = replace(open_source(path, schema, format), dictionaries=True)
     record = source.record
     groups: dict[tuple[int, int], WindowRows] = {}
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}
