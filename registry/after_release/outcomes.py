@@ -18,7 +18,7 @@ import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
-from registry.after_release.row_ids import hash_row_ids
+from registry.after_release.row_ids import hash_row_ids, kernels
 from registry.datasets.errors import (
     ColumnsNotMatching,
     DatasetFileError,
@@ -62,10 +62,8 @@ def read_outcomes(path: str, format: str | None = None) -> OutcomeBatch:
     if "observed_at" in table.column_names:
         observed = _times(table.column("observed_at"))
     hashes = hash_row_ids(table.column("row_id"))
-    order = np.argsort(hashes, kind="stable")
-    repeats = np.flatnonzero(hashes[order][1:] == hashes[order][:-1])
-    if len(repeats):
-        row = int(order[repeats + 1].min())
+    row = int(kernels.first_repeat(hashes))  # the earliest row repeating an id
+    if row >= 0:
         raise UserError("this row id already has an outcome in the batch",
                         place=cell(row + 1, "row_id"))
     return OutcomeBatch(hashes, labels, observed)

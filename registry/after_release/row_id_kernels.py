@@ -88,3 +88,17 @@ def mark_found(slots, positions, mask, hashes, found):
                 found[positions[slot] - 1] = True
                 break
             slot = (slot + np.uint64(1)) & mask
+
+
+@numba.njit(cache=True, nogil=True)
+def positions_in(slots, positions, mask, hashes, out):
+    """out[i] = the position of hashes[i] among the table's keys (index_of), or -1."""
+    for i in range(hashes.shape[0]):
+        h = hashes[i]
+        slot = h & mask
+        out[i] = -1
+        while positions[slot] != 0:
+            if slots[slot] == h:
+                out[i] = positions[slot] - 1
+                break
+            slot = (slot + np.uint64(1)) & mask

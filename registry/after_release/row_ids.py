@@ -61,6 +61,16 @@ class HashIndex:
                                found)
         return found
 
+    def positions_of(self, hashes: np.ndarray) -> np.ndarray:
+        """For each of `hashes`, its position among the keys, or -1."""
+        out = np.empty(len(hashes), np.int64)
+        if len(self.keys) == 0:
+            out.fill(-1)
+        elif len(hashes):
+            kernels.positions_in(*self._table, np.ascontiguousarray(hashes, dtype=np.uint64),
+                                 out)
+        return out
+
 
 def hash_row_ids_reference(ids: list[str]) -> np.ndarray:
     """The definition in plain Python, for the kernel's tests."""

@@ -145,8 +145,10 @@ def test_a_hash_index_finds_the_keys_numpys_isin_finds(keys, seen):
         key_hashes[: keys // 3] = (np.arange(keys // 3, dtype=np.uint64) << np.uint64(40)) | 7
         others[-1] = key_hashes[0]
     index = HashIndex(key_hashes)
-    # the reference: numpy's isin
+    # the references: numpy's isin, and a Python dict from key to position
     assert np.array_equal(index.found_in(others), np.isin(key_hashes, others))
+    where = {int(h): i for i, h in enumerate(key_hashes)}
+    assert index.positions_of(others).tolist() == [where.get(int(h), -1) for h in others]
 
 
 def test_windows_are_aligned_on_utc_days():
