@@ -156,7 +156,8 @@ def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *
         if existing is not None:
             return _already(line.name, digest, existing)
         windows, task, classes = _served_windows_of(uow, line, outcomes)
-        labels = check_labels(outcomes.labels, task, classes) if task else None
+        labels = (check_labels(outcomes.label_values, outcomes.label_codes, task, classes)
+                  if task else None)
         joined = windows >= 0
         unknown = int((~joined).sum())
         if labels is None and joined.any():
