@@ -537,7 +537,7 @@ def conform(batch: pa.RecordBatch, record: RecordType, first_row: int,
     """The batch with each column typed as its field says, or an error naming the bad value.
     With keep_dictionaries, a dictionary-encoded text or enum column stays so (its values are
     checked through the dictionary)."""
-    columns = []
+    columns: list[pa.Array] = []
     names = batch.schema.names
     for name, value_type in record.fields:
         if name in names:
@@ -550,9 +550,9 @@ def conform(batch: pa.RecordBatch, record: RecordType, first_row: int,
             columns.append(pa.array([value_type.default] * batch.num_rows,
                                     type=value_type.arrow_type()))
     schema = record.arrow_schema()
-    if keep_dictionaries:
-        schema = pa.schema([f.with_type(c.type) for f, c in zip(schema, columns, strict=True)],
-                           metadata=schema.metadata)
+    for index, column in enumerate(columns):
+        if keep_dictionaries and pa.types.is_dictionary(column.type):
+            schema = schema.set(index, schema.field(index).with_type(column.type))
     return pa.RecordBatch.from_arrays(columns, schema=schema)
 
 
