@@ -18,7 +18,7 @@ import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
-from registry.after_release.row_ids import hash_row_ids
+from registry.after_release.row_ids import hash_row_ids, kernels
 from registry.datasets.errors import (
     ColumnsNotMatching,
     DatasetFileError,
@@ -36,8 +36,15 @@ BINARY_LABELS = {"0": 0, "1": 1, "false": 0, "true": 1, "0.0": 0, "1.0": 1}
 @dataclass(frozen=True)
 class OutcomeBatch:
     hashes: np.ndarray  # uint64, file order
-    labels: list[str]  # as text; checked against the task once the rows they join are known
+    # the labels as text, checked against the task once the rows they join are known: each
+    # distinct text once (label_values), and per row the index of its own (label_codes)
+    label_values: tuple[str, ...]
+    label_codes: np.ndarray
     observed_at: np.ndarray | None  # microseconds since the epoch
+
+    @property
+    def labels(self) -> list[str]:
+        return [self.label_values[code] for code in self.label_codes.tolist()]
 
 
 def read_outcomes(path: str, format: str | None = None) -> OutcomeBatch:
@@ -57,18 +64,19 @@ def read_outcomes(path: str, format: str | None = None) -> OutcomeBatch:
         if column.null_count:
             row = _first(pc.is_null(column).to_numpy(zero_copy_only=False))
             raise ValueNotParsing("a value is missing", place=cell(row + 1, name))
-    labels = [str(v).strip() for v in pc.cast(table.column("label"), pa.string()).to_pylist()]
+    text = cast(pa.DictionaryArray, pc.dictionary_encode(
+        pc.cast(table.column("label"), pa.string()).combine_chunks()))
+    values = tuple(str(v).strip() for v in text.dictionary.to_pylist())
+    codes = text.indices.to_numpy(zero_copy_only=False).astype(np.int64)
     observed = None
     if "observed_at" in table.column_names:
         observed = _times(table.column("observed_at"))
     hashes = hash_row_ids(table.column("row_id"))
-    order = np.argsort(hashes, kind="stable")
-    repeats = np.flatnonzero(hashes[order][1:] == hashes[order][:-1])
-    if len(repeats):
-        row = int(order[repeats + 1].min())
+    row = int(kernels.first_repeat(hashes))  # the earliest row repeating an id
+    if row >= 0:
         raise UserError("this row id already has an outcome in the batch",
                         place=cell(row + 1, "row_id"))
-    return OutcomeBatch(hashes, labels, observed)
+    return OutcomeBatch(hashes, values, codes, observed)
 
 
 def _first(mask: np.ndarray) -> int:
@@ -116,30 +124,35 @@ def _read_table(path: str, format: str) -> pa.Table:
                                place=path) from None
 
 
-def check_labels(labels: list[str], task: str, classes: tuple[str, ...]) -> np.ndarray:
+def check_labels(values: tuple[str, ...], codes: np.ndarray, task: str,
+                 classes: tuple[str, ...]) -> np.ndarray:
     """The labels as the evaluation package holds them (0/1, floats, class indices), or the
-    first one outside the task's classes, named by its row."""
+    first one outside the task's classes, named by its row. Each distinct text is read once."""
     if task == "binary":
-        values = [BINARY_LABELS.get(label.lower(), -1) for label in labels]
-        bad = [i for i, v in enumerate(values) if v < 0]
-        if bad:
-            raise ValueNotParsing(f"{labels[bad[0]]!r} is not a label of a binary task "
-                                  "(0 or 1, true or false)", place=cell(bad[0] + 1, "label"))
-        return np.asarray(values, dtype=np.int8)
+        read = np.asarray([BINARY_LABELS.get(v.lower(), -1) for v in values], dtype=np.int64)
+        need = "a label of a binary task (0 or 1, true or false)"
+        return _refuse_unread(read[codes], read[codes] < 0, values, codes, need).astype(np.int8)
     if task == "regression":
-        out = np.empty(len(labels))
-        for i, label in enumerate(labels):
-            try:
-                out[i] = float(label)
-            except ValueError:
-                out[i] = np.nan
-            if not np.isfinite(out[i]):
-                raise ValueNotParsing(f"{label!r} is not a finite number (regression task)",
-                                      place=cell(i + 1, "label"))
-        return out
+        read = np.asarray([_number(v) for v in values], dtype=np.float64)
+        rows = read[codes]
+        return _refuse_unread(rows, ~np.isfinite(rows), values, codes,
+                              "a finite number (regression task)")
     index = {name: k for k, name in enumerate(classes)}
-    for i, label in enumerate(labels):
-        if label not in index:
-            raise ValueNotParsing(f"{label!r} is not one of the classes "
-                                  f"{', '.join(classes)}", place=cell(i + 1, "label"))
-    return np.asarray([index[label] for label in labels], dtype=np.int64)
+    read = np.asarray([index.get(v, -1) for v in values], dtype=np.int64)
+    return _refuse_unread(read[codes], read[codes] < 0, values, codes,
+                          f"one of the classes {', '.join(classes)}")
+
+
+def _number(text: str) -> float:
+    try:
+        return float(text)
+    except ValueError:
+        return np.nan
+
+
+def _refuse_unread(rows: np.ndarray, bad: np.ndarray, values: tuple[str, ...],
+                   codes: np.ndarray, need: str) -> np.ndarray:
+    if bad.any():
+        row = _first(bad)
+        raise ValueNotParsing(f"{values[codes[row]]!r} is not {need}", place=cell(row + 1, "label"))
+    return rows

@@ -54,3 +54,51 @@ def first_repeat(hashes):
         used[slot] = True
         table[slot] = h
     return -1
+
+
+@numba.njit(cache=True, nogil=True)
+def index_of(keys):
+    """An open-addressing table (linear probing, twice the size of the input) of distinct
+    hashes: (slots, positions + 1 with 0 for an empty slot, mask)."""
+    n = keys.shape[0]
+    size = 1
+    while size < 2 * n:
+        size *= 2
+    mask = np.uint64(size - 1)
+    slots = np.zeros(size, np.uint64)
+    positions = np.zeros(size, np.int64)
+    for i in range(n):
+        h = keys[i]
+        slot = h & mask
+        while positions[slot] != 0 and slots[slot] != h:
+            slot = (slot + np.uint64(1)) & mask
+        slots[slot] = h
+        positions[slot] = i + 1
+    return slots, positions, mask
+
+
+@numba.njit(cache=True, nogil=True)
+def mark_found(slots, positions, mask, hashes, found):
+    """found[k] = True for every key k of the table (index_of) that some hash equals."""
+    for i in range(hashes.shape[0]):
+        h = hashes[i]
+        slot = h & mask
+        while positions[slot] != 0:
+            if slots[slot] == h:
+                found[positions[slot] - 1] = True
+                break
+            slot = (slot + np.uint64(1)) & mask
+
+
+@numba.njit(cache=True, nogil=True)
+def positions_in(slots, positions, mask, hashes, out):
+    """out[i] = the position of hashes[i] among the table's keys (index_of), or -1."""
+    for i in range(hashes.shape[0]):
+        h = hashes[i]
+        slot = h & mask
+        out[i] = -1
+        while positions[slot] != 0:
+            if slots[slot] == h:
+                out[i] = positions[slot] - 1
+                break
+            slot = (slot + np.uint64(1)) & mask

@@ -45,6 +45,33 @@ def hash_row_ids(array: pa.Array | pa.ChunkedArray) -> np.ndarray:
     return out
 
 
+class HashIndex:
+    """Distinct row hashes, and which of them a stream of other hashes meets: a set probed in
+    one pass per part, where numpy's isin would sort both sides again for every part."""
+
+    def __init__(self, keys: np.ndarray) -> None:
+        self.keys = np.ascontiguousarray(keys, dtype=np.uint64)
+        self._table = kernels.index_of(self.keys)
+
+    def found_in(self, hashes: np.ndarray) -> np.ndarray:
+        """For each key, whether it is among `hashes`."""
+        found = np.zeros(len(self.keys), np.bool_)
+        if len(hashes) and len(self.keys):
+            kernels.mark_found(*self._table, np.ascontiguousarray(hashes, dtype=np.uint64),
+                               found)
+        return found
+
+    def positions_of(self, hashes: np.ndarray) -> np.ndarray:
+        """For each of `hashes`, its position among the keys, or -1."""
+        out = np.empty(len(hashes), np.int64)
+        if len(self.keys) == 0:
+            out.fill(-1)
+        elif len(hashes):
+            kernels.positions_in(*self._table, np.ascontiguousarray(hashes, dtype=np.uint64),
+                                 out)
+        return out
+
+
 def hash_row_ids_reference(ids: list[str]) -> np.ndarray:
     """The definition in plain Python, for the kernel's tests."""
     mask = (1 << 64) - 1

@@ -12,7 +12,7 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Callable, Mapping
 from concurrent.futures import Future, ThreadPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -24,6 +24,7 @@ from registry.after_release.row_ids import hash_row_ids, kernels
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import Spell
 from registry.after_release.windows import iso, window_starts
+from registry.datasets.allocation import reuse_large_blocks
 from registry.datasets.errors import ColumnsNotMatching, ValueNotParsing, cell
 from registry.datasets.profile import profile_of
 from registry.datasets.readers import (
@@ -321,10 +322,12 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     Record batches are checked on two threads (numpy, numba and Arrow let go of the GIL) while
     a third reads ahead; their parts are merged in file order, so the first fault reported is
     the first in the file and the result is the same on every run."""
+    reuse_large_blocks()  # the arrays of each record batch serve the next one
     format = format or guess_format(path)
     open_source(path, {"type": "record", "name": "Probe", "fields": []}, format)  # not empty
     schema, task, predicted, inputs = served_schema(path, format, schema_json, context)
-    source = open_source(path, schema, format)
+    # Text inputs are profiled by their Parquet dictionary, never spelt out row by row.
+    source = replace(open_source(path, schema, format), dictionaries=True)
     record = source.record
     groups: dict[tuple[int, int], WindowRows] = {}
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}

@@ -75,7 +75,12 @@ def merge_counts(a: CategoryCounts, b: CategoryCounts) -> CategoryCounts:
 
 def _dictionary_encoded(array: pa.Array) -> pa.DictionaryArray:
     if pa.types.is_dictionary(array.type):
-        return cast(pa.DictionaryArray, array)
+        encoded = cast(pa.DictionaryArray, array)
+        # A file's dictionary may repeat a value (nothing in Parquet forbids it): count by
+        # value then, not by dictionary entry. Unused entries are dropped by their zero count.
+        if len(pc.unique(encoded.dictionary)) == len(encoded.dictionary):
+            return encoded
+        array = encoded.dictionary_decode()
     return cast(pa.DictionaryArray, pc.dictionary_encode(array))
 
 

@@ -10,6 +10,7 @@ import hashlib
 from collections.abc import Callable
 from dataclasses import dataclass
 
+from registry.datasets.allocation import reuse_large_blocks
 from registry.datasets.errors import DatasetFileError, EmptyDataset
 from registry.datasets.fingerprint import DatasetFingerprint, empty_fingerprint, fingerprint_source
 from registry.datasets.plan import Job, JobSettings, located
@@ -27,6 +28,7 @@ class JobResult:
 def run_job(job: Job, settings: JobSettings, threads: bool = False,
             progress: Callable[[int], None] | None = None) -> JobResult:
     """Fingerprint the job's share of its file; `threads` lets it use a second core."""
+    reuse_large_blocks()  # here, in a worker process or on a cluster's worker alike
     try:
         digest = file_sha256(job.path) if job.hashes_file else None
         try:

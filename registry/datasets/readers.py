@@ -54,6 +54,9 @@ class Source:
     # itself holds the other fields (file_record).
     partition: tuple[tuple[str, Any], ...] = ()
     threads: bool = True  # may the reader decode on threads of its own (Parquet)
+    # Text and enum columns stay dictionary-encoded as Parquet stores them (checked and counted
+    # by their dictionary); for readers that only profile them, not for the content digest.
+    dictionaries: bool = False
 
     @property
     def schema_json(self) -> Mapping[str, Any]:
@@ -399,9 +402,9 @@ def _unless_plain(convert: Callable[[Any], Any]) -> Callable[[Any], Any]:
 
 # --- Parquet ---------------------------------------------------------------------------------
 
-def _parquet_file(path: str) -> pq.ParquetFile:
+def _parquet_file(path: str, read_dictionary: list[str] | None = None) -> pq.ParquetFile:
     try:
-        return pq.ParquetFile(path)
+        return pq.ParquetFile(path, read_dictionary=read_dictionary)
     except (pa.ArrowException, OSError) as error:
         raise DatasetFileError(f"not a Parquet file, or truncated ({error})", place=path) from error
 
@@ -418,9 +421,10 @@ def _parquet_batch_rows(parquet: pq.ParquetFile, batch_rows: int) -> int:
 
 
 def _parquet_batches(source: Source, part: Part, batch_rows: int):
-    parquet = _parquet_file(source.path)
-    present = parquet.schema_arrow.names
     record = source.file_record
+    parquet = _parquet_file(source.path, _dictionary_columns(source.path, record)
+                            if source.dictionaries else None)
+    present = parquet.schema_arrow.names
     columns = _check_columns(present, record)
     groups = list(range(parquet.num_row_groups))
     starts = np.concatenate([[0], np.cumsum(
@@ -432,11 +436,21 @@ def _parquet_batches(source: Source, part: Part, batch_rows: int):
             batches = parquet.iter_batches(batch_size=batch_rows, row_groups=[group],
                                            columns=columns, use_threads=source.threads)
             for batch in batches:
-                yield first_row, conform(batch, record, first_row, parse_text=False)
+                yield first_row, conform(batch, record, first_row, parse_text=False,
+                                         keep_dictionaries=source.dictionaries)
                 first_row += batch.num_rows
         except pa.ArrowException as error:
             raise DatasetFileError(f"the Parquet file is truncated or damaged ({error})",
                                    place=f"row {first_row + 1}") from error
+
+
+def _dictionary_columns(path: str, record: RecordType) -> list[str]:
+    """The text and enum fields whose Parquet column holds text."""
+    stored = _parquet_file(path).schema_arrow
+    wanted = {name for name, value_type in record.fields
+              if value_type.avro in ("string", "enum")}
+    return [f.name for f in stored if f.name in wanted and (
+        pa.types.is_string(f.type) or pa.types.is_large_string(f.type))]
 
 
 # --- CSV -------------------------------------------------------------------------------------
@@ -519,18 +533,57 @@ def _check_columns(present: list[str], record: RecordType) -> list[str]:
 
 
 def conform(batch: pa.RecordBatch, record: RecordType, first_row: int,
-            parse_text: bool) -> pa.RecordBatch:
-    """The batch with each column typed as its field says, or an error naming the bad value."""
-    columns = []
+            parse_text: bool, keep_dictionaries: bool = False) -> pa.RecordBatch:
+    """The batch with each column typed as its field says, or an error naming the bad value.
+    With keep_dictionaries, a dictionary-encoded text or enum column stays so (its values are
+    checked through the dictionary)."""
+    columns: list[pa.Array] = []
     names = batch.schema.names
     for name, value_type in record.fields:
         if name in names:
             array = batch.column(names.index(name))
-            columns.append(conform_column(array, value_type, name, first_row, parse_text))
+            if keep_dictionaries and _is_text_dictionary(array, value_type):
+                columns.append(conform_dictionary(array, value_type, name, first_row))
+            else:
+                columns.append(conform_column(array, value_type, name, first_row, parse_text))
         else:
             columns.append(pa.array([value_type.default] * batch.num_rows,
                                     type=value_type.arrow_type()))
-    return pa.RecordBatch.from_arrays(columns, schema=record.arrow_schema())
+    schema = record.arrow_schema()
+    for index, column in enumerate(columns):
+        if keep_dictionaries and pa.types.is_dictionary(column.type):
+            schema = schema.set(index, schema.field(index).with_type(column.type))
+    return pa.RecordBatch.from_arrays(columns, schema=schema)
+
+
+def _is_text_dictionary(array: pa.Array, value_type: ValueType) -> bool:
+    return (value_type.avro in ("string", "enum") and pa.types.is_dictionary(array.type)
+            and cast(pa.DictionaryType, array.type).value_type == pa.string())
+
+
+def conform_dictionary(array: pa.Array, value_type: ValueType, name: str,
+                       first_row: int) -> pa.DictionaryArray:
+    """conform_column for a dictionary-encoded text column: the same checks and the same
+    errors, each value checked once in the dictionary rather than once per row."""
+    encoded = cast(pa.DictionaryArray, array)
+    if encoded.null_count and not value_type.nullable:
+        row = int(np.argmax(pc.is_null(encoded).to_numpy(zero_copy_only=False)))
+        raise ValueNotParsing("a value is missing in a column that is not nullable",
+                              place=cell(first_row + row + 1, name))
+    if value_type.avro == "enum" and len(encoded):
+        known = pc.is_in(encoded.dictionary,
+                         value_set=pa.array(value_type.symbols, type=pa.string()))
+        unknown = ~known.to_numpy(zero_copy_only=False)
+        if unknown.any():
+            indices = encoded.indices.fill_null(0).to_numpy(zero_copy_only=False)
+            bad = unknown[indices]
+            if encoded.null_count:
+                bad &= pc.is_valid(encoded).to_numpy(zero_copy_only=False)
+            if bad.any():
+                row = int(np.argmax(bad))
+                raise ValueNotParsing(f"{encoded[row].as_py()!r} is not a symbol of the enum",
+                                      place=cell(first_row + row + 1, name))
+    return encoded
 
 
 def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row: int,

@@ -12,17 +12,23 @@ import multiprocessing
 import threading
 from collections import deque
 from collections.abc import Callable, Mapping, Sequence
-from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures import (
+    FIRST_COMPLETED,
+    Future,
+    ProcessPoolExecutor,
+    ThreadPoolExecutor,
+    wait,
+)
 from concurrent.futures.process import BrokenProcessPool
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from registry.datasets.errors import EmptyDataset
 from registry.datasets.fingerprint import DatasetFingerprint, empty_fingerprint, merge_fingerprints
-from registry.datasets.jobs import JobResult, run_job
+from registry.datasets.jobs import JobResult, file_sha256, run_job
 from registry.datasets.locations import SourceFile
 from registry.datasets.plan import FingerprintPlan, Job, plan_fingerprint
-from registry.errors import UserError
+from registry.errors import LockkeeperError, UserError
 
 CLUSTER_TIMEOUT = 10.0  # seconds to wait for a Dask scheduler to answer
 
@@ -110,9 +116,43 @@ def run_here(plan: FingerprintPlan, tally: Tally, threads: bool) -> list[JobResu
 
 def run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[JobResult]:
     """This process and workers - 1 child processes, each on one thread: the children take
-    jobs from the front of the list, this process from the back, until they meet."""
-    import registry.datasets.warm_start  # noqa: F401 - the kernels, loaded once for all
+    jobs from the front of the list, this process from the back, until they meet.
 
+    Loading the kernels comes first, in this process alone, so the children start with them;
+    meanwhile the other core takes the SHA-256 of as many files as it can, which their jobs
+    then need not take."""
+    loaded = threading.Event()
+    with ThreadPoolExecutor(max_workers=1, thread_name_prefix="file-digests") as hashing:
+        digesting = hashing.submit(file_digests, plan, loaded)
+        try:
+            import registry.datasets.warm_start  # noqa: F401 - the kernels, loaded once for all
+        finally:
+            loaded.set()
+        digests = digesting.result()
+    # the thread has ended (fork only while this process runs one thread: _start_method)
+    plan = replace(plan, jobs=tuple(replace(job, hashes_file=False) if job.file in digests
+                                    else job for job in plan.jobs))
+    results = _run_on_processes(plan, workers, tally)
+    return [JobResult(result.fingerprint, digests[job.file]) if job.file in digests else result
+            for job, result in zip(plan.jobs, results, strict=True)]
+
+
+def file_digests(plan: FingerprintPlan, stop: threading.Event) -> dict[int, str]:
+    """The SHA-256 of the plan's files, from the last (this process's first job) back, until
+    told to stop; a file that does not read is left to its job, which reports it as ever."""
+    digests = {}
+    for index in reversed(range(len(plan.files))):
+        if stop.is_set():
+            break
+        data_file = plan.files[index]
+        try:
+            digests[index] = file_sha256(data_file.path)
+        except LockkeeperError:
+            continue
+    return digests
+
+
+def _run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[JobResult]:
     children = workers - 1
     pool = ProcessPoolExecutor(max_workers=children, mp_context=_start_method(),
                                initializer=_start_worker)

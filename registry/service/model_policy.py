@@ -2,13 +2,22 @@
 
 from __future__ import annotations
 
+import functools
+
 from registry import gates
 from registry.store import tables as t
 
 
 def policy_of(model: t.Model) -> gates.Policy:
     """The model's own policy laid over the catalogue-wide default, or the default alone."""
-    if model.policy_toml:
-        return gates.load_policy(model.policy_toml, source=f"policy of {model.name}",
+    return _parsed(model.name, model.policy_toml)
+
+
+@functools.lru_cache(maxsize=256)
+def _parsed(name: str, policy_toml: str | None) -> gates.Policy:
+    """A policy is a pure function of its text (and the shipped default): parsed once per text,
+    not once per use (recording one served batch asks five times)."""
+    if policy_toml:
+        return gates.load_policy(policy_toml, source=f"policy of {name}",
                                  base=gates.default_policy())
     return gates.default_policy()

@@ -18,6 +18,7 @@ import numpy as np
 
 from registry.after_release import compact
 from registry.after_release.outcomes import OutcomeBatch, check_labels, read_outcomes
+from registry.after_release.row_ids import HashIndex
 from registry.after_release.served_batch import CheckedBatch, read_served_batch
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.windows import iso
@@ -156,7 +157,8 @@ def record_outcomes(catalogue: Catalogue, model: str, path: str, actor: Actor, *
         if existing is not None:
             return _already(line.name, digest, existing)
         windows, task, classes = _served_windows_of(uow, line, outcomes)
-        labels = check_labels(outcomes.labels, task, classes) if task else None
+        labels = (check_labels(outcomes.label_values, outcomes.label_codes, task, classes)
+                  if task else None)
         joined = windows >= 0
         unknown = int((~joined).sum())
         if labels is None and joined.any():
@@ -195,13 +197,21 @@ def _served_windows_of(uow: UnitOfWork, model: t.Model, outcomes: OutcomeBatch
     windows = np.full(len(outcomes.hashes), -1, dtype=np.int64)
     task: str | None = None
     classes: tuple[str, ...] = ()
-    for rows, _ in uow.serving.rows(model.id, "predictions"):
-        table = compact.decode(rows.content)
-        hit = np.isin(outcomes.hashes, table.column("row_hash").to_numpy()) & (windows < 0)
+    index = HashIndex(outcomes.hashes)  # the batch's ids are distinct (read_outcomes)
+    waiting = len(outcomes.hashes)
+    # oldest window first, one row set at a time, until every outcome has found its row
+    row_sets = uow.serving.contents(model.id, "predictions")
+    for start, content in row_sets:
+        if waiting == 0:
+            row_sets.close()
+            break
+        table = compact.decode(content)
+        hit = index.found_in(table.column("row_hash").to_numpy()) & (windows < 0)
         if hit.any():
             columns = [c for c in table.column_names if c != "row_hash"]
             task = ("binary" if columns == ["score"] else "regression"
                     if columns == ["prediction"] else "multiclass")
             classes = classes_of_columns(columns)
-        windows[hit] = rows.window_start
+            windows[hit] = start
+            waiting -= int(hit.sum())
     return windows, task, classes

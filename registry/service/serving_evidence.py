@@ -22,6 +22,7 @@ from registry.after_release.report import (
     predictions_matrix,
     window_figures,
 )
+from registry.after_release.row_ids import HashIndex
 from registry.after_release.served_batch import CLASS_PREFIX, ServingContext, VersionFacts
 from registry.after_release.summaries import WindowSummary
 from registry.after_release.timeline import Spell, serving_spells
@@ -166,12 +167,9 @@ def _with_labels(table, outcomes: tuple[np.ndarray, np.ndarray] | None) -> Windo
     if outcomes is None:
         return WindowRowsOf(hashes, predictions)
     labels = np.full(len(hashes), np.nan)
-    order = np.argsort(outcomes[0])
-    sorted_hashes = outcomes[0][order]
-    position = np.searchsorted(sorted_hashes, hashes)
-    position = np.minimum(position, len(sorted_hashes) - 1)
-    found = sorted_hashes[position] == hashes
-    labels[found] = outcomes[1][order][position[found]]
+    position = HashIndex(outcomes[0]).positions_of(hashes)  # outcome hashes are distinct
+    found = position >= 0
+    labels[found] = outcomes[1][position[found]]
     return WindowRowsOf(hashes, predictions, labels)
 
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Generator, Sequence
 from datetime import datetime
 
 from sqlalchemy import select
@@ -125,6 +125,18 @@ class ServingRepository:
             query = query.where(t.ServedRows.window_start < until)
         query = query.order_by(t.ServedRows.window_start, t.ServedRows.id)
         return [(rows, number) for rows, number in self._session.execute(query)]
+
+    def contents(self, model_id: int, kind: str) -> Generator[tuple[int, bytes], None, None]:
+        """(window start, compact content) of every row set of a kind, oldest window first,
+        read one at a time: the row sets of a whole retention need not be in memory at once."""
+        query = (select(t.ServedRows.window_start, t.ServedRows.content)
+                 .where(t.ServedRows.model_id == model_id, t.ServedRows.kind == kind)
+                 .order_by(t.ServedRows.window_start, t.ServedRows.id))
+        result = self._session.execute(query.execution_options(yield_per=1))
+        try:
+            yield from ((start, content) for start, content in result)
+        finally:  # a caller that stops early leaves no cursor open
+            result.close()
 
     def newest_window(self, model_id: int) -> int | None:
         return self._session.execute(

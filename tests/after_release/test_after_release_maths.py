@@ -15,7 +15,7 @@ from sklearn.metrics import accuracy_score, brier_score_loss, log_loss, roc_auc_
 from registry.after_release.agreement import agreement, spearman
 from registry.after_release.quality import is_below, live_quality, wilson
 from registry.after_release.report import ReportSettings, judge, merge_windows
-from registry.after_release.row_ids import hash_row_ids, hash_row_ids_reference
+from registry.after_release.row_ids import HashIndex, hash_row_ids, hash_row_ids_reference
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import serving_spells
 from registry.after_release.windows import window_seconds, window_starts
@@ -130,6 +130,25 @@ def test_row_id_hashes_follow_their_definition_and_integers_hash_as_their_text()
     ids = ["seg-00001@2026-11-02", "", "Ünïcode", "x" * 300]
     assert np.array_equal(hash_row_ids(pa.array(ids)), hash_row_ids_reference(ids))
     assert np.array_equal(hash_row_ids(pa.array([42, 7])), hash_row_ids(pa.array(["42", "7"])))
+
+
+@pytest.mark.parametrize("keys, seen", [
+    (20_000, 50_000), (0, 10), (10, 0), (3, 3),
+])
+def test_a_hash_index_finds_the_keys_numpys_isin_finds(keys, seen):
+    rng = np.random.default_rng(keys + seen)
+    key_hashes = rng.integers(0, 2**64, keys, dtype=np.uint64, endpoint=False)
+    # half the keys among the hashes met, and keys sharing their low bits (one probe chain)
+    others = rng.integers(0, 2**64, seen, dtype=np.uint64, endpoint=False)
+    if keys and seen:
+        others[: seen // 2] = rng.choice(key_hashes, seen // 2)
+        key_hashes[: keys // 3] = (np.arange(keys // 3, dtype=np.uint64) << np.uint64(40)) | 7
+        others[-1] = key_hashes[0]
+    index = HashIndex(key_hashes)
+    # the references: numpy's isin, and a Python dict from key to position
+    assert np.array_equal(index.found_in(others), np.isin(key_hashes, others))
+    where = {int(h): i for i, h in enumerate(key_hashes)}
+    assert index.positions_of(others).tolist() == [where.get(int(h), -1) for h in others]
 
 
 def test_windows_are_aligned_on_utc_days():

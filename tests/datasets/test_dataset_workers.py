@@ -46,6 +46,32 @@ def test_workers_give_the_fingerprint_of_one_process_to_the_bit(folder):
     assert one.sources == two.sources == here.sources
 
 
+def test_files_hashed_while_the_kernels_load_are_listed_as_their_jobs_would(folder,
+                                                                            monkeypatch):
+    import hashlib
+    import threading
+
+    from registry.datasets import workers
+
+    hashed = []
+    take_digests = workers.file_digests
+
+    def every_file(planned, stop: threading.Event):  # as if loading took long enough for all
+        digests = take_digests(planned, threading.Event())
+        hashed.append(len(digests))
+        return digests
+
+    monkeypatch.setattr(workers, "file_digests", every_file)
+    here = fingerprint_dataset([str(folder)], **OPTIONS)
+    two = fingerprint_dataset([str(folder)], workers=2, **OPTIONS)
+    assert hashed == [6]
+    assert two == here
+    # the reference: hashlib over each file's bytes
+    assert {s.relative_path: s.sha256 for s in two.sources} == {
+        s.relative_path: hashlib.sha256((folder / s.relative_path).read_bytes()).hexdigest()
+        for s in here.sources}
+
+
 @pytest.mark.parametrize("method", ["fork", "spawn"])
 def test_forked_and_spawned_workers_agree(folder, monkeypatch, method):
     import multiprocessing
