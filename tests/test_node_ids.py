@@ -31,3 +31,22 @@ def test_lineage_reads_back_the_ids_it_is_given():
                  dataset_id("asset-register"), contract_id("feed", "segment-features")):
         assert normalise_node(node) == node
     assert normalise_node("main-burst-risk@3") == version_id("main-burst-risk", 3)
+
+
+def test_each_pattern_reads_back_the_parts_its_id_was_made_from():
+    from registry.node_ids import (CONTRACT_ID, DATASET_ID, EVALUATION_ID, MODEL_ID, STAGE_ID,
+                                   USER_ID, VERSION_ID, user_id)
+
+    cases = [(MODEL_ID, model_id("m"), ("m",)),
+             (VERSION_ID, version_id("m", 12), ("m", "12")),
+             (EVALUATION_ID, evaluation_id("m", 2, "eval-q3"), ("m", "2", "eval-q3")),
+             (STAGE_ID, stage_id("m", "live"), ("m", "live")),
+             (DATASET_ID, dataset_id("d"), ("d",)),
+             (CONTRACT_ID, contract_id("consumer", "c"), ("consumer", "c")),
+             (USER_ID, user_id("ines.okafor"), ("ines.okafor",))]
+    for pattern, node, parts in cases:
+        found = pattern.match(node)
+        assert found is not None and found.groups() == parts, node
+    # Each id is read by its own pattern only.
+    assert VERSION_ID.match(evaluation_id("m", 2, "d")) is None
+    assert MODEL_ID.match(version_id("m", 2)) is None

@@ -13,7 +13,16 @@ from typing import Literal
 
 from registry.errors import NotFound, UserError
 from registry.names import NAME_PATTERN
-from registry.node_ids import contract_id, dataset_id, stage_id, version_id
+from registry.node_ids import (
+    CONTRACT_ID,
+    DATASET_ID,
+    STAGE_ID,
+    VERSION_ID,
+    contract_id,
+    dataset_id,
+    stage_id,
+    version_id,
+)
 from registry.store import contract_lineage as contracts
 from registry.store import lineage as walks
 from registry.store.catalogue import Catalogue
@@ -24,10 +33,6 @@ Direction = Literal["up", "down", "both"]
 DIRECTIONS = ("up", "down", "both")
 MAX_DEPTH = 1000
 
-_VERSION_ID = re.compile(r"^model/([^/]+)/version/([0-9]{1,9})$")
-_STAGE_ID = re.compile(r"^model/([^/]+)/stage/([^/]+)$")
-_DATASET_ID = re.compile(r"^dataset/([^/]+)$")
-_CONTRACT_ID = re.compile(r"^(feed|consumer)/([^/]+)$")
 _AT_VERSION = re.compile(r"^([^/@]+)@([0-9]{1,9})$")
 
 
@@ -72,9 +77,9 @@ def normalise_node(text: str) -> str:
     text = (text or "").strip()
     if m := _AT_VERSION.match(text):
         return version_id(m.group(1), int(m.group(2)))
-    if (_VERSION_ID.match(text) or _STAGE_ID.match(text) or _DATASET_ID.match(text)
-            or _CONTRACT_ID.match(text)):
-        if m := _VERSION_ID.match(text):
+    if (VERSION_ID.match(text) or STAGE_ID.match(text) or DATASET_ID.match(text)
+            or CONTRACT_ID.match(text)):
+        if m := VERSION_ID.match(text):
             return version_id(m.group(1), int(m.group(2)))
         return text
     if NAME_PATTERN.match(text):  # a bare name is a dataset's
@@ -95,7 +100,7 @@ def _model_id(uow: UnitOfWork, name: str) -> int:
 def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
     """The canonical id and database key of a node; NotFound when it is not in the catalogue."""
     node = normalise_node(text)
-    if m := _DATASET_ID.match(node):
+    if m := DATASET_ID.match(node):
         dataset = uow.datasets.named(m.group(1))
         if dataset is None:
             hint = ""
@@ -105,7 +110,7 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
             hint = hint or did_you_mean(m.group(1), uow.names.datasets())
             raise NotFound(f"unknown dataset {m.group(1)!r}{hint}", place="NODE")
         return node, walks.NodeKey("dataset", dataset.id)
-    if m := _VERSION_ID.match(node):
+    if m := VERSION_ID.match(node):
         model_id = _model_id(uow, m.group(1))
         version = uow.models.version(model_id, int(m.group(2)))
         if version is None:
@@ -113,13 +118,13 @@ def resolve_node(uow: UnitOfWork, text: str) -> tuple[str, walks.NodeKey]:
             raise NotFound(f"model {m.group(1)!r} has no version {m.group(2)}; its versions "
                            f"are {numbers}", place="NODE")
         return node, walks.NodeKey("version", version.id)
-    if m := _CONTRACT_ID.match(node):
+    if m := CONTRACT_ID.match(node):
         kind, name = m.group(1), m.group(2)
         contract = uow.lineage.contract_key(kind, name)
         if contract is None:
             raise NotFound(f"unknown {kind} {name!r}", place="NODE")
         return node, contract
-    m = _STAGE_ID.match(node)
+    m = STAGE_ID.match(node)
     assert m is not None
     model_id = _model_id(uow, m.group(1))
     if not uow.lineage.stage_exists(model_id, m.group(2)):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from registry.errors import NotFound, UserError
 from registry.names import check_name
+from registry.node_ids import user_id
 from registry.service.actors import ROLES, Actor
 from registry.service.authorisation import authorise, is_bootstrap, require_first_admin
 from registry.store.catalogue import Catalogue
@@ -28,7 +29,7 @@ def grant_role(catalogue: Catalogue, user: str, role: str, actor: Actor) -> dict
         exists = uow.roles.is_granted(user, role)
         if not exists:
             uow.roles.grant(user, role, at=utc_now(), by=actor.name)
-            uow.audit.append(actor.name, "role.grant", f"user/{user}",
+            uow.audit.append(actor.name, "role.grant", user_id(user),
                              {"role": role, "bootstrap": bootstrap})
         uow.commit()
         return {"user": user, "role": role, "granted": not exists}
@@ -39,7 +40,7 @@ def revoke_role(catalogue: Catalogue, user: str, role: str, actor: Actor) -> dic
         authorise(uow, actor, "role.revoke")
         if not uow.roles.revoke(user, role):
             raise NotFound(f"{user} does not hold the role {role!r}", place="role")
-        uow.audit.append(actor.name, "role.revoke", f"user/{user}", {"role": role})
+        uow.audit.append(actor.name, "role.revoke", user_id(user), {"role": role})
         uow.commit()
         return {"user": user, "role": role, "revoked": True}
 

@@ -16,6 +16,7 @@ from datetime import UTC, datetime
 from registry.errors import NotFound, Unauthenticated, UserError
 from registry.moments import parse_moment, utc_iso
 from registry.names import check_name
+from registry.node_ids import user_id
 from registry.service.actors import ROLES, Actor
 from registry.service.authorisation import authorise, is_bootstrap, require_first_admin
 from registry.store import tables as t
@@ -84,7 +85,7 @@ def create_token(catalogue: Catalogue, user: str, role: str, actor: Actor, *,
         held = uow.roles.held_by(user)
         if bootstrap:
             uow.roles.grant(user, "admin", at=utc_now(), by=actor.name)
-            uow.audit.append(actor.name, "role.grant", f"user/{user}",
+            uow.audit.append(actor.name, "role.grant", user_id(user),
                              {"role": "admin", "bootstrap": True})
         elif role != "reader" and role not in held:
             # A token never carries more than its user holds: the approval gates count only

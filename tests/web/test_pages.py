@@ -298,10 +298,6 @@ def test_stored_json_of_any_shape_renders_without_error(catalogue, catalogue_url
             version_id=version_id, dataset_id=dataset_id, dataset_content_digest="0" * 64,
             task="binary", metrics_json='{"metrics": {"roc_auc": "high"}, "slices": {"d": 3}}',
             predictions_digest=uow.blobs.put(b"p"), created_at=now, created_by="x"))
-        for report in ("not json", '{"results": [1, {"gate": "g", "evidence": [[{"a": null}]]}]}'):
-            uow.session.add(t.GateReportRow(model_id=version.model_id, version_id=version_id,
-                                            stage="shadow", attempt="promote", passed=False,
-                                            report_json=report, created_at=now, created_by="x"))
         uow.audit.append("x", "test.odd-rows", "model/odd", {})
         uow.commit()
     app = create_app(catalogue_url)

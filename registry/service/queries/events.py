@@ -3,21 +3,23 @@ model, dataset, person and action."""
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 from typing import Any
 
+from registry.node_ids import (
+    DATASET_ID,
+    EVALUATION_ID,
+    MODEL_ID,
+    STAGE_ID,
+    USER_ID,
+    VERSION_ID,
+)
 from registry.service.queries.common import loads
 from registry.store.catalogue import Catalogue
 from registry.store.page_reads import EventFilter
 from registry.store.unit_of_work import UnitOfWork
 
 PAGE_SIZE = 50
-_VERSION = re.compile(r"^model/([^/]+)/version/([0-9]+)(?:/evaluation/([^/]+))?$")
-_STAGE = re.compile(r"^model/([^/]+)/stage/([^/]+)$")
-_MODEL = re.compile(r"^model/([^/]+)$")
-_DATASET = re.compile(r"^dataset/([^/]+)$")
-_USER = re.compile(r"^user/([^/]+)$")
 
 
 @dataclass(frozen=True)
@@ -51,11 +53,13 @@ class EventsPage:
 
 
 def target_of(subject: str) -> Target:
-    if m := _VERSION.match(subject):
-        return Target(m.group(1), int(m.group(2)), m.group(3) or "")
-    if m := _STAGE.match(subject) or _MODEL.match(subject):
+    if m := EVALUATION_ID.match(subject):
+        return Target(m.group(1), int(m.group(2)), m.group(3))
+    if m := VERSION_ID.match(subject):
+        return Target(m.group(1), int(m.group(2)))
+    if m := STAGE_ID.match(subject) or MODEL_ID.match(subject):
         return Target(m.group(1))
-    if m := _DATASET.match(subject):
+    if m := DATASET_ID.match(subject):
         return Target(dataset=m.group(1))
     return Target()
 
@@ -68,10 +72,10 @@ def in_words(action: str, subject: str, details: Any) -> str:
     """One event as a sentence without its subject's internal form."""
     d = details if isinstance(details, dict) else {}
     target = target_of(subject)
-    user = m.group(1) if (m := _USER.match(subject)) else subject
+    user = m.group(1) if (m := USER_ID.match(subject)) else subject
     stage = d.get("stage", "")
     waived = [w.get("gate", "") for w in d.get("waivers", []) if isinstance(w, dict)]
-    stage_name = m.group(2) if (m := _STAGE.match(subject)) else stage
+    stage_name = m.group(2) if (m := STAGE_ID.match(subject)) else stage
     summary: dict[str, Any] = d["summary"] if isinstance(d.get("summary"), dict) else {}
     failed = list(summary.get("failed", {})) if isinstance(summary.get("failed"), dict) else []
     words = {

@@ -4,11 +4,13 @@ and the evidence turned into named facts (yes/no, numbers at a sensible precisio
 
 from __future__ import annotations
 
+import json
 import re
 from dataclasses import dataclass
 from typing import Any
 
-from registry.service.queries.common import loads, moment, number
+from registry.gates.report import GateReport, GateResult
+from registry.service.queries.common import moment, number
 from registry.store import tables as t
 
 ORDER = {"failed": 0, "waived": 1, "passed": 2}
@@ -132,7 +134,6 @@ class GateReportView:
     passed: bool
     by: str
     results: tuple[GateResultView, ...]  # failed, then waived, then passed
-    readable: bool
 
     @property
     def failed(self) -> tuple[GateResultView, ...]:
@@ -174,31 +175,26 @@ def place_of(summary: str, evidence: Any) -> str:
     return found.group(1) if found else ""
 
 
-def _result(item: dict) -> GateResultView:
-    passed, waived = bool(item.get("passed")), bool(item.get("waived"))
-    status = "waived" if waived else "passed" if passed else "failed"
-    summary = str(item.get("summary", ""))
-    waiver = item.get("waiver")
-    notes: list[Any] = item["notes"] if isinstance(item.get("notes"), list) else []
-    place = place_of(summary, item.get("evidence")) if status != "passed" else ""
+def _result(result: GateResult) -> GateResultView:
+    status = "waived" if result.waived else "passed" if result.passed else "failed"
+    place = place_of(result.summary, result.evidence) if status != "passed" else ""
+    waiver = result.waiver if result.waived else None
     return GateResultView(
-        gate=str(item.get("gate", "unnamed gate")), status=status, summary=summary, place=place,
-        finding=summary.removeprefix(f"{place}: ") if place else summary,
-        notes=tuple(str(n) for n in notes),
-        waiver=(WaiverView(str(waiver.get("approver", "")), str(waiver.get("reason", "")))
-                if waived and isinstance(waiver, dict) else None),
-        evidence=evidence_items(item.get("evidence")))
+        gate=result.gate, status=status, summary=result.summary, place=place,
+        finding=result.summary.removeprefix(f"{place}: ") if place else result.summary,
+        notes=tuple(str(n) for n in result.notes),
+        waiver=WaiverView(waiver.approver, waiver.reason) if waiver is not None else None,
+        evidence=evidence_items(dict(result.evidence)))
 
 
 def report_view(row: t.GateReportRow, model: str, number_: int) -> GateReportView:
-    document = loads(row.report_json)
-    readable = isinstance(document, dict) and isinstance(document.get("results"), list)
-    results = [_result(item) for item in (document["results"] if readable else [])
-               if isinstance(item, dict)]
-    results.sort(key=lambda r: ORDER[r.status])
+    """A stored gate report, read back with the gates' own reader (GateReport.from_dict)."""
+    report = GateReport.from_dict(json.loads(row.report_json))
+    results = sorted((_result(result) for result in report.results),
+                     key=lambda r: ORDER[r.status])
     return GateReportView(id=row.id, at=moment(row.created_at), model=model, version=number_,
                           stage=row.stage, attempt=row.attempt, passed=bool(row.passed),
-                          by=row.created_by, results=tuple(results), readable=readable)
+                          by=row.created_by, results=tuple(results))
 
 
 @dataclass(frozen=True)
