@@ -26,6 +26,7 @@ from registry.features import (
     load_feature_definitions,
 )
 from registry.schema import Schema, fingerprint, to_json
+from registry.schema.labels import type_label
 
 
 def _read_manifest(path: str) -> dict[str, Any]:
@@ -87,36 +88,21 @@ def _document_report(summary: DocumentSummary) -> dict[str, Any]:
     }
 
 
-def _describe_type(type_json: Any) -> str:
-    if isinstance(type_json, str):
-        return type_json
-    if isinstance(type_json, list):
-        return "union [" + ", ".join(_describe_type(branch) for branch in type_json) + "]"
-    kind = type_json.get("type")
-    if kind in ("record", "error", "enum", "fixed"):
-        return f"{kind} {type_json.get('name')}"
-    if kind == "array":
-        return f"array of {_describe_type(type_json['items'])}"
-    if kind == "map":
-        return f"map of {_describe_type(type_json['values'])}"
-    return str(kind)
-
-
 def _render_document(report: dict[str, Any]) -> str:
     lines = [f"{report['kind']} document, {report['size']} bytes",
              f"digest   sha256:{report['digest']}"]
     if report["kind"] == "pfa":
         lines.append(f"name     {report['name'] or '(none)'}")
         lines.append(f"method   {report['method']}")
-    lines.append(f"input    {_describe_type(report['input_schema'])}  "
+    lines.append(f"input    {type_label(report['input_schema'])}  "
                  f"(fingerprint sha256:{report['input_fingerprint'][:16]}...)")
     if report["output_schema"] is not None:
-        lines.append(f"output   {_describe_type(report['output_schema'])}  "
+        lines.append(f"output   {type_label(report['output_schema'])}  "
                      f"(fingerprint sha256:{report['output_fingerprint'][:16]}...)")
     for section in ("cells", "pools"):
         for cell in report[section]:
             items = f", {cell['items']} items" if cell["items"] is not None else ""
-            lines.append(f"{section[:-1]:<8} {cell['name']}: {_describe_type(cell['type'])}, "
+            lines.append(f"{section[:-1]:<8} {cell['name']}: {type_label(cell['type'])}, "
                          f"{cell['size']} bytes{items}")
     if report["kind"] == "pfa":
         lines.append(f"functions {report['function_count']}")

@@ -15,7 +15,7 @@ from typing import Any
 
 from click.testing import CliRunner
 
-from registry.api import create_api_app
+from registry.app import create_app
 from registry.cli import main
 from registry.cli.demo import play
 from registry.cli.demo.doors import LocalDoor, ServerDoor
@@ -110,7 +110,7 @@ def _play_through(door_name: str, folder: Path, monkeypatch
     if door_name == "local":
         play_with(LocalDoor(url))
     else:
-        with served(create_api_app(url, config={"TESTING": True})) as server:
+        with served(create_app(url, pages=False, config={"TESTING": True})) as server:
             play_with(ServerDoor(url, server))
     return [(command, _normalised(document, replaced))
             for command, document in printed], to_server
