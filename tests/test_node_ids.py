@@ -31,6 +31,7 @@ def test_lineage_reads_back_the_ids_it_is_given():
                  dataset_id("asset-register"), contract_id("feed", "segment-features")):
         assert normalise_node(node) == node
     assert normalise_node("main-burst-risk@3") == version_id("main-burst-risk", 3)
+    assert normalise_node("main-burst-risk@v3") == version_id("main-burst-risk", 3)
 
 
 def test_each_pattern_reads_back_the_parts_its_id_was_made_from():

@@ -33,7 +33,7 @@ Direction = Literal["up", "down", "both"]
 DIRECTIONS = ("up", "down", "both")
 MAX_DEPTH = 1000
 
-_AT_VERSION = re.compile(r"^([^/@]+)@([0-9]{1,9})$")
+_AT_VERSION = re.compile(r"^([^/@]+)@v?([0-9]{1,9})$")  # MODEL@N or MODEL@vN (DESIGN.md)
 
 
 @dataclass(frozen=True)
