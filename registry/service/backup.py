@@ -16,7 +16,7 @@ import os
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
+from typing import Any, BinaryIO
 
 from sqlalchemy import Table, delete, func, select, text
 
@@ -30,12 +30,14 @@ from registry.signing.checkpoints import SignedCheckpoint, is_signed_by
 from registry.signing.keys import ALGORITHM, key_id_of, load_public_key, verify
 from registry.store import tables as t
 from registry.store.audit import AuditRecord, verify_chain
+from registry.store.blob_store import chunk_rows
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 from registry.timestamps import utc_iso
 
 FORMAT = "lockkeeper-export/1"
 BLOB_TABLE = t.Blob.__tablename__
+CHUNK_TABLE = t.BlobChunk.__tablename__
 # The seal signs this label and the canonical JSON of the manifest without its seal.
 SEAL_LABEL = b"lockkeeper export manifest v1\n"
 MAX_TRUSTED_KEY_BYTES = 16_384
@@ -53,8 +55,9 @@ class BackupSummary:
 
 
 def _tables() -> list[Table]:
-    """Every catalogue table in foreign-key order, parents before children."""
-    return list(t.Base.metadata.sorted_tables)
+    """Every catalogue table in foreign-key order, parents before children; a blob's pieces
+    travel as the one file blobs/<digest>, not as rows."""
+    return [table for table in t.Base.metadata.sorted_tables if table.name != CHUNK_TABLE]
 
 
 def _plain(value: Any) -> Any:
@@ -62,8 +65,7 @@ def _plain(value: Any) -> Any:
 
 
 def _row_line(table: Table, row: Any) -> bytes:
-    record = {column.name: _plain(row._mapping[column.name]) for column in table.columns
-              if not (table.name == BLOB_TABLE and column.name == "content")}
+    record = {column.name: _plain(row._mapping[column.name]) for column in table.columns}
     return json.dumps(record, sort_keys=True, separators=(",", ":")).encode("utf-8") + b"\n"
 
 
@@ -95,9 +97,7 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
         head = uow.session.execute(select(t.AuditHead.sequence, t.AuditHead.hash)).first()
         for table in _tables():
             digest, rows = hashlib.sha256(), 0
-            columns = [table.c[c.name] for c in table.columns
-                       if not (table.name == BLOB_TABLE and c.name == "content")]
-            query = select(*columns).order_by(*table.primary_key.columns)
+            query = select(table).order_by(*table.primary_key.columns)
             with (folder / "tables" / f"{table.name}.jsonl").open("wb") as out:
                 for row in uow.session.execute(query):
                     line = _row_line(table, row)
@@ -109,13 +109,7 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
             files[f"tables/{table.name}.jsonl"] = {
                 "rows": rows, "sha256": digest.hexdigest(),
                 "bytes": (folder / "tables" / f"{table.name}.jsonl").stat().st_size}
-        blob_count = 0
-        for digest_text, content in uow.session.execute(
-                select(t.Blob.digest, t.Blob.content).order_by(t.Blob.digest)
-                .execution_options(yield_per=8)):
-            (folder / "blobs" / digest_text).write_bytes(content)
-            blob_count += 1
-            progress.advance()
+        blob_count = _export_blobs(uow, folder / "blobs")
         current = uow.keys.current()
         current_key_id = current.key_id if current is not None else None
     sequence, head_hash = (head.sequence, head.hash) if head else (0, "0" * 64)
@@ -132,6 +126,27 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
     _write_durably(folder / "manifest.json",
                    json.dumps(manifest, indent=2, sort_keys=True).encode("utf-8"))
     return BackupSummary(str(folder), counts, blob_count, sequence, head_hash, sealed_by)
+
+
+def _export_blobs(uow: UnitOfWork, folder: Path) -> int:
+    """Write each blob to folder/<digest>, a piece at a time; how many were written."""
+    count = 0
+    out: BinaryIO | None = None
+    writing: str | None = None
+    try:
+        for piece in uow.blobs.scan():
+            if piece.digest != writing:
+                if out is not None:
+                    out.close()
+                out, writing = (folder / piece.digest).open("wb"), piece.digest
+                count += 1
+                progress.advance()
+            if piece.content is not None:
+                out.write(piece.content)
+    finally:
+        if out is not None:
+            out.close()
+    return count
 
 
 def _seal_message(manifest: dict[str, Any]) -> bytes:
@@ -238,7 +253,9 @@ def _read_rows(folder: ExportFolder, manifest: dict[str, Any]) -> dict[str, Tabl
     return tables
 
 
-def _attach_blobs(folder: ExportFolder, blobs: TableRows) -> None:
+def _read_blobs(folder: ExportFolder, blobs: TableRows) -> dict[str, bytes]:
+    """The bytes of every blob the rows name, each checked against its digest."""
+    contents = {}
     for index, row in enumerate(blobs.rows):
         digest = row.get("digest")
         if not isinstance(digest, str) or len(digest) != 64 or \
@@ -251,7 +268,8 @@ def _attach_blobs(folder: ExportFolder, blobs: TableRows) -> None:
         content = folder.read(place, size=size)  # bounded by blobs.jsonl, itself by the manifest
         if hashlib.sha256(content).hexdigest() != digest:
             raise BadExport("the blob's bytes do not match its digest", place=place)
-        row["content"] = content
+        contents[digest] = content
+    return contents
 
 
 def _check_chain(tables: dict[str, TableRows], manifest: dict[str, Any]) -> None:
@@ -297,6 +315,7 @@ class CheckedExport:
     folder: str
     manifest: dict[str, Any]
     rows: dict[str, list[dict[str, Any]]]
+    blobs: dict[str, bytes]  # the bytes of each blob, by digest
     sealed_by: str | None = None
     trusted: bool = False
 
@@ -313,7 +332,7 @@ def read_export(folder: Path, revision: str, trusted_key_pem: str | None = None
                             f"{manifest.get('revision')!r}; this catalogue is at {revision!r}",
                             place="manifest.json")
         tables = _read_rows(opened, manifest)
-        _attach_blobs(opened, tables[BLOB_TABLE])
+        blobs = _read_blobs(opened, tables[BLOB_TABLE])
     if len(tables[BLOB_TABLE].rows) != manifest.get("blobs"):
         raise BadExport("the number of blobs differs from the manifest's", place="blobs")
     _check_chain(tables, manifest)
@@ -321,7 +340,7 @@ def read_export(folder: Path, revision: str, trusted_key_pem: str | None = None
     check_backed_by_chain(tables)
     return CheckedExport(str(folder), manifest, {name: parsed.rows for name, parsed in
                                                  tables.items()},
-                         sealed_by, trusted_key_pem is not None)
+                         blobs, sealed_by, trusted_key_pem is not None)
 
 
 def _require_empty(uow: UnitOfWork) -> None:
@@ -353,6 +372,13 @@ def _reset_sequences(uow: UnitOfWork) -> None:
                 "false)"))
 
 
+def _insert_pieces(uow: UnitOfWork, blobs: dict[str, bytes]) -> None:
+    for digest, content in blobs.items():
+        rows = chunk_rows(digest, content)
+        if rows:
+            uow.session.execute(t.BlobChunk.__table__.insert(), rows)
+
+
 def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSummary:
     """Insert a checked export into an empty catalogue, in one transaction, keeping every id."""
     with UnitOfWork(catalogue) as uow:
@@ -364,6 +390,8 @@ def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSumma
             if export.rows[table.name]:
                 uow.session.execute(table.insert(), export.rows[table.name])
                 progress.advance(len(export.rows[table.name]))
+            if table.name == BLOB_TABLE:
+                _insert_pieces(uow, export.blobs)
         _reset_sequences(uow)
         uow.commit()
     head = export.manifest["audit_head"]

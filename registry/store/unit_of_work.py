@@ -7,7 +7,6 @@ audit chain never forks. Database errors leave as the typed errors of registry.e
 
 from __future__ import annotations
 
-import hashlib
 from collections.abc import Iterator
 from datetime import datetime
 from types import TracebackType
@@ -19,10 +18,11 @@ from sqlalchemy.orm import Session
 
 from registry import clock
 from registry.canonical_json import canonical_json
-from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, NotFound
+from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.audit_repository import AuditEventRepository
+from registry.store.blob_store import BlobStore
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.checkpoint_repository import CheckpointRepository
 from registry.store.consumer_repository import ConsumerRepository
@@ -43,26 +43,6 @@ from registry.store.token_repository import TokenRepository
 
 def utc_now() -> datetime:
     return clock.now()
-
-
-class BlobStore:
-    """Content-addressed bytes kept in the catalogue itself, so they commit with their rows."""
-
-    def __init__(self, session: Session) -> None:
-        self._session = session
-
-    def put(self, content: bytes) -> str:
-        digest = hashlib.sha256(content).hexdigest()
-        if self._session.get(t.Blob, digest) is None:
-            self._session.add(t.Blob(digest=digest, size=len(content), content=content))
-            self._session.flush()
-        return digest
-
-    def get(self, digest: str) -> bytes:
-        blob = self._session.get(t.Blob, digest)
-        if blob is None:
-            raise NotFound(f"no stored content with digest {digest}")
-        return blob.content
 
 
 class AuditLog:
