@@ -30,7 +30,6 @@ from registry.signing.checkpoints import SignedCheckpoint, is_signed_by
 from registry.signing.keys import ALGORITHM, key_id_of, load_public_key, verify
 from registry.store import tables as t
 from registry.store.audit import AuditRecord, verify_chain
-from registry.store.blob_store import chunk_rows
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 from registry.timestamps import utc_iso
@@ -132,10 +131,10 @@ def _export_blobs(uow: UnitOfWork, folder: Path) -> int:
     """Write each blob to folder/<digest>, a piece at a time; how many were written."""
     count = 0
     out: BinaryIO | None = None
-    writing: str | None = None
+    writing = ""  # the digest of the blob being written
     try:
         for piece in uow.blobs.scan():
-            if piece.digest != writing:
+            if out is None or piece.digest != writing:
                 if out is not None:
                     out.close()
                 out, writing = (folder / piece.digest).open("wb"), piece.digest
@@ -372,13 +371,6 @@ def _reset_sequences(uow: UnitOfWork) -> None:
                 "false)"))
 
 
-def _insert_pieces(uow: UnitOfWork, blobs: dict[str, bytes]) -> None:
-    for digest, content in blobs.items():
-        rows = chunk_rows(digest, content)
-        if rows:
-            uow.session.execute(t.BlobChunk.__table__.insert(), rows)
-
-
 def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSummary:
     """Insert a checked export into an empty catalogue, in one transaction, keeping every id."""
     with UnitOfWork(catalogue) as uow:
@@ -391,7 +383,8 @@ def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSumma
                 uow.session.execute(table.insert(), export.rows[table.name])
                 progress.advance(len(export.rows[table.name]))
             if table.name == BLOB_TABLE:
-                _insert_pieces(uow, export.blobs)
+                for digest, content in export.blobs.items():
+                    uow.blobs.add_pieces(digest, content)
         _reset_sequences(uow)
         uow.commit()
     head = export.manifest["audit_head"]

@@ -15,7 +15,7 @@ from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, cast
 
-from sqlalchemy import Engine, select
+from sqlalchemy import Engine, insert, select
 from sqlalchemy.orm import Session
 
 from registry.errors import NotFound
@@ -77,6 +77,13 @@ class BlobStore:
                 self._session.flush()
                 self._session.expunge(row)  # written: let the piece go, never read back
         return digest
+
+    def add_pieces(self, digest: str, content: bytes) -> None:
+        """The pieces of a blob whose row is already written (an import inserts every row of
+        a table at once, blobs included)."""
+        rows = chunk_rows(digest, content)
+        if rows:
+            self._session.execute(insert(t.BlobChunk), rows)
 
     def find(self, digest: str) -> bytes | None:
         """A blob's bytes, whole (for the small ones: evidence, predictions), or None."""
