@@ -3,9 +3,10 @@
 A blob row holds a digest (the SHA-256 of the bytes) and a size; its bytes are the rows of
 `blob_chunks` in order of `position`, each piece starting at that byte. Every reader and writer
 of those bytes is here, so a large document is written and read a piece at a time: on
-PostgreSQL one query streams the pieces in binary form (no hex to decode), on SQLite a cursor
-steps through them; either way a piece is in memory at a time, and a byte range reads only the
-pieces that hold it. Blobs never change, so reading them outside a unit of work is safe.
+PostgreSQL one query streams the pieces in binary form (no hex to decode), on SQLite each piece
+is read through incremental blob I/O; either way one piece is in memory at a time, and a byte
+range reads only the pieces that hold it. Blobs never change, so reading them outside a unit of
+work is safe.
 """
 
 from __future__ import annotations
@@ -31,7 +32,7 @@ SQLITE_MMAP_BYTES = 1 << 30  # address space, not memory: the kernel pages it in
 
 # The pieces holding bytes [start, end): from the last piece starting at or before `start`.
 _RANGE_QUERY = (
-    "SELECT position, content FROM blob_chunks WHERE digest = {p} AND position < {p} "
+    "SELECT {columns} FROM blob_chunks WHERE digest = {p} AND position < {p} "
     "AND position >= COALESCE((SELECT max(position) FROM blob_chunks WHERE digest = {p} "
     "AND position <= {p}), 0) ORDER BY position")
 
@@ -113,10 +114,9 @@ def read_range(engine: Engine, digest: str, start: int, end: int) -> Iterator[by
     if end <= start:
         return
     if engine.dialect.name == "sqlite":
-        pieces = _sqlite_pieces(engine, digest, start, end)
+        yield from _sqlite_range(engine, digest, start, end)
     else:
-        pieces = _postgresql_pieces(engine, digest, start, end)
-    yield from _trimmed(pieces, start, end)
+        yield from _trimmed(_postgresql_pieces(engine, digest, start, end), start, end)
 
 
 def _trimmed(pieces: Iterable[tuple[int, bytes]], start: int, end: int) -> Iterator[bytes]:
@@ -129,8 +129,7 @@ def _trimmed(pieces: Iterable[tuple[int, bytes]], start: int, end: int) -> Itera
             yield bytes(memoryview(piece)[low:high])
 
 
-def _sqlite_pieces(engine: Engine, digest: str, start: int, end: int
-                   ) -> Iterator[tuple[int, bytes]]:
+def _sqlite_range(engine: Engine, digest: str, start: int, end: int) -> Iterator[bytes]:
     connection = engine.raw_connection()
     try:
         # The pool hands out the driver's own connection, open until `close` below.
@@ -138,8 +137,16 @@ def _sqlite_pieces(engine: Engine, digest: str, start: int, end: int
         # Read pages straight from a memory map rather than copying each through the page
         # cache: faster for large pieces, and this connection only reads.
         raw.execute(f"PRAGMA mmap_size = {SQLITE_MMAP_BYTES}")
-        # The cursor steps a row at a time, so one piece is in memory at once.
-        yield from raw.execute(_RANGE_QUERY.format(p="?"), (digest, end, digest, start))
+        # Incremental blob I/O copies just the bytes asked for, once; the query stays open
+        # meanwhile, so every row id it gave belongs to the snapshot it reads.
+        query = _RANGE_QUERY.format(columns="rowid, position", p="?")
+        for rowid, position in raw.execute(query, (digest, end, digest, start)):
+            with raw.blobopen("blob_chunks", "content", rowid, readonly=True) as piece:
+                low = max(start - position, 0)
+                high = min(end - position, len(piece))
+                if low < high:
+                    piece.seek(low)
+                    yield piece.read(high - low)
     finally:
         connection.close()
 
@@ -151,7 +158,7 @@ def _postgresql_pieces(engine: Engine, digest: str, start: int, end: int
         raw = cast("psycopg.Connection[Any]", connection.dbapi_connection)
         # One query, its rows streamed as the server sends them; binary results, since bytea
         # in text form comes as hex: twice the bytes and a decode. Leaving early cancels it.
-        yield from raw.cursor().stream(_RANGE_QUERY.format(p="%s"),
+        yield from raw.cursor().stream(_RANGE_QUERY.format(columns="position, content", p="%s"),
                                        (digest, end, digest, start), binary=True)
     finally:
         connection.close()
