@@ -5,7 +5,8 @@ Folder layout (format `lockkeeper-export/1`, docs/export-format.md):
   manifest.json          size and SHA-256 of every file, the audit head, the schema revision,
                          and its seal: the catalogue's signature over all of that
   tables/<table>.jsonl   one JSON object per row, ordered by primary key (blobs: digest and size)
-  blobs/<digest>         the bytes of every blob, named by their SHA-256
+  blobs/<digest>         the bytes of every blob, named by their SHA-256 (the catalogue's pieces of
+                         them, blob_chunks, are not a table file)
 """
 
 from __future__ import annotations
