@@ -72,4 +72,4 @@ def document_chunks(catalogue: Catalogue, document: StoredDocument, start: int =
                     end: int | None = None) -> Iterator[bytes]:
     """The document's bytes [start, end), a chunk at a time."""
     return read_range(catalogue.engine, document.sha256, start,
-                            document.size if end is None else end)
+                      document.size if end is None else end)
