@@ -5,7 +5,8 @@ Folder layout (format `lockkeeper-export/1`, docs/export-format.md):
   manifest.json          size and SHA-256 of every file, the audit head, the schema revision,
                          and its seal: the catalogue's signature over all of that
   tables/<table>.jsonl   one JSON object per row, ordered by primary key (blobs: digest and size)
-  blobs/<digest>         the bytes of every blob, named by their SHA-256
+  blobs/<digest>         the bytes of every blob, named by their SHA-256 (the catalogue's pieces of
+                         them, blob_chunks, are not a table file)
 """
 
 from __future__ import annotations
@@ -16,7 +17,7 @@ import os
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
+from typing import Any, BinaryIO
 
 from sqlalchemy import Table
 
@@ -37,6 +38,7 @@ from registry.timestamps import utc_iso
 
 FORMAT = "lockkeeper-export/1"
 BLOB_TABLE = t.Blob.__tablename__
+CHUNK_TABLE = t.BlobChunk.__tablename__
 # The seal signs this label and the canonical JSON of the manifest without its seal.
 SEAL_LABEL = b"lockkeeper export manifest v1\n"
 MAX_TRUSTED_KEY_BYTES = 16_384
@@ -58,8 +60,7 @@ def _plain(value: Any) -> Any:
 
 
 def _row_line(table: Table, row: Any) -> bytes:
-    record = {column.name: _plain(row._mapping[column.name]) for column in table.columns
-              if not (table.name == BLOB_TABLE and column.name == "content")}
+    record = {column.name: _plain(row._mapping[column.name]) for column in table.columns}
     return json.dumps(record, sort_keys=True, separators=(",", ":")).encode("utf-8") + b"\n"
 
 
@@ -83,9 +84,8 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
         head = uow.audit.head()
         for table in catalogue_tables():
             digest, rows = hashlib.sha256(), 0
-            leave_out = ("content",) if table.name == BLOB_TABLE else ()
             with (folder / "tables" / f"{table.name}.jsonl").open("wb") as out:
-                for row in uow.table_copy.rows(table, leave_out=leave_out):
+                for row in uow.table_copy.rows(table):
                     line = _row_line(table, row)
                     digest.update(line)
                     out.write(line)
@@ -95,11 +95,7 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
             files[f"tables/{table.name}.jsonl"] = {
                 "rows": rows, "sha256": digest.hexdigest(),
                 "bytes": (folder / "tables" / f"{table.name}.jsonl").stat().st_size}
-        blob_count = 0
-        for digest_text, content in uow.table_copy.blob_contents():
-            (folder / "blobs" / digest_text).write_bytes(content)
-            blob_count += 1
-            progress.advance()
+        blob_count = _export_blobs(uow, folder / "blobs")
         current = uow.keys.current()
         current_key_id = current.key_id if current is not None else None
     sequence, head_hash = head if head else (0, "0" * 64)
@@ -116,6 +112,27 @@ def export_catalogue(catalogue: Catalogue, folder: Path, revision: str) -> Backu
     _write_durably(folder / "manifest.json",
                    json.dumps(manifest, indent=2, sort_keys=True).encode("utf-8"))
     return BackupSummary(str(folder), counts, blob_count, sequence, head_hash, sealed_by)
+
+
+def _export_blobs(uow: UnitOfWork, folder: Path) -> int:
+    """Write each blob to folder/<digest>, a piece at a time; how many were written."""
+    count = 0
+    out: BinaryIO | None = None
+    writing = ""  # the digest of the blob being written
+    try:
+        for piece in uow.blobs.scan():
+            if out is None or piece.digest != writing:
+                if out is not None:
+                    out.close()
+                out, writing = (folder / piece.digest).open("wb"), piece.digest
+                count += 1
+                progress.advance()
+            if piece.content is not None:
+                out.write(piece.content)
+    finally:
+        if out is not None:
+            out.close()
+    return count
 
 
 def _seal_message(manifest: dict[str, Any]) -> bytes:
@@ -222,7 +239,9 @@ def _read_rows(folder: ExportFolder, manifest: dict[str, Any]) -> dict[str, Tabl
     return tables
 
 
-def _attach_blobs(folder: ExportFolder, blobs: TableRows) -> None:
+def _read_blobs(folder: ExportFolder, blobs: TableRows) -> dict[str, bytes]:
+    """The bytes of every blob the rows name, each checked against its digest."""
+    contents = {}
     for index, row in enumerate(blobs.rows):
         digest = row.get("digest")
         if not isinstance(digest, str) or len(digest) != 64 or \
@@ -235,7 +254,8 @@ def _attach_blobs(folder: ExportFolder, blobs: TableRows) -> None:
         content = folder.read(place, size=size)  # bounded by blobs.jsonl, itself by the manifest
         if hashlib.sha256(content).hexdigest() != digest:
             raise BadExport("the blob's bytes do not match its digest", place=place)
-        row["content"] = content
+        contents[digest] = content
+    return contents
 
 
 def _check_chain(tables: dict[str, TableRows], manifest: dict[str, Any]) -> None:
@@ -281,6 +301,7 @@ class CheckedExport:
     folder: str
     manifest: dict[str, Any]
     rows: dict[str, list[dict[str, Any]]]
+    blobs: dict[str, bytes]  # the bytes of each blob, by digest
     sealed_by: str | None = None
     trusted: bool = False
 
@@ -297,7 +318,7 @@ def read_export(folder: Path, revision: str, trusted_key_pem: str | None = None
                             f"{manifest.get('revision')!r}; this catalogue is at {revision!r}",
                             place="manifest.json")
         tables = _read_rows(opened, manifest)
-        _attach_blobs(opened, tables[BLOB_TABLE])
+        blobs = _read_blobs(opened, tables[BLOB_TABLE])
     if len(tables[BLOB_TABLE].rows) != manifest.get("blobs"):
         raise BadExport("the number of blobs differs from the manifest's", place="blobs")
     _check_chain(tables, manifest)
@@ -305,7 +326,7 @@ def read_export(folder: Path, revision: str, trusted_key_pem: str | None = None
     check_backed_by_chain(tables)
     return CheckedExport(str(folder), manifest, {name: parsed.rows for name, parsed in
                                                  tables.items()},
-                         sealed_by, trusted_key_pem is not None)
+                         blobs, sealed_by, trusted_key_pem is not None)
 
 
 def _require_empty(uow: UnitOfWork) -> None:
@@ -331,6 +352,9 @@ def import_catalogue(catalogue: Catalogue, export: CheckedExport) -> BackupSumma
             if export.rows[table.name]:
                 uow.table_copy.insert(table, export.rows[table.name])
                 progress.advance(len(export.rows[table.name]))
+            if table.name == BLOB_TABLE:
+                for digest, content in export.blobs.items():
+                    uow.blobs.add_pieces(digest, content)
         uow.table_copy.reset_id_counters(catalogue_tables())
         uow.commit()
     head = export.manifest["audit_head"]

@@ -10,8 +10,9 @@ from registry.errors import NotFound, StageNotHeld
 from registry.names import check_name
 from registry.service import gatekeeping
 from registry.service.models import find_model
+from registry.store.blob_store import read_range
 from registry.store.catalogue import Catalogue
-from registry.store.document_repository import DocumentRef, read_blob_chunks
+from registry.store.document_repository import DocumentRef
 from registry.store.unit_of_work import UnitOfWork
 
 # The content type each document kind is served with.
@@ -70,5 +71,5 @@ def find_document(catalogue: Catalogue, model: str, *, version: int | None = Non
 def document_chunks(catalogue: Catalogue, document: StoredDocument, start: int = 0,
                     end: int | None = None) -> Iterator[bytes]:
     """The document's bytes [start, end), a chunk at a time."""
-    return read_blob_chunks(catalogue.engine, document.sha256, start,
-                            document.size if end is None else end)
+    return read_range(catalogue.engine, document.sha256, start,
+                      document.size if end is None else end)

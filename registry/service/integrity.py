@@ -168,17 +168,38 @@ def _extends(place: str, checkpoint: SignedCheckpoint, head_sequence: int,
 
 
 def _blob_findings(uow: UnitOfWork) -> tuple[int, list[Finding]]:
-    findings = []
+    """Each blob's pieces, in order, must follow on from each other and give its digest and
+    size; read a piece at a time, as a blob may be larger than memory."""
+    findings: list[Finding] = []
     count = 0
-    for digest, size, content in uow.integrity.blobs():
-        count += 1
-        if hashlib.sha256(content).hexdigest() != digest:
-            findings.append(Finding(f"blob {digest}", "its content does not match its digest",
-                                    t.Blob.__tablename__, {"digest": digest}, "content"))
-        elif size != len(content):
-            findings.append(Finding(f"blob {digest}", "its size is not the length of its "
-                                                      "content", t.Blob.__tablename__,
-                                    {"digest": digest}, "size"))
+    current: tuple[str, int] | None = None
+    hashed, length, gapless = hashlib.sha256(), 0, True
+
+    def judge(digest: str, size: int) -> None:
+        place, key = f"blob {digest}", {"digest": digest}
+        if hashed.hexdigest() != digest:
+            findings.append(Finding(place, "its content does not match its digest",
+                                    t.Blob.__tablename__, key, "content"))
+        elif size != length:
+            findings.append(Finding(place, "its size is not the length of its content",
+                                    t.Blob.__tablename__, key, "size"))
+        elif not gapless:
+            findings.append(Finding(place, "its pieces do not follow on from each other",
+                                    t.BlobChunk.__tablename__, key, "position"))
+
+    for piece in uow.blobs.scan():
+        if current is None or piece.digest != current[0]:
+            if current is not None:
+                judge(*current)
+            count += 1
+            current = (piece.digest, piece.size)
+            hashed, length, gapless = hashlib.sha256(), 0, True
+        if piece.content is not None:
+            gapless = gapless and piece.position == length
+            hashed.update(piece.content)
+            length += len(piece.content)
+    if current is not None:
+        judge(*current)
     return count, findings
 
 
@@ -239,16 +260,16 @@ def _document_findings(uow: UnitOfWork, version: t.Version, place: str) -> list[
     """The stored bytes must still give the version's document digest."""
     from registry.documents import canonical_digest
 
-    blob = uow.integrity.blob(version.stored_blob_digest)
-    if blob is None:
+    content = uow.blobs.find(version.stored_blob_digest)
+    if content is None:
         return [Finding(place, "its document bytes are missing")]
     if version.document_kind == "pfa":
         try:
-            digest = canonical_digest(blob.content).sha256
+            digest = canonical_digest(content).sha256
         except Exception:  # the bytes no longer parse: that is the finding
             digest = None
     else:
-        digest = hashlib.sha256(blob.content).hexdigest()
+        digest = hashlib.sha256(content).hexdigest()
     if digest != version.document_digest:
         return [Finding(place, "its stored document no longer gives its document digest")]
     return []
@@ -274,11 +295,12 @@ def _dataset_findings(uow: UnitOfWork, registered: dict[str, dict]) -> tuple[int
             feed_of, uow.dataset_sources.of(dataset.id))
         findings += _registration_findings(place, recomputed, registered.get(place), {
             "registration_digest": dataset.registration_digest})
-        blob = uow.integrity.blob(dataset.fingerprint_digest)
-        if blob is not None and hashlib.sha256(blob.content).hexdigest() != blob.digest:
+        content = uow.blobs.find(dataset.fingerprint_digest)
+        if content is not None and \
+                hashlib.sha256(content).hexdigest() != dataset.fingerprint_digest:
             findings.append(Finding(place, "its stored fingerprint no longer matches its digest"))
         try:
-            stored = json.loads(blob.content) if blob else {}
+            stored = json.loads(content) if content is not None else {}
         except (json.JSONDecodeError, UnicodeDecodeError):
             stored = {}
         if not isinstance(stored, dict) or stored.get("content_digest") != dataset.content_digest:
@@ -336,10 +358,10 @@ def _evaluation_findings(uow: UnitOfWork, registered: dict[str, dict]
                 recorded.get("metrics")):
             findings.append(Finding(place, "its stored metrics differ from the ones the audit "
                                            "log recorded"))
-        blob = uow.integrity.blob(evaluation.predictions_digest)
-        if blob is None:
+        content = uow.blobs.find(evaluation.predictions_digest)
+        if content is None:
             findings.append(Finding(place, "its predictions are missing"))
-        elif hashlib.sha256(blob.content).hexdigest() != blob.digest:
+        elif hashlib.sha256(content).hexdigest() != evaluation.predictions_digest:
             findings.append(Finding(place, "its stored predictions no longer match their digest"))
     return count, findings
 

@@ -1,4 +1,4 @@
-"""Converting a catalogue written before revision 0008 to the stored shapes of
+"""Converting a catalogue written before revision 0009 to the stored shapes of
 docs/stored-shapes.md, run by that revision inside the upgrade's own transaction.
 
 Feature definitions stored as `{"toml": ...}` become the JSON array of registry.features; an
@@ -29,7 +29,7 @@ from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 
 ACTION = "catalogue.convert"
-REVISION = "0008"
+REVISION = "0009"
 ARROW_MAGIC = b"ARROW1"
 
 
@@ -136,7 +136,7 @@ def _record(text: str, subject: str) -> EvaluationRecord:
 
 
 def _old_predictions(content: bytes, subject: str) -> Predictions:
-    """Predictions as stored before revision 0008: zlib-compressed JSON of named columns plus
+    """Predictions as stored before revision 0009: zlib-compressed JSON of named columns plus
     the task, which Predictions.from_columns validates again."""
     try:
         columns = json.loads(zlib.decompress(content).decode("utf-8"))
@@ -154,11 +154,11 @@ def _json(text: str, place: str) -> Any:
 
 
 def refuse_to_unconvert(catalogue: Catalogue) -> None:
-    """Going back below revision 0008 would need the old shapes written again, which nothing
+    """Going back below revision 0009 would need the old shapes written again, which nothing
     does: a catalogue holding converted rows stays, and one holding none goes back freely."""
     with UnitOfWork(catalogue, write=False) as uow:
         if uow.versions.with_features() or uow.evaluations.every_one():
             raise UnconvertibleRow(
                 "this catalogue holds feature definitions or evaluations in the shapes of "
-                "revision 0008, which older releases cannot read; restore an export taken "
-                "before the upgrade instead of downgrading", place="revision 0008")
+                "revision 0009, which older releases cannot read; restore an export taken "
+                "before the upgrade instead of downgrading", place="revision 0009")

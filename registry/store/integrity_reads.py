@@ -14,14 +14,6 @@ class IntegrityReads:
     def __init__(self, session: Session) -> None:
         self._session = session
 
-    def blobs(self) -> Iterator[tuple[str, int, bytes]]:
-        """(digest, size, content) of every stored blob."""
-        for row in self._session.execute(select(t.Blob.digest, t.Blob.size, t.Blob.content)):
-            yield row.digest, row.size, row.content
-
-    def blob(self, digest: str) -> t.Blob | None:
-        return self._session.get(t.Blob, digest)
-
     def version_links(self) -> list[tuple[int, str, str]]:
         """(version id, relation, dataset name) of every version's link to a dataset."""
         return [(version_id, relation, name) for version_id, relation, name in

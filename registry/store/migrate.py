@@ -25,7 +25,7 @@ UPGRADE_ACTOR = "lockkeeper-upgrade"
 
 
 def _run(catalogue: Catalogue, action, revision: str, actor: str) -> dict:
-    """Run revisions in one transaction; revisions that convert rows (0008) work through units
+    """Run revisions in one transaction; revisions that convert rows (0009) work through units
     of work joined to it, so a failure anywhere leaves the catalogue as it was."""
     config = alembic_config(catalogue)
     with catalogue.engine.begin() as connection:

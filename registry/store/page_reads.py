@@ -15,6 +15,7 @@ from sqlalchemy.orm import Session
 from registry.node_ids import dataset_id, model_id
 from registry.store import lineage as walks
 from registry.store import tables as t
+from registry.store.blob_store import BlobStore
 
 
 @dataclass(frozen=True)
@@ -112,8 +113,7 @@ class PageReads:
         return sorted(names)
 
     def blob(self, digest: str) -> bytes | None:
-        blob = self._session.get(t.Blob, digest)
-        return blob.content if blob is not None else None
+        return BlobStore(self._session).find(digest)
 
     # --- the audit log -------------------------------------------------------------------------
 

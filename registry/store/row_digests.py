@@ -26,7 +26,8 @@ from registry.timestamps import utc_iso
 
 # Tables that vouch for themselves and so carry no row digests in the chain.
 SELF_CERTIFYING = frozenset({t.AuditEvent.__tablename__, t.AuditHead.__tablename__,
-                             t.Checkpoint.__tablename__, t.Blob.__tablename__})
+                             t.Checkpoint.__tablename__, t.Blob.__tablename__,
+                             t.BlobChunk.__tablename__})
 
 RowKey = tuple[Any, ...]
 ColumnDigests = dict[str, str]

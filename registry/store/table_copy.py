@@ -12,8 +12,10 @@ from registry.store import tables as t
 
 
 def catalogue_tables() -> list[Table]:
-    """Every catalogue table in foreign-key order, parents before children."""
-    return list(t.Base.metadata.sorted_tables)
+    """Every catalogue table in foreign-key order, parents before children; a blob's pieces
+    travel as the one file blobs/<digest> (registry/store/blob_store.py), not as rows."""
+    return [table for table in t.Base.metadata.sorted_tables
+            if table.name != t.BlobChunk.__tablename__]
 
 
 class TableCopy:
@@ -29,18 +31,9 @@ class TableCopy:
                 text("SET TRANSACTION ISOLATION LEVEL REPEATABLE READ READ ONLY"))
         # SQLite (WAL): a read transaction sees the snapshot of its first read.
 
-    def rows(self, table: Table, *, leave_out: Sequence[str] = ()) -> Iterator[Row[Any]]:
-        """Every row of a table in primary-key order, without the named columns."""
-        columns = [table.c[c.name] for c in table.columns if c.name not in leave_out]
-        yield from self._session.execute(
-            select(*columns).order_by(*table.primary_key.columns))
-
-    def blob_contents(self) -> Iterator[tuple[str, bytes]]:
-        """(digest, content) of every blob, in digest order, a few at a time."""
-        for row in self._session.execute(select(t.Blob.digest, t.Blob.content)
-                                         .order_by(t.Blob.digest)
-                                         .execution_options(yield_per=8)):
-            yield row.digest, row.content
+    def rows(self, table: Table) -> Iterator[Row[Any]]:
+        """Every row of a table in primary-key order."""
+        yield from self._session.execute(select(table).order_by(*table.primary_key.columns))
 
     def count(self, table: Table) -> int:
         return self._session.execute(select(func.count()).select_from(table)).scalar_one()

@@ -31,11 +31,21 @@ class Base(DeclarativeBase):
 
 
 class Blob(Base):
-    """Content-addressed bytes: documents, per-row predictions, large JSON evidence."""
+    """Content-addressed bytes: documents, per-row predictions, large JSON evidence. The bytes
+    themselves are in `blob_chunks`, so a large document is read a piece at a time."""
 
     __tablename__ = "blobs"
     digest: Mapped[str] = mapped_column(String(64), primary_key=True)  # SHA-256, hex
     size: Mapped[int] = mapped_column(Integer)
+
+
+class BlobChunk(Base):
+    """One piece of a blob's bytes: those from byte `position` on (registry/store/blob_store.py
+    cuts them; an empty blob has none). Only the blob store reads or writes these rows."""
+
+    __tablename__ = "blob_chunks"
+    digest: Mapped[str] = mapped_column(ForeignKey("blobs.digest"), primary_key=True)
+    position: Mapped[int] = mapped_column(BigInteger, primary_key=True)
     content: Mapped[bytes] = mapped_column(LargeBinary)
 
 

@@ -7,7 +7,6 @@ audit chain never forks. Database errors leave as the typed errors of registry.e
 
 from __future__ import annotations
 
-import hashlib
 from collections.abc import Iterator
 from contextlib import AbstractContextManager
 from datetime import datetime
@@ -20,10 +19,11 @@ from sqlalchemy.orm import Session
 
 from registry import clock
 from registry.canonical_json import canonical_json
-from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError, NotFound
+from registry.errors import CatalogueUnavailable, Conflict, LockkeeperError
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash
 from registry.store.audit_repository import AuditEventRepository
+from registry.store.blob_store import BlobStore
 from registry.store.catalogue import Catalogue, describe, sqlite_write_intent
 from registry.store.checkpoint_repository import CheckpointRepository
 from registry.store.consumer_repository import ConsumerRepository
@@ -51,42 +51,6 @@ from registry.store.version_repository import VersionRepository
 
 def utc_now() -> datetime:
     return clock.now()
-
-
-class BlobStore:
-    """Content-addressed bytes kept in the catalogue itself, so they commit with their rows."""
-
-    def __init__(self, session: Session) -> None:
-        self._session = session
-
-    def put(self, content: bytes) -> str:
-        digest = hashlib.sha256(content).hexdigest()
-        if self._session.get(t.Blob, digest) is None:
-            self._session.add(t.Blob(digest=digest, size=len(content), content=content))
-            self._session.flush()
-        return digest
-
-    def get(self, digest: str) -> bytes:
-        blob = self._session.get(t.Blob, digest)
-        if blob is None:
-            raise NotFound(f"no stored content with digest {digest}")
-        return blob.content
-
-    def is_referenced(self, digest: str) -> bool:
-        """Whether any row points at the blob (a version's document, a dataset's fingerprint,
-        an evaluation's predictions)."""
-        pointers = (t.Version.stored_blob_digest, t.Dataset.fingerprint_digest,
-                    t.Evaluation.predictions_digest)
-        return any(self._session.execute(select(column).where(column == digest).limit(1)).first()
-                   is not None for column in pointers)
-
-    def remove(self, digest: str) -> None:
-        """Drop a blob nothing points at (blobs are self-certifying, so no row digest covers
-        them; the foreign keys refuse the removal of one still in use)."""
-        blob = self._session.get(t.Blob, digest)
-        if blob is not None:
-            self._session.delete(blob)
-            self._session.flush()
 
 
 class AuditLog:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import random
 import tracemalloc
 
 from tests.api.api_helpers import problem, set_up_model
@@ -61,6 +62,28 @@ def test_byte_ranges_follow_rfc_9110(api, tmp_path):
     # Several ranges may be answered with the whole representation (section 14.2).
     several = api.get(path, headers={"Range": "bytes=0-1,5-6"})
     assert several.status_code == 200 and several.data == content
+
+
+def test_ranges_across_the_stored_pieces_edges_give_the_bytes_asked_for(api, tmp_path):
+    from registry.store.blob_store import CHUNK_SIZE
+
+    set_up_model(api, tmp_path)
+    content = random.Random(16).randbytes(2 * CHUNK_SIZE + 3)
+    _registered(api, tmp_path, content)
+    path = "/models/m/versions/1/document"
+    whole = api.get(path)
+    # The ETag is the SHA-256 of the bytes as registered (FIPS 180-4 through hashlib).
+    assert whole.data == content
+    assert whole.headers["ETag"] == f'"{hashlib.sha256(content).hexdigest()}"'
+    # RFC 9110 section 14.1.2 ranges (inclusive last byte), checked against Python's slicing.
+    for first, last in [(CHUNK_SIZE - 1, CHUNK_SIZE), (CHUNK_SIZE - 10, 2 * CHUNK_SIZE + 1),
+                        (CHUNK_SIZE, CHUNK_SIZE), (2 * CHUNK_SIZE, len(content) - 1),
+                        (0, CHUNK_SIZE - 1)]:
+        part = api.get(path, headers={"Range": f"bytes={first}-{last}"})
+        assert part.status_code == 206, (first, last)
+        assert part.data == content[first:last + 1], (first, last)
+        assert part.headers["ETag"] == whole.headers["ETag"]
+        assert part.headers["Content-Range"] == f"bytes {first}-{last}/{len(content)}"
 
 
 def test_the_stage_document_follows_the_holder(api, tmp_path):

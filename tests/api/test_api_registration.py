@@ -9,6 +9,7 @@ from pathlib import Path
 from sqlalchemy import select
 
 from registry.store import tables as t
+from registry.store.blob_store import BlobStore
 from registry.store.catalogue import open_catalogue
 
 from tests.api.api_helpers import problem, set_up_model
@@ -41,7 +42,7 @@ def _stored(url: str, model: str) -> tuple:
             version = session.execute(
                 select(t.Version).join(t.Model, t.Model.id == t.Version.model_id)
                 .where(t.Model.name == model)).scalar_one()
-            blob = session.get(t.Blob, version.stored_blob_digest).content
+            blob = BlobStore(session).get(version.stored_blob_digest)
             return (version.document_digest, version.registration_digest, blob,
                     version.stored_blob_digest, version.features_json,
                     version.input_schema_json, version.output_schema_json,

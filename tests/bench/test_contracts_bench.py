@@ -62,7 +62,7 @@ def bench_catalogue(tmp_path_factory):
     now = datetime(2026, 12, 4, tzinfo=UTC)
     texts = [json.dumps(reader_schema(m)) for m in range(MODELS)]
     with catalogue.engine.begin() as connection:
-        connection.execute(insert(t.Blob), [{"digest": "0" * 64, "size": 0, "content": b""}])
+        connection.execute(insert(t.Blob), [{"digest": "0" * 64, "size": 0}])
         connection.execute(insert(t.Feed), [{"id": 1, "name": "bench-feed", "description": "",
                                              "retain_days": 7, "created_at": now,
                                              "created_by": "bench"}])

@@ -72,7 +72,7 @@ def build_graph_catalogue(path):
     now = datetime(2026, 3, 2, tzinfo=UTC)
     started = time.perf_counter()
     with catalogue.engine.begin() as connection:
-        connection.execute(insert(t.Blob), [{"digest": "0" * 64, "size": 0, "content": b""}])
+        connection.execute(insert(t.Blob), [{"digest": "0" * 64, "size": 0}])
         connection.execute(insert(t.Model), [
             {"id": m + 1, "name": f"line-{m}", "description": "", "created_at": now,
              "created_by": "bench"} for m in range(MODELS)])

@@ -29,6 +29,7 @@ from registry.service.roles import grant_role
 from registry.store import sealing
 from registry.store import tables as t
 from registry.store.audit import GENESIS_HASH, event_hash, verify_chain
+from registry.store.blob_store import chunk_rows
 from registry.store.catalogue import open_catalogue
 from registry.store.row_digests import column_digests
 from registry.store.unit_of_work import UnitOfWork
@@ -152,8 +153,8 @@ def _build_large(url: str) -> None:
         rows["stage_holdings"].append(holding)
     catalogue = open_catalogue(url)
     with catalogue.engine.begin() as connection:
-        connection.execute(insert(t.Blob), [{"digest": blob_digest, "size": len(document),
-                                             "content": document}])
+        connection.execute(insert(t.Blob), [{"digest": blob_digest, "size": len(document)}])
+        connection.execute(insert(t.BlobChunk), chunk_rows(blob_digest, document))
         for name in ("models", "versions", "gate_reports", "stage_holdings", "stage_events"):
             connection.execute(insert(tables[name]), rows[name])
         connection.execute(insert(t.AuditEvent), chain.events)

@@ -50,7 +50,7 @@ def test_verify_finds_a_removed_newest_event(cli, tmp_path, catalogue):
 
 def test_verify_names_an_edited_blob(cli, tmp_path, catalogue):
     _registered(cli, tmp_path)
-    _edit(catalogue, "UPDATE blobs SET content = :c", c=b"tampered")
+    _edit(catalogue, "UPDATE blob_chunks SET content = :c", c=b"tampered")
     result = cli("audit", "verify")
     assert result.exit_code == 1 and "blob" in result.stdout
 

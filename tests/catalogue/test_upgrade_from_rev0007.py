@@ -1,4 +1,4 @@
-"""A catalogue made at revision 0007 upgrades to the stored shapes of revision 0008
+"""A catalogue made at revision 0007 upgrades to the stored shapes of revision 0009
 (docs/stored-shapes.md) in place, on SQLite and PostgreSQL: every `--json` read prints what it
 printed before the upgrade, every page answers, `audit verify` passes, and a later change to a
 converted row is named.
@@ -80,7 +80,7 @@ def upgraded(request, tmp_path_factory) -> Iterator[str]:
         result = run_cli(["--db", url, "init", "--json"])
         assert result.exit_code == 0, result.output
         report = json.loads(result.stdout)
-        assert (report["revision_before"], report["revision"]) == ("0007", "0008")
+        assert (report["revision_before"], report["revision"]) == ("0007", "0009")
         yield url
 
 
@@ -116,7 +116,7 @@ def test_the_audit_log_gains_one_conversion_event_and_keeps_the_rest(upgraded):
     newest = after["events"][0]
     assert newest["action"] == "catalogue.convert" and newest["subject"] == "catalogue"
     details = newest["details"]
-    assert details["revision"] == "0008"
+    assert details["revision"] == "0009"
     assert (details["features"], details["evaluations"], details["predictions"]) == (5, 1, 4)
     assert details["blobs_removed"] == 4
     assert after["events"][1:] == before["events"]
@@ -165,7 +165,7 @@ def test_registering_a_converted_version_again_finds_it(upgraded):
 
 def test_a_second_init_converts_nothing(upgraded):
     head = _json(upgraded, "audit", "log", "--limit", "1")["events"][0]
-    assert _json(upgraded, "init")["revision"] == "0008"
+    assert _json(upgraded, "init")["revision"] == "0009"
     assert _json(upgraded, "audit", "log", "--limit", "1")["events"][0] == head
 
 
@@ -276,7 +276,7 @@ def test_a_row_in_no_known_shape_stops_the_upgrade_and_changes_nothing(backend, 
         assert _revision_and_head(url) == before and before[0] == "0007"
 
 
-def test_going_back_below_0008_is_refused_once_rows_were_converted(upgraded_copy):
+def test_going_back_below_0009_is_refused_once_rows_were_converted(upgraded_copy):
     from registry.errors import UserError
     from registry.store import migrate
     from registry.store.catalogue import open_catalogue
@@ -285,6 +285,6 @@ def test_going_back_below_0008_is_refused_once_rows_were_converted(upgraded_copy
     try:
         with pytest.raises(UserError, match="restore an export"):
             migrate.downgrade(catalogue, "0007")
-        assert migrate.current_revision(catalogue) == "0008"
+        assert migrate.current_revision(catalogue) == "0009"
     finally:
         catalogue.close()

@@ -98,18 +98,18 @@ def test_a_flipped_byte_in_a_stored_blob_is_found_and_named(filled, what, query,
     catalogue = filled
     with catalogue.engine.begin() as connection:
         digest = connection.execute(text(query)).scalar_one()
-        content = connection.execute(text("SELECT content FROM blobs WHERE digest = :d"),
-                                     {"d": digest}).scalar_one()
+        content = connection.execute(text(  # the first piece of the blob's bytes
+            "SELECT content FROM blob_chunks WHERE digest = :d AND position = 0"),
+            {"d": digest}).scalar_one()
     rng = random.Random(what)
+    edit = "UPDATE blob_chunks SET content = :c WHERE digest = :d AND position = 0"
     for position in rng.sample(range(len(content)), FLIPS_PER_PLACE):
         with catalogue.engine.begin() as connection:
-            connection.execute(text("UPDATE blobs SET content = :c WHERE digest = :d"),
-                               {"c": _flipped(bytes(content), position), "d": digest})
+            connection.execute(text(edit), {"c": _flipped(bytes(content), position), "d": digest})
         try:
             names = _names(catalogue, place)
             assert f"blob {digest}" in names and place in names, (what, position, names)
         finally:
             with catalogue.engine.begin() as connection:
-                connection.execute(text("UPDATE blobs SET content = :c WHERE digest = :d"),
-                                   {"c": bytes(content), "d": digest})
+                connection.execute(text(edit), {"c": bytes(content), "d": digest})
     assert verify_catalogue(catalogue).ok

@@ -329,7 +329,7 @@ def test_a_neighbourhood_too_large_to_draw_is_listed_instead(tmp_path):
     now = datetime(2026, 3, 2, tzinfo=UTC)
     count = MAX_DRAWN_NODES + 10
     with catalogue.engine.begin() as connection:
-        connection.execute(insert(t.Blob), [{"digest": "0" * 64, "size": 0, "content": b""}])
+        connection.execute(insert(t.Blob), [{"digest": "0" * 64, "size": 0}])
         connection.execute(insert(t.Dataset), [
             {"id": i, "name": f"part-{i}", "role": "source", "source_uri": "", "rows": 1,
              "content_digest": "0" * 64, "schema_fingerprint": "0" * 64, "schema_json": "{}",

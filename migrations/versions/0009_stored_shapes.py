@@ -2,15 +2,15 @@
 as Arrow IPC files (docs/stored-shapes.md). No table changes; the rows of an existing catalogue
 are converted in the upgrade's own transaction and sealed by one `catalogue.convert` event.
 
-Revision ID: 0008
-Revises: 0007
+Revision ID: 0009
+Revises: 0008
 Create Date: 2026-12-04 18:40:00.000000
 """
 
 from alembic import context, op
 
-revision = "0008"
-down_revision = "0007"
+revision = "0009"
+down_revision = "0008"
 branch_labels = None
 depends_on = None
 
