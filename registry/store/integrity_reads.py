@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
