@@ -565,24 +565,35 @@ def conform_dictionary(array: pa.Array, value_type: ValueType, name: str,
     """conform_column for a dictionary-encoded text column: the same checks and the same
     errors, each value checked once in the dictionary rather than once per row."""
     encoded = cast(pa.DictionaryArray, array)
-    if encoded.null_count and not value_type.nullable:
-        row = int(np.argmax(pc.is_null(encoded).to_numpy(zero_copy_only=False)))
-        raise ValueNotParsing("a value is missing in a column that is not nullable",
-                              place=cell(first_row + row + 1, name))
+    _refuse_missing(encoded, value_type, name, first_row)
     if value_type.avro == "enum" and len(encoded):
-        known = pc.is_in(encoded.dictionary,
-                         value_set=pa.array(value_type.symbols, type=pa.string()))
-        unknown = ~known.to_numpy(zero_copy_only=False)
+        unknown = ~_symbols_known(encoded.dictionary, value_type).to_numpy(zero_copy_only=False)
         if unknown.any():
             indices = encoded.indices.fill_null(0).to_numpy(zero_copy_only=False)
-            bad = unknown[indices]
-            if encoded.null_count:
-                bad &= pc.is_valid(encoded).to_numpy(zero_copy_only=False)
-            if bad.any():
-                row = int(np.argmax(bad))
-                raise ValueNotParsing(f"{encoded[row].as_py()!r} is not a symbol of the enum",
-                                      place=cell(first_row + row + 1, name))
+            _refuse_unknown_symbols(unknown[indices], encoded, name, first_row)
     return encoded
+
+
+def _refuse_missing(array: pa.Array, value_type: ValueType, name: str, first_row: int) -> None:
+    if array.null_count and not value_type.nullable:
+        row = int(np.argmax(pc.is_null(array).to_numpy(zero_copy_only=False)))
+        raise ValueNotParsing("a value is missing in a column that is not nullable",
+                              place=cell(first_row + row + 1, name))
+
+
+def _symbols_known(array: pa.Array, value_type: ValueType) -> pa.Array:
+    return pc.is_in(array, value_set=pa.array(value_type.symbols, type=pa.string()))
+
+
+def _refuse_unknown_symbols(bad: np.ndarray, array: pa.Array, name: str,
+                            first_row: int) -> None:
+    """`bad` marks the rows whose value is not a symbol; nulls (of a nullable enum) are not."""
+    if array.null_count:
+        bad &= pc.is_valid(array).to_numpy(zero_copy_only=False)
+    if bad.any():
+        row = int(np.argmax(bad))
+        raise ValueNotParsing(f"{array[row].as_py()!r} is not a symbol of the enum",
+                              place=cell(first_row + row + 1, name))
 
 
 def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row: int,
@@ -599,10 +610,7 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
         array = _cast(array, target, value_type, name, first_row)
     if value_type.avro == "float":
         array = array.cast(pa.float32()).cast(pa.float64())  # Avro float is binary32
-    if array.null_count and not value_type.nullable:
-        row = int(np.argmax(pc.is_null(array).to_numpy(zero_copy_only=False)))
-        raise ValueNotParsing("a value is missing in a column that is not nullable",
-                              place=cell(first_row + row + 1, name))
+    _refuse_missing(array, value_type, name, first_row)
     if value_type.avro == "int" and len(array):
         values = array.fill_null(0).to_numpy(zero_copy_only=False)
         outside = (values < -(2**31)) | (values >= 2**31)
@@ -611,14 +619,9 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
             raise ValueNotParsing(f"{values[row]} does not fit an Avro int",
                                   place=cell(first_row + row + 1, name))
     if value_type.avro == "enum":
-        known = pc.is_in(array, value_set=pa.array(value_type.symbols, type=pa.string()))
-        bad = ~known.fill_null(True).to_numpy(zero_copy_only=False)
-        if array.null_count:
-            bad &= pc.is_valid(array).to_numpy(zero_copy_only=False)
-        if bad.any():
-            row = int(np.argmax(bad))
-            raise ValueNotParsing(f"{array[row].as_py()!r} is not a symbol of the enum",
-                                  place=cell(first_row + row + 1, name))
+        known = _symbols_known(array, value_type)
+        _refuse_unknown_symbols(~known.fill_null(True).to_numpy(zero_copy_only=False), array,
+                                name, first_row)
     return array
 
 
