@@ -34,13 +34,20 @@ def hash_strings(offsets, data, out):
 
 
 @numba.njit(cache=True, nogil=True)
+def _table_size(n):
+    """The power of two at least twice n: open addressing stays short-probed at half full."""
+    size = 1
+    while size < 2 * n:
+        size *= 2
+    return size
+
+
+@numba.njit(cache=True, nogil=True)
 def first_repeat(hashes):
     """The index of the first hash equal to an earlier one, or -1: one pass over an open-
     addressing table (linear probing) twice the size of the input, so no sort is needed."""
     n = hashes.shape[0]
-    size = 1
-    while size < 2 * n:
-        size *= 2
+    size = _table_size(n)
     mask = np.uint64(size - 1)
     table = np.zeros(size, np.uint64)
     used = np.zeros(size, np.bool_)
@@ -61,9 +68,7 @@ def index_of(keys):
     """An open-addressing table (linear probing, twice the size of the input) of distinct
     hashes: (slots, positions + 1 with 0 for an empty slot, mask)."""
     n = keys.shape[0]
-    size = 1
-    while size < 2 * n:
-        size *= 2
+    size = _table_size(n)
     mask = np.uint64(size - 1)
     slots = np.zeros(size, np.uint64)
     positions = np.zeros(size, np.int64)

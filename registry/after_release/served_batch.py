@@ -326,8 +326,11 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     format = format or guess_format(path)
     open_source(path, {"type": "record", "name": "Probe", "fields": []}, format)  # not empty
     schema, task, predicted, inputs = served_schema(path, format, schema_json, context)
-    # Text inputs are profiled by their Parquet dictionary, never spelt out row by row.
-    source = replace(open_source(path, schema, format), dictionaries=True)
+    # Text inputs are profiled by their Parquet dictionary, never spelt out row by row (not
+    # the row ids: each is distinct, so their dictionary would be as long as the column).
+    source = open_source(path, schema, format)
+    source = replace(source, dictionaries=tuple(
+        name for name in inputs if source.record.field(name).avro in ("string", "enum")))
     record = source.record
     groups: dict[tuple[int, int], WindowRows] = {}
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}

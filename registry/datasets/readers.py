@@ -11,7 +11,7 @@ import csv
 import datetime
 import json
 import os
-from collections.abc import Callable, Iterable, Iterator, Mapping
+from collections.abc import Callable, Collection, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from functools import cached_property, partial
 from typing import IO, Any, cast
@@ -54,9 +54,10 @@ class Source:
     # itself holds the other fields (file_record).
     partition: tuple[tuple[str, Any], ...] = ()
     threads: bool = True  # may the reader decode on threads of its own (Parquet)
-    # Text and enum columns stay dictionary-encoded as Parquet stores them (checked and counted
-    # by their dictionary); for readers that only profile them, not for the content digest.
-    dictionaries: bool = False
+    # Text and enum columns that stay dictionary-encoded as Parquet stores them (checked and
+    # counted by their dictionary): for readers that only profile them, never the content digest,
+    # and for columns of few distinct values (a column of ids would build a dictionary as long).
+    dictionaries: tuple[str, ...] = ()
 
     @property
     def schema_json(self) -> Mapping[str, Any]:
@@ -422,7 +423,7 @@ def _parquet_batch_rows(parquet: pq.ParquetFile, batch_rows: int) -> int:
 
 def _parquet_batches(source: Source, part: Part, batch_rows: int):
     record = source.file_record
-    parquet = _parquet_file(source.path, _dictionary_columns(source.path, record)
+    parquet = _parquet_file(source.path, _dictionary_columns(source.path, source.dictionaries)
                             if source.dictionaries else None)
     present = parquet.schema_arrow.names
     columns = _check_columns(present, record)
@@ -437,19 +438,17 @@ def _parquet_batches(source: Source, part: Part, batch_rows: int):
                                            columns=columns, use_threads=source.threads)
             for batch in batches:
                 yield first_row, conform(batch, record, first_row, parse_text=False,
-                                         keep_dictionaries=source.dictionaries)
+                                         dictionaries=source.dictionaries)
                 first_row += batch.num_rows
         except pa.ArrowException as error:
             raise DatasetFileError(f"the Parquet file is truncated or damaged ({error})",
                                    place=f"row {first_row + 1}") from error
 
 
-def _dictionary_columns(path: str, record: RecordType) -> list[str]:
-    """The text and enum fields whose Parquet column holds text."""
+def _dictionary_columns(path: str, names: tuple[str, ...]) -> list[str]:
+    """Those of the columns named whose Parquet column holds text."""
     stored = _parquet_file(path).schema_arrow
-    wanted = {name for name, value_type in record.fields
-              if value_type.avro in ("string", "enum")}
-    return [f.name for f in stored if f.name in wanted and (
+    return [f.name for f in stored if f.name in names and (
         pa.types.is_string(f.type) or pa.types.is_large_string(f.type))]
 
 
@@ -533,16 +532,16 @@ def _check_columns(present: list[str], record: RecordType) -> list[str]:
 
 
 def conform(batch: pa.RecordBatch, record: RecordType, first_row: int,
-            parse_text: bool, keep_dictionaries: bool = False) -> pa.RecordBatch:
+            parse_text: bool, dictionaries: Collection[str] = ()) -> pa.RecordBatch:
     """The batch with each column typed as its field says, or an error naming the bad value.
-    With keep_dictionaries, a dictionary-encoded text or enum column stays so (its values are
+    A dictionary-encoded text or enum column named in `dictionaries` stays so (its values are
     checked through the dictionary)."""
     columns: list[pa.Array] = []
     names = batch.schema.names
     for name, value_type in record.fields:
         if name in names:
             array = batch.column(names.index(name))
-            if keep_dictionaries and _is_text_dictionary(array, value_type):
+            if name in dictionaries and _is_text_dictionary(array, value_type):
                 columns.append(conform_dictionary(array, value_type, name, first_row))
             else:
                 columns.append(conform_column(array, value_type, name, first_row, parse_text))
@@ -551,7 +550,7 @@ def conform(batch: pa.RecordBatch, record: RecordType, first_row: int,
                                     type=value_type.arrow_type()))
     schema = record.arrow_schema()
     for index, column in enumerate(columns):
-        if keep_dictionaries and pa.types.is_dictionary(column.type):
+        if pa.types.is_dictionary(column.type) and schema.field(index).name in dictionaries:
             schema = schema.set(index, schema.field(index).with_type(column.type))
     return pa.RecordBatch.from_arrays(columns, schema=schema)
 
@@ -566,24 +565,35 @@ def conform_dictionary(array: pa.Array, value_type: ValueType, name: str,
     """conform_column for a dictionary-encoded text column: the same checks and the same
     errors, each value checked once in the dictionary rather than once per row."""
     encoded = cast(pa.DictionaryArray, array)
-    if encoded.null_count and not value_type.nullable:
-        row = int(np.argmax(pc.is_null(encoded).to_numpy(zero_copy_only=False)))
-        raise ValueNotParsing("a value is missing in a column that is not nullable",
-                              place=cell(first_row + row + 1, name))
+    _refuse_missing(encoded, value_type, name, first_row)
     if value_type.avro == "enum" and len(encoded):
-        known = pc.is_in(encoded.dictionary,
-                         value_set=pa.array(value_type.symbols, type=pa.string()))
-        unknown = ~known.to_numpy(zero_copy_only=False)
+        unknown = ~_symbols_known(encoded.dictionary, value_type).to_numpy(zero_copy_only=False)
         if unknown.any():
             indices = encoded.indices.fill_null(0).to_numpy(zero_copy_only=False)
-            bad = unknown[indices]
-            if encoded.null_count:
-                bad &= pc.is_valid(encoded).to_numpy(zero_copy_only=False)
-            if bad.any():
-                row = int(np.argmax(bad))
-                raise ValueNotParsing(f"{encoded[row].as_py()!r} is not a symbol of the enum",
-                                      place=cell(first_row + row + 1, name))
+            _refuse_unknown_symbols(unknown[indices], encoded, name, first_row)
     return encoded
+
+
+def _refuse_missing(array: pa.Array, value_type: ValueType, name: str, first_row: int) -> None:
+    if array.null_count and not value_type.nullable:
+        row = int(np.argmax(pc.is_null(array).to_numpy(zero_copy_only=False)))
+        raise ValueNotParsing("a value is missing in a column that is not nullable",
+                              place=cell(first_row + row + 1, name))
+
+
+def _symbols_known(array: pa.Array, value_type: ValueType) -> pa.Array:
+    return pc.is_in(array, value_set=pa.array(value_type.symbols, type=pa.string()))
+
+
+def _refuse_unknown_symbols(bad: np.ndarray, array: pa.Array, name: str,
+                            first_row: int) -> None:
+    """`bad` marks the rows whose value is not a symbol; nulls (of a nullable enum) are not."""
+    if array.null_count:
+        bad &= pc.is_valid(array).to_numpy(zero_copy_only=False)
+    if bad.any():
+        row = int(np.argmax(bad))
+        raise ValueNotParsing(f"{array[row].as_py()!r} is not a symbol of the enum",
+                              place=cell(first_row + row + 1, name))
 
 
 def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row: int,
@@ -600,10 +610,7 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
         array = _cast(array, target, value_type, name, first_row)
     if value_type.avro == "float":
         array = array.cast(pa.float32()).cast(pa.float64())  # Avro float is binary32
-    if array.null_count and not value_type.nullable:
-        row = int(np.argmax(pc.is_null(array).to_numpy(zero_copy_only=False)))
-        raise ValueNotParsing("a value is missing in a column that is not nullable",
-                              place=cell(first_row + row + 1, name))
+    _refuse_missing(array, value_type, name, first_row)
     if value_type.avro == "int" and len(array):
         values = array.fill_null(0).to_numpy(zero_copy_only=False)
         outside = (values < -(2**31)) | (values >= 2**31)
@@ -612,14 +619,9 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
             raise ValueNotParsing(f"{values[row]} does not fit an Avro int",
                                   place=cell(first_row + row + 1, name))
     if value_type.avro == "enum":
-        known = pc.is_in(array, value_set=pa.array(value_type.symbols, type=pa.string()))
-        bad = ~known.fill_null(True).to_numpy(zero_copy_only=False)
-        if array.null_count:
-            bad &= pc.is_valid(array).to_numpy(zero_copy_only=False)
-        if bad.any():
-            row = int(np.argmax(bad))
-            raise ValueNotParsing(f"{array[row].as_py()!r} is not a symbol of the enum",
-                                  place=cell(first_row + row + 1, name))
+        known = _symbols_known(array, value_type)
+        _refuse_unknown_symbols(~known.fill_null(True).to_numpy(zero_copy_only=False), array,
+                                name, first_row)
     return array
 
 
