@@ -11,6 +11,7 @@ Folder layout (format `lockkeeper-export/1`, docs/export-format.md):
 
 from __future__ import annotations
 
+import base64
 import hashlib
 import json
 import os
@@ -56,7 +57,11 @@ class BackupSummary:
 
 
 def _plain(value: Any) -> Any:
-    return utc_iso(value) if isinstance(value, datetime) else value
+    if isinstance(value, datetime):
+        return utc_iso(value)
+    if isinstance(value, (bytes, memoryview)):  # a bytes column kept in its row (served rows)
+        return base64.b64encode(bytes(value)).decode("ascii")
+    return value
 
 
 def _row_line(table: Table, row: Any) -> bytes:

@@ -5,18 +5,21 @@ exported audit chain. Each problem names its file and line."""
 
 from __future__ import annotations
 
+import base64
+import binascii
 import json
 from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any
 
-from sqlalchemy import Boolean, DateTime, Integer, LargeBinary, String, Table
+from sqlalchemy import BigInteger, Boolean, DateTime, Integer, LargeBinary, String, Table
 
 from registry.service.export_folder import BadExport
 from registry.service.row_coverage import ReplayedRows, compare_all, parse_rows
 from registry.store import tables as t
 
-LARGEST_INTEGER = 2**31 - 1  # every integer column is 32-bit on PostgreSQL
+LARGEST_INTEGER = 2**31 - 1  # an Integer column is 32-bit on PostgreSQL
+LARGEST_BIG_INTEGER = 2**63 - 1  # a BigInteger column is 64-bit
 
 
 @dataclass
@@ -67,6 +70,17 @@ def _typed_row(table: Table, record: dict[str, Any], place: str) -> dict[str, An
     return row
 
 
+def _bytes_value(name: str, value: Any, place: str) -> bytes:
+    """Bytes kept in their row (served rows) travel as base64 text (RFC 4648, section 4)."""
+    not_base64 = BadExport(f"column {name} is not base64 text", place=place)
+    if not isinstance(value, str):
+        raise not_base64
+    try:
+        return base64.b64decode(value, validate=True)
+    except binascii.Error:
+        raise not_base64 from None
+
+
 def _column_value(table: Table, name: str, value: Any, place: str) -> Any:
     if name not in table.c:
         raise BadExport(f"unknown column {name!r}", place=place)
@@ -86,12 +100,14 @@ def _column_value(table: Table, name: str, value: Any, place: str) -> Any:
             raise BadExport(f"column {name} is not true or false", place=place)
         return value
     if isinstance(column_type, Integer):
+        bits, largest = (64, LARGEST_BIG_INTEGER) if isinstance(column_type, BigInteger) \
+            else (32, LARGEST_INTEGER)
         if not isinstance(value, int) or isinstance(value, bool) or \
-                not -LARGEST_INTEGER - 1 <= value <= LARGEST_INTEGER:
-            raise BadExport(f"column {name} is not a 32-bit integer", place=place)
+                not -largest - 1 <= value <= largest:
+            raise BadExport(f"column {name} is not a {bits}-bit integer", place=place)
         return value
     if isinstance(column_type, LargeBinary):
-        raise BadExport(f"column {name} is kept in blobs/, not in the table", place=place)
+        return _bytes_value(name, value, place)
     if isinstance(column_type, String):  # Text too
         if not isinstance(value, str):
             raise BadExport(f"column {name} is not text", place=place)
