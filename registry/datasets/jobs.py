@@ -51,7 +51,9 @@ def run_job(job: Job, settings: JobSettings, threads: bool = False,
 # Read and hash in large pieces: both calls let go of the GIL, and each piece needs it back
 # once. hashlib.file_digest reads 256 KiB at a time, so a file hashed on a thread beside one
 # that holds the GIL (loading the kernels) waited a switch interval (5 ms) per 256 KiB.
-HASH_PIECE = 8 * 1024 * 1024
+# 2 MiB: 21 of the benchmark's 40 files hashed during the kernel load (9 before); 8 MiB hashed
+# 25 but put a worker's peak memory past four row groups.
+HASH_PIECE = 2 * 1024 * 1024
 
 
 def file_sha256(path: str) -> str:
