@@ -164,7 +164,12 @@ def _remove_the_manifest(folder: Path) -> None:
 
 @pytest.mark.parametrize("damage", [_flip_a_blob_byte, _edit_a_row, _remove_the_manifest])
 def test_import_of_a_damaged_export_is_refused_and_changes_nothing(cli, tmp_path, damage):
-    folder = _damaged_export(cli, tmp_path, damage)
+    refused_import(_damaged_export(cli, tmp_path, damage), tmp_path)
+
+
+def refused_import(folder: Path, tmp_path: Path) -> str:
+    """Import `folder` into a new initialised catalogue, see it refused in one line with exit 2
+    and nothing changed, and give back that line."""
     with fresh_catalogue_url("sqlite", tmp_path) as target:
         Cli(target).json("init")
         before = read_state(target)
@@ -172,6 +177,7 @@ def test_import_of_a_damaged_export_is_refused_and_changes_nothing(cli, tmp_path
         assert result.exit_code == 2, result.output
         assert len(result.stderr.strip().splitlines()) == 1
         assert read_state(target) == before
+    return result.stderr.strip()
 
 
 def test_import_from_a_missing_folder_is_refused(cli, tmp_path):
