@@ -10,6 +10,9 @@ Configuration (app.config):
                          needs a token of any role)
   LOCKKEEPER_MAX_WAITING how many requests one process holds open waiting for a change
                          (`?wait=`); more get 503 with Retry-After (default 64)
+  LOCKKEEPER_DOCUMENT_CACHE the folder of the server's checked copies of large documents
+                         (default: none; the production entry points give one)
+  LOCKKEEPER_DOCUMENT_CACHE_BYTES the most disk those copies use (default 1 GiB)
   MAX_CONTENT_LENGTH     the largest body accepted, in bytes (default 64 MiB); larger uploads
                          get 413 before their body is read
 """

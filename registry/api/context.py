@@ -4,16 +4,19 @@ from __future__ import annotations
 
 import threading
 from collections.abc import Callable
+from pathlib import Path
 from typing import TypeVar
 
 from flask import current_app, g
 
 from registry.service.cached_reads import CachedReads
 from registry.service.change_watch import ChangeWatcher
+from registry.service.document_cache import DEFAULT_MAX_BYTES, DocumentCache
 from registry.store.catalogue import Catalogue
 
 READS_EXTENSION = "lockkeeper.cached_reads"
 WATCH_EXTENSION = "lockkeeper.change_watch"
+CACHE_EXTENSION = "lockkeeper.document_cache"
 DEFAULT_MAX_WAITING = 64  # requests one process may hold open waiting for a change
 HOLDER_EXTENSION = "lockkeeper"  # registry/app.py's CatalogueHolder, shared with the pages
 _opening = threading.RLock()  # reentrant: making one object may open another
@@ -54,3 +57,18 @@ def generation() -> int:
     if "catalogue_generation" not in g:
         g.catalogue_generation = cached_reads().generation()
     return g.catalogue_generation
+
+
+def document_cache() -> DocumentCache:
+    """The process's copies of large documents: in the folder LOCKKEEPER_DOCUMENT_CACHE (unset
+    or empty: none), at most LOCKKEEPER_DOCUMENT_CACHE_BYTES."""
+    config = current_app.config
+
+    def make() -> DocumentCache:
+        folder = config.get("LOCKKEEPER_DOCUMENT_CACHE")
+        if not folder:
+            return DocumentCache.off()
+        return DocumentCache(Path(folder), max_bytes=int(
+            config.get("LOCKKEEPER_DOCUMENT_CACHE_BYTES", DEFAULT_MAX_BYTES)))
+
+    return _once_per_app(CACHE_EXTENSION, make)

@@ -43,9 +43,16 @@ def gunicorn_application(app, options: dict):
 @click.option("--threads", type=click.IntRange(2, 1024), default=32, show_default=True,
               help="Threads per worker; requests waiting for a change (?wait=) each hold one, "
                    "up to three quarters of them.")
-def serve(host: str, port: int, workers: int, threads: int) -> None:
+@click.option("--document-cache", metavar="FOLDER|off", default=None,
+              help="Where the server keeps checked copies of large documents it hands out "
+                   "[default: ~/.cache/lockkeeper/documents]; off for none.")
+@click.option("--document-cache-mib", type=click.IntRange(1, 1 << 24), default=1024,
+              show_default=True, help="The most disk those copies may use, in MiB.")
+def serve(host: str, port: int, workers: int, threads: int, document_cache: str | None,
+          document_cache_mib: int) -> None:
     """Serve the read-only lineage browser at http://HOST:PORT/ (gunicorn)."""
     from registry.app import create_app
+    from registry.service.document_cache import folder_setting
     from registry.store.catalogue import open_catalogue
 
     context = click.get_current_context().obj
@@ -56,7 +63,10 @@ def serve(host: str, port: int, workers: int, threads: int) -> None:
     if not _is_loopback(host):
         warn(f"lockkeeper: serving on {host}, beyond this machine; the pages have no login")
     # Waiting requests may take three quarters of the threads; the rest answer everyone else.
-    app = create_app(context.db_url, config={"LOCKKEEPER_MAX_WAITING": max(1, threads * 3 // 4)})
+    app = create_app(context.db_url, config={
+        "LOCKKEEPER_MAX_WAITING": max(1, threads * 3 // 4),
+        "LOCKKEEPER_DOCUMENT_CACHE": folder_setting(document_cache),
+        "LOCKKEEPER_DOCUMENT_CACHE_BYTES": document_cache_mib << 20})
     warn(f"lockkeeper: serving the catalogue on http://{host}:{port}/ with {workers} worker(s)")
     gunicorn_application(app, {"bind": f"{host}:{port}", "workers": workers,
                                "worker_class": "gthread", "threads": threads,

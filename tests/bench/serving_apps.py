@@ -1,15 +1,22 @@
-"""The WSGI app the serving benchmark runs under gunicorn: Lockkeeper's API, and beside it, in
-the same workers, bare apps that send the same bytes: streamed from a file a megabyte at a time
-(`/bare`), or, on PostgreSQL, every piece of the blob read in one query before the first is sent
-(`/bare-database`), for comparison: what the database itself costs."""
+"""The WSGI app the serving benchmark runs under gunicorn: Lockkeeper's API as production runs
+it (registry/api/wsgi.py, with its document cache), and beside it, in the same workers: the same
+API with no document cache (`/uncached`, every byte from the catalogue), and bare apps that send
+the same bytes: streamed from a file a megabyte at a time (`/bare`), or, on PostgreSQL, every
+piece of the blob read in one query before the first is sent (`/bare-database`), for comparison:
+what the database itself costs."""
 
 from __future__ import annotations
 
 import os
 
 from registry.api.wsgi import app as lockkeeper_app
+from registry.app import create_app
+
+uncached_app = create_app(os.environ.get("LOCKKEEPER_DB"), pages=False,
+                          config={"LOCKKEEPER_DOCUMENT_CACHE": ""})
 
 BARE_PREFIX = "/bare"
+UNCACHED_PREFIX = "/uncached"
 DATABASE_PREFIX = "/bare-database"
 CHUNK = 1024 * 1024
 
@@ -45,6 +52,9 @@ def bare_database_app(environ, start_response):
 
 
 def app(environ, start_response):
+    if environ.get("PATH_INFO", "").startswith(UNCACHED_PREFIX):
+        environ["PATH_INFO"] = environ["PATH_INFO"][len(UNCACHED_PREFIX):]
+        return uncached_app(environ, start_response)
     if environ.get("PATH_INFO", "").startswith(DATABASE_PREFIX):
         return bare_database_app(environ, start_response)
     if environ.get("PATH_INFO", "").startswith(BARE_PREFIX):

@@ -1,19 +1,26 @@
 """The documents themselves, exactly as registered: of a version, or of whoever holds a stage.
 
 The bytes stream from the catalogue a chunk at a time, so a document larger than memory is
-served without being loaded whole. ETag is the SHA-256 of the bytes (what a release statement's
-subject names); If-None-Match gives 304; a single byte range (RFC 9110 section 14) gives 206.
+served without being loaded whole; a large one comes from the server's own checked copy once it
+has one (registry/service/document_cache.py). ETag is the SHA-256 of the bytes (what a release
+statement's subject names); If-None-Match gives 304; a single byte range (RFC 9110 section 14)
+gives 206.
 """
 
 from __future__ import annotations
 
-from flask import Response, request
+from collections.abc import Iterable
+from typing import BinaryIO
 
-from registry.api.context import catalogue
+from flask import Response, request
+from werkzeug.wsgi import wrap_file
+
+from registry.api.context import catalogue, document_cache
 from registry.api.problems import problem_response
 from registry.api.rendering import path_name
 from registry.api.routing import route
 from registry.service.document_fetch import StoredDocument, document_chunks, find_document
+from registry.store.blob_store import CHUNK_SIZE
 
 VERSION_HEADER = "Lockkeeper-Version"  # which version's document this is, for a stage's holder
 DOCUMENT_RESPONSES = {200: "The document's bytes", 206: "Partial Content: the range asked for",
@@ -57,9 +64,31 @@ def serve_document(document: StoredDocument, *, immutable: bool) -> Response:
     if span:
         headers["Content-Range"] = f"bytes {start}-{end - 1}/{document.size}"
     headers["Content-Length"] = str(end - start)
-    body = document_chunks(catalogue(), document, start, end)
+    body = _body(document, start, end, whole=not span)
     return Response(body, status=206 if span else 200, headers=headers,
                     mimetype=document.media_type, direct_passthrough=True)
+
+
+def _body(document: StoredDocument, start: int, end: int, *, whole: bool) -> Iterable[bytes]:
+    """The bytes [start, end): from the server's copy when it has one it trusts (the whole
+    file through the WSGI server's file wrapper, which may send it without copying), else from
+    the catalogue, keeping a copy on the way when the whole document is asked for."""
+    cache = document_cache()
+    copy = cache.open(document.sha256, document.size)
+    if copy is None:
+        chunks = document_chunks(catalogue(), document, start, end)
+        return cache.filling(document.sha256, document.size, chunks) if whole else chunks
+    if whole:
+        return wrap_file(request.environ, copy, CHUNK_SIZE)
+    return _file_range(copy, start, end)
+
+
+def _file_range(copy: BinaryIO, start: int, end: int) -> Iterable[bytes]:
+    with copy:
+        copy.seek(start)
+        while start < end and (chunk := copy.read(min(CHUNK_SIZE, end - start))):
+            start += len(chunk)
+            yield chunk
 
 
 @route("/models/<model>/versions/<number:version>/document", "GET", summary="A version's "
