@@ -8,8 +8,9 @@ it is tested against is row_ids.hash_row_ids_reference.
 
 from __future__ import annotations
 
-import numba
 import numpy as np
+
+from registry.numba_import import numba
 
 FNV_OFFSET = np.uint64(0xCBF29CE484222325)
 FNV_PRIME = np.uint64(0x100000001B3)

@@ -52,7 +52,8 @@ def run_job(job: Job, settings: JobSettings, threads: bool = False,
 # once. hashlib.file_digest reads 256 KiB at a time, so a file hashed on a thread beside one
 # that holds the GIL (loading the kernels) waited a switch interval (5 ms) per 256 KiB.
 # 2 MiB: 21 of the benchmark's 40 files hashed during the kernel load (9 before); 8 MiB hashed
-# 25 but put a worker's peak memory past four row groups.
+# 25 but put a worker's peak memory past four row groups. (Those digests now come from a helper
+# process, file_digests.py, which hashed 38 to 40 of them in that time on a busy machine.)
 HASH_PIECE = 2 * 1024 * 1024
 
 

@@ -11,8 +11,9 @@ definitions.
 
 from __future__ import annotations
 
-import numba
 import numpy as np
+
+from registry.numba_import import numba
 
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)

@@ -16,7 +16,6 @@ from concurrent.futures import (
     FIRST_COMPLETED,
     Future,
     ProcessPoolExecutor,
-    ThreadPoolExecutor,
     wait,
 )
 from concurrent.futures.process import BrokenProcessPool
@@ -24,11 +23,12 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from registry.datasets.errors import EmptyDataset
+from registry.datasets.file_digests import DigestHelper
 from registry.datasets.fingerprint import DatasetFingerprint, empty_fingerprint, merge_fingerprints
-from registry.datasets.jobs import JobResult, file_sha256, run_job
+from registry.datasets.jobs import JobResult, run_job
 from registry.datasets.locations import SourceFile
 from registry.datasets.plan import FingerprintPlan, Job, plan_fingerprint
-from registry.errors import LockkeeperError, UserError
+from registry.errors import UserError
 
 CLUSTER_TIMEOUT = 10.0  # seconds to wait for a Dask scheduler to answer
 
@@ -119,37 +119,18 @@ def run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[
     jobs from the front of the list, this process from the back, until they meet.
 
     Loading the kernels comes first, in this process alone, so the children start with them;
-    meanwhile the other core takes the SHA-256 of as many files as it can, which their jobs
-    then need not take."""
-    loaded = threading.Event()
-    with ThreadPoolExecutor(max_workers=1, thread_name_prefix="file-digests") as hashing:
-        digesting = hashing.submit(file_digests, plan, loaded)
-        try:
-            import registry.datasets.warm_start  # noqa: F401 - the kernels, loaded once for all
-        finally:
-            loaded.set()
-        digests = digesting.result()
-    # the thread has ended (fork only while this process runs one thread: _start_method)
+    meanwhile a helper process on the other core takes the SHA-256 of as many files as it can,
+    which their jobs then need not take."""
+    helper = DigestHelper(plan, _start_method())
+    try:
+        import registry.datasets.warm_start  # noqa: F401 - the kernels, loaded once for all
+    finally:
+        digests = helper.stop()
     plan = replace(plan, jobs=tuple(replace(job, hashes_file=False) if job.file in digests
                                     else job for job in plan.jobs))
     results = _run_on_processes(plan, workers, tally)
     return [JobResult(result.fingerprint, digests[job.file]) if job.file in digests else result
             for job, result in zip(plan.jobs, results, strict=True)]
-
-
-def file_digests(plan: FingerprintPlan, stop: threading.Event) -> dict[int, str]:
-    """The SHA-256 of the plan's files, from the last (this process's first job) back, until
-    told to stop; a file that does not read is left to its job, which reports it as ever."""
-    digests = {}
-    for index in reversed(range(len(plan.files))):
-        if stop.is_set():
-            break
-        data_file = plan.files[index]
-        try:
-            digests[index] = file_sha256(data_file.path)
-        except LockkeeperError:
-            continue
-    return digests
 
 
 def _run_on_processes(plan: FingerprintPlan, workers: int, tally: Tally) -> list[JobResult]:

@@ -7,12 +7,12 @@ resamples), so the work per row is a few vector additions.
 
 from __future__ import annotations
 
-import numba
 import numpy as np
 from llvmlite import ir
-from numba import types
-from numba.core import cgutils
-from numba.extending import intrinsic
+
+from registry.numba_import import numba
+
+types, cgutils, intrinsic = numba.types, numba.core.cgutils, numba.extending.intrinsic
 
 # Rows read ahead of the one being added. The rows come in score order, which is random order in
 # memory, and each read would otherwise wait for its cache miss; 64 rows of 16 resamples keep
@@ -65,7 +65,7 @@ def weighted_average_precision(weights, order, is_positive, closes_group):
     last = rows - 1
     for position in range(rows):
         # A numba intrinsic: numba passes the typing context its declaration begins with.
-        _prefetch_row(weights, order[min(position + READ_AHEAD, last)])  # type: ignore[call-arg]
+        _prefetch_row(weights, order[min(position + READ_AHEAD, last)])
         row = weights[order[position]]
         if is_positive[position]:
             for r in range(resamples):

@@ -49,19 +49,19 @@ def test_workers_give_the_fingerprint_of_one_process_to_the_bit(folder):
 def test_files_hashed_while_the_kernels_load_are_listed_as_their_jobs_would(folder,
                                                                             monkeypatch):
     import hashlib
-    import threading
 
-    from registry.datasets import workers
+    from registry.datasets import file_digests, workers
 
     hashed = []
-    take_digests = workers.file_digests
 
-    def every_file(planned, stop: threading.Event):  # as if loading took long enough for all
-        digests = take_digests(planned, threading.Event())
-        hashed.append(len(digests))
-        return digests
+    class Patient(file_digests.DigestHelper):
+        def stop(self):
+            self._process.join()  # as if loading took long enough for every file
+            digests = super().stop()
+            hashed.append(len(digests))
+            return digests
 
-    monkeypatch.setattr(workers, "file_digests", every_file)
+    monkeypatch.setattr(workers, "DigestHelper", Patient)
     here = fingerprint_dataset([str(folder)], **OPTIONS)
     two = fingerprint_dataset([str(folder)], workers=2, **OPTIONS)
     assert hashed == [6]
@@ -70,6 +70,28 @@ def test_files_hashed_while_the_kernels_load_are_listed_as_their_jobs_would(fold
     assert {s.relative_path: s.sha256 for s in two.sources} == {
         s.relative_path: hashlib.sha256((folder / s.relative_path).read_bytes()).hexdigest()
         for s in here.sources}
+
+
+def test_the_digest_helper_goes_from_the_last_file_back_and_leaves_unreadable_files(tmp_path):
+    import hashlib
+    import multiprocessing
+
+    from registry.datasets.file_digests import digest_until_stopped
+
+    paths = [str(tmp_path / name) for name in ("a", "missing", "c")]
+    for path in (paths[0], paths[2]):
+        Path(path).write_bytes(path.encode() * 1000)
+    for stopped, expected in ((False, {0, 2}), (True, set())):
+        receiver, sender = multiprocessing.Pipe(duplex=False)
+        stopping = multiprocessing.Event()
+        if stopped:
+            stopping.set()
+        digest_until_stopped(paths, sender, stopping)
+        digests = receiver.recv()
+        assert set(digests) == expected
+        assert list(digests) == sorted(digests, reverse=True)
+        assert all(digests[i] == hashlib.sha256(Path(paths[i]).read_bytes()).hexdigest()
+                   for i in digests)
 
 
 @pytest.mark.parametrize("method", ["fork", "spawn"])
