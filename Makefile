@@ -17,8 +17,10 @@ $(VENV)/.installed: pyproject.toml
 
 install: $(VENV)/.installed
 
+# The suite runs on every core (pytest-xdist); each test has its own catalogue, so they do not
+# meet. Benchmarks (tests/bench) are run one at a time by `make bench`.
 test: $(VENV)/.installed
-	$(PY) -m pytest $(PYTEST_ARGS)
+	$(PY) -m pytest -n auto $(PYTEST_ARGS)
 
 # Builds the demo catalogue, then serves it on http://127.0.0.1:8765/ (Ctrl-C to stop);
 # `make demo SERVE=no` only builds it.
