@@ -355,7 +355,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
             progress(part_rows)
 
     try:
-        for first_row, batch in _read_ahead(read_batches(source)):
+        for first_row, batch in _read_ahead(read_batches(source, batch_rows=PART_ROWS)):
             pending.append(_pool().submit(_check_part, first_row, batch, record, task,
                                           predicted, inputs, context))
             while len(pending) > WORKERS:
@@ -370,6 +370,10 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
 
 
 WORKERS = 2
+# Rows per part checked on a worker: each part's summary is merged on the calling thread, so
+# parts of 2^16 rows spent more time merging (16 merges of nine profiles per million rows) than
+# they gained in overlap; memory stays bounded by a few parts.
+PART_ROWS = 1 << 18
 _POOL: ThreadPoolExecutor | None = None
 
 

@@ -19,7 +19,7 @@ import numpy as np
 from registry.after_release import compact
 from registry.after_release.outcomes import OutcomeBatch, check_labels, read_outcomes
 from registry.after_release.row_ids import HashIndex
-from registry.after_release.served_batch import CheckedBatch, read_served_batch
+from registry.after_release.served_batch import CheckedBatch, WindowRows, read_served_batch
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.windows import iso
 from registry.errors import UserError
@@ -48,14 +48,20 @@ def file_digest(path: str) -> str:
     return digest.hexdigest()
 
 
-_DIGESTS: ThreadPoolExecutor | None = None
+_HELPERS: ThreadPoolExecutor | None = None
 
 
-def _digests() -> ThreadPoolExecutor:
-    global _DIGESTS
-    if _DIGESTS is None:
-        _DIGESTS = ThreadPoolExecutor(max_workers=1, thread_name_prefix="batch-digest")
-    return _DIGESTS
+def _helpers() -> ThreadPoolExecutor:
+    """Threads for the batch's digest while its rows are checked, then for encoding its
+    compact rows while its summaries merge (hashlib, zstd and Arrow let go of the GIL)."""
+    global _HELPERS
+    if _HELPERS is None:
+        _HELPERS = ThreadPoolExecutor(max_workers=2, thread_name_prefix="serving-helper")
+    return _HELPERS
+
+
+def _encoded(rows: WindowRows) -> bytes:
+    return compact.encode(rows.columns())
 
 
 def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
@@ -68,12 +74,16 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
         context = serving_context(uow, line)
     # The digest is taken on a thread of its own while the rows are read and checked; a batch
     # sent again is found by it in the writing transaction below and changes nothing.
-    digesting = _digests().submit(file_digest, path)
+    digesting = _helpers().submit(file_digest, path)
     try:
         checked = read_served_batch(path, context, format=format, schema_json=schema_json,
                                     progress=progress)
     finally:
         digest = digesting.result()
+    # The compact rows of each window are encoded on threads while the transaction begins and
+    # the summaries merge.
+    groups = sorted(checked.groups.items())
+    contents = [_helpers().submit(_encoded, rows) for _, rows in groups]
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "serving.record")
         line = find_model(uow, model)
@@ -87,13 +97,15 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
             details_json=json.dumps({"task": checked.task, "windows": windows}),
             created_at=utc_now(), created_by=actor.name))
         seconds = context.window_seconds
-        for (number, start), rows in sorted(checked.groups.items()):
-            version = versions[number]
-            _merge_window(uow, line, version, start, seconds, rows.summary)
+        stored = {(number, start, seconds): _merge_window(uow, line, versions[number], start,
+                                                          seconds, rows.summary)
+                  for (number, start), rows in groups}
+        for ((number, start), rows), content in zip(groups, contents, strict=True):
             uow.serving.add_rows(t.ServedRows(
-                model_id=line.id, batch_id=batch.id, kind="predictions", version_id=version.id,
-                window_start=start, rows=rows.summary.rows, content=compact.encode(rows.columns())))
-        refresh_figures(uow, line, {start for _, start in checked.groups})
+                model_id=line.id, batch_id=batch.id, kind="predictions",
+                version_id=versions[number].id, window_start=start, rows=rows.summary.rows,
+                content=content.result()))
+        refresh_figures(uow, line, {start for _, start in checked.groups}, stored)
         dropped = _apply_retention(uow, line)
         uow.audit.append(actor.name, "serving.record", model_id(line.name),
                          {"digest": digest, "rows": checked.rows, "task": checked.task,
@@ -116,18 +128,23 @@ def _describe(checked: CheckedBatch) -> list[dict[str, Any]]:
 
 
 def _merge_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int,
-                  seconds: int, summary: WindowSummary) -> None:
+                  seconds: int, summary: WindowSummary) -> WindowSummary:
+    """Add a batch's summary to its stored window; the answer is the window's summary as
+    stored (read from its document, exactly as a later reading of the JSON gives it)."""
     window = uow.serving.window(model.id, version.id, start, seconds)
     if window is None:
+        document = summary.to_dict()
         uow.serving.add_window(t.ServedWindow(
             model_id=model.id, version_id=version.id, window_start=start,
             window_seconds=seconds, rows=summary.rows,
-            summary_json=json.dumps(summary.to_dict(), allow_nan=False), updated_at=utc_now()))
-        return
+            summary_json=json.dumps(document, allow_nan=False), updated_at=utc_now()))
+        return WindowSummary.from_dict(document)
     merged = merge_summaries(WindowSummary.from_dict(json.loads(window.summary_json)), summary)
+    document = merged.to_dict()
     window.rows = merged.rows
-    window.summary_json = json.dumps(merged.to_dict(), allow_nan=False)
+    window.summary_json = json.dumps(document, allow_nan=False)
     window.updated_at = utc_now()
+    return WindowSummary.from_dict(document)
 
 
 def _apply_retention(uow: UnitOfWork, model: t.Model) -> int:
