@@ -241,11 +241,17 @@ def _first(mask: np.ndarray) -> int:
 
 
 def distinct(values: np.ndarray) -> list[int]:
-    """The distinct values, sorted; a batch mostly holds one version and one window."""
+    """The distinct values, sorted; a batch mostly holds one version and one window, and its
+    windows mostly come in order of time (then no sort is needed)."""
     if len(values) == 0:
         return []
     low, high = int(values.min()), int(values.max())
-    return [low] if low == high else np.unique(values).tolist()
+    if low == high:
+        return [low]
+    changes = values[1:] != values[:-1]
+    if values[0] == low and values[-1] == high and bool((values[1:] >= values[:-1]).all()):
+        return values[np.concatenate([[True], changes])].tolist()
+    return np.unique(values).tolist()
 
 
 def _check_versions(versions: np.ndarray, micros: np.ndarray, first_row: int,
@@ -423,17 +429,23 @@ def _add_groups(groups, batch, record, task, inputs, context, versions, starts, 
         facts = context.versions[number]
         own_inputs = [n for n in inputs if n in facts.input_record.names]
         for start in window_list:
+            chosen: np.ndarray | slice | None
             if len(numbers) == 1 and len(window_list) == 1:
                 chosen = None  # the whole batch: no copy
             else:
                 chosen = np.flatnonzero((versions == number) & (starts == start))
                 if len(chosen) == 0:
                     continue
+                if int(chosen[-1]) - int(chosen[0]) + 1 == len(chosen):
+                    chosen = slice(int(chosen[0]), int(chosen[-1]) + 1)  # a run: no copy
 
-            def pick(values: np.ndarray, chosen: np.ndarray | None = chosen) -> np.ndarray:
+            def pick(values: np.ndarray, chosen: np.ndarray | slice | None = chosen
+                     ) -> np.ndarray:
                 return values if chosen is None else values[chosen]
 
-            part = batch if chosen is None else batch.take(pa.array(chosen))
+            part = (batch if chosen is None
+                    else batch.slice(chosen.start, chosen.stop - chosen.start)
+                    if isinstance(chosen, slice) else batch.take(pa.array(chosen)))
             times = pick(micros)
             summary = WindowSummary(
                 task=task, rows=part.num_rows, first_served_at=int(times.min()),
