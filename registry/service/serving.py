@@ -97,14 +97,23 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
             details_json=json.dumps({"task": checked.task, "windows": windows}),
             created_at=utc_now(), created_by=actor.name))
         seconds = context.window_seconds
-        stored = {(number, start, seconds): _merge_window(uow, line, versions[number], start,
-                                                          seconds, rows.summary)
-                  for (number, start), rows in groups}
+        held = {key: uow.serving.window(line.id, versions[key[0]].id, key[1], seconds)
+                for key, _ in groups}
+        # The summaries merge with the windows' stored ones on a thread while the compact rows
+        # are written (SQLite lets go of the GIL while it copies megabytes into its pages).
+        merging = [_helpers().submit(_merged_window, held[key].summary_json if held[key] else None,
+                                     rows.summary) for key, rows in groups]
         for ((number, start), rows), content in zip(groups, contents, strict=True):
             uow.serving.add_rows(t.ServedRows(
                 model_id=line.id, batch_id=batch.id, kind="predictions",
                 version_id=versions[number].id, window_start=start, rows=rows.summary.rows,
                 content=content.result()))
+        stored = {}
+        for ((number, start), _rows), merged in zip(groups, merging, strict=True):
+            summary, text = merged.result()
+            _keep_window(uow, line, versions[number], start, seconds, held[(number, start)],
+                         summary, text)
+            stored[(number, start, seconds)] = summary
         refresh_figures(uow, line, {start for _, start in checked.groups}, stored)
         dropped = _apply_retention(uow, line)
         uow.audit.append(actor.name, "serving.record", model_id(line.name),
@@ -127,24 +136,26 @@ def _describe(checked: CheckedBatch) -> list[dict[str, Any]]:
             for (number, start), rows in sorted(checked.groups.items())]
 
 
-def _merge_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int,
-                  seconds: int, summary: WindowSummary) -> WindowSummary:
-    """Add a batch's summary to its stored window; the answer is the window's summary as
-    stored (read from its document, exactly as a later reading of the JSON gives it)."""
-    window = uow.serving.window(model.id, version.id, start, seconds)
+def _merged_window(stored_json: str | None, summary: WindowSummary) -> tuple[WindowSummary, str]:
+    """A window's summary once a batch's is added to the one stored (None: a new window): its
+    JSON, and the summary as read back from it (what a later reading of the JSON gives)."""
+    merged = (summary if stored_json is None else
+              merge_summaries(WindowSummary.from_dict(json.loads(stored_json)), summary))
+    document = merged.to_dict()
+    return WindowSummary.from_dict(document), json.dumps(document, allow_nan=False)
+
+
+def _keep_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int, seconds: int,
+                 window: t.ServedWindow | None, summary: WindowSummary, text: str) -> None:
     if window is None:
-        document = summary.to_dict()
         uow.serving.add_window(t.ServedWindow(
             model_id=model.id, version_id=version.id, window_start=start,
-            window_seconds=seconds, rows=summary.rows,
-            summary_json=json.dumps(document, allow_nan=False), updated_at=utc_now()))
-        return WindowSummary.from_dict(document)
-    merged = merge_summaries(WindowSummary.from_dict(json.loads(window.summary_json)), summary)
-    document = merged.to_dict()
-    window.rows = merged.rows
-    window.summary_json = json.dumps(document, allow_nan=False)
+            window_seconds=seconds, rows=summary.rows, summary_json=text,
+            updated_at=utc_now()))
+        return
+    window.rows = summary.rows
+    window.summary_json = text
     window.updated_at = utc_now()
-    return WindowSummary.from_dict(document)
 
 
 def _apply_retention(uow: UnitOfWork, model: t.Model) -> int:
