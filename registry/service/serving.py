@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import hashlib
 import json
+import threading
+from collections import OrderedDict
 from collections.abc import Callable, Mapping
 from concurrent.futures import ThreadPoolExecutor
 from typing import Any
@@ -140,9 +142,42 @@ def _merged_window(stored_json: str | None, summary: WindowSummary) -> tuple[Win
     """A window's summary once a batch's is added to the one stored (None: a new window): its
     JSON, and the summary as read back from it (what a later reading of the JSON gives)."""
     merged = (summary if stored_json is None else
-              merge_summaries(WindowSummary.from_dict(json.loads(stored_json)), summary))
+              merge_summaries(_read_summaries.read(stored_json), summary))
     document = merged.to_dict()
-    return WindowSummary.from_dict(document), json.dumps(document, allow_nan=False)
+    text = json.dumps(document, allow_nan=False)
+    kept = WindowSummary.from_dict(document)
+    _read_summaries.remember(text, kept)
+    return kept, text
+
+
+class _SummaryTexts:
+    """The summaries of the last few window JSON texts this process wrote or read, by their
+    text: consecutive batches mostly meet in one window, and parsing its JSON again costs more
+    than the merge (tens of thousands of small lists). The text read back must equal the one
+    remembered, character for character, for its summary to be taken."""
+
+    def __init__(self, size: int) -> None:
+        self._size = size
+        self._known: OrderedDict[str, WindowSummary] = OrderedDict()
+        self._lock = threading.Lock()
+
+    def read(self, text: str) -> WindowSummary:
+        with self._lock:
+            known = self._known.get(text)
+        if known is None:
+            known = WindowSummary.from_dict(json.loads(text))
+            self.remember(text, known)
+        return known
+
+    def remember(self, text: str, summary: WindowSummary) -> None:
+        with self._lock:
+            self._known[text] = summary
+            self._known.move_to_end(text)
+            while len(self._known) > self._size:
+                self._known.popitem(last=False)
+
+
+_read_summaries = _SummaryTexts(8)
 
 
 def _keep_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int, seconds: int,
