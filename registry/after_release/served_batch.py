@@ -20,7 +20,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
-from registry.after_release.row_ids import hash_row_ids, kernels
+from registry.after_release.row_ids import RepeatFinder, hash_row_ids
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import Spell
 from registry.after_release.windows import iso, window_starts
@@ -340,6 +340,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     record = source.record
     groups: dict[tuple[int, int], WindowRows] = {}
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}
+    repeats = _Repeats()
     rows = 0
     pending: deque[Future] = deque()
 
@@ -356,6 +357,8 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
                 groups[key] = held
         for number, parts in part_seen.items():
             seen.setdefault(number, []).extend(parts)
+            for hashes, _, _ in parts:
+                repeats.add(number, hashes)
         rows += part_rows
         if progress is not None:
             progress(part_rows)
@@ -371,7 +374,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     finally:
         for future in pending:
             future.cancel()
-    _refuse_duplicates(seen, context)
+    _refuse_duplicates(seen, repeats.first(), context)
     return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups)
 
 
@@ -464,12 +467,52 @@ def _add_groups(groups, batch, record, task, inputs, context, versions, starts, 
                 held.predictions.setdefault(name, []).append(pick(values))
 
 
+class _Repeats:
+    """Each version's row ids, added part by part in file order on a thread of their own while
+    later parts are read and checked; `first` gives, per version, the index (among that
+    version's ids) of the earliest id seen twice."""
+
+    def __init__(self) -> None:
+        self._finders: dict[int, RepeatFinder] = {}
+        self._added: dict[int, int] = {}
+        self._found: dict[int, int] = {}
+        self._tasks: list[Future] = []
+
+    def add(self, number: int, hashes: np.ndarray) -> None:
+        # One thread, tasks in order: each version's ids go in as they stand in the file.
+        self._tasks.append(_repeats_thread().submit(self._add, number, hashes))
+
+    def _add(self, number: int, hashes: np.ndarray) -> None:
+        if number in self._found:
+            return
+        finder = self._finders.setdefault(number, RepeatFinder())
+        index = finder.add(hashes)
+        if index >= 0:
+            self._found[number] = self._added.get(number, 0) + index
+        self._added[number] = self._added.get(number, 0) + len(hashes)
+
+    def first(self) -> dict[int, int]:
+        for task in self._tasks:
+            task.result()
+        self._finders.clear()
+        return self._found
+
+
+_REPEATS: ThreadPoolExecutor | None = None
+
+
+def _repeats_thread() -> ThreadPoolExecutor:
+    global _REPEATS
+    if _REPEATS is None:
+        _REPEATS = ThreadPoolExecutor(max_workers=1, thread_name_prefix="served-ids")
+    return _REPEATS
+
+
 def _refuse_duplicates(seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]],
-                       context: ServingContext) -> None:
+                       repeats: Mapping[int, int], context: ServingContext) -> None:
     """A row id may be scored once per version in a batch (two versions may score it)."""
     for number, parts in seen.items():
-        hashes = np.concatenate([h for h, _, _ in parts])
-        second = int(kernels.first_repeat(hashes))  # the earliest row repeating an id
+        second = repeats.get(number, -1)  # the earliest row repeating an id
         if second >= 0:
             raise UserError(f"the row id of this row already appears in the batch for "
                             f"v{number}; a version scores a row once",

@@ -16,6 +16,7 @@ from registry.after_release.timeline import Spell
 from registry.datasets.categories import counts_of
 from registry.datasets.errors import ValueNotParsing
 from registry.datasets.types import record_type
+from registry.errors import UserError
 
 SYMBOLS = ["CI", "DI", "PVC"]
 INPUT = {"type": "record", "name": "Reading", "fields": [
@@ -131,3 +132,22 @@ def test_windows_taken_as_runs_or_picked_row_by_row_hold_the_same_rows(tmp_path)
         order_b = np.argsort(b.columns()["row_hash"])
         assert np.array_equal(a.columns()["row_hash"][order_a], b.columns()["row_hash"][order_b])
         assert np.array_equal(a.columns()["score"][order_a], b.columns()["score"][order_b])
+
+
+@pytest.mark.parametrize("repeat_at", [10, 1700, 5999])
+def test_a_repeated_row_id_is_refused_at_its_second_row_wherever_the_parts_fall(tmp_path,
+                                                                                 repeat_at):
+    """Ids are gathered part by part as the batch is read; the row named is the first whose
+    id came before, in the first part, across parts, or in the last row."""
+    rows = 6000
+    table = batch(rows, ["NG"] * rows, ["CI"] * rows)
+    ids = [f"r{i}" for i in range(rows)]
+    ids[repeat_at] = ids[3]
+    if repeat_at < rows - 1:
+        ids[rows - 1] = ids[4]  # a later repeat too
+    table = table.set_column(0, "row_id", pa.array(ids))
+    path = tmp_path / "b.parquet"
+    pq.write_table(table, path, row_group_size=1000)
+    with pytest.raises(UserError) as raised:
+        read_served_batch(str(path), context())
+    assert raised.value.place == f"row {repeat_at + 1}, column row_id"
