@@ -20,6 +20,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
+from registry.after_release import compact
 from registry.after_release.row_ids import RepeatFinder, hash_row_ids
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import Spell
@@ -73,9 +74,13 @@ class WindowRows:
     predictions: dict[str, list[np.ndarray]] = field(default_factory=dict)
 
     def columns(self) -> dict[str, np.ndarray]:
-        document = {"row_hash": np.concatenate(self.hashes)}
-        document.update({name: np.concatenate(parts) for name, parts in self.predictions.items()})
+        document = {"row_hash": _joined(self.hashes)}
+        document.update({name: _joined(parts) for name, parts in self.predictions.items()})
         return document
+
+
+def _joined(parts: list[np.ndarray]) -> np.ndarray:
+    return parts[0] if len(parts) == 1 else np.concatenate(parts)  # one part: no copy
 
 
 @dataclass(frozen=True)
@@ -84,6 +89,8 @@ class CheckedBatch:
     task: str
     prediction_columns: tuple[str, ...]
     groups: Mapping[tuple[int, int], WindowRows]  # (version, window start) -> rows
+    # each group's compact rows (compact.py), encoded part by part while the batch was read
+    contents: Mapping[tuple[int, int], Future[bytes]] = field(default_factory=dict)
 
 
 # --- the file's columns ----------------------------------------------------------------------
@@ -341,6 +348,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     groups: dict[tuple[int, int], WindowRows] = {}
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}
     repeats = _Repeats()
+    encoders: dict[tuple[int, int], compact.StreamEncoder] = {}
     rows = 0
     pending: deque[Future] = deque()
 
@@ -348,6 +356,9 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
         nonlocal rows
         part_rows, part_groups, part_seen = pending.popleft().result()
         for key, held in part_groups.items():
+            # the part's compact rows, encoded on a thread of their own in file order
+            encoder = encoders.setdefault(key, compact.StreamEncoder())
+            _encoding_thread().submit(encoder.write, held.columns())
             if key in groups:
                 groups[key].summary = merge_summaries(groups[key].summary, held.summary)
                 groups[key].hashes += held.hashes
@@ -375,7 +386,10 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
         for future in pending:
             future.cancel()
     _refuse_duplicates(seen, repeats.first(), context)
-    return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups)
+    contents = {key: _encoding_thread().submit(encoder.finish)
+                for key, encoder in encoders.items()}
+    return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups,
+                        contents=contents)
 
 
 WORKERS = 2
@@ -499,6 +513,15 @@ class _Repeats:
 
 
 _REPEATS: ThreadPoolExecutor | None = None
+_ENCODING: ThreadPoolExecutor | None = None
+
+
+def _encoding_thread() -> ThreadPoolExecutor:
+    """One thread, so that the parts of each window are written in file order."""
+    global _ENCODING
+    if _ENCODING is None:
+        _ENCODING = ThreadPoolExecutor(max_workers=1, thread_name_prefix="served-encode")
+    return _ENCODING
 
 
 def _repeats_thread() -> ThreadPoolExecutor:

@@ -21,7 +21,7 @@ import numpy as np
 from registry.after_release import compact
 from registry.after_release.outcomes import OutcomeBatch, check_labels, read_outcomes
 from registry.after_release.row_ids import HashIndex
-from registry.after_release.served_batch import CheckedBatch, WindowRows, read_served_batch
+from registry.after_release.served_batch import CheckedBatch, read_served_batch
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.windows import iso
 from registry.errors import UserError
@@ -54,16 +54,12 @@ _HELPERS: ThreadPoolExecutor | None = None
 
 
 def _helpers() -> ThreadPoolExecutor:
-    """Threads for the batch's digest while its rows are checked, then for encoding its
-    compact rows while its summaries merge (hashlib, zstd and Arrow let go of the GIL)."""
+    """Threads for the batch's digest while its rows are checked, then for merging its
+    summaries while its compact rows are written (hashlib and SQLite let go of the GIL)."""
     global _HELPERS
     if _HELPERS is None:
         _HELPERS = ThreadPoolExecutor(max_workers=2, thread_name_prefix="serving-helper")
     return _HELPERS
-
-
-def _encoded(rows: WindowRows) -> bytes:
-    return compact.encode(rows.columns())
 
 
 def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
@@ -82,10 +78,9 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                                     progress=progress)
     finally:
         digest = digesting.result()
-    # The compact rows of each window are encoded on threads while the transaction begins and
-    # the summaries merge.
     groups = sorted(checked.groups.items())
-    contents = [_helpers().submit(_encoded, rows) for _, rows in groups]
+    # The compact rows of each window were encoded part by part while the batch was read.
+    contents = [checked.contents[key] for key, _ in groups]
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "serving.record")
         line = find_model(uow, model)
