@@ -40,14 +40,11 @@ DAY = 86400
 
 def file_digest(path: str) -> str:
     """SHA-256 of the batch as sent: the identity that makes sending it again harmless."""
-    digest = hashlib.sha256()
     try:
-        with open(path, "rb") as handle:
-            for block in iter(lambda: handle.read(1 << 20), b""):
-                digest.update(block)
+        with open(path, "rb") as handle:  # read into one reused buffer, hashed as it comes
+            return hashlib.file_digest(handle, "sha256").hexdigest()
     except OSError as error:
         raise UserError(f"cannot read the batch: {error.strerror or error}", place=path) from None
-    return digest.hexdigest()
 
 
 _HELPERS: ThreadPoolExecutor | None = None
