@@ -349,6 +349,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}
     repeats = _Repeats()
     encoders: dict[tuple[int, int], compact.StreamEncoder] = {}
+    written: dict[tuple[int, int], list[Future]] = {}
     rows = 0
     pending: deque[Future] = deque()
 
@@ -358,7 +359,8 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
         for key, held in part_groups.items():
             # the part's compact rows, encoded on a thread of their own in file order
             encoder = encoders.setdefault(key, compact.StreamEncoder())
-            _encoding_thread().submit(encoder.write, held.columns())
+            written.setdefault(key, []).append(
+                _encoding_thread().submit(encoder.write, held.columns()))
             if key in groups:
                 groups[key].summary = merge_summaries(groups[key].summary, held.summary)
                 groups[key].hashes += held.hashes
@@ -386,7 +388,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
         for future in pending:
             future.cancel()
     _refuse_duplicates(seen, repeats.first(), context)
-    contents = {key: _encoding_thread().submit(encoder.finish)
+    contents = {key: _encoding_thread().submit(_finished, encoder, written[key])
                 for key, encoder in encoders.items()}
     return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups,
                         contents=contents)
@@ -514,6 +516,12 @@ class _Repeats:
 
 _REPEATS: ThreadPoolExecutor | None = None
 _ENCODING: ThreadPoolExecutor | None = None
+
+
+def _finished(encoder: compact.StreamEncoder, written: list[Future]) -> bytes:
+    for part in written:  # done before this task (one thread): a failed write fails the stream
+        part.result()
+    return encoder.finish()
 
 
 def _encoding_thread() -> ThreadPoolExecutor:

@@ -95,8 +95,8 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                 for key, _ in groups}
         # The summaries merge with the windows' stored ones on a thread while the compact rows
         # are written (SQLite lets go of the GIL while it copies megabytes into its pages).
-        merging = [_helpers().submit(_merged_window, held[key].summary_json if held[key] else None,
-                                     rows.summary) for key, rows in groups]
+        merging = [_helpers().submit(_merged_window, _summary_json(held[key]), rows.summary)
+                   for key, rows in groups]
         for ((number, start), rows), content in zip(groups, contents, strict=True):
             uow.serving.add_rows(t.ServedRows(
                 model_id=line.id, batch_id=batch.id, kind="predictions",
@@ -170,6 +170,10 @@ class _SummaryTexts:
 
 
 _read_summaries = _SummaryTexts(8)
+
+
+def _summary_json(window: t.ServedWindow | None) -> str | None:
+    return window.summary_json if window is not None else None
 
 
 def _keep_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int, seconds: int,
