@@ -65,6 +65,41 @@ def first_repeat(hashes):
 
 
 @numba.njit(cache=True, nogil=True)
+def insert_until_repeat(table, used, hashes):
+    """Insert hashes into an open-addressing table (linear probing) until one is already
+    there: its index, or -1 when every hash was new and is now in the table. The caller keeps
+    the table at most half full (grow_table)."""
+    mask = np.uint64(table.shape[0] - 1)
+    for i in range(hashes.shape[0]):
+        h = hashes[i]
+        slot = h & mask
+        while used[slot]:
+            if table[slot] == h:
+                return i
+            slot = (slot + np.uint64(1)) & mask
+        used[slot] = True
+        table[slot] = h
+    return -1
+
+
+@numba.njit(cache=True, nogil=True)
+def grow_table(table, used, size):
+    """The same hashes in a table of `size` slots (a power of two)."""
+    bigger = np.zeros(size, np.uint64)
+    bigger_used = np.zeros(size, np.bool_)
+    mask = np.uint64(size - 1)
+    for k in range(table.shape[0]):
+        if used[k]:
+            h = table[k]
+            slot = h & mask
+            while bigger_used[slot]:
+                slot = (slot + np.uint64(1)) & mask
+            bigger_used[slot] = True
+            bigger[slot] = h
+    return bigger, bigger_used
+
+
+@numba.njit(cache=True, nogil=True)
 def index_of(keys):
     """An open-addressing table (linear probing, twice the size of the input) of distinct
     hashes: (slots, positions + 1 with 0 for an empty slot, mask)."""

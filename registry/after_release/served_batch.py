@@ -20,7 +20,8 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
-from registry.after_release.row_ids import hash_row_ids, kernels
+from registry.after_release import compact
+from registry.after_release.row_ids import RepeatFinder, hash_row_ids
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import Spell
 from registry.after_release.windows import iso, window_starts
@@ -73,9 +74,13 @@ class WindowRows:
     predictions: dict[str, list[np.ndarray]] = field(default_factory=dict)
 
     def columns(self) -> dict[str, np.ndarray]:
-        document = {"row_hash": np.concatenate(self.hashes)}
-        document.update({name: np.concatenate(parts) for name, parts in self.predictions.items()})
+        document = {"row_hash": _joined(self.hashes)}
+        document.update({name: _joined(parts) for name, parts in self.predictions.items()})
         return document
+
+
+def _joined(parts: list[np.ndarray]) -> np.ndarray:
+    return parts[0] if len(parts) == 1 else np.concatenate(parts)  # one part: no copy
 
 
 @dataclass(frozen=True)
@@ -84,6 +89,8 @@ class CheckedBatch:
     task: str
     prediction_columns: tuple[str, ...]
     groups: Mapping[tuple[int, int], WindowRows]  # (version, window start) -> rows
+    # each group's compact rows (compact.py), encoded part by part while the batch was read
+    contents: Mapping[tuple[int, int], Future[bytes]] = field(default_factory=dict)
 
 
 # --- the file's columns ----------------------------------------------------------------------
@@ -241,11 +248,17 @@ def _first(mask: np.ndarray) -> int:
 
 
 def distinct(values: np.ndarray) -> list[int]:
-    """The distinct values, sorted; a batch mostly holds one version and one window."""
+    """The distinct values, sorted; a batch mostly holds one version and one window, and its
+    windows mostly come in order of time (then no sort is needed)."""
     if len(values) == 0:
         return []
     low, high = int(values.min()), int(values.max())
-    return [low] if low == high else np.unique(values).tolist()
+    if low == high:
+        return [low]
+    changes = values[1:] != values[:-1]
+    if values[0] == low and values[-1] == high and bool((values[1:] >= values[:-1]).all()):
+        return values[np.concatenate([[True], changes])].tolist()
+    return np.unique(values).tolist()
 
 
 def _check_versions(versions: np.ndarray, micros: np.ndarray, first_row: int,
@@ -334,6 +347,9 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     record = source.record
     groups: dict[tuple[int, int], WindowRows] = {}
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}
+    repeats = _Repeats()
+    encoders: dict[tuple[int, int], compact.StreamEncoder] = {}
+    written: dict[tuple[int, int], list[Future]] = {}
     rows = 0
     pending: deque[Future] = deque()
 
@@ -341,6 +357,10 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
         nonlocal rows
         part_rows, part_groups, part_seen = pending.popleft().result()
         for key, held in part_groups.items():
+            # the part's compact rows, encoded on a thread of their own in file order
+            encoder = encoders.setdefault(key, compact.StreamEncoder())
+            written.setdefault(key, []).append(
+                _encoding_thread().submit(encoder.write, held.columns()))
             if key in groups:
                 groups[key].summary = merge_summaries(groups[key].summary, held.summary)
                 groups[key].hashes += held.hashes
@@ -350,12 +370,14 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
                 groups[key] = held
         for number, parts in part_seen.items():
             seen.setdefault(number, []).extend(parts)
+            for hashes, _, _ in parts:
+                repeats.add(number, hashes)
         rows += part_rows
         if progress is not None:
             progress(part_rows)
 
     try:
-        for first_row, batch in _read_ahead(read_batches(source)):
+        for first_row, batch in _read_ahead(read_batches(source, batch_rows=PART_ROWS)):
             pending.append(_pool().submit(_check_part, first_row, batch, record, task,
                                           predicted, inputs, context))
             while len(pending) > WORKERS:
@@ -365,11 +387,18 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     finally:
         for future in pending:
             future.cancel()
-    _refuse_duplicates(seen, context)
-    return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups)
+    _refuse_duplicates(seen, repeats.first(), context)
+    contents = {key: _encoding_thread().submit(_finished, encoder, written[key])
+                for key, encoder in encoders.items()}
+    return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups,
+                        contents=contents)
 
 
 WORKERS = 2
+# Rows per part checked on a worker: each part's summary is merged on the calling thread, so
+# parts of 2^16 rows spent more time merging (16 merges of nine profiles per million rows) than
+# they gained in overlap; memory stays bounded by a few parts.
+PART_ROWS = 1 << 18
 _POOL: ThreadPoolExecutor | None = None
 
 
@@ -419,17 +448,23 @@ def _add_groups(groups, batch, record, task, inputs, context, versions, starts, 
         facts = context.versions[number]
         own_inputs = [n for n in inputs if n in facts.input_record.names]
         for start in window_list:
+            chosen: np.ndarray | slice | None
             if len(numbers) == 1 and len(window_list) == 1:
                 chosen = None  # the whole batch: no copy
             else:
                 chosen = np.flatnonzero((versions == number) & (starts == start))
                 if len(chosen) == 0:
                     continue
+                if int(chosen[-1]) - int(chosen[0]) + 1 == len(chosen):
+                    chosen = slice(int(chosen[0]), int(chosen[-1]) + 1)  # a run: no copy
 
-            def pick(values: np.ndarray, chosen: np.ndarray | None = chosen) -> np.ndarray:
+            def pick(values: np.ndarray, chosen: np.ndarray | slice | None = chosen
+                     ) -> np.ndarray:
                 return values if chosen is None else values[chosen]
 
-            part = batch if chosen is None else batch.take(pa.array(chosen))
+            part = (batch if chosen is None
+                    else batch.slice(chosen.start, chosen.stop - chosen.start)
+                    if isinstance(chosen, slice) else batch.take(pa.array(chosen)))
             times = pick(micros)
             summary = WindowSummary(
                 task=task, rows=part.num_rows, first_served_at=int(times.min()),
@@ -448,12 +483,67 @@ def _add_groups(groups, batch, record, task, inputs, context, versions, starts, 
                 held.predictions.setdefault(name, []).append(pick(values))
 
 
+class _Repeats:
+    """Each version's row ids, added part by part in file order on a thread of their own while
+    later parts are read and checked; `first` gives, per version, the index (among that
+    version's ids) of the earliest id seen twice."""
+
+    def __init__(self) -> None:
+        self._finders: dict[int, RepeatFinder] = {}
+        self._added: dict[int, int] = {}
+        self._found: dict[int, int] = {}
+        self._tasks: list[Future] = []
+
+    def add(self, number: int, hashes: np.ndarray) -> None:
+        # One thread, tasks in order: each version's ids go in as they stand in the file.
+        self._tasks.append(_repeats_thread().submit(self._add, number, hashes))
+
+    def _add(self, number: int, hashes: np.ndarray) -> None:
+        if number in self._found:
+            return
+        finder = self._finders.setdefault(number, RepeatFinder())
+        index = finder.add(hashes)
+        if index >= 0:
+            self._found[number] = self._added.get(number, 0) + index
+        self._added[number] = self._added.get(number, 0) + len(hashes)
+
+    def first(self) -> dict[int, int]:
+        for task in self._tasks:
+            task.result()
+        self._finders.clear()
+        return self._found
+
+
+_REPEATS: ThreadPoolExecutor | None = None
+_ENCODING: ThreadPoolExecutor | None = None
+
+
+def _finished(encoder: compact.StreamEncoder, written: list[Future]) -> bytes:
+    for part in written:  # done before this task (one thread): a failed write fails the stream
+        part.result()
+    return encoder.finish()
+
+
+def _encoding_thread() -> ThreadPoolExecutor:
+    """One thread, so that the parts of each window are written in file order."""
+    global _ENCODING
+    if _ENCODING is None:
+        _ENCODING = ThreadPoolExecutor(max_workers=1, thread_name_prefix="served-encode")
+    return _ENCODING
+
+
+def _repeats_thread() -> ThreadPoolExecutor:
+    global _REPEATS
+    if _REPEATS is None:
+        _REPEATS = ThreadPoolExecutor(max_workers=1, thread_name_prefix="served-ids")
+    return _REPEATS
+
+
 def _refuse_duplicates(seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]],
-                       context: ServingContext) -> None:
+                       repeats: Mapping[int, int], context: ServingContext) -> None:
     """A row id may be scored once per version in a batch (two versions may score it)."""
     for number, parts in seen.items():
-        hashes = np.concatenate([h for h, _, _ in parts])
-        second = int(kernels.first_repeat(hashes))  # the earliest row repeating an id
+        second = repeats.get(number, -1)  # the earliest row repeating an id
         if second >= 0:
             raise UserError(f"the row id of this row already appears in the batch for "
                             f"v{number}; a version scores a row once",

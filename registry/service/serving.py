@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import hashlib
 import json
+import threading
+from collections import OrderedDict
 from collections.abc import Callable, Mapping
 from concurrent.futures import ThreadPoolExecutor
 from typing import Any
@@ -38,24 +40,23 @@ DAY = 86400
 
 def file_digest(path: str) -> str:
     """SHA-256 of the batch as sent: the identity that makes sending it again harmless."""
-    digest = hashlib.sha256()
     try:
-        with open(path, "rb") as handle:
-            for block in iter(lambda: handle.read(1 << 20), b""):
-                digest.update(block)
+        with open(path, "rb") as handle:  # read into one reused buffer, hashed as it comes
+            return hashlib.file_digest(handle, "sha256").hexdigest()
     except OSError as error:
         raise UserError(f"cannot read the batch: {error.strerror or error}", place=path) from None
-    return digest.hexdigest()
 
 
-_DIGESTS: ThreadPoolExecutor | None = None
+_HELPERS: ThreadPoolExecutor | None = None
 
 
-def _digests() -> ThreadPoolExecutor:
-    global _DIGESTS
-    if _DIGESTS is None:
-        _DIGESTS = ThreadPoolExecutor(max_workers=1, thread_name_prefix="batch-digest")
-    return _DIGESTS
+def _helpers() -> ThreadPoolExecutor:
+    """Threads for the batch's digest while its rows are checked, then for merging its
+    summaries while its compact rows are written (hashlib and SQLite let go of the GIL)."""
+    global _HELPERS
+    if _HELPERS is None:
+        _HELPERS = ThreadPoolExecutor(max_workers=2, thread_name_prefix="serving-helper")
+    return _HELPERS
 
 
 def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
@@ -68,12 +69,15 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
         context = serving_context(uow, line)
     # The digest is taken on a thread of its own while the rows are read and checked; a batch
     # sent again is found by it in the writing transaction below and changes nothing.
-    digesting = _digests().submit(file_digest, path)
+    digesting = _helpers().submit(file_digest, path)
     try:
         checked = read_served_batch(path, context, format=format, schema_json=schema_json,
                                     progress=progress)
     finally:
         digest = digesting.result()
+    groups = sorted(checked.groups.items())
+    # The compact rows of each window were encoded part by part while the batch was read.
+    contents = [checked.contents[key] for key, _ in groups]
     with UnitOfWork(catalogue) as uow:
         authorise(uow, actor, "serving.record")
         line = find_model(uow, model)
@@ -87,13 +91,24 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
             details_json=json.dumps({"task": checked.task, "windows": windows}),
             created_at=utc_now(), created_by=actor.name))
         seconds = context.window_seconds
-        for (number, start), rows in sorted(checked.groups.items()):
-            version = versions[number]
-            _merge_window(uow, line, version, start, seconds, rows.summary)
+        held = {key: uow.serving.window(line.id, versions[key[0]].id, key[1], seconds)
+                for key, _ in groups}
+        # The summaries merge with the windows' stored ones on a thread while the compact rows
+        # are written (SQLite lets go of the GIL while it copies megabytes into its pages).
+        merging = [_helpers().submit(_merged_window, _summary_json(held[key]), rows.summary)
+                   for key, rows in groups]
+        for ((number, start), rows), content in zip(groups, contents, strict=True):
             uow.serving.add_rows(t.ServedRows(
-                model_id=line.id, batch_id=batch.id, kind="predictions", version_id=version.id,
-                window_start=start, rows=rows.summary.rows, content=compact.encode(rows.columns())))
-        refresh_figures(uow, line, {start for _, start in checked.groups})
+                model_id=line.id, batch_id=batch.id, kind="predictions",
+                version_id=versions[number].id, window_start=start, rows=rows.summary.rows,
+                content=content.result()))
+        stored = {}
+        for ((number, start), _rows), merged in zip(groups, merging, strict=True):
+            summary, text = merged.result()
+            _keep_window(uow, line, versions[number], start, seconds, held[(number, start)],
+                         summary, text)
+            stored[(number, start, seconds)] = summary
+        refresh_figures(uow, line, {start for _, start in checked.groups}, stored)
         dropped = _apply_retention(uow, line)
         uow.audit.append(actor.name, "serving.record", model_id(line.name),
                          {"digest": digest, "rows": checked.rows, "task": checked.task,
@@ -115,18 +130,62 @@ def _describe(checked: CheckedBatch) -> list[dict[str, Any]]:
             for (number, start), rows in sorted(checked.groups.items())]
 
 
-def _merge_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int,
-                  seconds: int, summary: WindowSummary) -> None:
-    window = uow.serving.window(model.id, version.id, start, seconds)
+def _merged_window(stored_json: str | None, summary: WindowSummary) -> tuple[WindowSummary, str]:
+    """A window's summary once a batch's is added to the one stored (None: a new window): its
+    JSON, and the summary as read back from it (what a later reading of the JSON gives)."""
+    merged = (summary if stored_json is None else
+              merge_summaries(_read_summaries.read(stored_json), summary))
+    document = merged.to_dict()
+    text = json.dumps(document, allow_nan=False)
+    kept = WindowSummary.from_dict(document)
+    _read_summaries.remember(text, kept)
+    return kept, text
+
+
+class _SummaryTexts:
+    """The summaries of the last few window JSON texts this process wrote or read, by their
+    text: consecutive batches mostly meet in one window, and parsing its JSON again costs more
+    than the merge (tens of thousands of small lists). The text read back must equal the one
+    remembered, character for character, for its summary to be taken."""
+
+    def __init__(self, size: int) -> None:
+        self._size = size
+        self._known: OrderedDict[str, WindowSummary] = OrderedDict()
+        self._lock = threading.Lock()
+
+    def read(self, text: str) -> WindowSummary:
+        with self._lock:
+            known = self._known.get(text)
+        if known is None:
+            known = WindowSummary.from_dict(json.loads(text))
+            self.remember(text, known)
+        return known
+
+    def remember(self, text: str, summary: WindowSummary) -> None:
+        with self._lock:
+            self._known[text] = summary
+            self._known.move_to_end(text)
+            while len(self._known) > self._size:
+                self._known.popitem(last=False)
+
+
+_read_summaries = _SummaryTexts(8)
+
+
+def _summary_json(window: t.ServedWindow | None) -> str | None:
+    return window.summary_json if window is not None else None
+
+
+def _keep_window(uow: UnitOfWork, model: t.Model, version: t.Version, start: int, seconds: int,
+                 window: t.ServedWindow | None, summary: WindowSummary, text: str) -> None:
     if window is None:
         uow.serving.add_window(t.ServedWindow(
             model_id=model.id, version_id=version.id, window_start=start,
-            window_seconds=seconds, rows=summary.rows,
-            summary_json=json.dumps(summary.to_dict(), allow_nan=False), updated_at=utc_now()))
+            window_seconds=seconds, rows=summary.rows, summary_json=text,
+            updated_at=utc_now()))
         return
-    merged = merge_summaries(WindowSummary.from_dict(json.loads(window.summary_json)), summary)
-    window.rows = merged.rows
-    window.summary_json = json.dumps(merged.to_dict(), allow_nan=False)
+    window.rows = summary.rows
+    window.summary_json = text
     window.updated_at = utc_now()
 
 

@@ -5,6 +5,7 @@ and the shadow agreement the gates judge."""
 from __future__ import annotations
 
 import json
+from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -250,15 +251,18 @@ def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
     return figures
 
 
-def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int]) -> None:
+def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int],
+                    known: Mapping[tuple[int, int, int], WindowSummary] | None = None) -> None:
     """Recompute and keep the figures of every version's window at these starts (after a batch
-    or an outcome touched them), so that reports only read them."""
+    or an outcome touched them), so that reports only read them. `known` holds summaries
+    just stored, by (version, window start, window seconds): they need not be parsed again."""
     if not starts:
         return
     seconds = policy_of(model).serving.window_seconds
     found = uow.serving.windows_at(model.id, seconds, sorted(starts))
-    summaries = {(number, w.window_start): WindowSummary.from_dict(json.loads(w.summary_json))
-                 for w, number in found}
+    known = known or {}
+    summaries = {(number, w.window_start): known.get((number, w.window_start, seconds)) or
+                 WindowSummary.from_dict(json.loads(w.summary_json)) for w, number in found}
     figures = compute_figures(uow, model, seconds, summaries)
     for window, number in found:
         window.figures_json = json.dumps(figures[(number, window.window_start)],

@@ -16,6 +16,7 @@ from sqlalchemy.pool import NullPool
 
 from registry.errors import CatalogueUnavailable, UserError
 from registry.signing.keys import SigningKey, key_path, load_signing_key
+from registry.store.wal_checkpoints import WalCheckpoints
 
 DEFAULT_URL = "sqlite:///.lockkeeper/catalogue.db"
 SQLITE_BUSY_TIMEOUT_MS = 30_000
@@ -106,6 +107,8 @@ class Catalogue:
     key_file: Path | None = None
     _key: SigningKey | None = field(default=None, repr=False)
     _key_stamp: tuple[int, int, int] | None = field(default=None, repr=False)
+    # A SQLite file's checkpoints, taken on a thread after writing commits (wal_checkpoints.py)
+    wal: WalCheckpoints | None = field(default=None, repr=False)
 
     @property
     def signing_key(self) -> SigningKey | None:
@@ -153,8 +156,15 @@ class Catalogue:
             raise UserError(f"the catalogue at {describe(self.url)} is not initialised; "
                             "run `lockkeeper init` first", place="--db")
 
+    def committed(self) -> None:
+        """A writing unit of work committed: the pages it wrote reach the file behind it."""
+        if self.wal is not None:
+            self.wal.after_commit()
+
     def close(self) -> None:
         self.engine.dispose()
+        if self.wal is not None:
+            self.wal.close()  # the last connection: SQLite checkpoints what is left
 
 
 def _stamp_of(path: Path) -> tuple[int, int, int] | None:
@@ -183,6 +193,15 @@ def _first_line(error: object) -> str:
     return text[0] if text else type(error).__name__
 
 
+def _checkpoints_behind(engine: Engine, file: Path) -> WalCheckpoints:
+    """The catalogue's connections leave checkpoints to its WalCheckpoints."""
+    @event.listens_for(engine, "connect")
+    def on_connect(dbapi_connection, _record):  # pragma: no cover - exercised via every test
+        dbapi_connection.execute("PRAGMA wal_autocheckpoint = 0")
+
+    return WalCheckpoints(file)
+
+
 def open_catalogue(raw_url: str | None, *, must_exist: bool = True) -> Catalogue:
     """Open the catalogue named by a URL; with must_exist, insist that `init` has run."""
     url = parse_catalogue_url(raw_url)
@@ -197,7 +216,8 @@ def open_catalogue(raw_url: str | None, *, must_exist: bool = True) -> Catalogue
     key_file = key_path(raw_url)
     catalogue = Catalogue(url=url, engine=engine,
                           sessions=sessionmaker(engine, expire_on_commit=False),
-                          key_file=key_file)
+                          key_file=key_file,
+                          wal=_checkpoints_behind(engine, file) if file is not None else None)
     catalogue.signing_key  # noqa: B018 - read the key now, so a bad key file fails at open
     if must_exist:
         catalogue.require_initialised()

@@ -13,7 +13,15 @@ from sqlalchemy import event, inspect
 from sqlalchemy.orm import ORMExecuteState, Session
 
 from registry.store import tables as t
-from registry.store.row_digests import column_digests, is_covered, key_of, plain_value, read_row
+from registry.store.row_digests import (
+    EARLY_DIGEST_BYTES,
+    EarlyDigests,
+    column_digests,
+    is_covered,
+    key_of,
+    plain_value,
+    read_row,
+)
 
 
 class UncoveredWrite(RuntimeError):
@@ -26,12 +34,16 @@ class RowCapture:
         # (table name, primary key values) in the order first written
         self.touched: dict[tuple[str, tuple[Any, ...]], None] = {}
         self.allow_bulk = False  # only an import, whose rows its own chain backs, sets this
+        self.early = EarlyDigests()
         event.listen(session, "after_flush", self._after_flush)
         event.listen(session, "do_orm_execute", self._refuse_bulk_changes)
+        event.listen(session, "transient_to_pending", self._digest_large_values)
 
     def close(self) -> None:
         event.remove(self._session, "after_flush", self._after_flush)
         event.remove(self._session, "do_orm_execute", self._refuse_bulk_changes)
+        event.remove(self._session, "transient_to_pending", self._digest_large_values)
+        self.early.discard()
 
     @property
     def tables(self) -> set[str]:
@@ -48,6 +60,20 @@ class RowCapture:
                 continue
             key = tuple(mapper.primary_key_from_instance(instance))
             self.touched.setdefault((table.name, key), None)
+
+    def _digest_large_values(self, _session: Session, instance: Any) -> None:
+        """Start digesting a new row's large bytes values now (sealing compares them with
+        what is read back before using the digest)."""
+        state = inspect(instance)
+        table = state.mapper.local_table
+        if not is_covered(table.name):
+            return
+        for attribute in state.mapper.column_attrs:
+            value = state.dict.get(attribute.key)
+            if isinstance(value, bytes) and len(value) >= EARLY_DIGEST_BYTES:
+                column = attribute.columns[0]
+                if column.table is table:
+                    self.early.start(table.name, column.name, value)
 
     def _refuse_bulk_changes(self, state: ORMExecuteState) -> None:
         if self.allow_bulk or not (state.is_update or state.is_delete or state.is_insert):
@@ -71,7 +97,7 @@ class RowCapture:
                                      for name, value in zip(names, key, strict=True)]})
             else:
                 rows.append({"table": table_name, "key": list(key_of(table, stored)),
-                             "columns": column_digests(table, stored)})
+                             "columns": column_digests(table, stored, self.early)})
         return rows
 
 

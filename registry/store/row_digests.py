@@ -12,7 +12,9 @@ from __future__ import annotations
 
 import functools
 import hashlib
+import threading
 from collections.abc import Iterator, Mapping
+from concurrent.futures import Future, ThreadPoolExecutor
 from datetime import datetime
 from typing import Any
 
@@ -127,7 +129,48 @@ def bytes_digest(table: str, column: str, value: bytes | bytearray | memoryview)
     return digest.hexdigest()[:32]
 
 
-def column_digests(table: Table, row: Mapping[str, Any]) -> ColumnDigests:
+EARLY_DIGEST_BYTES = 1 << 20  # bytes values from this size on are digested as they are added
+_EARLY_WORKERS = 2
+_early_pool: ThreadPoolExecutor | None = None
+_early_pool_lock = threading.Lock()
+
+
+def _early_digests_pool() -> ThreadPoolExecutor:
+    global _early_pool
+    with _early_pool_lock:
+        if _early_pool is None:
+            _early_pool = ThreadPoolExecutor(max_workers=_EARLY_WORKERS,
+                                             thread_name_prefix="row-digest")
+        return _early_pool
+
+
+class EarlyDigests:
+    """Digests of the large bytes values a transaction adds, taken on threads from the moment
+    they are added (SHA-256 lets go of the GIL) while the transaction goes on, so that a
+    transaction writing megabytes (the compact rows of a served batch) does not wait for them
+    when it seals. Sealing still digests what the database holds: a value read back takes a
+    digest taken early only when it is the very same bytes, compared in full."""
+
+    def __init__(self) -> None:
+        self._taken: dict[tuple[str, str], list[tuple[bytes, Future[str]]]] = {}
+
+    def start(self, table: str, column: str, value: bytes) -> None:
+        future = _early_digests_pool().submit(bytes_digest, table, column, value)
+        self._taken.setdefault((table, column), []).append((value, future))
+
+    def digest(self, table: str, column: str, stored: bytes | bytearray | memoryview) -> str:
+        """bytes_digest of a value as read back."""
+        for value, future in self._taken.get((table, column), ()):
+            if len(value) == len(stored) and value == stored:
+                return future.result()
+        return bytes_digest(table, column, stored)
+
+    def discard(self) -> None:
+        self._taken.clear()
+
+
+def column_digests(table: Table, row: Mapping[str, Any],
+                   early: EarlyDigests | None = None) -> ColumnDigests:
     """The digest of every column that is not NULL. Leaving NULLs out means a nullable column
     added by a later revision leaves the rows written before it as they were recorded."""
     digests = {}
@@ -138,7 +181,8 @@ def column_digests(table: Table, row: Mapping[str, Any]) -> ColumnDigests:
         if value is None:
             continue
         if kinds[column] is _OTHER and isinstance(value, (bytes, bytearray, memoryview)):
-            digests[column] = bytes_digest(name, column, value)
+            digests[column] = (early.digest(name, column, value) if early is not None
+                               else bytes_digest(name, column, value))
         else:
             digests[column] = column_digest(name, column, plain_value(table, column, value))
     return digests

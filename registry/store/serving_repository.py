@@ -111,7 +111,10 @@ class ServingRepository:
     # --- served rows -----------------------------------------------------------------------
 
     def add_rows(self, rows: t.ServedRows) -> None:
+        """Written at once: SQLite copies the content into its pages without the GIL, so a
+        caller's threads go on meanwhile."""
         self._session.add(rows)
+        self._session.flush()
 
     def rows(self, model_id: int, kind: str, *, since: int | None = None,
              until: int | None = None) -> list[tuple[t.ServedRows, int | None]]:

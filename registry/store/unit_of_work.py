@@ -229,6 +229,8 @@ class UnitOfWork:
             self.session.commit()
         except BaseException as error:
             raise _translate(error, self.catalogue) from None
+        if self.write:
+            self.catalogue.committed()
 
     def __exit__(self, exc_type: type[BaseException] | None, exc: BaseException | None,
                  tb: TracebackType | None) -> Literal[False]:

@@ -16,6 +16,7 @@ from registry.after_release.timeline import Spell
 from registry.datasets.categories import counts_of
 from registry.datasets.errors import ValueNotParsing
 from registry.datasets.types import record_type
+from registry.errors import UserError
 
 SYMBOLS = ["CI", "DI", "PVC"]
 INPUT = {"type": "record", "name": "Reading", "fields": [
@@ -98,3 +99,55 @@ def test_a_dictionary_repeating_a_value_is_counted_by_value():
     array = pa.DictionaryArray.from_arrays(pa.array([0, 1, 2, 1, None, 3], pa.int32()),
                                            pa.array(["a", "b", "a", "c"]))
     assert counts_of(array).as_dict() == dict(Counter(["a", "b", "a", "b", "c"]))
+
+
+def test_windows_taken_as_runs_or_picked_row_by_row_hold_the_same_rows(tmp_path):
+    """A batch in time order splits into its windows as runs of rows (slices, no copy); the
+    same rows shuffled are picked out row by row: both give the same summaries and rows."""
+    from registry.datasets.profile import is_close_profile
+
+    rng = np.random.default_rng(11)
+    rows = 6000
+    table = batch(rows, rng.choice(["NG", "RS"], rows).tolist(),
+                  rng.choice(SYMBOLS, rows).tolist())
+    # three days' windows, 30 seconds apart, starting mid-morning
+    times = START + 36_000_000_000 + np.arange(rows, dtype=np.int64) * 30_000_000
+    table = table.set_column(1, "served_at", pa.array(times, pa.timestamp("us", tz="UTC")))
+    ordered, shuffled = tmp_path / "ordered.parquet", tmp_path / "shuffled.parquet"
+    pq.write_table(table, ordered, row_group_size=2500)
+    pq.write_table(table.take(rng.permutation(rows)), shuffled, row_group_size=2500)
+    runs = read_served_batch(str(ordered), context()).groups
+    picked = read_served_batch(str(shuffled), context()).groups
+    assert sorted(runs) == sorted(picked) and len(runs) == 3
+    for key in runs:
+        a, b = runs[key], picked[key]
+        assert a.summary.rows == b.summary.rows
+        assert (a.summary.first_served_at, a.summary.last_served_at) == (
+            b.summary.first_served_at, b.summary.last_served_at)
+        for name in ("score",):
+            assert is_close_profile(a.summary.predictions[name], b.summary.predictions[name])
+        for name in ("district", "material"):
+            assert is_close_profile(a.summary.inputs[name], b.summary.inputs[name])
+        order_a = np.argsort(a.columns()["row_hash"])
+        order_b = np.argsort(b.columns()["row_hash"])
+        assert np.array_equal(a.columns()["row_hash"][order_a], b.columns()["row_hash"][order_b])
+        assert np.array_equal(a.columns()["score"][order_a], b.columns()["score"][order_b])
+
+
+@pytest.mark.parametrize("repeat_at", [10, 1700, 5999])
+def test_a_repeated_row_id_is_refused_at_its_second_row_wherever_the_parts_fall(tmp_path,
+                                                                                 repeat_at):
+    """Ids are gathered part by part as the batch is read; the row named is the first whose
+    id came before, in the first part, across parts, or in the last row."""
+    rows = 6000
+    table = batch(rows, ["NG"] * rows, ["CI"] * rows)
+    ids = [f"r{i}" for i in range(rows)]
+    ids[repeat_at] = ids[3]
+    if repeat_at < rows - 1:
+        ids[rows - 1] = ids[4]  # a later repeat too
+    table = table.set_column(0, "row_id", pa.array(ids))
+    path = tmp_path / "b.parquet"
+    pq.write_table(table, path, row_group_size=1000)
+    with pytest.raises(UserError) as raised:
+        read_served_batch(str(path), context())
+    assert raised.value.place == f"row {repeat_at + 1}, column row_id"
