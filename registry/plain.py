@@ -8,9 +8,20 @@ import enum
 from collections.abc import Mapping
 from typing import Any
 
+# Exact types, looked up before any isinstance: a fingerprint's document holds tens of thousands
+# of plain numbers, and subclasses (IntEnum, numpy's float64) still take the long way below.
+_PLAIN_SCALARS = frozenset({str, int, float, bool, type(None)})
+
 
 def to_plain(value: Any) -> Any:
     """Turn dataclasses, enums, tuples and sets into JSON-ready lists, dicts and scalars."""
+    kind = type(value)
+    if kind in _PLAIN_SCALARS:
+        return value
+    if kind is list or kind is tuple:
+        return [to_plain(v) for v in value]
+    if kind is dict:
+        return {str(k): to_plain(v) for k, v in value.items()}
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
         return {f.name: to_plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
     if isinstance(value, enum.Enum):
