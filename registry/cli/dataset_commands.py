@@ -5,6 +5,7 @@ They and the catalogue's dataset commands form the `dataset` group of registry.c
 
 from __future__ import annotations
 
+import gc
 import os
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -75,15 +76,17 @@ def fingerprint_paths(paths: Sequence[str], schema_json: dict[str, Any] | None,
                       file_format: str | None, keys: tuple[str, ...] = (),
                       exclude: tuple[str, ...] = (), work: Work = Work()):
     """The fingerprint and source files of files, folders or globs, with a progress bar on a
-    terminal."""
+    terminal. The heap is set aside from the garbage collector until the command's output is
+    written (fingerprint_dataset says why)."""
     from registry.datasets import fingerprint_dataset
 
+    click.get_current_context().call_on_close(gc.unfreeze)
     label = paths[0] if len(paths) == 1 else f"{len(paths)} paths"
     with dataset_progress(os.path.basename(label.rstrip("/")) or label) as progress:
         return fingerprint_dataset(
             paths, schema_json=schema_json, format=file_format, keys=keys, exclude=exclude,
             workers=work.workers, cluster=work.cluster, cluster_timeout=work.cluster_timeout,
-            progress=progress, on_plan=progress.start if progress else None)
+            progress=progress, on_plan=progress.start if progress else None, set_heap_aside=True)
 
 
 def is_saved_fingerprint(path: str) -> bool:

@@ -9,6 +9,7 @@ import pytest
 from dataset_files import SEGMENT_SCHEMA, segment_records, write_avro, write_parquet
 
 from registry.datasets import fingerprint_dataset, plan
+from registry.datasets import workers as workers_module
 from registry.datasets.errors import ValueNotParsing
 
 REPOSITORY = str(Path(__file__).parents[2])
@@ -167,3 +168,42 @@ def test_an_error_on_the_cluster_comes_back_typed_and_naming_the_file(tmp_path,
     with pytest.raises(ValueNotParsing) as raised:
         fingerprint_dataset([str(tmp_path)], cluster=cluster_address, **OPTIONS)
     assert raised.value.place == "b.parquet, row 4, column pipe_material"
+
+
+@pytest.mark.parametrize("workers", [None, 1, 2])
+def test_the_heap_set_aside_for_a_run_gives_the_same_fingerprint(folder, workers, monkeypatch):
+    """gc.freeze before the work (CPython's gc documentation: before a fork) changes what the
+    collector walks, never a result."""
+    import gc
+
+    frozen_at_merge = []
+    real_assemble = workers_module.assemble
+
+    def assemble(*arguments):
+        frozen_at_merge.append(gc.get_freeze_count() > 0)
+        return real_assemble(*arguments)
+
+    monkeypatch.setattr(workers_module, "assemble", assemble)
+    plain = fingerprint_dataset([str(folder)], **OPTIONS)
+    try:
+        aside = fingerprint_dataset([str(folder)], **OPTIONS, workers=workers,
+                                    set_heap_aside=True)
+        assert gc.get_freeze_count() > 0
+    finally:
+        gc.unfreeze()
+    assert aside.fingerprint.to_dict() == plain.fingerprint.to_dict()
+    assert aside.sources == plain.sources
+    assert frozen_at_merge == [False, True]  # set aside once the kernels were in, not before
+
+
+def test_the_command_line_gives_the_heap_back_when_its_output_is_written(folder):
+    import gc
+    import json
+
+    from tests.conftest import run_cli
+
+    (folder / "schema.avsc").write_text(json.dumps(SEGMENT_SCHEMA))
+    result = run_cli(["dataset", "fingerprint", str(folder / "big.parquet"), "--schema",
+                      str(folder / "schema.avsc"), "--workers", "2", "--json"])
+    assert result.exit_code == 0, result.output
+    assert gc.get_freeze_count() == 0
