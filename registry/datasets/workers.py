@@ -72,6 +72,8 @@ def fingerprint_dataset(paths: Sequence[str], *, schema_json: Mapping[str, Any] 
     if cluster is not None:
         from registry.datasets.cluster import run_on_cluster
 
+        if set_heap_aside:
+            gc.freeze()  # this process only sends the jobs and merges what comes back
         results = run_on_cluster(cluster, plan, cluster_timeout, tally)
     elif workers is None or workers == 1 or len(plan.jobs) == 1:
         results = run_here(plan, tally, threads=workers is None, set_heap_aside=set_heap_aside)

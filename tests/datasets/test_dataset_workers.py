@@ -156,6 +156,15 @@ def test_a_dask_cluster_gives_the_fingerprint_of_one_process_to_the_bit(folder, 
     assert remote.fingerprint.to_dict() == here.fingerprint.to_dict()
     assert remote.sources == here.sources
     assert sum(seen) == 6
+    import gc
+
+    try:  # the command line's way: this process's heap set aside while the cluster works
+        aside = fingerprint_dataset([str(folder)], cluster=cluster_address, set_heap_aside=True,
+                                    **OPTIONS)
+        assert gc.get_freeze_count() > 0
+    finally:
+        gc.unfreeze()
+    assert aside.fingerprint.to_dict() == here.fingerprint.to_dict()
 
 
 @pytest.mark.timeout(180)
