@@ -47,21 +47,8 @@ def _table_size(n):
 def first_repeat(hashes):
     """The index of the first hash equal to an earlier one, or -1: one pass over an open-
     addressing table (linear probing) twice the size of the input, so no sort is needed."""
-    n = hashes.shape[0]
-    size = _table_size(n)
-    mask = np.uint64(size - 1)
-    table = np.zeros(size, np.uint64)
-    used = np.zeros(size, np.bool_)
-    for i in range(n):
-        h = hashes[i]
-        slot = h & mask
-        while used[slot]:
-            if table[slot] == h:
-                return i
-            slot = (slot + np.uint64(1)) & mask
-        used[slot] = True
-        table[slot] = h
-    return -1
+    size = _table_size(hashes.shape[0])
+    return insert_until_repeat(np.zeros(size, np.uint64), np.zeros(size, np.bool_), hashes)
 
 
 @numba.njit(cache=True, nogil=True)
