@@ -13,7 +13,7 @@ from collections.abc import Iterable
 from typing import BinaryIO
 
 from flask import Response, request
-from werkzeug.wsgi import wrap_file
+from werkzeug.wsgi import ClosingIterator, wrap_file
 
 from registry.api.context import catalogue, document_cache
 from registry.api.problems import problem_response
@@ -80,15 +80,16 @@ def _body(document: StoredDocument, start: int, end: int, *, whole: bool) -> Ite
         return cache.filling(document.sha256, document.size, chunks) if whole else chunks
     if whole:
         return wrap_file(request.environ, copy, CHUNK_SIZE)
-    return _file_range(copy, start, end)
+    # Closed with the response, even one never read (HEAD): a generator not yet started would
+    # not run its own clean-up.
+    return ClosingIterator(_file_range(copy, start, end), copy.close)
 
 
 def _file_range(copy: BinaryIO, start: int, end: int) -> Iterable[bytes]:
-    with copy:
-        copy.seek(start)
-        while start < end and (chunk := copy.read(min(CHUNK_SIZE, end - start))):
-            start += len(chunk)
-            yield chunk
+    copy.seek(start)
+    while start < end and (chunk := copy.read(min(CHUNK_SIZE, end - start))):
+        start += len(chunk)
+        yield chunk
 
 
 @route("/models/<model>/versions/<number:version>/document", "GET", summary="A version's "
