@@ -131,7 +131,12 @@ class LockkeeperGroup(LazyGroup):
             result = 1
         if not standalone_mode:
             return result
-        sys.exit(result if isinstance(result, int) else 0)
+        code = result if isinstance(result, int) else 0
+        if args is None:  # the `lockkeeper` process itself, not a command run in-process
+            from registry.cli.process_end import end_process
+
+            end_process(code)
+        sys.exit(code)
 
 
 def _options_part(arguments: list[str]) -> list[str]:

@@ -79,7 +79,9 @@ def fingerprint_paths(paths: Sequence[str], schema_json: dict[str, Any] | None,
     terminal. The heap is set aside from the garbage collector until the command's output is
     written (fingerprint_dataset says why)."""
     from registry.datasets import fingerprint_dataset
+    from registry.pyarrow_probe import probe_without_pandas
 
+    probe_without_pandas()  # before the plan: its workers fork with the answer
     click.get_current_context().call_on_close(gc.unfreeze)
     label = paths[0] if len(paths) == 1 else f"{len(paths)} paths"
     with dataset_progress(os.path.basename(label.rstrip("/")) or label) as progress:
