@@ -163,3 +163,16 @@ def test_a_group_given_no_command_shows_its_help_not_a_one_line_error(arguments)
     result = CliRunner().invoke(main, arguments)
     assert result.stderr.startswith("Usage: ")
     assert "Commands:" in result.stderr and result.stdout == ""
+
+
+def test_reading_stages_and_states_loads_no_numpy_arrow_or_evaluation():
+    """`status` reads the stages and each version's stored state after release; the figures
+    were computed when the rows arrived, so reading them needs none of the numeric packages
+    (tests/bench/test_startup_bench.py measures what that saves)."""
+    script = ("import sys\nimport registry.cli.stage_commands, registry.service.stages, "
+              "registry.service.serving_reports, registry.service.gatekeeping\n"
+              "print(' '.join(sorted(sys.modules)))\n")
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
+                          check=True)
+    loaded = set(done.stdout.split())
+    assert not loaded & {"numpy", "pyarrow", "numba", "registry.evaluation", "registry.datasets"}

@@ -9,34 +9,15 @@ accuracy's Wilson score interval (Wilson 1927); the mean absolute error's normal
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
 from statistics import NormalDist
-from typing import Any
 
 import numpy as np
 
-from registry.evaluation import HIGHER_IS_BETTER, Predictions, UndefinedMetric, compute_metrics
+from registry.after_release.states import LiveQuality
+from registry.evaluation import Predictions, UndefinedMetric, compute_metrics
 from registry.evaluation.delong import auc_standard_error
 
-DEFAULT_METRIC = {"binary": "roc_auc", "regression": "mae", "multiclass": "accuracy"}
 INTERVAL_METRICS = ("roc_auc", "accuracy", "mae")
-
-
-@dataclass(frozen=True)
-class LiveQuality:
-    rows: int
-    metrics: dict[str, float | None]
-    metric: str
-    value: float | None
-    ci_low: float | None = None
-    ci_high: float | None = None
-    method: str | None = None
-    notes: tuple[str, ...] = field(default=())
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"rows": self.rows, "metrics": self.metrics, "metric": self.metric,
-                "value": self.value, "ci_low": self.ci_low, "ci_high": self.ci_high,
-                "method": self.method, "notes": list(self.notes)}
 
 
 def _z(confidence: float) -> float:
@@ -82,12 +63,3 @@ def wilson(share: float, n: int, z: float) -> tuple[float, float]:
     centre = (share + z * z / (2 * n)) / (1 + z * z / n)
     half = z * math.sqrt(share * (1 - share) / n + z * z / (4 * n * n)) / (1 + z * z / n)
     return centre - half, centre + half
-
-
-def is_below(quality: LiveQuality, evaluation_value: float, margin: float) -> bool:
-    """Live quality's whole interval worse than the evaluation value by more than the margin."""
-    if quality.ci_low is None or quality.ci_high is None:
-        return False
-    if HIGHER_IS_BETTER.get(quality.metric, True):
-        return quality.ci_high < evaluation_value - margin
-    return quality.ci_low > evaluation_value + margin

@@ -8,10 +8,12 @@ from __future__ import annotations
 
 import re
 from datetime import UTC, datetime
-
-import numpy as np
+from typing import TYPE_CHECKING
 
 from registry.errors import UserError
+
+if TYPE_CHECKING:
+    import numpy as np
 
 UNITS = {"h": 3600, "d": 86400}
 SPELLING = re.compile(r"^([1-9][0-9]{0,3})([hd])$")
@@ -33,7 +35,7 @@ def spell_window(seconds: int) -> str:
 
 def window_starts(served_at_micros: np.ndarray, seconds: int) -> np.ndarray:
     """The start (seconds since the epoch) of the window each served time falls in."""
-    return np.floor_divide(served_at_micros, seconds * MICROS) * seconds
+    return served_at_micros // (seconds * MICROS) * seconds  # numpy's floor division
 
 
 def iso(seconds_or_micros: float, *, micros: bool = False) -> str:

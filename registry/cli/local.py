@@ -254,7 +254,7 @@ class LocalCatalogue:
 
     def serving_report(self, model: str, *, version: int | None, since: str | None,
                        window: str | None) -> a.ServingReport:
-        from registry.service.serving_evidence import serving_report
+        from registry.service.serving_reports import serving_report
 
         return a.ServingReport(_plain(serving_report(self.catalogue, model, version=version,
                                                      since=since, window=window)))

@@ -10,7 +10,7 @@ from registry.cli.output import emit, json_option
 from registry.cli.params import FilePath
 from registry.cli.progress import progress_bar
 from registry.evaluation import evaluate_file
-from registry.evaluation.metrics import HIGHER_IS_BETTER
+from registry.metric_names import HIGHER_IS_BETTER
 
 
 @click.command("metrics")

@@ -11,8 +11,6 @@ from registry.evaluation.comparison import (
 from registry.evaluation.delong import auc_covariance, auc_standard_error, delong_difference
 from registry.evaluation.mcnemar import mcnemar_exact_p_value
 from registry.evaluation.metrics import (
-    HIGHER_IS_BETTER,
-    METRIC_NAMES,
     CalibrationBin,
     MetricReport,
     compute_metrics,
@@ -37,7 +35,7 @@ from registry.multiple_testing import holm_adjust
 
 __all__ = [
     "BootstrapResult", "CalibrationBin", "ComparisonReport", "Difference", "EvaluationReport",
-    "HIGHER_IS_BETTER", "METRIC_NAMES", "Matching", "MetricReport", "Predictions",
+    "Matching", "MetricReport", "Predictions",
     "PredictionsError", "SliceDifference", "SliceReport", "SliceResult", "UndefinedMetric",
     "auc_covariance", "auc_standard_error", "build_predictions", "check_row_ids", "compare",
     "compare_slices",

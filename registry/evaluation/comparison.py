@@ -15,8 +15,9 @@ import numpy as np
 from registry.evaluation.bootstrap import BOOTSTRAP_METRICS, correctness, paired_bootstrap
 from registry.evaluation.delong import delong_difference
 from registry.evaluation.mcnemar import mcnemar_exact_p_value
-from registry.evaluation.metrics import METRIC_NAMES, MetricReport, compute_metrics
+from registry.evaluation.metrics import MetricReport, compute_metrics
 from registry.evaluation.predictions import Predictions, PredictionsError, UndefinedMetric
+from registry.metric_names import METRIC_NAMES
 
 METHOD_DELONG = "delong"
 METHOD_MCNEMAR = "mcnemar-exact"  # interval from the paired bootstrap

@@ -13,15 +13,6 @@ import numpy as np
 from registry.evaluation.predictions import Predictions
 from registry.evaluation.ranking import midranks_of_sorted
 
-METRIC_NAMES = {
-    "binary": ("roc_auc", "average_precision", "log_loss", "brier", "accuracy"),
-    "regression": ("rmse", "mae", "r2"),
-    "multiclass": ("accuracy", "macro_f1", "log_loss"),
-}
-HIGHER_IS_BETTER = {
-    "roc_auc": True, "average_precision": True, "accuracy": True, "macro_f1": True,
-    "r2": True, "log_loss": False, "brier": False, "rmse": False, "mae": False,
-}
 # scikit-learn's log_loss clips probabilities to [eps, 1 - eps] with the float64 machine epsilon.
 PROBABILITY_CLIP = float(np.finfo(np.float64).eps)
 CALIBRATION_EDGES = np.linspace(0.0, 1.0, 11)

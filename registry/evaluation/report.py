@@ -7,14 +7,10 @@ from pathlib import Path
 from typing import Any
 
 from registry.evaluation.comparison import ComparisonReport, check_confidence, compare
-from registry.evaluation.metrics import (
-    HIGHER_IS_BETTER,
-    METRIC_NAMES,
-    MetricReport,
-    compute_metrics,
-)
+from registry.evaluation.metrics import MetricReport, compute_metrics
 from registry.evaluation.predictions import Predictions, read_predictions
 from registry.evaluation.slices import SliceReport, compare_slices, slice_metrics
+from registry.metric_names import HIGHER_IS_BETTER, METRIC_NAMES
 
 
 @dataclass(frozen=True)

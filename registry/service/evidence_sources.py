@@ -195,8 +195,9 @@ def quality_comparisons(uow: UnitOfWork, candidate: t.Version, incumbent: t.Vers
                         ) -> QualityComparisons:
     """Paired comparisons of candidate and incumbent on every evaluation dataset both were
     evaluated on (same content digest), overall and per slice, with the stored predictions."""
-    from registry.evaluation import HIGHER_IS_BETTER, compare, compare_slices
+    from registry.evaluation import compare, compare_slices
     from registry.evaluation.record import read_evaluation_record
+    from registry.metric_names import HIGHER_IS_BETTER
     from registry.service.evaluations import evaluations_of, stored_predictions
 
     settings = _quality_settings(specs)

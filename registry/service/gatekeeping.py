@@ -16,7 +16,6 @@ from registry.gates import GateReport, Policy, Waiver
 from registry.service import evidence_sources as sources
 from registry.service.actors import Actor
 from registry.service.model_policy import policy_of
-from registry.service.serving_evidence import shadow_agreement
 from registry.store import tables as t
 from registry.store.unit_of_work import UnitOfWork, utc_now
 
@@ -88,7 +87,7 @@ def gather_evidence(uow: UnitOfWork, model: t.Model, candidate: t.Version, stage
         evidence = dataclasses.replace(evidence, comparisons=comparisons, slices=slices)
     if any(spec.gate == "shadow-agreement" for spec in policy.gates_for(stage)):
         evidence = dataclasses.replace(
-            evidence, agreement=shadow_agreement(uow, model, candidate, incumbent))
+            evidence, agreement=_shadow_agreement(uow, model, candidate, incumbent))
     return evidence
 
 
@@ -124,3 +123,11 @@ def run_rollback_gates(uow: UnitOfWork, model: t.Model, restored: t.Version, hol
 def parse_waivers(pairs: Sequence[tuple[str, str]], actor: Actor) -> list[Waiver]:
     """`--waive GATE --reason TEXT` pairs from a shell, as waivers given by the acting user."""
     return [Waiver(gate=gate, approver=actor.name, reason=reason) for gate, reason in pairs]
+
+
+def _shadow_agreement(uow: UnitOfWork, model: t.Model, candidate: t.Version,
+                      incumbent: t.Version):
+    """Loaded only when a policy has the gate: it reads compact rows with Arrow and numpy."""
+    from registry.service.serving_evidence import shadow_agreement
+
+    return shadow_agreement(uow, model, candidate, incumbent)

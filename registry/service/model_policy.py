@@ -5,6 +5,7 @@ from __future__ import annotations
 import functools
 
 from registry import gates
+from registry.after_release.states import DEFAULT_METRIC, ReportSettings
 from registry.store import tables as t
 
 
@@ -21,3 +22,12 @@ def _parsed(name: str, policy_toml: str | None) -> gates.Policy:
         return gates.load_policy(policy_toml, source=f"policy of {name}",
                                  base=gates.default_policy())
     return gates.default_policy()
+
+
+def report_settings(model: t.Model, task: str | None, seconds: int) -> ReportSettings:
+    """What a report after release judges by: the policy's metric (or the task's usual one),
+    margin and confidence, for windows of `seconds`."""
+    policy = policy_of(model)
+    metric = policy.serving.quality_metric or DEFAULT_METRIC.get(task or "binary", "roc_auc")
+    return ReportSettings(seconds, metric, policy.serving.quality_margin,
+                          policy.serving.confidence)

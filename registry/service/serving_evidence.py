@@ -13,31 +13,25 @@ import numpy as np
 from registry import gates
 from registry.after_release import compact
 from registry.after_release.agreement import agreement, shared_rows
-from registry.after_release.quality import DEFAULT_METRIC
 from registry.after_release.report import (
     Reference,
-    ReportSettings,
     WindowRowsOf,
-    build_report,
-    merge_windows,
     predictions_matrix,
     window_figures,
 )
 from registry.after_release.row_ids import HashIndex
 from registry.after_release.served_batch import CLASS_PREFIX, ServingContext, VersionFacts
+from registry.after_release.states import task_of
 from registry.after_release.summaries import WindowSummary
 from registry.after_release.timeline import Spell, serving_spells
-from registry.after_release.windows import MICROS, parse_since, window_seconds
+from registry.after_release.windows import MICROS
 from registry.datasets.profile import profile_of
 from registry.datasets.types import ValueType, record_type
-from registry.errors import UserError
 from registry.evaluation.record import EvaluationRecord, read_evaluation_record
 from registry.service.datasets import load_fingerprint
 from registry.service.evaluations import evaluations_of, stored_predictions
-from registry.service.model_policy import policy_of
-from registry.service.models import find_model, find_version
+from registry.service.model_policy import policy_of, report_settings
 from registry.store import tables as t
-from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
 
 if TYPE_CHECKING:
@@ -192,18 +186,6 @@ def _incumbents(spells: dict[int, tuple[Spell, ...]], starts: set[int],
     return found
 
 
-def _settings(model: t.Model, task: str | None, seconds: int) -> ReportSettings:
-    policy = policy_of(model)
-    metric = policy.serving.quality_metric or DEFAULT_METRIC.get(task or "binary", "roc_auc")
-    return ReportSettings(seconds, metric, policy.serving.quality_margin,
-                          policy.serving.confidence)
-
-
-def _task_of(summaries) -> str | None:
-    tasks = {s.task for s in summaries}
-    return sorted(tasks)[0] if tasks else None
-
-
 def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
                     summaries: dict[tuple[int, int], WindowSummary], *,
                     since: int | None = None) -> dict[tuple[int, int], dict[str, Any]]:
@@ -212,8 +194,8 @@ def compute_figures(uow: UnitOfWork, model: t.Model, seconds: int,
     if not summaries:
         return {}
     policy = policy_of(model)
-    task = _task_of(summaries.values())
-    settings = _settings(model, task, seconds)
+    task = task_of(summaries.values())
+    settings = report_settings(model, task, seconds)
     numbers = {number for number, _ in summaries}
     by_number = {v.number: v for v in uow.serving.versions(model.id)}
     references = {n: reference_of(uow, by_number[n]) for n in numbers}
@@ -267,98 +249,6 @@ def refresh_figures(uow: UnitOfWork, model: t.Model, starts: set[int],
     for window, number in found:
         window.figures_json = json.dumps(figures[(number, window.window_start)],
                                          allow_nan=False)
-
-
-def report_in(uow: UnitOfWork, model: t.Model, *, version: int | None = None,
-              since: str | None = None, window: str | None = None) -> dict[str, Any]:
-    policy = policy_of(model)
-    stored = policy.serving.window_seconds
-    seconds = window_seconds(window) if window else stored
-    if seconds % stored:
-        raise UserError(f"the report window must be a whole number of the policy's windows "
-                        f"({policy.serving.window}), since summaries merge but do not split",
-                        place="--window")
-    start = parse_since(since) if since else None
-    if start is not None:
-        start -= start % seconds
-    version_ids = [find_version(uow, model, version).id] if version is not None else None
-    if seconds == stored:
-        figures, task = _kept_figures(uow, model, stored, start, version_ids)
-    else:
-        stored_windows = uow.serving.windows(model.id, stored, since=start,
-                                             version_ids=version_ids)
-        summaries = merge_windows([(number, w.window_start, WindowSummary.from_dict(
-            json.loads(w.summary_json))) for w, number in stored_windows], seconds)
-        task = _task_of(summaries.values())
-        figures = compute_figures(uow, model, seconds, summaries, since=start)
-    settings = _settings(model, task, seconds)
-    incumbents = {s: f.get("incumbent") for (_, s), f in figures.items()}
-    report = build_report(model.name, task or "unknown", settings, figures, incumbents,
-                          _outcome_counts(uow, model))
-    report["window"] = window or policy.serving.window
-    report["retention_days"] = policy.serving.retention_days
-    if version is not None:
-        report["version_filter"] = version
-    return report
-
-
-def _kept_figures(uow: UnitOfWork, model: t.Model, seconds: int, since: int | None,
-                  version_ids: list[int] | None) -> tuple[dict, str | None]:
-    """The figures kept with each window; any missing or computed under other settings (a
-    changed policy) are computed again from the summaries."""
-    figures: dict[tuple[int, int], dict[str, Any]] = {}
-    stale: set[int] = set()
-    tasks = set()
-    for start, number, _rows, text in uow.serving.window_figures(
-            model.id, seconds, since=since, version_ids=version_ids):
-        found = json.loads(text) if text else None
-        if found is None:
-            stale.add(start)
-            continue
-        tasks.add(found.get("task"))
-        figures[(number, start)] = found
-    task = sorted(t for t in tasks if t)[0] if any(tasks) else None
-    settings = _settings(model, task, seconds)
-    stale |= {s for (_, s), f in figures.items()
-              if (f.get("metric"), f.get("confidence")) != (settings.quality_metric,
-                                                            settings.confidence)}
-    if stale:
-        found = uow.serving.windows_at(model.id, seconds, sorted(stale))
-        wanted = set(version_ids) if version_ids is not None else None
-        summaries = {(number, w.window_start): WindowSummary.from_dict(
-            json.loads(w.summary_json)) for w, number in found
-            if wanted is None or w.version_id in wanted}
-        figures.update(compute_figures(uow, model, seconds, summaries))
-        task = task or _task_of(summaries.values())
-    return figures, task
-
-
-def _outcome_counts(uow: UnitOfWork, model: t.Model) -> dict[str, int]:
-    counts = {"batches": 0, "rows": 0, "joined": 0, "unknown_rows": 0}
-    for batch in uow.serving.batches(model.id, "outcomes"):
-        details = json.loads(batch.details_json or "{}")
-        counts["batches"] += 1
-        counts["rows"] += batch.rows
-        counts["joined"] += int(details.get("joined", 0))
-        counts["unknown_rows"] += int(details.get("unknown_rows", 0))
-    return counts
-
-
-def serving_report(catalogue: Catalogue, model: str, *, version: int | None = None,
-                   since: str | None = None, window: str | None = None) -> dict[str, Any]:
-    """Per window and version: rows, drift, agreement, live quality and the state."""
-    with UnitOfWork(catalogue, write=False) as uow:
-        line = find_model(uow, model)
-        return report_in(uow, line, version=version, since=since, window=window)
-
-
-def states_in(uow: UnitOfWork, model: t.Model) -> dict[str, dict[str, Any]]:
-    """Each version's state after release (steady, drifting, degrading) with its reasons; empty
-    when nothing was ever served."""
-    if not uow.serving.has_windows(model.id):
-        return {}
-    return {number: {key: found[key] for key in ("state", "reasons", "newest_window")}
-            for number, found in report_in(uow, model)["versions"].items()}
 
 
 # --- evidence for the gates ----------------------------------------------------------------------

@@ -358,7 +358,7 @@ def status(catalogue: Catalogue, model: str) -> dict[str, Any]:
                                        "recalled": recalled_names_upstream(uow,
                                                                            holding.version_id)}
                 flagged[number]["stages"].append(stage)
-        from registry.service.serving_evidence import states_in
+        from registry.service.serving_reports import states_in
 
         return {"model": line.name, "stages": stages,
                 "exclusive": [s for s in policy.ladder if policy.is_exclusive(s)],

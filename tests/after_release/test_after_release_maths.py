@@ -13,8 +13,9 @@ from scipy.stats import ks_2samp, spearmanr
 from sklearn.metrics import accuracy_score, brier_score_loss, log_loss, roc_auc_score
 
 from registry.after_release.agreement import agreement, spearman
-from registry.after_release.quality import is_below, live_quality, wilson
-from registry.after_release.report import ReportSettings, judge, merge_windows
+from registry.after_release.quality import live_quality, wilson
+from registry.after_release.report import merge_windows
+from registry.after_release.states import ReportSettings, is_below, judge
 from registry.after_release.row_ids import HashIndex, hash_row_ids, hash_row_ids_reference
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import serving_spells

@@ -220,7 +220,7 @@ def ninety_days(tmp_path_factory):
 
 
 def test_a_report_over_ninety_daily_windows_within_200_ms(ninety_days):
-    from registry.service.serving_evidence import serving_report
+    from registry.service.serving_reports import serving_report
 
     report = serving_report(ninety_days, "m")
     assert len(report["windows"]) == REPORT_DAYS

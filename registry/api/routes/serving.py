@@ -18,7 +18,7 @@ from registry.api.rendering import json_response, path_name
 from registry.api.routing import route
 from registry.api.uploads import file_part, form_value, saved_upload
 from registry.errors import UserError
-from registry.service import serving, serving_evidence
+from registry.service import serving, serving_reports
 
 TEXT_FIELD = {"type": "string"}
 FORMAT = {"type": "string", "enum": ["avro", "parquet", "csv"]}
@@ -106,6 +106,6 @@ def serving_report(model: str):
         if not version_text.isdigit() or len(version_text) > 9 or int(version_text) < 1:
             raise UserError("version must be a whole number from 1", place="version")
         version = int(version_text)
-    return json_response(serving_evidence.serving_report(
+    return json_response(serving_reports.serving_report(
         catalogue(), path_name(model, "model"), version=version,
         since=request.args.get("since"), window=request.args.get("window")))

@@ -9,7 +9,7 @@ from typing import Any
 
 from registry.service.gatekeeping import policy_of
 from registry.service.models import find_model
-from registry.service.serving_evidence import report_in, states_in
+from registry.service.serving_reports import report_in, states_in
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork
