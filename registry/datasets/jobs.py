@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import hashlib
 from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 from registry.datasets.allocation import reuse_large_blocks
@@ -29,8 +30,12 @@ def run_job(job: Job, settings: JobSettings, threads: bool = False,
             progress: Callable[[int], None] | None = None) -> JobResult:
     """Fingerprint the job's share of its file; `threads` lets it use a second core."""
     reuse_large_blocks()  # here, in a worker process or on a cluster's worker alike
+    # With threads, the file's SHA-256 is taken on a thread beside the fingerprint (hashlib
+    # lets go of the GIL); a worker on one thread takes it first, its core being busy anyway.
+    hashing = (_hashing_thread().submit(file_sha256, job.path)
+               if job.hashes_file and threads else None)
     try:
-        digest = file_sha256(job.path) if job.hashes_file else None
+        digest = file_sha256(job.path) if job.hashes_file and hashing is None else None
         try:
             source = open_source(job.path, settings.schema_json, job.format, job.partition)
             fingerprint = fingerprint_source(source, settings.keys, settings.exclude, progress,
@@ -41,6 +46,8 @@ def run_job(job: Job, settings: JobSettings, threads: bool = False,
             # one file of several may hold no records; the dataset as a whole may not
             fingerprint = empty_fingerprint(record_type(settings.schema_json), settings.keys,
                                             settings.exclude)
+        if hashing is not None:
+            digest = hashing.result()  # a file that cannot be read raises here, located below
     except LockkeeperError as error:
         if settings.names_files:
             located(error, job.path, job.relative_path)
@@ -69,3 +76,13 @@ def file_sha256(path: str) -> str:
     except OSError as error:
         raise DatasetFileError(f"the file cannot be read ({error.strerror})",
                                place=path) from None
+
+
+_HASHING: ThreadPoolExecutor | None = None
+
+
+def _hashing_thread() -> ThreadPoolExecutor:
+    global _HASHING
+    if _HASHING is None:
+        _HASHING = ThreadPoolExecutor(max_workers=1, thread_name_prefix="file-sha256")
+    return _HASHING
