@@ -127,10 +127,15 @@ def test_peak_memory_stays_flat_as_the_file_grows(tmp_path):
             writer = writer or pq.ParquetWriter(path, part.schema)
             writer.write_table(part, row_group_size=250_000)
         writer.close()
-    small_peak, large_peak = peak_kib(str(small)), peak_kib(str(large))
+    # The in-flight batches make one run's peak swing by a few tens of MiB (one run of the small
+    # file peaked above a run of the large one): the lowest of three runs each, taken in turns.
+    peaks: dict[str, list[int]] = {"small": [], "large": []}
+    for _ in range(3):
+        peaks["small"].append(peak_kib(str(small)))
+        peaks["large"].append(peak_kib(str(large)))
+    small_peak, large_peak = min(peaks["small"]), min(peaks["large"])
     grown = os.path.getsize(large) - os.path.getsize(small)
     print(f"\npeak RSS: {small_peak / 1024:.0f} MiB for 250k rows, {large_peak / 1024:.0f} MiB "
           f"for 2.5M rows; the file grew by {grown / 2**20:.0f} MiB")
-    # Holding the records would cost at least what the file grew by; the in-flight batches make
-    # the peak swing by a few tens of MiB from run to run.
+    # Holding the records would cost at least what the file grew by.
     assert large_peak - small_peak < 0.5 * grown / 1024
