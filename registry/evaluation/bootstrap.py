@@ -1,13 +1,14 @@
 """Seeded, vectorised paired bootstrap of metric differences (Efron and Tibshirani 1993).
 
 Each resample gives every row a weight, the number of times the row is drawn, shared by both
-models (that is what makes it paired). Metrics are then weighted sums, so a chunk of resamples is
-one matrix product (W @ per-row values) instead of a Python loop over resamples, in float32
-blocks of rows summed in float64 (on 1,000,000 rows the rounding is about 1e-9, some 1e-5 of
-the resampling spread). The ranking metric (average precision) sorts each model once; each chunk
+models (that is what makes it paired). Metrics are then weighted sums of per-row values, taken
+by a compiled pass over each block of rows for all the resamples of a chunk (W @ per-row
+values, as a matrix product would, but without holding the GIL): float32 within a block of
+rows, summed in float64 (on 1,000,000 rows the rounding is about 1e-9, some 1e-5 of the
+resampling spread). The ranking metric (average precision) sorts each model once; each chunk
 of weights is then transposed to rows x resamples and walked in score order by a compiled pass
 (ranking_kernels), which sums the weights exactly and reads precision at the end of each group
-of tied scores. That pass releases the GIL and runs on a worker thread while the next chunk is
+of tied scores. Both passes release the GIL and run on a worker thread while the next chunk is
 drawn, so on two cores the two halves of the work overlap.
 
 Weights: multinomial counts (Efron's bootstrap, n draws with replacement) for up to
@@ -174,35 +175,34 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
     # The last column is all ones: the total weight of each resample, shared by every metric.
     columns = np.hstack([st.columns for st in linear.values()]
                         + [np.ones((len(candidate), 1))])
-    columns32 = columns.astype(np.float32)
+    column_rows = np.ascontiguousarray(columns.T, dtype=np.float32)  # each column contiguous
 
     collected: dict[str, list[np.ndarray]] = {name: [] for name in names}
-    # The compiled passes release the GIL: a worker walks one chunk in score order while this
-    # thread draws and transposes the next into the other buffer.
+    # This thread draws each chunk of weights (and lays it out by row for the ranked metrics);
+    # a worker then sums it into the linear metrics and walks the ranked ones (compiled passes
+    # that let go of the GIL) while this thread draws the next. So at most two chunks of
+    # weights are held: the one being drawn and the one being summed.
     buffers: list[np.ndarray | None] = [None, None]
     with ThreadPoolExecutor(max_workers=1) as worker:
-        walking: Future | None = None
+        working: Future | None = None
         for index, (count, blocks) in enumerate(weight_chunks(len(candidate), resamples, seed)):
-            sums = np.zeros((count, columns.shape[1]))
             by_row = buffers[index % 2]
+            kept = []
             for first, block in blocks:
                 if linear:
-                    sums += block.astype(np.float32) @ columns32[first:first + block.shape[1]]
+                    kept.append((first, block))
                 if ranked:
                     if by_row is None or by_row.shape[1] != count or by_row.dtype != block.dtype:
                         by_row = buffers[index % 2] = np.empty((len(candidate), count),
                                                                dtype=block.dtype)
                     kernels.transpose_into(block, by_row[first:first + block.shape[1]])
-            for name, st in linear.items():
-                collected[name].append(st.finish(sums[:, spans[name]], sums[:, -1]))
             progress.advance(count)
-            if walking is not None:
-                walking.result()
-            if ranked:
-                assert by_row is not None  # filled by the blocks above whenever ranked
-                walking = worker.submit(_walk_ranked, ranked, by_row, collected)
-        if walking is not None:
-            walking.result()
+            if working is not None:
+                working.result()
+            working = worker.submit(_finish_chunk, linear, spans, column_rows, count, kept,
+                                    ranked, by_row, collected)
+        if working is not None:
+            working.result()
 
     results = {}
     totals = columns.sum(axis=0, keepdims=True)
@@ -216,10 +216,22 @@ def paired_bootstrap(candidate: Predictions, baseline: Predictions,
     return results
 
 
-def _walk_ranked(ranked: dict[str, RankedStatistic], by_row: np.ndarray,
-                 collected: dict[str, list[np.ndarray]]) -> None:
-    for name, st in ranked.items():
-        collected[name].append(st.resampled(by_row))
+def _finish_chunk(linear: dict[str, LinearStatistic], spans: dict[str, slice],
+                  column_rows: np.ndarray, count: int, kept: list[tuple[int, np.ndarray]],
+                  ranked: dict[str, RankedStatistic], by_row: np.ndarray | None,
+                  collected: dict[str, list[np.ndarray]]) -> None:
+    """One chunk's resampled differences: the linear metrics from the weighted sums of each
+    block of rows, the ranked ones from a compiled walk in score order."""
+    if linear:
+        sums = np.zeros((count, column_rows.shape[0]))
+        for first, block in kept:
+            kernels.add_weighted_sums(block, column_rows, first, sums)
+        for name, statistic in linear.items():
+            collected[name].append(statistic.finish(sums[:, spans[name]], sums[:, -1]))
+    if ranked:
+        assert by_row is not None  # filled by the caller whenever ranked
+        for name, walked in ranked.items():
+            collected[name].append(walked.resampled(by_row))
 
 
 def summarise(point: float, differences: np.ndarray, confidence: float) -> BootstrapResult:

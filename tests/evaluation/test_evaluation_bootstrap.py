@@ -164,3 +164,17 @@ def test_a_clear_difference_gets_a_small_p_value_and_no_difference_a_large_one()
     assert clear.ci_high < 0 and clear.p_value < 0.01
     same = paired_bootstrap(candidate, candidate, ["brier"], resamples=500)["brier"]
     assert same.difference == 0 and same.p_value == 1.0
+
+
+def test_the_compiled_weighted_sums_equal_numpy_s_product():
+    """add_weighted_sums against its numpy definition: block @ columns of the block's rows,
+    added to what the sums held; float32 within the block, as a BLAS product takes it."""
+    from registry.evaluation import ranking_kernels
+
+    rng = np.random.default_rng(4)
+    block = rng.integers(0, 6, (16, 1000)).astype(np.uint8)
+    column_rows = rng.normal(size=(5, 3000)).astype(np.float32)
+    sums = rng.normal(size=(16, 5))
+    expected = sums + block.astype(np.float64) @ column_rows[:, 1200:2200].T.astype(np.float64)
+    ranking_kernels.add_weighted_sums(block, column_rows, 1200, sums)
+    assert np.allclose(sums, expected, rtol=1e-5, atol=1e-3)
