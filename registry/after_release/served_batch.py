@@ -37,6 +37,7 @@ from registry.datasets.readers import (
 )
 from registry.datasets.types import RecordType, ValueType
 from registry.errors import UserError
+from registry.thread_pools import shared_pool
 
 KEY_COLUMNS = ("row_id", "served_at", "version")
 CLASS_PREFIX = "p_"
@@ -360,7 +361,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
             # the part's compact rows, encoded on a thread of their own in file order
             encoder = encoders.setdefault(key, compact.StreamEncoder())
             written.setdefault(key, []).append(
-                _encoding_thread().submit(encoder.write, held.columns()))
+                _encoding().submit(encoder.write, held.columns()))
             if key in groups:
                 groups[key].summary = merge_summaries(groups[key].summary, held.summary)
                 groups[key].hashes += held.hashes
@@ -378,8 +379,8 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
 
     try:
         for first_row, batch in _read_ahead(read_batches(source, batch_rows=PART_ROWS)):
-            pending.append(_pool().submit(_check_part, first_row, batch, record, task,
-                                          predicted, inputs, context))
+            pending.append(shared_pool("served-batch", WORKERS).submit(
+                _check_part, first_row, batch, record, task, predicted, inputs, context))
             while len(pending) > WORKERS:
                 merge_oldest()
         while pending:
@@ -388,7 +389,7 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
         for future in pending:
             future.cancel()
     _refuse_duplicates(seen, repeats.first(), context)
-    contents = {key: _encoding_thread().submit(_finished, encoder, written[key])
+    contents = {key: _encoding().submit(_finished, encoder, written[key])
                 for key, encoder in encoders.items()}
     return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups,
                         contents=contents)
@@ -399,14 +400,6 @@ WORKERS = 2
 # parts of 2^16 rows spent more time merging (16 merges of nine profiles per million rows) than
 # they gained in overlap; memory stays bounded by a few parts.
 PART_ROWS = 1 << 18
-_POOL: ThreadPoolExecutor | None = None
-
-
-def _pool() -> ThreadPoolExecutor:
-    global _POOL
-    if _POOL is None:
-        _POOL = ThreadPoolExecutor(max_workers=WORKERS, thread_name_prefix="served-batch")
-    return _POOL
 
 
 def _check_part(first_row: int, batch: pa.RecordBatch, record: RecordType, task: str,
@@ -496,7 +489,7 @@ class _Repeats:
 
     def add(self, number: int, hashes: np.ndarray) -> None:
         # One thread, tasks in order: each version's ids go in as they stand in the file.
-        self._tasks.append(_repeats_thread().submit(self._add, number, hashes))
+        self._tasks.append(shared_pool("served-ids").submit(self._add, number, hashes))
 
     def _add(self, number: int, hashes: np.ndarray) -> None:
         if number in self._found:
@@ -514,29 +507,15 @@ class _Repeats:
         return self._found
 
 
-_REPEATS: ThreadPoolExecutor | None = None
-_ENCODING: ThreadPoolExecutor | None = None
-
-
 def _finished(encoder: compact.StreamEncoder, written: list[Future]) -> bytes:
     for part in written:  # done before this task (one thread): a failed write fails the stream
         part.result()
     return encoder.finish()
 
 
-def _encoding_thread() -> ThreadPoolExecutor:
+def _encoding() -> ThreadPoolExecutor:
     """One thread, so that the parts of each window are written in file order."""
-    global _ENCODING
-    if _ENCODING is None:
-        _ENCODING = ThreadPoolExecutor(max_workers=1, thread_name_prefix="served-encode")
-    return _ENCODING
-
-
-def _repeats_thread() -> ThreadPoolExecutor:
-    global _REPEATS
-    if _REPEATS is None:
-        _REPEATS = ThreadPoolExecutor(max_workers=1, thread_name_prefix="served-ids")
-    return _REPEATS
+    return shared_pool("served-encode")
 
 
 def _refuse_duplicates(seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]],

@@ -13,7 +13,7 @@ import queue
 import threading
 from collections import deque
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
-from concurrent.futures import Future, ThreadPoolExecutor
+from concurrent.futures import Future
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -35,6 +35,7 @@ from registry.datasets.sketch import (
 )
 from registry.datasets.types import NUMERIC, RecordType, ValueType, value_type_of
 from registry.errors import UserError
+from registry.thread_pools import shared_pool
 
 DIGEST_MODULUS = 1 << 128
 
@@ -155,14 +156,6 @@ def add_batch(fingerprint: DatasetFingerprint, batch: pa.RecordBatch,
 
 
 _WORKERS = min(2, os.cpu_count() or 1)
-_POOL: ThreadPoolExecutor | None = None
-
-
-def _pool() -> ThreadPoolExecutor:
-    global _POOL
-    if _POOL is None:
-        _POOL = ThreadPoolExecutor(max_workers=_WORKERS, thread_name_prefix="fingerprint")
-    return _POOL
 
 
 def _key_hashes(batch: pa.RecordBatch, record: RecordType,
@@ -226,7 +219,8 @@ def fingerprint_batches(batches: Iterable[pa.RecordBatch], record: RecordType,
             progress(rows)
 
     for batch in batches:
-        pending.append((batch.num_rows, _pool().submit(add_batch, empty, batch, record)))
+        pending.append((batch.num_rows, shared_pool("fingerprint", _WORKERS).submit(
+            add_batch, empty, batch, record)))
         while len(pending) > _WORKERS:
             merge_oldest()
     while pending:

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import hashlib
 from collections.abc import Callable
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 from registry.datasets.allocation import reuse_large_blocks
@@ -18,6 +17,7 @@ from registry.datasets.plan import Job, JobSettings, located
 from registry.datasets.readers import open_source
 from registry.datasets.types import record_type
 from registry.errors import LockkeeperError
+from registry.thread_pools import shared_pool
 
 
 @dataclass(frozen=True)
@@ -32,7 +32,7 @@ def run_job(job: Job, settings: JobSettings, threads: bool = False,
     reuse_large_blocks()  # here, in a worker process or on a cluster's worker alike
     # With threads, the file's SHA-256 is taken on a thread beside the fingerprint (hashlib
     # lets go of the GIL); a worker on one thread takes it first, its core being busy anyway.
-    hashing = (_hashing_thread().submit(file_sha256, job.path)
+    hashing = (shared_pool("file-sha256").submit(file_sha256, job.path)
                if job.hashes_file and threads else None)
     try:
         digest = file_sha256(job.path) if job.hashes_file and hashing is None else None
@@ -77,12 +77,3 @@ def file_sha256(path: str) -> str:
         raise DatasetFileError(f"the file cannot be read ({error.strerror})",
                                place=path) from None
 
-
-_HASHING: ThreadPoolExecutor | None = None
-
-
-def _hashing_thread() -> ThreadPoolExecutor:
-    global _HASHING
-    if _HASHING is None:
-        _HASHING = ThreadPoolExecutor(max_workers=1, thread_name_prefix="file-sha256")
-    return _HASHING

@@ -34,6 +34,7 @@ from registry.service.serving_evidence import classes_of_columns, refresh_figure
 from registry.store import tables as t
 from registry.store.catalogue import Catalogue
 from registry.store.unit_of_work import UnitOfWork, utc_now
+from registry.thread_pools import shared_pool
 
 DAY = 86400
 
@@ -47,16 +48,10 @@ def file_digest(path: str) -> str:
         raise UserError(f"cannot read the batch: {error.strerror or error}", place=path) from None
 
 
-_HELPERS: ThreadPoolExecutor | None = None
-
-
 def _helpers() -> ThreadPoolExecutor:
     """Threads for the batch's digest while its rows are checked, then for merging its
     summaries while its compact rows are written (hashlib and SQLite let go of the GIL)."""
-    global _HELPERS
-    if _HELPERS is None:
-        _HELPERS = ThreadPoolExecutor(max_workers=2, thread_name_prefix="serving-helper")
-    return _HELPERS
+    return shared_pool("serving-helper", 2)
 
 
 def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,

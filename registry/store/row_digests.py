@@ -12,9 +12,8 @@ from __future__ import annotations
 
 import functools
 import hashlib
-import threading
 from collections.abc import Iterator, Mapping
-from concurrent.futures import Future, ThreadPoolExecutor
+from concurrent.futures import Future
 from datetime import datetime
 from typing import Any
 
@@ -24,6 +23,7 @@ from sqlalchemy.types import NullType
 
 from registry.canonical_json import canonical_json
 from registry.store import tables as t
+from registry.thread_pools import shared_pool
 from registry.timestamps import utc_iso
 
 # Tables that vouch for themselves and so carry no row digests in the chain.
@@ -131,17 +131,6 @@ def bytes_digest(table: str, column: str, value: bytes | bytearray | memoryview)
 
 EARLY_DIGEST_BYTES = 1 << 20  # bytes values from this size on are digested as they are added
 _EARLY_WORKERS = 2
-_early_pool: ThreadPoolExecutor | None = None
-_early_pool_lock = threading.Lock()
-
-
-def _early_digests_pool() -> ThreadPoolExecutor:
-    global _early_pool
-    with _early_pool_lock:
-        if _early_pool is None:
-            _early_pool = ThreadPoolExecutor(max_workers=_EARLY_WORKERS,
-                                             thread_name_prefix="row-digest")
-        return _early_pool
 
 
 class EarlyDigests:
@@ -155,7 +144,8 @@ class EarlyDigests:
         self._taken: dict[tuple[str, str], list[tuple[bytes, Future[str]]]] = {}
 
     def start(self, table: str, column: str, value: bytes) -> None:
-        future = _early_digests_pool().submit(bytes_digest, table, column, value)
+        future = shared_pool("row-digest", _EARLY_WORKERS).submit(
+            bytes_digest, table, column, value)
         self._taken.setdefault((table, column), []).append((value, future))
 
     def digest(self, table: str, column: str, stored: bytes | bytearray | memoryview) -> str:

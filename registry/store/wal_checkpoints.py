@@ -21,19 +21,10 @@ from __future__ import annotations
 import os
 import sqlite3
 import threading
-from concurrent.futures import Future, ThreadPoolExecutor
+from concurrent.futures import Future
 from pathlib import Path
 
-_RUNNER: ThreadPoolExecutor | None = None
-_RUNNER_LOCK = threading.Lock()
-
-
-def _runner() -> ThreadPoolExecutor:
-    global _RUNNER
-    with _RUNNER_LOCK:
-        if _RUNNER is None:
-            _RUNNER = ThreadPoolExecutor(max_workers=1, thread_name_prefix="wal-checkpoint")
-        return _RUNNER
+from registry.thread_pools import shared_pool
 
 
 class WalCheckpoints:
@@ -64,7 +55,7 @@ class WalCheckpoints:
             if self._running is not None and not self._running.done():
                 self._again = True  # the one under way runs once more when it is done
                 return
-            self._running = _runner().submit(self._checkpoint)
+            self._running = shared_pool("wal-checkpoint").submit(self._checkpoint)
 
     def _open(self) -> sqlite3.Connection:
         connection = sqlite3.connect(self._file, check_same_thread=False, isolation_level=None)
