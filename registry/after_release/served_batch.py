@@ -10,7 +10,7 @@ batch becomes, per version and window, a mergeable summary and the compact colum
 from __future__ import annotations
 
 from collections import deque
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -378,7 +378,8 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
             progress(part_rows)
 
     try:
-        for first_row, batch in _read_ahead(read_batches(source, batch_rows=PART_ROWS)):
+        decoded = read_batches(source, batch_rows=DECODE_ROWS.get(format, PART_ROWS))
+        for first_row, batch in _parts(_read_ahead(decoded)):
             pending.append(shared_pool("served-batch", WORKERS).submit(
                 _check_part, first_row, batch, record, task, predicted, inputs, context))
             while len(pending) > WORKERS:
@@ -400,6 +401,19 @@ WORKERS = 2
 # parts of 2^16 rows spent more time merging (16 merges of nine profiles per million rows) than
 # they gained in overlap; memory stays bounded by a few parts.
 PART_ROWS = 1 << 18
+# Rows decoded at a time. pyarrow decodes a Parquet batch's columns on all cores, so a long
+# batch decodes at read_table's pace (one 2^20-row batch of the benchmark's files: 57 ms
+# where four of 2^18 rows took 63 ms and, one after another with the checks waiting on each,
+# 160 ms); its parts are then checked on the workers while the next batch decodes.
+DECODE_ROWS = {"parquet": 1 << 20}
+
+
+def _parts(batches: Iterator[tuple[int, pa.RecordBatch]]
+           ) -> Iterator[tuple[int, pa.RecordBatch]]:
+    """Each decoded batch as parts of at most PART_ROWS rows (views, not copies)."""
+    for first_row, batch in batches:
+        for start in range(0, batch.num_rows, PART_ROWS):
+            yield first_row + start, batch.slice(start, PART_ROWS)
 
 
 def _check_part(first_row: int, batch: pa.RecordBatch, record: RecordType, task: str,
