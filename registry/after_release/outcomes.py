@@ -18,7 +18,7 @@ import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
-from registry.after_release.row_ids import hash_row_ids, kernels
+from registry.after_release.row_ids import first_repeat, hash_row_ids
 from registry.datasets.errors import (
     ColumnsNotMatching,
     DatasetFileError,
@@ -72,7 +72,7 @@ def read_outcomes(path: str, format: str | None = None) -> OutcomeBatch:
     if "observed_at" in table.column_names:
         observed = _times(table.column("observed_at"))
     hashes = hash_row_ids(table.column("row_id"))
-    row = int(kernels.first_repeat(hashes))  # the earliest row repeating an id
+    row = first_repeat(hashes)  # the earliest row repeating an id
     if row >= 0:
         raise UserError("this row id already has an outcome in the batch",
                         place=cell(row + 1, "row_id"))

@@ -45,27 +45,9 @@ def hash_row_ids(array: pa.Array | pa.ChunkedArray) -> np.ndarray:
     return out
 
 
-class RepeatFinder:
-    """The ids of a stream of parts, kept to find the first one seen twice: each part is added
-    as it comes, so the search is done by the time the last part is (`first_repeat` over the
-    whole would begin only then)."""
-
-    def __init__(self, expected: int = 0) -> None:
-        size = int(kernels._table_size(max(expected, 1 << 12)))
-        self._table = np.zeros(size, np.uint64)
-        self._used = np.zeros(size, np.bool_)
-        self._count = 0
-
-    def add(self, hashes: np.ndarray) -> int:
-        """The index in `hashes` of the first id already seen (in an earlier part or earlier
-        in this one), or -1 when all are new. Once one is found, add nothing more."""
-        hashes = np.ascontiguousarray(hashes, dtype=np.uint64)
-        if 2 * (self._count + len(hashes)) > len(self._table):
-            size = int(kernels._table_size(self._count + len(hashes)))
-            self._table, self._used = kernels.grow_table(self._table, self._used, size)
-        found = int(kernels.insert_until_repeat(self._table, self._used, hashes))
-        self._count += len(hashes) if found < 0 else found
-        return found
+def first_repeat(hashes: np.ndarray) -> int:
+    """The index of the first hash equal to an earlier one, or -1 when all are distinct."""
+    return int(kernels.first_repeat(np.ascontiguousarray(hashes, dtype=np.uint64)))
 
 
 class HashIndex:

@@ -21,7 +21,7 @@ import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from registry.after_release import compact
-from registry.after_release.row_ids import RepeatFinder, hash_row_ids
+from registry.after_release.row_ids import first_repeat, hash_row_ids
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import Spell
 from registry.after_release.windows import iso, window_starts
@@ -491,34 +491,24 @@ def _add_groups(groups, batch, record, task, inputs, context, versions, starts, 
 
 
 class _Repeats:
-    """Each version's row ids, added part by part in file order on a thread of their own while
-    later parts are read and checked; `first` gives, per version, the index (among that
-    version's ids) of the earliest id seen twice."""
+    """Each version's row ids, added part by part in file order; `first` gives, per version,
+    the index (among that version's ids) of the earliest id seen twice. The search runs once,
+    over all of them, when the last part is in (row_ids.first_repeat)."""
 
     def __init__(self) -> None:
-        self._finders: dict[int, RepeatFinder] = {}
-        self._added: dict[int, int] = {}
-        self._found: dict[int, int] = {}
-        self._tasks: list[Future] = []
+        self._parts: dict[int, list[np.ndarray]] = {}
 
     def add(self, number: int, hashes: np.ndarray) -> None:
-        # One thread, tasks in order: each version's ids go in as they stand in the file.
-        self._tasks.append(shared_pool("served-ids").submit(self._add, number, hashes))
-
-    def _add(self, number: int, hashes: np.ndarray) -> None:
-        if number in self._found:
-            return
-        finder = self._finders.setdefault(number, RepeatFinder())
-        index = finder.add(hashes)
-        if index >= 0:
-            self._found[number] = self._added.get(number, 0) + index
-        self._added[number] = self._added.get(number, 0) + len(hashes)
+        self._parts.setdefault(number, []).append(hashes)
 
     def first(self) -> dict[int, int]:
-        for task in self._tasks:
-            task.result()
-        self._finders.clear()
-        return self._found
+        found = {}
+        for number, parts in self._parts.items():
+            index = first_repeat(parts[0] if len(parts) == 1 else np.concatenate(parts))
+            if index >= 0:
+                found[number] = index
+        self._parts.clear()
+        return found
 
 
 def _finished(encoder: compact.StreamEncoder, written: list[Future]) -> bytes:

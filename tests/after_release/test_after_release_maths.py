@@ -16,7 +16,12 @@ from registry.after_release.agreement import agreement, spearman
 from registry.after_release.quality import live_quality, wilson
 from registry.after_release.report import merge_windows
 from registry.after_release.states import ReportSettings, is_below, judge
-from registry.after_release.row_ids import HashIndex, hash_row_ids, hash_row_ids_reference
+from registry.after_release.row_ids import (
+    HashIndex,
+    first_repeat,
+    hash_row_ids,
+    hash_row_ids_reference,
+)
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.timeline import serving_spells
 from registry.after_release.windows import window_seconds, window_starts
@@ -131,6 +136,33 @@ def test_row_id_hashes_follow_their_definition_and_integers_hash_as_their_text()
     ids = ["seg-00001@2026-11-02", "", "Ünïcode", "x" * 300]
     assert np.array_equal(hash_row_ids(pa.array(ids)), hash_row_ids_reference(ids))
     assert np.array_equal(hash_row_ids(pa.array([42, 7])), hash_row_ids(pa.array(["42", "7"])))
+
+
+def _first_repeat_in_python(hashes: np.ndarray) -> int:
+    seen: set[int] = set()
+    for index, value in enumerate(hashes.tolist()):
+        if value in seen:
+            return index
+        seen.add(value)
+    return -1
+
+
+@pytest.mark.parametrize("size, repeats", [
+    (0, 0), (1, 0), (4096, 0), (4096, 2), (4097, 1), (300_000, 0), (300_000, 1),
+    (300_000, 40),
+])
+def test_the_first_repeated_id_is_the_one_a_python_set_finds_first(size, repeats):
+    """Large batches are first checked with a table per partition of the top bits, small ones
+    and those with a repeat go through one table: each gives the earliest row whose id came
+    before, as a plain walk with a set does."""
+    rng = np.random.default_rng(size + repeats)
+    hashes = rng.integers(0, 2**64, size, dtype=np.uint64, endpoint=False)
+    if size:
+        hashes[: size // 4] |= np.uint64(0xFFF0) << np.uint64(48)  # crowd the top partitions
+    for _ in range(repeats):
+        earlier, later = sorted(rng.choice(size, 2, replace=False).tolist())
+        hashes[later] = hashes[earlier]
+    assert first_repeat(hashes) == _first_repeat_in_python(hashes)
 
 
 @pytest.mark.parametrize("keys, seen", [
