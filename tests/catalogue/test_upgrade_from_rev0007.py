@@ -1,5 +1,5 @@
 """A catalogue made at revision 0007 upgrades to the stored shapes of revision 0009
-(docs/stored-shapes.md) in place, on SQLite and PostgreSQL: every `--json` read prints what it
+(docs/stored-shapes.md) and the digests of stored bytes of revision 0010 in place, on SQLite and PostgreSQL: every `--json` read prints what it
 printed before the upgrade, every page answers, `audit verify` passes, and a later change to a
 converted row is named.
 
@@ -86,7 +86,7 @@ def upgraded(request, tmp_path_factory) -> Iterator[str]:
         result = run_cli(["--db", url, "init", "--json"])
         assert result.exit_code == 0, result.output
         report = json.loads(result.stdout)
-        assert (report["revision_before"], report["revision"]) == ("0007", "0009")
+        assert (report["revision_before"], report["revision"]) == ("0007", "0010")
         yield url
 
 
@@ -116,16 +116,20 @@ def test_every_read_prints_what_it_printed_before_the_upgrade(upgraded, argument
     assert _json(upgraded, *arguments) == BEFORE[key(arguments)]
 
 
-def test_the_audit_log_gains_one_conversion_event_and_keeps_the_rest(upgraded):
+def test_the_audit_log_gains_two_conversion_events_and_keeps_the_rest(upgraded):
     arguments = ("audit", "log", "--limit", "500")
     before, after = BEFORE[key(arguments)], _json(upgraded, *arguments)
-    newest = after["events"][0]
-    assert newest["action"] == "catalogue.convert" and newest["subject"] == "catalogue"
-    details = newest["details"]
+    bytes_digests, shapes = after["events"][0], after["events"][1]
+    assert {shapes["action"], bytes_digests["action"]} == {"catalogue.convert"}
+    assert shapes["subject"] == bytes_digests["subject"] == "catalogue"
+    details = shapes["details"]
     assert details["revision"] == "0009"
     assert (details["features"], details["evaluations"], details["predictions"]) == (5, 1, 4)
     assert details["blobs_removed"] == 4
-    assert after["events"][1:] == before["events"]
+    # every served_rows row of the demo (the only bytes the chain covers) recorded again
+    assert (bytes_digests["details"]["revision"], bytes_digests["details"]["rows"]) == \
+        ("0010", 42)
+    assert after["events"][2:] == before["events"]
 
 
 def test_rows_are_in_the_new_shapes_after_the_upgrade(upgraded):
@@ -174,7 +178,7 @@ def test_registering_a_converted_version_again_finds_it(upgraded):
 
 def test_a_second_init_converts_nothing(upgraded):
     head = _json(upgraded, "audit", "log", "--limit", "1")["events"][0]
-    assert _json(upgraded, "init")["revision"] == "0009"
+    assert _json(upgraded, "init")["revision"] == "0010"
     assert _json(upgraded, "audit", "log", "--limit", "1")["events"][0] == head
 
 
@@ -294,6 +298,49 @@ def test_going_back_below_0009_is_refused_once_rows_were_converted(upgraded_copy
     try:
         with pytest.raises(UserError, match="restore an export"):
             migrate.downgrade(catalogue, "0007")
-        assert migrate.current_revision(catalogue) == "0009"
+        assert migrate.current_revision(catalogue) == "0010"
     finally:
         catalogue.close()
+
+
+def test_going_back_to_0009_records_the_hex_digests_again_and_up_again_verifies(upgraded_copy):
+    from registry.store import migrate
+    from registry.store.catalogue import open_catalogue
+
+    catalogue = open_catalogue(upgraded_copy)
+    try:
+        migrate.downgrade(catalogue, "0009")
+        assert migrate.current_revision(catalogue) == "0009"
+        migrate.upgrade(catalogue)
+    finally:
+        catalogue.close()
+    assert _json(upgraded_copy, "audit", "verify")["ok"] is True
+    newest = _json(upgraded_copy, "audit", "log", "--limit", "2")["events"]
+    assert [e["details"]["revision"] for e in newest] == ["0010", "0009"]
+    assert [e["details"]["rows"] for e in newest] == [42, 42]
+
+
+@pytest.mark.parametrize("backend", BACKENDS)
+def test_a_served_row_changed_before_the_upgrade_stops_it_and_changes_nothing(backend, tmp_path):
+    """Recording the new digest of a row that no longer holds what the chain recorded would
+    vouch for the change: the upgrade names the row and stops."""
+    for url in _at_rev0007(backend, tmp_path):
+        from registry.store.catalogue import open_catalogue
+
+        catalogue = open_catalogue(url)
+        try:
+            with catalogue.engine.begin() as connection:
+                changed = connection.execute(text("SELECT min(id) FROM served_rows")).scalar()
+                connection.execute(text(
+                    "UPDATE served_rows SET content = :content WHERE id = :id"),
+                    {"content": b"not what was served", "id": changed})
+        finally:
+            catalogue.close()
+        before = _revision_and_head(url)
+        result = run_cli(["--db", url, "init", "--json"])
+        assert result.exit_code == 2, result.output
+        error = json.loads(result.stdout)["error"]
+        assert error["kind"] == "changed-row"
+        assert error["place"] == f"served_rows id={changed}"
+        assert "nothing was changed" in error["message"]
+        assert _revision_and_head(url) == before and before[0] == "0007"
