@@ -24,6 +24,7 @@ from registry.after_release.row_ids import HashIndex
 from registry.after_release.served_batch import CheckedBatch, read_served_batch
 from registry.after_release.summaries import WindowSummary, merge_summaries
 from registry.after_release.windows import iso
+from registry.collector_pause import collector_paused
 from registry.errors import UserError
 from registry.node_ids import model_id
 from registry.service import gatekeeping
@@ -58,6 +59,14 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                   format: str | None = None, schema_json: Mapping[str, Any] | None = None,
                   progress: Callable[[int], None] | None = None) -> dict[str, Any]:
     """Check and keep one served batch; the answer says what it added, per version and window."""
+    with collector_paused():
+        return _record_served(catalogue, model, path, actor, format=format,
+                              schema_json=schema_json, progress=progress)
+
+
+def _record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
+                   format: str | None, schema_json: Mapping[str, Any] | None,
+                   progress: Callable[[int], None] | None) -> dict[str, Any]:
     with UnitOfWork(catalogue, write=False) as uow:
         authorise(uow, actor, "serving.record")  # before reading a row of the batch
         line = find_model(uow, model)
