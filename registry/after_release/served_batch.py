@@ -92,6 +92,13 @@ class CheckedBatch:
     groups: Mapping[tuple[int, int], WindowRows]  # (version, window start) -> rows
     # each group's compact rows (compact.py), encoded part by part while the batch was read
     contents: Mapping[tuple[int, int], Future[bytes]] = field(default_factory=dict)
+    # the search for a row id repeated within a version (read_served_batch's repeats_later)
+    repeats: Future[None] | None = None
+
+    def refuse_repeated_ids(self) -> None:
+        """Raise the refusal of the first row id repeated within a version, if there is one."""
+        if self.repeats is not None:
+            self.repeats.result()
 
 
 # --- the file's columns ----------------------------------------------------------------------
@@ -329,9 +336,14 @@ def _check_task(task: str, predicted: tuple[str, ...], numbers: list[int],
 
 def read_served_batch(path: str, context: ServingContext, *, format: str | None = None,
                       schema_json: Mapping[str, Any] | None = None,
-                      progress: Callable[[int], None] | None = None) -> CheckedBatch:
+                      progress: Callable[[int], None] | None = None,
+                      repeats_later: bool = False) -> CheckedBatch:
     """Check every row of a batch and summarise it per version and window, or raise the
     first fault, naming its row and column; nothing is kept of a refused batch.
+
+    With `repeats_later` the search for repeated row ids, which needs every row, runs on a
+    thread after the last row is read, and the caller raises its finding with
+    `refuse_repeated_ids` before it keeps anything (while it writes the batch, say).
 
     Record batches are checked on two threads (numpy, numba and Arrow let go of the GIL) while
     a third reads ahead; their parts are merged in file order, so the first fault reported is
@@ -389,11 +401,13 @@ def read_served_batch(path: str, context: ServingContext, *, format: str | None 
     finally:
         for future in pending:
             future.cancel()
-    _refuse_duplicates(seen, repeats.first(), context)
+    searching = shared_pool("served-ids").submit(_refuse_duplicates, seen, repeats, context)
+    if not repeats_later:
+        searching.result()
     contents = {key: _encoding().submit(_finished, encoder, written[key])
                 for key, encoder in encoders.items()}
     return CheckedBatch(rows=rows, task=task, prediction_columns=predicted, groups=groups,
-                        contents=contents)
+                        contents=contents, repeats=searching)
 
 
 WORKERS = 2
@@ -523,10 +537,11 @@ def _encoding() -> ThreadPoolExecutor:
 
 
 def _refuse_duplicates(seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]],
-                       repeats: Mapping[int, int], context: ServingContext) -> None:
+                       repeats: _Repeats, context: ServingContext) -> None:
     """A row id may be scored once per version in a batch (two versions may score it)."""
+    found = repeats.first()
     for number, parts in seen.items():
-        second = repeats.get(number, -1)  # the earliest row repeating an id
+        second = found.get(number, -1)  # the earliest row repeating an id
         if second >= 0:
             raise UserError(f"the row id of this row already appears in the batch for "
                             f"v{number}; a version scores a row once",

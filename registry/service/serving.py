@@ -1,6 +1,7 @@
 """Use cases after release: recording served batches and outcomes (one transaction each).
 
-A batch is read and checked in full before the transaction starts, so a bad row refuses it with
+A batch is read and checked before the transaction starts (all but the search for a row id sent
+twice, which runs while the rows are written, before the commit), so a bad row refuses it with
 nothing stored; the same batch sent again (same digest) changes nothing. What is kept grows with
 time, not with traffic: one mergeable summary per model, version and window, and the compact
 rows of each window until the policy's retention drops them.
@@ -75,8 +76,10 @@ def _record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
     # sent again is found by it in the writing transaction below and changes nothing.
     digesting = _helpers().submit(file_digest, path)
     try:
+        # The search for a row id sent twice needs every row: it runs on a thread while the
+        # rows are written, and a refusal ends the transaction without a commit.
         checked = read_served_batch(path, context, format=format, schema_json=schema_json,
-                                    progress=progress)
+                                    progress=progress, repeats_later=True)
     finally:
         digest = digesting.result()
     groups = sorted(checked.groups.items())
@@ -114,6 +117,7 @@ def _record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
             stored[(number, start, seconds)] = summary
         refresh_figures(uow, line, {start for _, start in checked.groups}, stored)
         dropped = _apply_retention(uow, line)
+        checked.refuse_repeated_ids()
         uow.audit.append(actor.name, "serving.record", model_id(line.name),
                          {"digest": digest, "rows": checked.rows, "task": checked.task,
                           "windows": windows, "dropped_row_sets": dropped})
