@@ -18,20 +18,50 @@ _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)
 
 
+@numba.njit(inline="always")
+def _finished(h):
+    h ^= h >> np.uint64(30)
+    h *= _M1
+    h ^= h >> np.uint64(27)
+    h *= _M2
+    h ^= h >> np.uint64(31)
+    return h
+
+
+@numba.njit(inline="always")
+def _fnv(h, data, start, end):
+    for j in range(start, end):
+        h ^= np.uint64(data[j])
+        h *= FNV_PRIME
+    return h
+
+
 @numba.njit(cache=True, nogil=True)
 def hash_strings(offsets, data, out):
-    """out[i] = finalise(FNV-1a(data[offsets[i]:offsets[i + 1]]))."""
-    for i in range(out.shape[0]):
-        h = FNV_OFFSET
-        for j in range(offsets[i], offsets[i + 1]):
-            h ^= np.uint64(data[j])
-            h *= FNV_PRIME
-        h ^= h >> np.uint64(30)
-        h *= _M1
-        h ^= h >> np.uint64(27)
-        h *= _M2
-        h ^= h >> np.uint64(31)
-        out[i] = h
+    """out[i] = finalise(FNV-1a(data[offsets[i]:offsets[i + 1]])).
+
+    FNV-1a is one multiplication after another, each waiting for the last; four ids are
+    hashed side by side, byte k of each in turn, so that the core multiplies four at once
+    (ids of one length, the usual case: hash_row_ids of 1,000,000 ids of 13 bytes takes 10 ms
+    where one id at a time took 17 ms). Each id's hash is its own, as if hashed alone."""
+    n = out.shape[0]
+    whole = n - n % 4
+    for i in range(0, whole, 4):
+        a, b, c, d = offsets[i], offsets[i + 1], offsets[i + 2], offsets[i + 3]
+        e = offsets[i + 4]
+        shared = min(b - a, c - b, d - c, e - d)
+        h0 = h1 = h2 = h3 = FNV_OFFSET
+        for k in range(shared):
+            h0 = (h0 ^ np.uint64(data[a + k])) * FNV_PRIME
+            h1 = (h1 ^ np.uint64(data[b + k])) * FNV_PRIME
+            h2 = (h2 ^ np.uint64(data[c + k])) * FNV_PRIME
+            h3 = (h3 ^ np.uint64(data[d + k])) * FNV_PRIME
+        out[i] = _finished(_fnv(h0, data, a + shared, b))
+        out[i + 1] = _finished(_fnv(h1, data, b + shared, c))
+        out[i + 2] = _finished(_fnv(h2, data, c + shared, d))
+        out[i + 3] = _finished(_fnv(h3, data, d + shared, e))
+    for i in range(whole, n):
+        out[i] = _finished(_fnv(FNV_OFFSET, data, offsets[i], offsets[i + 1]))
 
 
 @numba.njit(cache=True, nogil=True)

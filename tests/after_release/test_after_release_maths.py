@@ -138,6 +138,17 @@ def test_row_id_hashes_follow_their_definition_and_integers_hash_as_their_text()
     assert np.array_equal(hash_row_ids(pa.array([42, 7])), hash_row_ids(pa.array(["42", "7"])))
 
 
+@pytest.mark.parametrize("count", [1, 3, 4, 5, 1001])
+def test_ids_hashed_four_at_a_time_hash_as_each_alone_whatever_their_lengths(count):
+    rng = np.random.default_rng(count)
+    ids = ["".join(chr(int(c)) for c in rng.integers(32, 0x500, int(rng.integers(0, 30))))
+           for _ in range(count)]
+    if count > 4:
+        ids[4:8] = ["seg-0001", "seg-0002", "seg-0003", "seg-0004"]  # one length, side by side
+    assert np.array_equal(hash_row_ids(pa.array(ids)), hash_row_ids_reference(ids))
+    assert np.array_equal(hash_row_ids(pa.array(ids).slice(1)), hash_row_ids_reference(ids[1:]))
+
+
 def _first_repeat_in_python(hashes: np.ndarray) -> int:
     seen: set[int] = set()
     for index, value in enumerate(hashes.tolist()):
