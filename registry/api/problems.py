@@ -34,6 +34,7 @@ TITLES = {
     "features-contradict-schema": "The feature definitions contradict the input schema",
     "unreadable-evaluation-record": "A stored evaluation is not an evaluation record",
     "unconvertible-row": "A stored row is in no shape the upgrade knows",
+    "changed-row": "A stored row differs from what the audit chain recorded",
     "dataset-file": "The dataset file cannot be read",
     "dataset-value": "A value in the dataset does not fit its schema",
     "dataset-columns": "The dataset's columns do not match its schema",
