@@ -7,7 +7,9 @@ Revises: 0008
 Create Date: 2026-12-04 18:40:00.000000
 """
 
-from alembic import context, op
+from alembic import context
+
+from registry.store.migrate import revision_actor, revision_catalogue
 
 revision = "0009"
 down_revision = "0008"
@@ -15,31 +17,19 @@ branch_labels = None
 depends_on = None
 
 
-def _catalogue():
-    from registry.store.catalogue import on_connection
-
-    return on_connection(op.get_bind(), context.config.attributes.get("catalogue"))
-
-
-def _actor() -> str:
-    from registry.store.migrate import UPGRADE_ACTOR
-
-    return context.config.attributes.get("actor") or UPGRADE_ACTOR
-
-
 def upgrade() -> None:
     from registry.service.coverage_upgrade import cover_rows_written_before_coverage
     from registry.service.shape_conversion import convert_stored_shapes
 
-    catalogue = _catalogue()
+    catalogue = revision_catalogue()
     # A catalogue from before revision 0003 has rows no event covers yet: cover them first, so
     # the conversion's row digests extend a chain that already vouches for every row.
-    covered = cover_rows_written_before_coverage(catalogue, _actor())
+    covered = cover_rows_written_before_coverage(catalogue, revision_actor())
     context.config.attributes["rows_covered"] = covered
-    convert_stored_shapes(catalogue, _actor())
+    convert_stored_shapes(catalogue, revision_actor())
 
 
 def downgrade() -> None:
     from registry.service.shape_conversion import refuse_to_unconvert
 
-    refuse_to_unconvert(_catalogue())
+    refuse_to_unconvert(revision_catalogue())

@@ -8,7 +8,7 @@ Revises: 0009
 Create Date: 2026-12-05 02:30:00.000000
 """
 
-from alembic import context, op
+from registry.store.migrate import revision_actor, revision_catalogue
 
 revision = "0010"
 down_revision = "0009"
@@ -16,25 +16,13 @@ branch_labels = None
 depends_on = None
 
 
-def _catalogue():
-    from registry.store.catalogue import on_connection
-
-    return on_connection(op.get_bind(), context.config.attributes.get("catalogue"))
-
-
-def _actor() -> str:
-    from registry.store.migrate import UPGRADE_ACTOR
-
-    return context.config.attributes.get("actor") or UPGRADE_ACTOR
-
-
 def upgrade() -> None:
     from registry.service.digest_conversion import redigest_bytes
 
-    redigest_bytes(_catalogue(), _actor())
+    redigest_bytes(revision_catalogue(), revision_actor())
 
 
 def downgrade() -> None:
     from registry.service.digest_conversion import redigest_bytes
 
-    redigest_bytes(_catalogue(), _actor(), upgrading=False)
+    redigest_bytes(revision_catalogue(), revision_actor(), upgrading=False)

@@ -1,5 +1,5 @@
 """The compiled kernel that hashes row ids: 64-bit FNV-1a over each id's UTF-8 bytes, then the
-splitmix64 finaliser (as registry.datasets.kernels) so that nearby ids spread over all bits.
+splitmix64 finaliser (registry.datasets.kernels.mix64) so that nearby ids spread over all bits.
 
 FNV-1a: Fowler, Noll and Vo, the FNV hash (IETF draft-eastlake-fnv); splitmix64: Steele, Lea
 and Flood, Fast splittable pseudorandom number generators (OOPSLA 2014). The numpy definition
@@ -10,22 +10,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from registry.datasets.kernels import mix64
 from registry.numba_import import numba
 
 FNV_OFFSET = np.uint64(0xCBF29CE484222325)
 FNV_PRIME = np.uint64(0x100000001B3)
-_M1 = np.uint64(0xBF58476D1CE4E5B9)
-_M2 = np.uint64(0x94D049BB133111EB)
-
-
-@numba.njit(inline="always")
-def _finished(h):
-    h ^= h >> np.uint64(30)
-    h *= _M1
-    h ^= h >> np.uint64(27)
-    h *= _M2
-    h ^= h >> np.uint64(31)
-    return h
 
 
 @numba.njit(inline="always")
@@ -56,12 +45,12 @@ def hash_strings(offsets, data, out):
             h1 = (h1 ^ np.uint64(data[b + k])) * FNV_PRIME
             h2 = (h2 ^ np.uint64(data[c + k])) * FNV_PRIME
             h3 = (h3 ^ np.uint64(data[d + k])) * FNV_PRIME
-        out[i] = _finished(_fnv(h0, data, a + shared, b))
-        out[i + 1] = _finished(_fnv(h1, data, b + shared, c))
-        out[i + 2] = _finished(_fnv(h2, data, c + shared, d))
-        out[i + 3] = _finished(_fnv(h3, data, d + shared, e))
+        out[i] = mix64(_fnv(h0, data, a + shared, b))
+        out[i + 1] = mix64(_fnv(h1, data, b + shared, c))
+        out[i + 2] = mix64(_fnv(h2, data, c + shared, d))
+        out[i + 3] = mix64(_fnv(h3, data, d + shared, e))
     for i in range(whole, n):
-        out[i] = _finished(_fnv(FNV_OFFSET, data, offsets[i], offsets[i + 1]))
+        out[i] = mix64(_fnv(FNV_OFFSET, data, offsets[i], offsets[i + 1]))
 
 
 @numba.njit(cache=True, nogil=True)

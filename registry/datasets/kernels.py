@@ -25,7 +25,7 @@ compile_kernel = numba.njit(cache=True, nogil=True)
 
 
 @numba.njit(inline="always")
-def _mix64(x):
+def mix64(x):
     """The splitmix64 finaliser, as hashing.mix64."""
     x ^= x >> np.uint64(30)
     x *= _M1
@@ -77,7 +77,7 @@ def add_contributions(bits, floating, valid, sums0, sums1, key0, multiplier, nul
         if floating:
             non_finite += present and (bits[i] & _MAGNITUDE) >= _INFINITY_BITS
         if hashing:
-            c = _mix64(_canonical_word(bits[i], floating) ^ key0)
+            c = mix64(_canonical_word(bits[i], floating) ^ key0)
             sums0[i] += c if present else null0
             sums1[i] += c * multiplier if present else null1
     return non_finite
@@ -232,8 +232,8 @@ def finish_records(sums0, sums1, key0, key1):
     high = np.uint64(0)
     upper = np.uint64(0)
     for i in range(n):
-        a = _mix64(sums0[i] ^ key0)
-        b = _mix64(sums1[i] ^ key1)
+        a = mix64(sums0[i] ^ key0)
+        b = mix64(sums1[i] ^ key1)
         lane0[i] = a
         lane1[i] = b
         low += a & np.uint64(0xFFFFFFFF)

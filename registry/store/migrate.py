@@ -24,6 +24,23 @@ def alembic_config(catalogue: Catalogue) -> Config:
 UPGRADE_ACTOR = "lockkeeper-upgrade"
 
 
+def revision_catalogue() -> Catalogue:
+    """For a revision that converts rows (0009, 0010): the catalogue whose units of work run
+    in savepoints of the upgrade's own transaction."""
+    from alembic import context, op
+
+    from registry.store.catalogue import on_connection
+
+    return on_connection(op.get_bind(), context.config.attributes.get("catalogue"))
+
+
+def revision_actor() -> str:
+    """Whom the audit events of a converting revision name as their actor."""
+    from alembic import context
+
+    return context.config.attributes.get("actor") or UPGRADE_ACTOR
+
+
 def _run(catalogue: Catalogue, action, revision: str, actor: str) -> dict:
     """Run revisions in one transaction; revisions that convert rows (0009) work through units
     of work joined to it, so a failure anywhere leaves the catalogue as it was."""

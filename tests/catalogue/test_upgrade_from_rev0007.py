@@ -266,6 +266,12 @@ def _revision_and_head(url: str) -> tuple[str | None, tuple]:
         catalogue.close()
 
 
+def _refused_init(url: str) -> dict:
+    result = run_cli(["--db", url, "init", "--json"])
+    assert result.exit_code == 2, result.output
+    return json.loads(result.stdout)["error"]
+
+
 @pytest.mark.parametrize("backend", BACKENDS)
 def test_a_row_in_no_known_shape_stops_the_upgrade_and_changes_nothing(backend, tmp_path):
     for url in _at_rev0007(backend, tmp_path):
@@ -280,9 +286,7 @@ def test_a_row_in_no_known_shape_stops_the_upgrade_and_changes_nothing(backend, 
         finally:
             catalogue.close()
         before = _revision_and_head(url)
-        result = run_cli(["--db", url, "init", "--json"])
-        assert result.exit_code == 2, result.output
-        error = json.loads(result.stdout)["error"]
+        error = _refused_init(url)
         assert error["kind"] == "unconvertible-row"
         assert error["place"] == "model/night-flow-leak/version/1"
         assert "nothing was changed" in error["message"]
@@ -337,9 +341,7 @@ def test_a_served_row_changed_before_the_upgrade_stops_it_and_changes_nothing(ba
         finally:
             catalogue.close()
         before = _revision_and_head(url)
-        result = run_cli(["--db", url, "init", "--json"])
-        assert result.exit_code == 2, result.output
-        error = json.loads(result.stdout)["error"]
+        error = _refused_init(url)
         assert error["kind"] == "changed-row"
         assert error["place"] == f"served_rows id={changed}"
         assert "nothing was changed" in error["message"]
