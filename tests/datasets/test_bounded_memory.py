@@ -51,8 +51,14 @@ def test_peak_memory_is_flat_for_ten_times_the_rows(tmp_path):
     small = write_readings(tmp_path / "small.parquet", 10 * GROUP_ROWS)
     large = write_readings(tmp_path / "large.parquet", 100 * GROUP_ROWS)
     peak_bytes(small)  # warm caches and the thread pool
-    small_python, small_arrow = peak_bytes(small)
-    large_python, large_arrow = peak_bytes(large)
+    # The lowest of three peaks of each size, taken in turns: a single peak depends on how the
+    # reading threads were scheduled, and on a busy machine (the suite's other workers) one
+    # large peak passed the bound once in CI (7.6 MB against 7.5 MB).
+    peaks = [(peak_bytes(small), peak_bytes(large)) for _ in range(3)]
+    small_python = min(s[0] for s, _ in peaks)
+    small_arrow = min(s[1] for s, _ in peaks)
+    large_python = min(large[0] for _, large in peaks)
+    large_arrow = min(large[1] for _, large in peaks)
     whole = pq.read_table(large).nbytes
     assert large_python <= 1.5 * small_python + 2**20
     # Arrow memory swings with the few batches in flight (read ahead, two being hashed), so it
