@@ -606,13 +606,15 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
         array = array.fill_null("")  # an unquoted empty field is the empty string
     if parse_text and value_type.avro == "boolean":
         array = pc.utf8_lower(array)
+    fits_int = array.type in _FITTING_AVRO_INT  # no value to check against int's range
     if array.type != target:
         array = _cast(array, target, value_type, name, first_row)
     if value_type.avro == "float":
         array = array.cast(pa.float32()).cast(pa.float64())  # Avro float is binary32
     _refuse_missing(array, value_type, name, first_row)
-    if value_type.avro == "int" and len(array):
-        values = array.fill_null(0).to_numpy(zero_copy_only=False)
+    if value_type.avro == "int" and len(array) and not fits_int:
+        values = (array.fill_null(0) if array.null_count else array).to_numpy(
+            zero_copy_only=False)
         outside = (values < -(2**31)) | (values >= 2**31)
         if outside.any():
             row = int(np.argmax(outside))
@@ -624,6 +626,9 @@ def conform_column(array: pa.Array, value_type: ValueType, name: str, first_row:
                                 name, first_row)
     return array
 
+
+# Arrow integer types whose every value is an Avro int (32-bit signed)
+_FITTING_AVRO_INT = (pa.int8(), pa.int16(), pa.int32(), pa.uint8(), pa.uint16())
 
 _TIME_UNITS = {"timestamp-millis": "ms", "timestamp-micros": "us", "local-timestamp-millis": "ms",
                "local-timestamp-micros": "us", "time-millis": "ms", "time-micros": "us"}

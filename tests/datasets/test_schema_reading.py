@@ -92,3 +92,32 @@ def test_parquet_dates_and_timestamps_read_as_the_numbers_of_their_logical_types
                    parquet)
     assert fingerprint_file(str(parquet), schema_json=schema).content_digest == \
         fingerprint_file(str(avro), schema_json=schema).content_digest
+
+
+def test_an_avro_int_read_from_parquet_holds_32_bits_whatever_integer_type_stores_it(tmp_path):
+    """Avro specification, Primitive Types: int is a 32-bit signed integer. A 64-bit Parquet
+    column is checked value by value; narrower ones need no check, nulls included."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+    import pytest
+
+    from registry.errors import UserError
+
+    schema = {"type": "record", "name": "Count", "fields": [
+        {"name": "n", "type": ["null", "int"]}]}
+    values = [7, None, -(2**31), 2**31 - 1]
+    digests = set()
+    for arrow_type in (pa.int8(), pa.int16(), pa.int32(), pa.uint16(), pa.int64()):
+        path = tmp_path / f"{arrow_type}.parquet"
+        fitting = [v if v is None or arrow_type.bit_width >= 32 else v % 100 for v in values]
+        pq.write_table(pa.table({"n": pa.array(fitting, arrow_type)}), path)
+        found = fingerprint_file(str(path), schema_json=schema)
+        assert found.profile["n"].nulls == 1
+        if arrow_type.bit_width >= 32:
+            digests.add(found.content_digest)
+    assert len(digests) == 1  # int32 and int64 columns of the same values read alike
+    too_large = tmp_path / "too-large.parquet"
+    pq.write_table(pa.table({"n": pa.array([1, None, 2**31], pa.int64())}), too_large)
+    with pytest.raises(UserError, match="does not fit an Avro int") as refused:
+        fingerprint_file(str(too_large), schema_json=schema)
+    assert refused.value.place == "row 3, column n"
