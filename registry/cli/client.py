@@ -145,6 +145,13 @@ class CatalogueClient(Protocol):
     def record_served(self, model: str, file: str, *, schema: str | None,
                       file_format: str | None, progress: Progress = None) -> ServedBatch: ...
 
+    def record_served_batches(self, model: str, files: Sequence[str], *, schema: str | None,
+                              file_format: str | None, progress: Progress = None
+                              ) -> Iterator[ServedBatch]:
+        """Each file recorded in turn as its own batch, each answer as it is kept; a refused
+        file raises and ends the run (the files before it stay recorded)."""
+        ...
+
     def record_outcomes(self, model: str, file: str, *,
                         file_format: str | None) -> OutcomeBatch: ...
 

@@ -245,6 +245,17 @@ class LocalCatalogue:
             self.catalogue, model, file, self.actor(), format=file_format,
             schema_json=load_schema(schema), progress=progress)))
 
+    def record_served_batches(self, model: str, files: Sequence[str], *, schema: str | None,
+                              file_format: str | None, progress: Progress = None
+                              ) -> Iterator[a.ServedBatch]:
+        from registry.cli.dataset_commands import load_schema
+        from registry.service.serving import record_served_batches
+
+        for document in record_served_batches(self.catalogue, model, files, self.actor(),
+                                              format=file_format, schema_json=load_schema(schema),
+                                              progress=progress):
+            yield a.ServedBatch(_plain(document))
+
     def record_outcomes(self, model: str, file: str, *,
                         file_format: str | None) -> a.OutcomeBatch:
         from registry.service.serving import record_outcomes

@@ -163,6 +163,15 @@ class RemoteCatalogue:
         return a.ServedBatch(self.api.record_served(model, file, schema=schema,
                                                     file_format=file_format))
 
+    def record_served_batches(self, model: str, files: Sequence[str], *, schema: str | None,
+                              file_format: str | None, progress: Progress = None
+                              ) -> Iterator[a.ServedBatch]:
+        for file in files:  # one request a batch, in turn
+            answer = self.record_served(model, file, schema=schema, file_format=file_format)
+            if progress is not None:
+                progress(int(answer.document["rows"]))
+            yield answer
+
     def record_outcomes(self, model: str, file: str, *,
                         file_format: str | None) -> a.OutcomeBatch:
         return a.OutcomeBatch(self.api.record_outcomes(model, file, file_format=file_format))

@@ -11,6 +11,7 @@ from registry.cli.catalogue_commands import _client
 from registry.cli.dataset_commands import FORMAT_CHOICE
 from registry.cli.output import emit, json_option
 from registry.cli.progress import progress_bar
+from registry.errors import LockkeeperError
 
 
 @click.group("serving")
@@ -29,28 +30,62 @@ def _total_rows(path: str) -> int | None:
 
 @serving.command("record")
 @click.argument("model_name", metavar="MODEL")
-@click.argument("file", type=click.Path(dir_okay=False))
+@click.argument("files", metavar="FILE...", nargs=-1, required=True,
+                type=click.Path(dir_okay=False))
 @click.option("--schema", "schema_path", type=click.Path(dir_okay=False), metavar="AVSC",
               help="Avro schema of the batch's columns (required for CSV).")
 @click.option("--format", "file_format", type=FORMAT_CHOICE, default=None)
 @json_option
-def record(model_name: str, file: str, schema_path: str | None, file_format: str | None,
-           as_json: bool) -> None:
-    """Record a batch of served rows: row_id, served_at, version, the prediction, inputs."""
-    with progress_bar(os.path.basename(file), _total_rows(file)) as progress:
-        outcome = _client().record_served(model_name, file, schema=schema_path,
-                                          file_format=file_format, progress=progress)
+def record(model_name: str, files: tuple[str, ...], schema_path: str | None,
+           file_format: str | None, as_json: bool) -> None:
+    """Record a batch of served rows: row_id, served_at, version, the prediction, inputs.
 
-    def text(o: dict[str, Any]) -> str:
-        if not o["recorded"]:
-            return f"already recorded (nothing changed): batch {o['digest'][:12]}, {o['rows']} rows"
-        shown = ", ".join(f"v{w['version']} {w['window'][:10]} {w['rows']}"
-                          for w in o["windows"][:6])
-        more = f" and {len(o['windows']) - 6} more" if len(o["windows"]) > 6 else ""
-        return (f"recorded {o['rows']} served rows of {o['model']} "
-                f"(batch {o['digest'][:12]}): {shown}{more}")
+    Several files are recorded in turn, each its own batch (the next is read while one is
+    written). A refused file ends the command: the files before it stay recorded, and sending
+    them again changes nothing."""
+    label = os.path.basename(files[0]) if len(files) == 1 else f"{len(files)} batches"
+    totals = [_total_rows(file) for file in files]
+    total = None if None in totals else sum(t for t in totals if t is not None)
+    kept: list[dict[str, Any]] = []
+    with progress_bar(label, total) as progress:
+        try:
+            for answer in _client().record_served_batches(
+                    model_name, list(files), schema=schema_path, file_format=file_format,
+                    progress=progress):
+                kept.append(answer.to_json())
+        except LockkeeperError as error:
+            if len(files) > 1:
+                _name_the_file(error, files[len(kept)], len(kept))
+            raise
+    if len(files) == 1:
+        emit(kept[0], as_json, _batch_line)
+        return
+    document = {"model": kept[0]["model"],
+                "batches": [{"file": file, **batch} for file, batch in zip(files, kept,
+                                                                           strict=True)],
+                "recorded": sum(1 for batch in kept if batch["recorded"]),
+                "rows": sum(batch["rows"] for batch in kept if batch["recorded"])}
+    emit(document, as_json, lambda d: "\n".join(
+        f"{batch['file']}: {_batch_line(batch)}" for batch in d["batches"]))
 
-    emit(outcome, as_json, text)
+
+def _batch_line(o: dict[str, Any]) -> str:
+    if not o["recorded"]:
+        return f"already recorded (nothing changed): batch {o['digest'][:12]}, {o['rows']} rows"
+    shown = ", ".join(f"v{w['version']} {w['window'][:10]} {w['rows']}"
+                      for w in o["windows"][:6])
+    more = f" and {len(o['windows']) - 6} more" if len(o["windows"]) > 6 else ""
+    return (f"recorded {o['rows']} served rows of {o['model']} "
+            f"(batch {o['digest'][:12]}): {shown}{more}")
+
+
+def _name_the_file(error: LockkeeperError, file: str, before: int) -> None:
+    """Among several files, the error says which one, and that those before it are kept."""
+    error.place = f"{file}, {error.place}" if error.place else file
+    if before:
+        error.message = (f"{error.message} (the {before} file{'s' if before > 1 else ''} "
+                         f"before it {'are' if before > 1 else 'is'} recorded; sending "
+                         f"{'them' if before > 1 else 'it'} again changes nothing)")
 
 
 @serving.command("outcomes")

@@ -9,12 +9,14 @@ rows of each window until the policy's retention drops them.
 
 from __future__ import annotations
 
+import contextvars
 import hashlib
 import json
 import threading
 from collections import OrderedDict
-from collections.abc import Callable, Mapping
-from concurrent.futures import ThreadPoolExecutor
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from concurrent.futures import CancelledError, Future, ThreadPoolExecutor
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -61,13 +63,59 @@ def record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                   progress: Callable[[int], None] | None = None) -> dict[str, Any]:
     """Check and keep one served batch; the answer says what it added, per version and window."""
     with collector_paused():
-        return _record_served(catalogue, model, path, actor, format=format,
-                              schema_json=schema_json, progress=progress)
+        return _keep(catalogue, model, actor, _read(catalogue, model, path, actor, format=format,
+                                                    schema_json=schema_json, progress=progress))
 
 
-def _record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
-                   format: str | None, schema_json: Mapping[str, Any] | None,
-                   progress: Callable[[int], None] | None) -> dict[str, Any]:
+def record_served_batches(catalogue: Catalogue, model: str, paths: Sequence[str], actor: Actor,
+                          *, format: str | None = None,
+                          schema_json: Mapping[str, Any] | None = None,
+                          progress: Callable[[int], None] | None = None
+                          ) -> Iterator[dict[str, Any]]:
+    """`record_served` of each file in turn, each its own batch and transaction; yields each
+    answer once its batch is kept. The next file is read and checked on a thread while this one
+    is written, so that writing and committing a batch (one core, and a wait for the disk)
+    overlaps with reading the next (every core).
+
+    A refused file raises its error and ends the run: the files before it stay recorded (sending
+    them again changes nothing) and nothing of it or of those after it is kept."""
+    if not paths:
+        return
+    reader = shared_pool("served-next-file")
+    with collector_paused():
+        def read(path: str) -> Future[_ReadBatch]:  # in the caller's context (its listeners)
+            return reader.submit(contextvars.copy_context().run, _read, catalogue, model, path,
+                                 actor, format=format, schema_json=schema_json,
+                                 progress=progress)
+
+        upcoming = read(paths[0])
+        try:
+            for following in [*paths[1:], None]:
+                current = upcoming.result()
+                if following is not None:
+                    upcoming = read(following)
+                yield _keep(catalogue, model, actor, current)
+        finally:
+            if not upcoming.done():
+                upcoming.cancel()
+            try:  # a read under way when a batch is refused is waited for, and dropped
+                upcoming.exception()
+            except CancelledError:
+                pass
+
+
+@dataclass(frozen=True)
+class _ReadBatch:
+    """A served batch read and checked, not yet kept: its digest, context and rows."""
+
+    digest: str
+    window_seconds: int
+    checked: CheckedBatch
+
+
+def _read(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
+          format: str | None, schema_json: Mapping[str, Any] | None,
+          progress: Callable[[int], None] | None) -> _ReadBatch:
     with UnitOfWork(catalogue, write=False) as uow:
         authorise(uow, actor, "serving.record")  # before reading a row of the batch
         line = find_model(uow, model)
@@ -82,6 +130,11 @@ def _record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
                                     progress=progress, repeats_later=True)
     finally:
         digest = digesting.result()
+    return _ReadBatch(digest, context.window_seconds, checked)
+
+
+def _keep(catalogue: Catalogue, model: str, actor: Actor, read: _ReadBatch) -> dict[str, Any]:
+    digest, checked = read.digest, read.checked
     groups = sorted(checked.groups.items())
     # The compact rows of each window were encoded part by part while the batch was read.
     contents = [checked.contents[key] for key, _ in groups]
@@ -89,7 +142,7 @@ def _record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
         authorise(uow, actor, "serving.record")
         line = find_model(uow, model)
         existing = uow.serving.batch(line.id, "served", digest)
-        if existing is not None:  # a concurrent sender of the same batch got there first
+        if existing is not None:  # sent before, or a concurrent sender got there first
             return _already(line.name, digest, existing)
         versions = {v.number: v for v in uow.serving.versions(line.id)}
         windows = _describe(checked)
@@ -97,7 +150,7 @@ def _record_served(catalogue: Catalogue, model: str, path: str, actor: Actor, *,
             model_id=line.id, kind="served", digest=digest, rows=checked.rows,
             details_json=json.dumps({"task": checked.task, "windows": windows}),
             created_at=utc_now(), created_by=actor.name))
-        seconds = context.window_seconds
+        seconds = read.window_seconds
         held = {key: uow.serving.window(line.id, versions[key[0]].id, key[1], seconds)
                 for key, _ in groups}
         # The summaries merge with the windows' stored ones on a thread while the compact rows

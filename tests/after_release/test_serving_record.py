@@ -57,6 +57,38 @@ def test_a_batch_is_kept_per_version_and_window_and_sending_it_again_changes_not
     assert cli("audit", "verify").exit_code == 0
 
 
+def test_several_files_are_recorded_in_turn_each_its_own_batch(cli, tmp_path, live_and_shadow):
+    days = [shadow_day(tmp_path / f"day{n}.parquet", live_and_shadow + timedelta(days=n), 50 + n,
+                       seed=n)[0] for n in range(3)]
+    alone = cli.json("serving", "record", "m", str(days[1]))
+    together = cli.json("serving", "record", "m", *map(str, days))
+    assert [b["file"] for b in together["batches"]] == list(map(str, days))
+    assert [b["recorded"] for b in together["batches"]] == [True, False, True]
+    assert together["batches"][1]["digest"] == alone["digest"]
+    assert (together["recorded"], together["rows"]) == (2, 2 * 50 + 2 * 52)
+    report = cli.json("serving", "report", "m")
+    assert report["versions"]["1"]["rows"] == 50 + 51 + 52
+    text = cli("serving", "record", "m", *map(str, days), user="ines.okafor")
+    assert text.exit_code == 0 and text.stdout.count("already recorded") == 3
+    assert cli("audit", "verify").exit_code == 0
+
+
+def test_a_refused_file_among_several_ends_the_run_and_those_before_it_stay(
+        cli, tmp_path, live_and_shadow):
+    good, _ = shadow_day(tmp_path / "good.parquet", live_and_shadow, 40)
+    bad = _batch(tmp_path, "bad.parquet", live_and_shadow, scores=[0.1, 0.2, 1.3, 0.4])
+    after, _ = shadow_day(tmp_path / "after.parquet", live_and_shadow + timedelta(days=1), 30)
+    error = error_of(cli, "serving", "record", "m", str(good), str(bad), str(after))
+    assert f"{bad}, row 3, column score: " in error["place"]
+    assert "the 1 file before it is recorded" in error["message"]
+    report = cli.json("serving", "report", "m")
+    assert report["versions"]["1"]["rows"] == 40  # the first file only
+    first = error_of(cli, "serving", "record", "m", str(bad), str(good))
+    assert f"{bad}, row 3, column score: " in first["place"] and "before it" not in first["place"]
+    assert cli.json("serving", "report", "m")["versions"]["1"]["rows"] == 40
+    assert cli("audit", "verify").exit_code == 0
+
+
 def test_outcomes_join_whenever_they_arrive_and_unknown_rows_are_counted(
         cli, tmp_path, live_and_shadow):
     path, served = shadow_day(tmp_path / "day.parquet", live_and_shadow, 400)

@@ -71,6 +71,10 @@ def test_serving_commands_act_on_a_remote_catalogue(remote, cli, tmp_path):
     path, served = shadow_day(tmp_path / "day.parquet", now() + timedelta(milliseconds=5), 20,
                               versions=(1,))
     assert remote("publisher", "serving", "record", "m", str(path))["rows"] == 20
+    later, _ = shadow_day(tmp_path / "later.parquet", now() + timedelta(days=1), 30,
+                          versions=(1,), prefix="s")
+    both = remote("publisher", "serving", "record", "m", str(path), str(later))
+    assert [b["recorded"] for b in both["batches"]] == [False, True] and both["rows"] == 30
     outcomes = write_outcomes(tmp_path / "o.csv", served["ids"], [0, 1] * 10)
     assert remote("publisher", "serving", "outcomes", "m", str(outcomes))["joined"] == 20
-    assert remote("reader", "serving", "report", "m")["versions"]["1"]["rows"] == 20
+    assert remote("reader", "serving", "report", "m")["versions"]["1"]["rows"] == 50
