@@ -239,8 +239,9 @@ def _micros_of(array: pa.Array, value_type: ValueType, first_row: int) -> np.nda
             row = _first_failure(array, attempt) or 0
             raise ValueNotParsing(f"{array[row].as_py()!r} is not an ISO 8601 time",
                                   place=cell(first_row + row + 1, "served_at")) from None
-    values = array.to_numpy(zero_copy_only=False).astype(np.int64)
-    return values * TIME_UNITS.get(value_type.logical, 1)
+    values = array.to_numpy(zero_copy_only=False).astype(np.int64, copy=False)
+    factor = TIME_UNITS.get(value_type.logical, 1)
+    return values * factor if factor != 1 else values
 
 
 def _parse_times(array: pa.Array) -> np.ndarray:
@@ -303,10 +304,12 @@ def _check_predictions(batch: pa.RecordBatch, task: str, predicted: tuple[str, .
                        first_row: int) -> dict[str, np.ndarray]:
     scores = {}
     for name in predicted:
-        values = batch.column(name).to_numpy(zero_copy_only=False).astype(np.float64)
-        bad = ~np.isfinite(values)
-        if task != "regression":
-            bad |= (values < 0) | (values > 1)
+        values = batch.column(name).to_numpy(zero_copy_only=False).astype(np.float64,
+                                                                         copy=False)
+        if task == "regression":
+            bad = ~np.isfinite(values)
+        else:  # NaN compares false: outside [0, 1] too
+            bad = ~((values >= 0) & (values <= 1))
         if bad.any():
             row = _first(bad)
             need = "a finite number" if task == "regression" else "a probability in [0, 1]"
@@ -440,7 +443,7 @@ def _check_part(first_row: int, batch: pa.RecordBatch, record: RecordType, task:
     _check_task(task, predicted, numbers, context)
     scores = _check_predictions(batch, task, predicted, first_row)
     hashes = hash_row_ids(batch.column("row_id"))
-    starts = window_starts(micros, context.window_seconds)
+    starts = _window_starts(micros, context.window_seconds)
     seen: dict[int, list[tuple[np.ndarray, int, np.ndarray | None]]] = {}
     for number in numbers:
         if len(numbers) == 1:
@@ -462,9 +465,21 @@ def _read_ahead(batches):
     return read_ahead(batches)
 
 
+def _window_starts(micros: np.ndarray, seconds: int) -> np.ndarray:
+    """Each row's window start, or (as a batch mostly lies in one window) that one start alone
+    when its first and last times share a window: a window of rows served in order."""
+    if len(micros):
+        first, last = window_starts(np.array([micros.min(), micros.max()]), seconds)
+        if first == last:
+            return np.array([first])
+    return window_starts(micros, seconds)
+
+
 def _add_groups(groups, batch, record, task, inputs, context, versions, starts, micros, hashes,
                 scores, numbers) -> None:
     window_list = distinct(starts)
+    if len(starts) == 1 and len(micros) != 1:
+        starts = np.broadcast_to(starts, micros.shape)  # one window: its start for every row
     for number in numbers:
         facts = context.versions[number]
         own_inputs = [n for n in inputs if n in facts.input_record.names]

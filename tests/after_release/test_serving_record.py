@@ -57,6 +57,26 @@ def test_a_batch_is_kept_per_version_and_window_and_sending_it_again_changes_not
     assert cli("audit", "verify").exit_code == 0
 
 
+@pytest.mark.parametrize("order", ["in time order", "shuffled"])
+def test_a_batch_across_windows_is_kept_in_each_window_it_touches(cli, tmp_path, live_and_shadow,
+                                                                  order):
+    """A window is a UTC day by default: rows either side of midnight go to two windows, also
+    when the rows are not sent in time order; a batch in one window is the common case."""
+    midnight = (live_and_shadow + timedelta(days=2)).replace(hour=0, minute=0, second=0,
+                                                             microsecond=0)
+    times = [midnight - timedelta(hours=2) + timedelta(minutes=10 * i) for i in range(30)]
+    if order == "shuffled":
+        times = [times[i] for i in np.random.default_rng(4).permutation(30)]
+    before = sum(t < midnight for t in times)
+    path = write_served(tmp_path / "b.parquet", served_table(
+        [f"r{i}" for i in range(30)], times, [1] * 30, np.linspace(0, 1, 30)))
+    recorded = cli.json("serving", "record", "m", str(path))
+    assert [(w["window"][:10], w["rows"]) for w in recorded["windows"]] == [
+        ((midnight - timedelta(days=1)).strftime("%Y-%m-%d"), before),
+        (midnight.strftime("%Y-%m-%d"), 30 - before)]
+    assert before == 12
+
+
 def test_several_files_are_recorded_in_turn_each_its_own_batch(cli, tmp_path, live_and_shadow):
     days = [shadow_day(tmp_path / f"day{n}.parquet", live_and_shadow + timedelta(days=n), 50 + n,
                        seed=n)[0] for n in range(3)]
