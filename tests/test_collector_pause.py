@@ -61,11 +61,20 @@ def test_recording_runs_with_the_collector_paused(monkeypatch):
 
     states = []
 
-    def record(*_arguments, **_options):
-        states.append(gc.isenabled())
-        return {"recorded": True}
+    def read(*_arguments, **_options):
+        states.append(("read", gc.isenabled()))
+        return "checked"
 
-    monkeypatch.setattr(serving, "_record_served", record)
+    def keep(_catalogue, _model, _actor, checked):
+        states.append(("keep", gc.isenabled()))
+        return {"recorded": checked == "checked"}
+
+    monkeypatch.setattr(serving, "_read", read)
+    monkeypatch.setattr(serving, "_keep", keep)
     gc.enable()
     assert serving.record_served(Mock(), "m", "batch.parquet", Mock()) == {"recorded": True}
-    assert states == [False] and gc.isenabled()
+    assert states == [("read", False), ("keep", False)] and gc.isenabled()
+    states.clear()
+    answers = list(serving.record_served_batches(Mock(), "m", ["a.parquet", "b.parquet"], Mock()))
+    assert answers == [{"recorded": True}] * 2
+    assert states and all(not enabled for _, enabled in states) and gc.isenabled()

@@ -106,7 +106,7 @@ def record_served_batches(catalogue: Catalogue, model: str, paths: Sequence[str]
 
 @dataclass(frozen=True)
 class _ReadBatch:
-    """A served batch read and checked, not yet kept: its digest, context and rows."""
+    """A served batch read and checked, not yet kept: its digest, window length and rows."""
 
     digest: str
     window_seconds: int
