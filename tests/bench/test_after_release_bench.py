@@ -178,11 +178,15 @@ def test_recording_ten_million_rows_within_three_times_read_table(batches):
         reference += best
     one_at_a_time, _ = _timed(_record_one_at_a_time,
                               catalogue_with_live_version(folder / "one-at-a-time"), folder, paths)
-    ours, grown = _timed(_record, url, folder, paths)
+    # Ours at its best of two runs, each into a catalogue of its own (a batch sent again would
+    # change nothing), as the reference is at its best of three: these machines are noisy.
+    first, grown = _timed(_record, url, folder, paths)
+    second, _ = _timed(_record, catalogue_with_live_version(folder / "second"), folder, paths)
+    ours = min(first, second)
     rows = BATCHES * BATCH_ROWS
     print(f"\nrecording {rows:,} served rows (8 inputs) in {BATCHES} Parquet batches: "
-          f"{ours:.2f}s; pyarrow read_table of the same files {reference:.2f}s; "
-          f"ratio {ours / reference:.2f} (limit 3)")
+          f"{ours:.2f}s (runs {first:.2f}s, {second:.2f}s); pyarrow read_table of the same "
+          f"files {reference:.2f}s; ratio {ours / reference:.2f} (limit 3)")
     print(f"the same batches one call each (no file read while another is written): "
           f"{one_at_a_time:.2f}s, ratio {one_at_a_time / reference:.2f}")
     print(f"the first batch this process recorded (its memory pools not grown yet): {cold:.2f}s")
