@@ -313,7 +313,7 @@ def _check_predictions(batch: pa.RecordBatch, task: str, predicted: tuple[str, .
         if bad.any():
             row = _first(bad)
             need = "a finite number" if task == "regression" else "a probability in [0, 1]"
-            raise ValueNotParsing(f"{values[row]!r} is not {need} ({task} task)",
+            raise ValueNotParsing(f"{float(values[row])!r} is not {need} ({task} task)",
                                   place=cell(first_row + row + 1, name))
         scores[name] = values
     return scores

@@ -188,7 +188,7 @@ def test_rows_served_before_the_version_held_any_stage_are_refused(cli, tmp_path
 def test_a_binary_prediction_outside_zero_to_one_is_refused(cli, tmp_path, live_and_shadow):
     path = _batch(tmp_path, "b.parquet", live_and_shadow, scores=[0.1, 0.2, 1.3, 0.4])
     error = error_of(cli, "serving", "record", "m", str(path))
-    assert "row 3, column score: " in error["place"] and "[0, 1]" in error["message"]
+    assert "row 3, column score: 1.3 is not a probability in [0, 1]" in error["message"]
     _nothing_stored(cli)
 
 
