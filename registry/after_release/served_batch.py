@@ -477,9 +477,7 @@ def _window_starts(micros: np.ndarray, seconds: int) -> np.ndarray:
 
 def _add_groups(groups, batch, record, task, inputs, context, versions, starts, micros, hashes,
                 scores, numbers) -> None:
-    window_list = distinct(starts)
-    if len(starts) == 1 and len(micros) != 1:
-        starts = np.broadcast_to(starts, micros.shape)  # one window: its start for every row
+    window_list = distinct(starts)  # one start alone stands for every row (it broadcasts)
     for number in numbers:
         facts = context.versions[number]
         own_inputs = [n for n in inputs if n in facts.input_record.names]

@@ -142,9 +142,6 @@ class CatalogueClient(Protocol):
 
     # --- after release -------------------------------------------------------------------------
 
-    def record_served(self, model: str, file: str, *, schema: str | None,
-                      file_format: str | None, progress: Progress = None) -> ServedBatch: ...
-
     def record_served_batches(self, model: str, files: Sequence[str], *, schema: str | None,
                               file_format: str | None, progress: Progress = None
                               ) -> Iterator[ServedBatch]:

@@ -236,15 +236,6 @@ class LocalCatalogue:
 
     # --- after release -------------------------------------------------------------------------
 
-    def record_served(self, model: str, file: str, *, schema: str | None,
-                      file_format: str | None, progress: Progress = None) -> a.ServedBatch:
-        from registry.cli.dataset_commands import load_schema
-        from registry.service.serving import record_served
-
-        return a.ServedBatch(_plain(record_served(
-            self.catalogue, model, file, self.actor(), format=file_format,
-            schema_json=load_schema(schema), progress=progress)))
-
     def record_served_batches(self, model: str, files: Sequence[str], *, schema: str | None,
                               file_format: str | None, progress: Progress = None
                               ) -> Iterator[a.ServedBatch]:

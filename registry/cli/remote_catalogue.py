@@ -158,16 +158,12 @@ class RemoteCatalogue:
 
     # --- after release -------------------------------------------------------------------------
 
-    def record_served(self, model: str, file: str, *, schema: str | None,
-                      file_format: str | None, progress: Progress = None) -> a.ServedBatch:
-        return a.ServedBatch(self.api.record_served(model, file, schema=schema,
-                                                    file_format=file_format))
-
     def record_served_batches(self, model: str, files: Sequence[str], *, schema: str | None,
                               file_format: str | None, progress: Progress = None
                               ) -> Iterator[a.ServedBatch]:
         for file in files:  # one request a batch, in turn
-            answer = self.record_served(model, file, schema=schema, file_format=file_format)
+            answer = a.ServedBatch(self.api.record_served(model, file, schema=schema,
+                                                          file_format=file_format))
             if progress is not None:
                 progress(int(answer.document["rows"]))
             yield answer
